@@ -1,0 +1,37 @@
+// Opens a Benchlight SQLite database with the durability settings every process uses
+// (app, scripts, tests) and applies the committed migrations.
+import Database from 'better-sqlite3';
+import { drizzle, type BetterSQLite3Database } from 'drizzle-orm/better-sqlite3';
+import { migrate } from 'drizzle-orm/better-sqlite3/migrator';
+import { existsSync, mkdirSync } from 'node:fs';
+import { dirname, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import * as schema from './schema';
+
+export type Db = BetterSQLite3Database<typeof schema> & { $client: Database.Database };
+
+/** drizzle/ at the repository root, found from this file so scripts need not run from the root. */
+export function migrationsFolder(): string {
+	if (process.env.MIGRATIONS_DIR) return resolve(process.env.MIGRATIONS_DIR);
+	// In the built server this file is bundled away from src/; fall back to the working directory.
+	const here = dirname(fileURLToPath(import.meta.url));
+	const candidates = [resolve(here, '../../../../drizzle'), resolve(process.cwd(), 'drizzle')];
+	return candidates.find((c) => existsSync(c)) ?? candidates[1];
+}
+
+
+/**
+ * Open (creating if needed) and migrate. `:memory:` gives a private database for tests.
+ * WAL + synchronous=FULL: an acknowledged commit survives a power cut.
+ */
+export function openDb(url: string, options: { migrate?: boolean } = {}): Db {
+	if (url !== ':memory:') mkdirSync(dirname(resolve(url)), { recursive: true });
+	const sqlite = new Database(url);
+	sqlite.pragma('journal_mode = WAL');
+	sqlite.pragma('synchronous = FULL');
+	sqlite.pragma('busy_timeout = 5000');
+	sqlite.pragma('foreign_keys = ON');
+	const db = drizzle(sqlite, { schema }) as Db;
+	if (options.migrate !== false) migrate(db, { migrationsFolder: migrationsFolder() });
+	return db;
+}

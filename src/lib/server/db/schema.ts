@@ -1,0 +1,344 @@
+// Benchlight's SQLite schema. camelCase keys map to snake_case columns; timestamps are
+// integer milliseconds (Drizzle `timestamp_ms` → Date); money is integer cents.
+import { sql } from 'drizzle-orm';
+import {
+	sqliteTable,
+	text,
+	integer,
+	real,
+	blob,
+	index,
+	primaryKey
+} from 'drizzle-orm/sqlite-core';
+
+export const ROLES = ['technician', 'supervisor', 'admin'] as const;
+export type Role = (typeof ROLES)[number];
+
+export const UNIT_CATEGORIES = [
+	'receiver',
+	'integrated-amplifier',
+	'power-amplifier',
+	'preamplifier',
+	'tuner',
+	'turntable',
+	'tape-deck',
+	'other'
+] as const;
+export type UnitCategory = (typeof UNIT_CATEGORIES)[number];
+
+export const JOB_STATUSES = [
+	'received',
+	'diagnosing',
+	'awaiting-parts',
+	'repairing',
+	'testing',
+	'awaiting-review',
+	'approved',
+	'returned',
+	'on-hold',
+	'declined'
+] as const;
+export type JobStatus = (typeof JOB_STATUSES)[number];
+
+export const PART_STATES = ['ordered', 'received', 'fitted'] as const;
+export type PartState = (typeof PART_STATES)[number];
+
+export const SNAPSHOT_STAGES = ['before', 'after', 'other'] as const;
+export type SnapshotStage = (typeof SNAPSHOT_STAGES)[number];
+
+export const SOAK_STATUSES = ['running', 'passed', 'failed', 'aborted'] as const;
+export type SoakStatus = (typeof SOAK_STATUSES)[number];
+
+const createdAt = () =>
+	integer('created_at', { mode: 'timestamp_ms' })
+		.notNull()
+		.default(sql`(unixepoch('subsec') * 1000)`);
+const updatedAt = () =>
+	integer('updated_at', { mode: 'timestamp_ms' })
+		.notNull()
+		.default(sql`(unixepoch('subsec') * 1000)`);
+
+// ── accounts ────────────────────────────────────────────────────────────────
+
+export const users = sqliteTable('users', {
+	id: text('id').primaryKey(),
+	email: text('email').notNull().unique(),
+	name: text('name').notNull(),
+	role: text('role', { enum: ROLES }).notNull(),
+	passwordHash: text('password_hash').notNull(),
+	active: integer('active', { mode: 'boolean' }).notNull().default(true),
+	createdAt: createdAt(),
+	updatedAt: updatedAt()
+});
+
+/** Session ids are the SHA-256 (hex) of the random token held in the cookie; the token itself is never stored. */
+export const sessions = sqliteTable(
+	'sessions',
+	{
+		id: text('id').primaryKey(),
+		userId: text('user_id')
+			.notNull()
+			.references(() => users.id, { onDelete: 'cascade' }),
+		/** lucia's sliding expiry, in seconds since the epoch (the adapter's format). */
+		expiresAt: integer('expires_at').notNull(),
+		/** Start of the session, for the absolute lifetime that lucia does not enforce. */
+		createdAt: createdAt()
+	},
+	(t) => [index('sessions_user_idx').on(t.userId)]
+);
+
+// ── shop ────────────────────────────────────────────────────────────────────
+
+/** Shop-wide settings as JSON values keyed by name (bridge URL, soak default limits, mains frequency …). */
+export const settings = sqliteTable('settings', {
+	key: text('key').primaryKey(),
+	value: text('value', { mode: 'json' }).notNull(),
+	updatedAt: updatedAt()
+});
+
+export const customers = sqliteTable(
+	'customers',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		name: text('name').notNull(),
+		email: text('email'),
+		phone: text('phone'),
+		notes: text('notes'),
+		createdAt: createdAt()
+	},
+	(t) => [index('customers_name_idx').on(t.name)]
+);
+
+export const jobs = sqliteTable(
+	'jobs',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		customerId: integer('customer_id')
+			.notNull()
+			.references(() => customers.id),
+		category: text('category', { enum: UNIT_CATEGORIES }).notNull(),
+		make: text('make').notNull(),
+		model: text('model').notNull(),
+		serial: text('serial'),
+		year: integer('year'),
+		complaint: text('complaint').notNull(),
+		ratedPowerW: real('rated_power_w'),
+		ratedLoadOhms: real('rated_load_ohms'),
+		status: text('status', { enum: JOB_STATUSES }).notNull().default('received'),
+		technicianId: text('technician_id').references(() => users.id),
+		/** Calendar date promised to the customer, ISO `YYYY-MM-DD`. */
+		promisedDate: text('promised_date'),
+		createdAt: createdAt(),
+		updatedAt: updatedAt()
+	},
+	(t) => [
+		index('jobs_status_idx').on(t.status, t.updatedAt),
+		index('jobs_technician_idx').on(t.technicianId, t.updatedAt),
+		index('jobs_updated_idx').on(t.updatedAt),
+		index('jobs_customer_idx').on(t.customerId)
+	]
+);
+
+export const jobStatusHistory = sqliteTable(
+	'job_status_history',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		jobId: integer('job_id')
+			.notNull()
+			.references(() => jobs.id, { onDelete: 'cascade' }),
+		userId: text('user_id').references(() => users.id),
+		fromStatus: text('from_status', { enum: JOB_STATUSES }),
+		toStatus: text('to_status', { enum: JOB_STATUSES }).notNull(),
+		note: text('note'),
+		createdAt: createdAt()
+	},
+	(t) => [index('job_status_history_job_idx').on(t.jobId)]
+);
+
+export const workLog = sqliteTable(
+	'work_log',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		jobId: integer('job_id')
+			.notNull()
+			.references(() => jobs.id, { onDelete: 'cascade' }),
+		authorId: text('author_id')
+			.notNull()
+			.references(() => users.id),
+		text: text('text').notNull(),
+		minutes: integer('minutes').notNull().default(0),
+		createdAt: createdAt()
+	},
+	(t) => [index('work_log_job_idx').on(t.jobId)]
+);
+
+export const parts = sqliteTable(
+	'parts',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		jobId: integer('job_id')
+			.notNull()
+			.references(() => jobs.id, { onDelete: 'cascade' }),
+		/** Reference designator on the schematic: C12, Q3, R105 … */
+		refDes: text('ref_des').notNull(),
+		description: text('description').notNull(),
+		/** Value or rating as printed: "4700 µF 63 V", "0.22 Ω 5 W". */
+		value: text('value'),
+		quantity: integer('quantity').notNull().default(1),
+		unitCostCents: integer('unit_cost_cents').notNull().default(0),
+		supplier: text('supplier'),
+		state: text('state', { enum: PART_STATES }).notNull().default('ordered'),
+		/** How the part was checked against counterfeits (markings, weight, hFE …). */
+		verificationNote: text('verification_note'),
+		createdAt: createdAt(),
+		updatedAt: updatedAt()
+	},
+	(t) => [index('parts_job_idx').on(t.jobId)]
+);
+
+// ── measurement ─────────────────────────────────────────────────────────────
+
+/**
+ * A named set of pass/fail limits and the conditions they assume.
+ * `conditions` and `limits` are validated by the zod schemas in $lib/limits.
+ */
+export const limitProfiles = sqliteTable('limit_profiles', {
+	id: integer('id').primaryKey({ autoIncrement: true }),
+	name: text('name').notNull().unique(),
+	description: text('description'),
+	conditions: text('conditions', { mode: 'json' }).notNull(),
+	limits: text('limits', { mode: 'json' }).notNull(),
+	/** Profiles referenced by snapshots are archived, never deleted. */
+	archived: integer('archived', { mode: 'boolean' }).notNull().default(false),
+	createdBy: text('created_by').references(() => users.id),
+	createdAt: createdAt(),
+	updatedAt: updatedAt()
+});
+
+/**
+ * A captured measurement. Immutable once written: triggers in the migrations refuse
+ * UPDATE and DELETE on this table and on snapshot_audio.
+ */
+export const snapshots = sqliteTable(
+	'snapshots',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		jobId: integer('job_id')
+			.notNull()
+			.references(() => jobs.id),
+		createdBy: text('created_by')
+			.notNull()
+			.references(() => users.id),
+		label: text('label').notNull(),
+		stage: text('stage', { enum: SNAPSHOT_STAGES }).notNull(),
+		profileId: integer('profile_id').references(() => limitProfiles.id),
+		/** The profile as it was when the snapshot was taken (name, conditions, limits). */
+		profile: text('profile', { mode: 'json' }),
+		sampleRateHz: integer('sample_rate_hz').notNull(),
+		channelCount: integer('channel_count').notNull(),
+		sampleCount: integer('sample_count').notNull(),
+		fullScaleVolts: real('full_scale_volts').notNull(),
+		loadOhms: real('load_ohms'),
+		/** Server-computed analysis results with every condition (the CLI's JSON shape and more). */
+		results: text('results', { mode: 'json' }).notNull(),
+		verdict: text('verdict', { enum: ['pass', 'fail', 'none'] }).notNull(),
+		checks: text('checks', { mode: 'json' }).notNull(),
+		/** Log-spaced compact spectrum for plots: { frequencyHz: number[], channels: number[][] } in dBV. */
+		spectrum: text('spectrum', { mode: 'json' }).notNull(),
+		/** Generator, simulator and analysis settings the browser reported (informational). */
+		settings: text('settings', { mode: 'json' }),
+		createdAt: createdAt()
+	},
+	(t) => [index('snapshots_job_idx').on(t.jobId)]
+);
+
+/** The raw WAV each snapshot was computed from, kept so it can be re-analysed later. */
+export const snapshotAudio = sqliteTable('snapshot_audio', {
+	snapshotId: integer('snapshot_id')
+		.primaryKey()
+		.references(() => snapshots.id),
+	sha256: text('sha256').notNull(),
+	wav: blob('wav', { mode: 'buffer' }).notNull()
+});
+
+// ── heat soak ───────────────────────────────────────────────────────────────
+
+export const soakRuns = sqliteTable(
+	'soak_runs',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		jobId: integer('job_id')
+			.notNull()
+			.references(() => jobs.id),
+		createdBy: text('created_by')
+			.notNull()
+			.references(() => users.id),
+		/** 'eighth-power-60' | 'third-power-60' | 'custom' */
+		preset: text('preset').notNull(),
+		frequencyHz: real('frequency_hz').notNull(),
+		loadOhms: real('load_ohms').notNull(),
+		drivePowerW: real('drive_power_w').notNull(),
+		driveVrms: real('drive_vrms').notNull(),
+		durationS: integer('duration_s').notNull(),
+		channels: text('channels', { mode: 'json' }).notNull(),
+		limits: text('limits', { mode: 'json' }).notNull(),
+		probes: text('probes', { mode: 'json' }).notNull(),
+		status: text('status', { enum: SOAK_STATUSES }).notNull().default('running'),
+		startedAt: integer('started_at', { mode: 'timestamp_ms' }).notNull(),
+		endedAt: integer('ended_at', { mode: 'timestamp_ms' }),
+		abortReason: text('abort_reason'),
+		summary: text('summary', { mode: 'json' }),
+		createdAt: createdAt()
+	},
+	(t) => [index('soak_runs_job_idx').on(t.jobId)]
+);
+
+/** One temperature reading; the primary key makes a repeated upload harmless. */
+export const soakReadings = sqliteTable(
+	'soak_readings',
+	{
+		runId: integer('run_id')
+			.notNull()
+			.references(() => soakRuns.id, { onDelete: 'cascade' }),
+		probe: text('probe').notNull(),
+		/** The bridge's temperature sequence number (monotone across bridge restarts). */
+		seq: integer('seq').notNull(),
+		/** Bridge wall-clock time of the reading, ms since the epoch. */
+		t: integer('t').notNull(),
+		celsius: real('celsius').notNull(),
+		/** The bridge's boot id, so a restart shows as a gap. */
+		bootId: text('boot_id'),
+		receivedAt: createdAt()
+	},
+	(t) => [primaryKey({ columns: [t.runId, t.probe, t.seq] }), index('soak_readings_run_seq_idx').on(t.runId, t.seq)]
+);
+
+/** Things that happened during a run: gaps, breaches, alarms, THD+N samples, notes. */
+export const soakEvents = sqliteTable(
+	'soak_events',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		runId: integer('run_id')
+			.notNull()
+			.references(() => soakRuns.id, { onDelete: 'cascade' }),
+		kind: text('kind').notNull(),
+		at: integer('at', { mode: 'timestamp_ms' }).notNull(),
+		detail: text('detail', { mode: 'json' }),
+		createdAt: createdAt()
+	},
+	(t) => [index('soak_events_run_idx').on(t.runId)]
+);
+
+export type User = typeof users.$inferSelect;
+export type Session = typeof sessions.$inferSelect;
+export type Customer = typeof customers.$inferSelect;
+export type Job = typeof jobs.$inferSelect;
+export type JobStatusHistory = typeof jobStatusHistory.$inferSelect;
+export type WorkLogEntry = typeof workLog.$inferSelect;
+export type Part = typeof parts.$inferSelect;
+export type Setting = typeof settings.$inferSelect;
+export type LimitProfile = typeof limitProfiles.$inferSelect;
+export type Snapshot = typeof snapshots.$inferSelect;
+export type SoakRun = typeof soakRuns.$inferSelect;
+export type SoakReading = typeof soakReadings.$inferSelect;
+export type SoakEvent = typeof soakEvents.$inferSelect;

@@ -1,0 +1,32 @@
+// The one place that reads environment variables; everything else imports `env`.
+import { z } from 'zod';
+
+const schema = z.object({
+	NODE_ENV: z.string().default('development'),
+	DATABASE_URL: z.string().min(1).default('data/benchlight.db'),
+	ORIGIN: z.string().url().optional(),
+	PORT: z.coerce.number().int().min(1).max(65535).default(3000),
+	BRIDGE_SECRET: z.string().min(32, 'BRIDGE_SECRET must be at least 32 characters').optional(),
+	BRIDGE_URL: z.string().default('ws://127.0.0.1:8787'),
+	SMTP_HOST: z.string().default('127.0.0.1'),
+	SMTP_PORT: z.coerce.number().int().default(2525),
+	MAIL_FROM: z.string().default('Benchlight <bench@example.com>'),
+	SESSION_IDLE_MINUTES: z.coerce.number().int().min(1).default(60 * 8),
+	SESSION_ABSOLUTE_HOURS: z.coerce.number().int().min(1).default(24 * 7)
+});
+
+const parsed = schema.safeParse(process.env);
+if (!parsed.success) {
+	const lines = parsed.error.issues.map((i) => `  ${i.path.join('.')}: ${i.message}`).join('\n');
+	throw new Error(`Benchlight cannot start: bad environment\n${lines}`);
+}
+
+export const env = parsed.data;
+
+/** The bridge secret is required wherever tokens are minted; fail loudly when it is missing. */
+export function requireBridgeSecret(): string {
+	if (!env.BRIDGE_SECRET) {
+		throw new Error('BRIDGE_SECRET is not set (npm start writes one into .env); the bridge token cannot be signed');
+	}
+	return env.BRIDGE_SECRET;
+}
