@@ -1,0 +1,137 @@
+import { describe, expect, it } from 'vitest';
+import {
+	conditionsSchema,
+	describeLimit,
+	evaluateLimits,
+	limitSchema,
+	profileInputSchema,
+	stereoFigures,
+	verdictOf,
+	type Limit
+} from './limits';
+
+const lim = (l: Partial<Limit> & Pick<Limit, 'metric' | 'op' | 'value' | 'unit'>): Limit =>
+	limitSchema.parse({ channel: 'each', ...l });
+
+describe('evaluateLimits', () => {
+	const measured = {
+		channels: [
+			{ thdnPercent: 0.02, levelVrms: 6.4, noiseVrms: 120e-6, powerW: 6.4 ** 2 / 8 },
+			{ thdnPercent: 0.3, levelVrms: 6.1, noiseVrms: 800e-6, powerW: 6.1 ** 2 / 8 }
+		],
+		stereo: stereoFigures({ levelDbv: 16.12 }, { levelDbv: 15.70 })
+	};
+
+	it('expands "each" into one check per channel and fails only the bad one', () => {
+		const checks = evaluateLimits([lim({ metric: 'thdnPercent', op: 'le', value: 0.1, unit: '%' })], measured);
+		expect(checks.map((c) => [c.channel, c.pass])).toEqual([
+			['left', true],
+			['right', false]
+		]);
+		expect(checks[1].measured).toBeCloseTo(0.3, 12);
+		expect(verdictOf(checks)).toBe('fail');
+	});
+
+	it('converts the entered unit: 500 µV passes 120 µV, fails 800 µV, and reports in µV', () => {
+		const checks = evaluateLimits([lim({ metric: 'noiseVrms', op: 'le', value: 500, unit: 'µV' })], measured);
+		expect(checks[0].measured).toBeCloseTo(120, 9);
+		expect(checks[1].measured).toBeCloseTo(800, 9);
+		expect(checks.map((c) => c.pass)).toEqual([true, false]);
+	});
+
+	it('P = V²/R: 6.4 V into 8 Ω is 5.12 W, passing ≥ 5 W; 6.1 V is 4.65 W, failing', () => {
+		// P = V_rms²/R (REFERENCES.md §5: 20 V into 8 Ω = 50 W)
+		const checks = evaluateLimits([lim({ metric: 'powerW', op: 'ge', value: 5, unit: 'W' })], measured);
+		expect(checks[0].measured).toBeCloseTo(5.12, 9);
+		expect(checks[1].measured).toBeCloseTo(4.65125, 9);
+		expect(checks.map((c) => c.pass)).toEqual([true, false]);
+	});
+
+	it('picks one channel when asked and treats ≥ and ≤ at the boundary as passing', () => {
+		const checks = evaluateLimits(
+			[
+				lim({ metric: 'levelVrms', channel: 'right', op: 'ge', value: 6100, unit: 'mV' }),
+				lim({ metric: 'levelVrms', channel: 'left', op: 'le', value: 6.4, unit: 'V' })
+			],
+			measured
+		);
+		expect(checks.map((c) => [c.channel, c.pass])).toEqual([
+			['right', true],
+			['left', true]
+		]);
+		expect(verdictOf(checks)).toBe('pass');
+	});
+
+	it('balance is |L − R| in dB', () => {
+		const checks = evaluateLimits([lim({ metric: 'balanceDb', op: 'le', value: 0.5, unit: 'dB' })], measured);
+		expect(checks).toHaveLength(1);
+		expect(checks[0].channel).toBeNull();
+		expect(checks[0].measured).toBeCloseTo(0.42, 9);
+		expect(checks[0].pass).toBe(true);
+		const tighter = evaluateLimits([lim({ metric: 'balanceDb', op: 'le', value: 0.4, unit: 'dB' })], measured);
+		expect(tighter[0].pass).toBe(false);
+	});
+
+	it('a figure that was not measured fails, with a reason', () => {
+		const mono = { channels: [{ thdnPercent: 0.01 }], stereo: stereoFigures({ levelDbv: 0 }, undefined) };
+		const checks = evaluateLimits(
+			[
+				lim({ metric: 'thdnPercent', channel: 'right', op: 'le', value: 1, unit: '%' }),
+				lim({ metric: 'balanceDb', op: 'le', value: 1, unit: 'dB' }),
+				lim({ metric: 'snrDb', op: 'ge', value: 60, unit: 'dB' }),
+				lim({ metric: 'thdnPercent', op: 'le', value: 1, unit: '%' })
+			],
+			mono
+		);
+		expect(checks.map((c) => [c.channel, c.pass, c.note ?? null])).toEqual([
+			['right', false, 'right channel not captured'],
+			[null, false, 'needs both channels'],
+			['left', false, 'not measured'],
+			['left', true, null]
+		]);
+	});
+
+	it('NaN is not a pass', () => {
+		const checks = evaluateLimits([lim({ metric: 'snrDb', op: 'ge', value: 60, unit: 'dB' })], {
+			channels: [{ snrDb: Number.NaN }],
+			stereo: {}
+		});
+		expect(checks[0].pass).toBe(false);
+		expect(checks[0].measured).toBeNull();
+	});
+
+	it('a THD limit in ppm compares against percent: 100 ppm = 0.01 %', () => {
+		const checks = evaluateLimits([lim({ metric: 'thdPercent', op: 'le', value: 100, unit: 'ppm' })], {
+			channels: [{ thdPercent: 0.009 }, { thdPercent: 0.011 }],
+			stereo: {}
+		});
+		expect(checks[0].measured).toBeCloseTo(90, 9);
+		expect(checks.map((c) => c.pass)).toEqual([true, false]);
+	});
+
+	it('no checks means no verdict', () => {
+		expect(verdictOf([])).toBe('none');
+	});
+});
+
+describe('schemas', () => {
+	it('refuses a unit that does not fit the metric', () => {
+		const r = limitSchema.safeParse({ metric: 'thdPercent', op: 'le', value: 1, unit: 'V' });
+		expect(r.success).toBe(false);
+		if (!r.success) expect(r.error.issues[0].path).toEqual(['unit']);
+	});
+	it('refuses an inverted band and fills defaults', () => {
+		expect(conditionsSchema.safeParse({ bandLowHz: 20_000, bandHighHz: 20 }).success).toBe(false);
+		expect(conditionsSchema.parse({})).toEqual({ bandLowHz: 20, bandHighHz: 20_000, weighting: 'none' });
+	});
+	it('needs a name and at least one limit', () => {
+		const r = profileInputSchema.safeParse({ name: ' ', conditions: {}, limits: [] });
+		expect(r.success).toBe(false);
+		if (!r.success) expect(r.error.issues.map((i) => i.path[0]).sort()).toEqual(['limits', 'name']);
+	});
+	it('describes a limit in words', () => {
+		expect(describeLimit(lim({ metric: 'thdnPercent', op: 'le', value: 0.05, unit: '%' }))).toBe(
+			'THD+N (each channel) ≤ 0.05 %'
+		);
+	});
+});

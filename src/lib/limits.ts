@@ -1,0 +1,347 @@
+// Limit profiles: the zod schemas for what a supervisor defines (conditions + limits) and the
+// pure evaluation of those limits against measured figures. Shared by the server (verdicts on
+// stored snapshots) and the bench page (live pass/fail), so both judge the same way.
+import { z } from 'zod';
+
+// ── metrics and units ───────────────────────────────────────────────────────
+
+/** How a metric's value is entered; each unit converts to the metric's base unit by `factor`. */
+export const UNITS = {
+	V: { label: 'V', factor: 1 },
+	mV: { label: 'mV', factor: 1e-3 },
+	µV: { label: 'µV', factor: 1e-6 },
+	W: { label: 'W', factor: 1 },
+	mW: { label: 'mW', factor: 1e-3 },
+	dB: { label: 'dB', factor: 1 },
+	dBV: { label: 'dBV', factor: 1 },
+	'%': { label: '%', factor: 1 },
+	ppm: { label: 'ppm', factor: 1e-4 },
+	Hz: { label: 'Hz', factor: 1 },
+	kHz: { label: 'kHz', factor: 1e3 }
+} as const;
+export type Unit = keyof typeof UNITS;
+export const UNIT_KEYS = Object.keys(UNITS) as [Unit, ...Unit[]];
+
+export interface MetricInfo {
+	label: string;
+	/** 'channel': one value per channel; 'stereo': one value comparing the two channels. */
+	scope: 'channel' | 'stereo';
+	/** The unit values are stored in and compared in. */
+	baseUnit: Unit;
+	/** Units a limit may be entered in (the first is the default). */
+	units: readonly Unit[];
+	/** One line for the profile editor: what exactly is measured. */
+	help: string;
+}
+
+export const METRICS = {
+	levelVrms: {
+		label: 'Level',
+		scope: 'channel',
+		baseUnit: 'V',
+		units: ['V', 'mV'],
+		help: 'Output level, V rms, in the measurement band'
+	},
+	levelDbv: {
+		label: 'Level (dBV)',
+		scope: 'channel',
+		baseUnit: 'dBV',
+		units: ['dBV'],
+		help: 'Output level in dB re 1 V rms'
+	},
+	powerW: {
+		label: 'Power into load',
+		scope: 'channel',
+		baseUnit: 'W',
+		units: ['W', 'mW'],
+		help: 'V rms² / load, with the load the snapshot states'
+	},
+	gainDb: {
+		label: 'Gain',
+		scope: 'channel',
+		baseUnit: 'dB',
+		units: ['dB'],
+		help: 'Output level against the generator level'
+	},
+	thdPercent: {
+		label: 'THD',
+		scope: 'channel',
+		baseUnit: '%',
+		units: ['%', 'ppm'],
+		help: 'Harmonics 2–10 in band, relative to the fundamental'
+	},
+	thdDb: { label: 'THD (dB)', scope: 'channel', baseUnit: 'dB', units: ['dB'], help: 'THD in dB re fundamental' },
+	thdnPercent: {
+		label: 'THD+N',
+		scope: 'channel',
+		baseUnit: '%',
+		units: ['%', 'ppm'],
+		help: 'Residual after removing the fundamental, band-limited, relative to the total'
+	},
+	thdnDb: { label: 'THD+N (dB)', scope: 'channel', baseUnit: 'dB', units: ['dB'], help: 'THD+N in dB' },
+	snrDb: {
+		label: 'SNR',
+		scope: 'channel',
+		baseUnit: 'dB',
+		units: ['dB'],
+		help: 'Signal against noise (harmonics excluded), with the profile weighting'
+	},
+	noiseVrms: {
+		label: 'Noise',
+		scope: 'channel',
+		baseUnit: 'V',
+		units: ['µV', 'mV', 'V'],
+		help: 'Noise rms in band (harmonics excluded)'
+	},
+	frequencyHz: {
+		label: 'Frequency',
+		scope: 'channel',
+		baseUnit: 'Hz',
+		units: ['Hz', 'kHz'],
+		help: 'Frequency of the fundamental'
+	},
+	levelSpreadDb: {
+		label: 'Steadiness: level spread',
+		scope: 'channel',
+		baseUnit: 'dB',
+		units: ['dB'],
+		help: 'Max − min level over the last few seconds'
+	},
+	thdnSpreadDb: {
+		label: 'Steadiness: THD+N spread',
+		scope: 'channel',
+		baseUnit: 'dB',
+		units: ['dB'],
+		help: 'Max − min THD+N (dB) over the last few seconds'
+	},
+	balanceDb: {
+		label: 'Channel balance',
+		scope: 'stereo',
+		baseUnit: 'dB',
+		units: ['dB'],
+		help: 'Level difference between channels, |L − R|'
+	},
+	crosstalkDb: {
+		label: 'Crosstalk',
+		scope: 'stereo',
+		baseUnit: 'dB',
+		units: ['dB'],
+		help: 'Undriven channel at the driven frequency, re the driven channel (negative)'
+	}
+} as const satisfies Record<string, MetricInfo>;
+
+export type Metric = keyof typeof METRICS;
+export const METRIC_KEYS = Object.keys(METRICS) as [Metric, ...Metric[]];
+export type ChannelMetric = { [K in Metric]: (typeof METRICS)[K]['scope'] extends 'channel' ? K : never }[Metric];
+export type StereoMetric = Exclude<Metric, ChannelMetric>;
+export const CHANNEL_METRICS = METRIC_KEYS.filter((m) => METRICS[m].scope === 'channel') as ChannelMetric[];
+export const STEREO_METRICS = METRIC_KEYS.filter((m) => METRICS[m].scope === 'stereo') as StereoMetric[];
+
+export const LIMIT_CHANNELS = ['left', 'right', 'each'] as const;
+export type LimitChannel = (typeof LIMIT_CHANNELS)[number];
+export const LIMIT_OPS = ['le', 'ge'] as const;
+export type LimitOp = (typeof LIMIT_OPS)[number];
+export const OP_SYMBOLS: Record<LimitOp, string> = { le: '≤', ge: '≥' };
+
+export const WEIGHTINGS = ['none', 'A', 'C'] as const;
+export type Weighting = (typeof WEIGHTINGS)[number];
+
+// ── schemas ─────────────────────────────────────────────────────────────────
+
+const finite = z.number().finite();
+
+/** The measuring conditions a profile assumes; the bench can apply them in one click. */
+export const conditionsSchema = z
+	.object({
+		generatorFrequencyHz: finite.min(1).max(100_000).optional(),
+		generatorLevelVrms: finite.positive().max(100).optional(),
+		loadOhms: finite.positive().max(100_000).optional(),
+		bandLowHz: finite.min(0).max(100_000).default(20),
+		bandHighHz: finite.min(1).max(200_000).default(20_000),
+		weighting: z.enum(WEIGHTINGS).default('none'),
+		/** Free text: which input, control positions, warm-up … */
+		notes: z.string().trim().max(500).optional()
+	})
+	.refine((c) => c.bandHighHz > c.bandLowHz, {
+		message: 'The band’s upper edge must be above its lower edge',
+		path: ['bandHighHz']
+	});
+export type LimitConditions = z.infer<typeof conditionsSchema>;
+
+export const limitSchema = z
+	.object({
+		metric: z.enum(METRIC_KEYS),
+		channel: z.enum(LIMIT_CHANNELS).default('each'),
+		op: z.enum(LIMIT_OPS),
+		value: finite,
+		unit: z.enum(UNIT_KEYS)
+	})
+	.refine((l) => (METRICS[l.metric].units as readonly Unit[]).includes(l.unit), {
+		message: 'This unit does not fit the metric',
+		path: ['unit']
+	});
+export type Limit = z.infer<typeof limitSchema>;
+
+export const profileInputSchema = z.object({
+	name: z.string().trim().min(1, 'Give the profile a name').max(120),
+	description: z.string().trim().max(1000).nullish(),
+	conditions: conditionsSchema,
+	limits: z.array(limitSchema).min(1, 'Add at least one limit').max(64)
+});
+export type ProfileInput = z.infer<typeof profileInputSchema>;
+
+export const profilePatchSchema = z
+	.object({
+		name: profileInputSchema.shape.name.optional(),
+		description: profileInputSchema.shape.description,
+		conditions: conditionsSchema.optional(),
+		limits: profileInputSchema.shape.limits.optional(),
+		archived: z.boolean().optional()
+	})
+	.refine((p) => Object.keys(p).length > 0, { message: 'Nothing to change' });
+export type ProfilePatch = z.infer<typeof profilePatchSchema>;
+
+/** A profile as the API and the bench see it. */
+export interface LimitProfileView {
+	id: number;
+	name: string;
+	description: string | null;
+	conditions: LimitConditions;
+	limits: Limit[];
+	archived: boolean;
+}
+
+// ── evaluation ──────────────────────────────────────────────────────────────
+
+/** The figures a limit can be checked against. Missing or non-finite values fail their checks. */
+export interface Measurements {
+	/** Index 0 = left, 1 = right; a mono capture has one entry. */
+	channels: Partial<Record<ChannelMetric, number | null>>[];
+	stereo: Partial<Record<StereoMetric, number | null>>;
+}
+
+export interface Check {
+	/** Position of the limit in the profile. */
+	index: number;
+	metric: Metric;
+	label: string;
+	channel: 'left' | 'right' | null;
+	op: LimitOp;
+	/** The limit as entered. */
+	value: number;
+	unit: Unit;
+	/** Measured value in the entered unit, null when it could not be measured. */
+	measured: number | null;
+	pass: boolean;
+	/** Why a check failed without a number ("right channel not captured"). */
+	note?: string;
+}
+
+export type Verdict = 'pass' | 'fail' | 'none';
+
+export function toBaseUnit(value: number, unit: Unit): number {
+	return value * UNITS[unit].factor;
+}
+export function fromBaseUnit(value: number, unit: Unit): number {
+	return value / UNITS[unit].factor;
+}
+
+const CHANNEL_NAMES = ['left', 'right'] as const;
+
+function compare(measuredBase: number, op: LimitOp, limitBase: number): boolean {
+	// A relative tolerance so a value entered as 0.1 % passes a measurement of exactly 0.1 %
+	// despite float noise in unit conversion.
+	const eps = 1e-9 * Math.max(1, Math.abs(limitBase));
+	return op === 'le' ? measuredBase <= limitBase + eps : measuredBase >= limitBase - eps;
+}
+
+function checkOne(
+	index: number,
+	limit: Limit,
+	channel: 'left' | 'right' | null,
+	measuredBase: number | null | undefined,
+	missingNote: string
+): Check {
+	const ok = typeof measuredBase === 'number' && Number.isFinite(measuredBase);
+	const measured = ok ? fromBaseUnit(measuredBase, limit.unit) : null;
+	return {
+		index,
+		metric: limit.metric,
+		label: METRICS[limit.metric].label,
+		channel,
+		op: limit.op,
+		value: limit.value,
+		unit: limit.unit,
+		measured,
+		pass: ok && compare(measuredBase, limit.op, toBaseUnit(limit.value, limit.unit)),
+		...(ok ? {} : { note: missingNote })
+	};
+}
+
+/** Check every limit; 'each' expands to one check per captured channel (at least the left). */
+export function evaluateLimits(limits: readonly Limit[], m: Measurements): Check[] {
+	const checks: Check[] = [];
+	limits.forEach((limit, index) => {
+		const info = METRICS[limit.metric];
+		if (info.scope === 'stereo') {
+			const v = m.stereo[limit.metric as StereoMetric];
+			checks.push(checkOne(index, limit, null, v, m.channels.length < 2 ? 'needs both channels' : 'not measured'));
+			return;
+		}
+		const metric = limit.metric as ChannelMetric;
+		const wanted: (0 | 1)[] =
+			limit.channel === 'left' ? [0] : limit.channel === 'right' ? [1] : m.channels.length >= 2 ? [0, 1] : [0];
+		for (const ch of wanted) {
+			const row = m.channels[ch];
+			const note = row ? 'not measured' : `${CHANNEL_NAMES[ch]} channel not captured`;
+			checks.push(checkOne(index, limit, CHANNEL_NAMES[ch], row?.[metric], note));
+		}
+	});
+	return checks;
+}
+
+export function verdictOf(checks: readonly Check[]): Verdict {
+	if (checks.length === 0) return 'none';
+	return checks.every((c) => c.pass) ? 'pass' : 'fail';
+}
+
+/** The stereo figures from two channels' levels (balance) and, when one channel is driven, crosstalk. */
+export function stereoFigures(
+	left: { levelDbv?: number | null } | undefined,
+	right: { levelDbv?: number | null } | undefined,
+	crosstalkDb?: number | null
+): Measurements['stereo'] {
+	const l = left?.levelDbv;
+	const r = right?.levelDbv;
+	const balanceDb =
+		typeof l === 'number' && typeof r === 'number' && Number.isFinite(l) && Number.isFinite(r) ? Math.abs(l - r) : null;
+	return { balanceDb, crosstalkDb: crosstalkDb ?? null };
+}
+
+/** A limit as one line of text: "THD+N each ≤ 0.1 %". */
+export function describeLimit(limit: Limit): string {
+	const info = METRICS[limit.metric];
+	const where = info.scope === 'stereo' ? '' : limit.channel === 'each' ? ' (each channel)' : ` (${limit.channel})`;
+	return `${info.label}${where} ${OP_SYMBOLS[limit.op]} ${formatLimitValue(limit.value)} ${UNITS[limit.unit].label}`;
+}
+
+/** Conditions as one line: "1 kHz, 0.5 V, 8 Ω, 20 Hz–20 kHz, unweighted". */
+export function describeConditions(c: LimitConditions): string {
+	const parts: string[] = [];
+	if (c.generatorFrequencyHz !== undefined) parts.push(`generator ${formatHz(c.generatorFrequencyHz)}`);
+	if (c.generatorLevelVrms !== undefined) parts.push(`${formatLimitValue(c.generatorLevelVrms)} V rms`);
+	if (c.loadOhms !== undefined) parts.push(`${formatLimitValue(c.loadOhms)} Ω load`);
+	parts.push(`${formatHz(c.bandLowHz)}–${formatHz(c.bandHighHz)}`);
+	parts.push(c.weighting === 'none' ? 'unweighted' : `${c.weighting}-weighted`);
+	return parts.join(', ');
+}
+
+export function formatHz(hz: number): string {
+	return hz >= 1000 ? `${formatLimitValue(hz / 1000)} kHz` : `${formatLimitValue(hz)} Hz`;
+}
+
+/** Up to 4 significant digits without trailing zeros. */
+export function formatLimitValue(v: number): string {
+	if (!Number.isFinite(v)) return '—';
+	return String(Number(v.toPrecision(4)));
+}

@@ -1,0 +1,140 @@
+// Heat-soak presets and the drive they imply: a fraction of the job's rated power (per channel)
+// into its rated load, turned into the rms voltage the output must reach (P = V²/R).
+import { z } from 'zod';
+import { vrmsForWatts, wattsIntoLoad } from '$lib/dsp/units';
+
+export const SOAK_PRESET_IDS = ['eighth-power-60', 'third-power-60', 'custom'] as const;
+export type SoakPresetId = (typeof SOAK_PRESET_IDS)[number];
+
+export const SOAK_CHANNELS = ['left', 'right'] as const;
+export type SoakChannel = (typeof SOAK_CHANNELS)[number];
+
+export interface FixedPreset {
+	id: Exclude<SoakPresetId, 'custom'>;
+	label: string;
+	/** Fraction of the rated power per channel. */
+	powerFraction: number;
+	durationS: number;
+	frequencyHz: number;
+	/** Where the preset comes from, shown beside it. */
+	basis: string;
+}
+
+export const FIXED_PRESETS: readonly FixedPreset[] = [
+	{
+		id: 'eighth-power-60',
+		label: '⅛ rated power · 60 min · 1 kHz',
+		powerFraction: 1 / 8,
+		durationS: 3600,
+		frequencyHz: 1000,
+		basis: 'Preconditioning in the US FTC amplifier rule, 16 CFR Part 432 as amended in 2000'
+	},
+	{
+		id: 'third-power-60',
+		label: '⅓ rated power · 60 min · 1 kHz',
+		powerFraction: 1 / 3,
+		durationS: 3600,
+		frequencyHz: 1000,
+		basis: 'Preconditioning in the original 1974 FTC amplifier rule (16 CFR Part 432)'
+	}
+];
+
+export function fixedPreset(id: SoakPresetId): FixedPreset | undefined {
+	return FIXED_PRESETS.find((p) => p.id === id);
+}
+
+export const PRESET_LABELS: Record<SoakPresetId, string> = {
+	'eighth-power-60': '⅛ power, 60 min',
+	'third-power-60': '⅓ power, 60 min',
+	custom: 'Custom'
+};
+
+/** Custom drive: either watts or volts into the load (one of them), plus the rest. */
+export const customDriveSchema = z
+	.object({
+		watts: z.number().positive().max(5000).optional(),
+		volts: z.number().positive().max(500).optional(),
+		loadOhms: z.number().min(0.5).max(10_000).optional(),
+		frequencyHz: z.number().min(10).max(40_000).default(1000),
+		durationS: z
+			.number()
+			.int()
+			.min(10)
+			.max(24 * 3600)
+			.default(3600),
+		channels: z.array(z.enum(SOAK_CHANNELS)).min(1).max(2).default(['left', 'right'])
+	})
+	.refine((d) => (d.watts === undefined) !== (d.volts === undefined), {
+		message: 'Give either watts or volts into the load, not both'
+	});
+export type CustomDrive = z.infer<typeof customDriveSchema>;
+
+export interface JobRating {
+	ratedPowerW: number | null;
+	ratedLoadOhms: number | null;
+}
+
+/** Everything the run needs to drive the unit. Power and voltage are per driven channel. */
+export interface SoakDrive {
+	preset: SoakPresetId;
+	drivePowerW: number;
+	driveVrms: number;
+	loadOhms: number;
+	frequencyHz: number;
+	durationS: number;
+	channels: SoakChannel[];
+}
+
+export type DriveResult = { ok: true; drive: SoakDrive } | { ok: false; message: string };
+
+function hasRating(x: number | null | undefined): x is number {
+	return typeof x === 'number' && Number.isFinite(x) && x > 0;
+}
+
+/**
+ * The drive for a preset on a job. Fixed presets need the job's rated power and load;
+ * custom drive may name its own load and otherwise falls back to the job's rated load.
+ */
+export function computeDrive(preset: SoakPresetId, rating: JobRating, custom?: CustomDrive): DriveResult {
+	if (preset === 'custom') {
+		if (!custom) return { ok: false, message: 'A custom soak needs its drive (watts or volts, load, frequency, duration)' };
+		const loadOhms = custom.loadOhms ?? rating.ratedLoadOhms;
+		if (!hasRating(loadOhms)) return { ok: false, message: 'Give the load in ohms: the job has no rated load' };
+		const drivePowerW = custom.watts ?? wattsIntoLoad(custom.volts as number, loadOhms);
+		const driveVrms = custom.volts ?? vrmsForWatts(custom.watts as number, loadOhms);
+		return {
+			ok: true,
+			drive: {
+				preset,
+				drivePowerW,
+				driveVrms,
+				loadOhms,
+				frequencyHz: custom.frequencyHz,
+				durationS: custom.durationS,
+				channels: [...new Set(custom.channels)]
+			}
+		};
+	}
+	const p = fixedPreset(preset);
+	if (!p) return { ok: false, message: `Unknown preset ${preset}` };
+	if (!hasRating(rating.ratedPowerW) || !hasRating(rating.ratedLoadOhms)) {
+		return {
+			ok: false,
+			message: 'The job has no rated power and load: enter them on the job, or choose a custom drive'
+		};
+	}
+	const drivePowerW = rating.ratedPowerW * p.powerFraction;
+	return {
+		ok: true,
+		drive: {
+			preset,
+			drivePowerW,
+			driveVrms: vrmsForWatts(drivePowerW, rating.ratedLoadOhms),
+			loadOhms: rating.ratedLoadOhms,
+			frequencyHz: p.frequencyHz,
+			durationS: p.durationS,
+			// The FTC preconditioning drives all channels at once.
+			channels: ['left', 'right']
+		}
+	};
+}
