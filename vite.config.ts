@@ -8,6 +8,7 @@ export default defineConfig({
 	test: {
 		include: ['src/**/*.test.ts', 'bridge/**/*.test.ts', 'tests/unit/**/*.test.ts', 'scripts/**/*.test.ts'],
 		environment: 'node',
+		setupFiles: ['tests/unit/setup-env.ts'],
 		testTimeout: 30_000,
 		hookTimeout: 30_000,
 		pool: 'forks'

@@ -1,48 +1,14 @@
 // Display helpers shared by pages: human labels for stored enum values, money from
 // integer cents, dates and durations. Pure functions, safe in the browser and on the server.
-import type { JobStatus, PartState, Role, UnitCategory } from '$lib/server/db/schema';
+import { JOB_STATUS_LABELS, UNIT_CATEGORY_LABELS, type JobStatus, type UnitCategory } from '$lib/schemas/enums';
 
-export const STATUS_LABELS: Record<JobStatus, string> = {
-	received: 'Received',
-	diagnosing: 'Diagnosing',
-	'awaiting-parts': 'Awaiting parts',
-	repairing: 'Repairing',
-	testing: 'Testing',
-	'awaiting-review': 'Awaiting review',
-	approved: 'Approved',
-	returned: 'Returned to customer',
-	'on-hold': 'On hold',
-	declined: 'Declined'
-};
-
-export const CATEGORY_LABELS: Record<UnitCategory, string> = {
-	receiver: 'Receiver',
-	'integrated-amplifier': 'Integrated amplifier',
-	'power-amplifier': 'Power amplifier',
-	preamplifier: 'Preamplifier',
-	tuner: 'Tuner',
-	turntable: 'Turntable',
-	'tape-deck': 'Tape deck',
-	other: 'Other'
-};
-
-export const PART_STATE_LABELS: Record<PartState, string> = {
-	ordered: 'Ordered',
-	received: 'Received',
-	fitted: 'Fitted'
-};
-
-export const ROLE_LABELS: Record<Role, string> = {
-	technician: 'Technician',
-	supervisor: 'Supervisor',
-	admin: 'Admin'
-};
+export { JOB_STATUS_LABELS, UNIT_CATEGORY_LABELS, PART_STATE_LABELS, ROLE_LABELS } from '$lib/schemas/enums';
 
 export function statusLabel(status: string): string {
-	return STATUS_LABELS[status as JobStatus] ?? status;
+	return JOB_STATUS_LABELS[status as JobStatus] ?? status;
 }
 export function categoryLabel(category: string): string {
-	return CATEGORY_LABELS[category as UnitCategory] ?? category;
+	return UNIT_CATEGORY_LABELS[category as UnitCategory] ?? category;
 }
 
 const money = new Intl.NumberFormat('en-US', { minimumFractionDigits: 2, maximumFractionDigits: 2 });

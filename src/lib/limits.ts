@@ -143,7 +143,8 @@ export const LIMIT_OPS = ['le', 'ge'] as const;
 export type LimitOp = (typeof LIMIT_OPS)[number];
 export const OP_SYMBOLS: Record<LimitOp, string> = { le: '≤', ge: '≥' };
 
-export const WEIGHTINGS = ['none', 'A', 'C'] as const;
+/** Same spelling as the measurement core's `Weighting` ('a' = A-weighting, IEC 61672-1). */
+export const WEIGHTINGS = ['none', 'a'] as const;
 export type Weighting = (typeof WEIGHTINGS)[number];
 
 // ── schemas ─────────────────────────────────────────────────────────────────
@@ -332,8 +333,12 @@ export function describeConditions(c: LimitConditions): string {
 	if (c.generatorLevelVrms !== undefined) parts.push(`${formatLimitValue(c.generatorLevelVrms)} V rms`);
 	if (c.loadOhms !== undefined) parts.push(`${formatLimitValue(c.loadOhms)} Ω load`);
 	parts.push(`${formatHz(c.bandLowHz)}–${formatHz(c.bandHighHz)}`);
-	parts.push(c.weighting === 'none' ? 'unweighted' : `${c.weighting}-weighted`);
+	parts.push(weightingLabel(c.weighting));
 	return parts.join(', ');
+}
+
+export function weightingLabel(w: Weighting): string {
+	return w === 'a' ? 'A-weighted' : 'unweighted';
 }
 
 export function formatHz(hz: number): string {
@@ -344,4 +349,62 @@ export function formatHz(hz: number): string {
 export function formatLimitValue(v: number): string {
 	if (!Number.isFinite(v)) return '—';
 	return String(Number(v.toPrecision(4)));
+}
+
+// ── from analysis results ───────────────────────────────────────────────────
+
+/** The per-channel figures of the measurement core that limits read (a structural subset of ChannelResult). */
+export interface ChannelFigures {
+	frequencyHz: number;
+	levelVrms: number;
+	levelDbv: number;
+	powerW?: number;
+	gainDb?: number;
+	thdPercent: number;
+	thdDb: number;
+	thdnPercent: number;
+	thdnDb: number;
+	noiseVrms: number;
+	snrDb: number;
+	noiseWeightedVrms: number;
+	snrWeightedDb: number;
+}
+
+export interface SteadinessFiguresLike {
+	levelSpreadDb: number | null;
+	thdnSpreadDb: number | null;
+}
+
+/**
+ * Measurements for limit checks from analysis results. With A-weighting, noise and SNR are the
+ * weighted figures (THD+N is already weighted by the analysis); balance is |L − R|.
+ */
+export function measurementsFromResults(
+	channels: readonly ChannelFigures[],
+	stereo: { balanceDb?: number | null; crosstalkDb?: number | null },
+	steadiness: readonly (SteadinessFiguresLike | null | undefined)[],
+	weighting: Weighting
+): Measurements {
+	const weighted = weighting === 'a';
+	return {
+		channels: channels.map((c, i) => ({
+			levelVrms: c.levelVrms,
+			levelDbv: c.levelDbv,
+			powerW: c.powerW ?? null,
+			gainDb: c.gainDb ?? null,
+			thdPercent: c.thdPercent,
+			thdDb: c.thdDb,
+			thdnPercent: c.thdnPercent,
+			thdnDb: c.thdnDb,
+			snrDb: weighted ? c.snrWeightedDb : c.snrDb,
+			noiseVrms: weighted ? c.noiseWeightedVrms : c.noiseVrms,
+			frequencyHz: c.frequencyHz,
+			levelSpreadDb: steadiness[i]?.levelSpreadDb ?? null,
+			thdnSpreadDb: steadiness[i]?.thdnSpreadDb ?? null
+		})),
+		stereo: {
+			balanceDb: typeof stereo.balanceDb === 'number' ? Math.abs(stereo.balanceDb) : null,
+			crosstalkDb: stereo.crosstalkDb ?? null
+		}
+	};
 }

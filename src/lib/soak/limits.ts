@@ -1,44 +1,38 @@
-// The limits that guard a heat-soak run (stored with each run, defaulted from the shop setting
-// `soakDefaultLimits`) and the steady-state criterion reported in the summary.
+// The limits that guard a heat-soak run: the shop's `soakDefaultLimits` (schema in
+// $lib/schemas/settings) extended with the rise-rate window, stored with each run; and the
+// steady-state criterion reported in the summary.
 import { z } from 'zod';
+import {
+	soakLimitsSchema as shopSoakLimitsSchema,
+	DEFAULT_SOAK_LIMITS,
+	type SoakLimits as ShopSoakLimits
+} from '$lib/schemas/settings';
 
-export const soakLimitsSchema = z.object({
-	/** Highest temperature allowed on either heatsink probe, °C. */
-	maxHeatsinkC: z.number().min(20).max(250),
-	/** Highest rise rate on any unit probe, °C per minute, measured over `riseWindowS`. */
-	maxRiseCPerMin: z.number().positive().max(100),
+const thdnCeilingDb = z.number().min(-160).max(0).nullable();
+const riseWindowS = z.number().int().min(10).max(1800);
+
+export const soakLimitsSchema = shopSoakLimitsSchema.extend({
+	/** THD+N ceiling watched during the run, dB relative to the output; null when not watched. */
+	thdnCeilingDb: thdnCeilingDb.default(null),
 	/** The sliding window the rise rate is measured over, seconds of soak time. */
-	riseWindowS: z.number().int().min(10).max(1800).default(60),
-	/** Largest allowed difference between the left and right heatsinks, °C. */
-	maxLeftRightDiffC: z.number().positive().max(200),
-	/** Optional THD+N ceiling watched during the run, percent; null when not watched. */
-	maxThdnPercent: z.number().positive().max(100).nullable().default(null)
+	riseWindowS: riseWindowS.default(60)
 });
+/** What a run may change from the shop defaults; no defaults here, so an absent field keeps the shop's value. */
+export const soakLimitsPatchSchema = shopSoakLimitsSchema.extend({ thdnCeilingDb, riseWindowS }).partial().strict();
 export type SoakLimits = z.infer<typeof soakLimitsSchema>;
+export type { ShopSoakLimits };
 
-/**
- * Used when the shop has not set its own defaults. Common practice: audio heatsinks are
- * usually kept to about 70–80 °C, so 75 °C is a cautious ceiling; a rise faster than a few
- * °C per minute at a fraction of rated power points at a bias or thermal-coupling fault.
- */
-export const FALLBACK_SOAK_LIMITS: SoakLimits = {
-	maxHeatsinkC: 75,
-	maxRiseCPerMin: 5,
-	riseWindowS: 60,
-	maxLeftRightDiffC: 10,
-	maxThdnPercent: null
-};
+/** A run's limits: the shop's defaults with whatever the technician changed for this run. */
+export function runLimits(shop: ShopSoakLimits = DEFAULT_SOAK_LIMITS, overrides: z.infer<typeof soakLimitsPatchSchema> = {}): SoakLimits {
+	const defined = Object.fromEntries(Object.entries(overrides).filter(([, v]) => v !== undefined));
+	return soakLimitsSchema.parse({ ...shop, ...defined });
+}
 
-/** Accept the shop setting leniently: fill what it lacks from the fallback, ignore the rest. */
-export function limitsFromSetting(value: unknown): SoakLimits {
-	const partial = soakLimitsSchema.partial().safeParse(value);
-	if (!partial.success) return { ...FALLBACK_SOAK_LIMITS };
-	const merged = { ...FALLBACK_SOAK_LIMITS };
-	for (const [k, v] of Object.entries(partial.data)) {
-		if (v !== undefined) (merged as Record<string, unknown>)[k] = v;
-	}
-	const full = soakLimitsSchema.safeParse(merged);
-	return full.success ? full.data : { ...FALLBACK_SOAK_LIMITS };
+export function thdnDbToPercent(db: number): number {
+	return 100 * 10 ** (db / 20);
+}
+export function thdnPercentToDb(percent: number): number {
+	return 20 * Math.log10(percent / 100);
 }
 
 /** Thermal steady state: every unit probe stays within `bandC` over `windowS` of soak time. */

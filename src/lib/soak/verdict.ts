@@ -2,7 +2,7 @@
 // gaps, the per-probe summary and the verdict. Pure, so the page (live alarm) and the server
 // (the stored verdict) judge the same readings the same way.
 import type { SoakLimits, SteadyCriterion } from './limits';
-import { STEADY_CRITERION } from './limits';
+import { STEADY_CRITERION, thdnDbToPercent } from './limits';
 
 export interface SoakReadingIn {
 	probe: string;
@@ -161,7 +161,7 @@ export function findBreaches(
 			const r = nearestByT(rightByT, l.t);
 			if (!r || Math.abs(r.t - l.t) > tol) continue;
 			const diff = Math.abs(l.c - r.c);
-			if (diff > limits.maxLeftRightDiffC) {
+			if (diff > limits.maxDiffC) {
 				const at = Math.max(l.t, r.t);
 				const atS = soakSeconds(at, clock);
 				out.push({
@@ -170,16 +170,17 @@ export function findBreaches(
 					t: at,
 					atS,
 					value: diff,
-					limit: limits.maxLeftRightDiffC,
-					message: `Heatsinks differ by ${fmt(diff)} °C (limit ${fmt(limits.maxLeftRightDiffC)} °C) at ${fmtTime(atS)}`
+					limit: limits.maxDiffC,
+					message: `Heatsinks differ by ${fmt(diff)} °C (limit ${fmt(limits.maxDiffC)} °C) at ${fmtTime(atS)}`
 				});
 				break;
 			}
 		}
 	}
 
-	if (limits.maxThdnPercent !== null) {
-		const ceiling = limits.maxThdnPercent;
+	if (limits.thdnCeilingDb !== null && limits.thdnCeilingDb !== undefined) {
+		const ceilingDb = limits.thdnCeilingDb;
+		const ceiling = thdnDbToPercent(ceilingDb);
 		const hit = [...thdn].sort((a, b) => a.t - b.t).find((x) => x.thdnPercent > ceiling);
 		if (hit) {
 			const atS = soakSeconds(hit.t, clock);
@@ -190,7 +191,7 @@ export function findBreaches(
 				atS,
 				value: hit.thdnPercent,
 				limit: ceiling,
-				message: `THD+N ${fmt(hit.thdnPercent, 3)} % (ceiling ${fmt(ceiling, 3)} %) at ${fmtTime(atS)}`
+				message: `THD+N ${fmt(hit.thdnPercent, 3)} % (ceiling ${fmt(ceiling, 3)} % = ${fmt(ceilingDb)} dB) at ${fmtTime(atS)}`
 			});
 		}
 	}

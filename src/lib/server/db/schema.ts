@@ -11,37 +11,11 @@ import {
 	primaryKey
 } from 'drizzle-orm/sqlite-core';
 
-export const ROLES = ['technician', 'supervisor', 'admin'] as const;
-export type Role = (typeof ROLES)[number];
-
-export const UNIT_CATEGORIES = [
-	'receiver',
-	'integrated-amplifier',
-	'power-amplifier',
-	'preamplifier',
-	'tuner',
-	'turntable',
-	'tape-deck',
-	'other'
-] as const;
-export type UnitCategory = (typeof UNIT_CATEGORIES)[number];
-
-export const JOB_STATUSES = [
-	'received',
-	'diagnosing',
-	'awaiting-parts',
-	'repairing',
-	'testing',
-	'awaiting-review',
-	'approved',
-	'returned',
-	'on-hold',
-	'declined'
-] as const;
-export type JobStatus = (typeof JOB_STATUSES)[number];
-
-export const PART_STATES = ['ordered', 'received', 'fitted'] as const;
-export type PartState = (typeof PART_STATES)[number];
+// Roles, unit categories, job statuses and part states live in $lib/schemas/enums so the
+// browser can use them too (a relative import: drizzle-kit and scripts do not know `$lib`).
+import { ROLES, UNIT_CATEGORIES, JOB_STATUSES, PART_STATES } from '../../schemas/enums';
+export { ROLES, UNIT_CATEGORIES, JOB_STATUSES, PART_STATES };
+export type { Role, UnitCategory, JobStatus, PartState } from '../../schemas/enums';
 
 export const SNAPSHOT_STAGES = ['before', 'after', 'other'] as const;
 export type SnapshotStage = (typeof SNAPSHOT_STAGES)[number];
@@ -280,6 +254,10 @@ export const soakRuns = sqliteTable(
 		drivePowerW: real('drive_power_w').notNull(),
 		driveVrms: real('drive_vrms').notNull(),
 		durationS: integer('duration_s').notNull(),
+		/** Simulator thermal time per wall-clock time (1 on real hardware); durations and rates are in soak time. */
+		timeScale: real('time_scale').notNull().default(1),
+		/** The bridge's latest temperature seq when the run started: readings after it belong to the run. */
+		startSeq: integer('start_seq'),
 		channels: text('channels', { mode: 'json' }).notNull(),
 		limits: text('limits', { mode: 'json' }).notNull(),
 		probes: text('probes', { mode: 'json' }).notNull(),

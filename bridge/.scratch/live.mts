@@ -1,0 +1,15 @@
+import WebSocket from 'ws';
+import { startBridge } from '../../bridge/server.ts';
+import { mintBridgeToken } from '../../src/lib/bridge/token.ts';
+import { decodeFrame, parseBridgeMessage } from '../../src/lib/bridge/protocol.ts';
+const secret = 's'.repeat(40);
+const b = await startBridge({ host:'127.0.0.1', port:0, secret, allowedOrigins:['http://127.0.0.1:3000'], source:{kind:'sim'}, sampleRateHz:48000, channels:2, blockSize:4096, temps:{kind:'sim'}, timeScale:60, seed:1, tuning:{statsMs:500} });
+const { token } = await mintBridgeToken(secret, { userId:'u1', role:'technician' });
+const ws = new WebSocket(`${b.url}/stream?token=${token}`, { headers: { origin: 'http://127.0.0.1:3000' } });
+let frames = 0;
+ws.on('message', (d, bin) => { if (bin) { const f = decodeFrame(d as Buffer); if (frames++ < 2) console.log('frame', f.seq, f.firstSampleIndex, f.sampleCount, f.copied); } else { const m = parseBridgeMessage(d.toString()); console.log(m.ok ? JSON.stringify(m.message).slice(0, 300) : m); } });
+ws.on('open', () => { ws.send(JSON.stringify({v:1,type:'generator',id:7,generator:{kind:'sine',frequencyHz:1000,levelVrms:1}})); ws.send('garbage'); ws.send(JSON.stringify({v:1,type:'temps-after',seq:0})); });
+ws.on('unexpected-response', (req, res) => console.log('refused', res.statusCode));
+await new Promise(r => setTimeout(r, 1500));
+console.log('frames', frames);
+ws.close(); await b.close(); console.log('closed');

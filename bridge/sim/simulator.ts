@@ -1,0 +1,570 @@
+// The bench simulator: a believable receiver/amplifier between the generator and the
+// analyzer input, deterministic for a given seed. Its linear part is exact (tones are
+// synthesised through the chain's complex response; noise runs through the same biquads in
+// the time domain), so a set gain reads back exactly; the output stage adds the distortion.
+//
+// Signal chain per channel:
+//   generator → [inverse-RIAA network, phono] → input stage → [RIAA playback, phono]
+//   → volume → 10-band EQ → low/high filters → output stage (crossover, gentle curvature,
+//   soft clip at the rails, weak device) → + hum, noise floor, DC → dummy load
+//   → analyzer input (sample = volts / full-scale volts)
+import {
+	DEFAULT_SIMULATOR_STATE,
+	DC_OFFSET_FAULT_V,
+	EQ_BAND_CENTRES_HZ,
+	GENERATOR_OFF,
+	OUTPUT_HEADROOM_V,
+	PHONO_GAIN_1KHZ_DB,
+	WEAK_DEVICE_SWING_FRACTION,
+	type GeneratorState,
+	type SimulatorState
+} from '../../src/lib/bridge/protocol';
+import {
+	BiquadState,
+	IDENTITY,
+	biquadResponse,
+	cmul,
+	highPass,
+	isIdentity,
+	lowPass,
+	peaking,
+	riaaPlaybackBiquad,
+	riaaPlaybackComplex,
+	type Biquad
+} from './filters';
+import { Rng } from './rng';
+import { NOMINAL_IDLE_CURRENT_A, type AmplifierParams } from './thermal';
+
+/** Peak volts at sample value 1.0 on every simulator channel: room for a ±39 V swing and DC. */
+export const SIM_FULL_SCALE_VOLTS = 50;
+export const EQ_Q = 1.41;
+const FILTER_Q = Math.SQRT1_2;
+/** Input coupling capacitor corner (1st-order high-pass), Hz. */
+export const INPUT_COUPLING_HZ = 1.5;
+/** Closed-loop bandwidth of the power amplifier (1st-order low-pass), Hz. */
+export const AMP_BANDWIDTH_HZ = 150_000;
+// Noise densities (V/√Hz): output stage, line input referred, phono input referred. With the
+// default 26 dB volume they give about −101 dBV unweighted in 20 Hz–20 kHz (from memory:
+// typical of a decent receiver), the phono input about 30 dB worse, as real ones are.
+export const OUTPUT_NOISE_V_PER_RTHZ = 40e-9;
+export const LINE_NOISE_V_PER_RTHZ = 2.5e-9;
+export const PHONO_NOISE_V_PER_RTHZ = 1.5e-9;
+const NOISY_SELECTOR_FACTOR = 30;
+/** Crossover region width after feedback (V) and the notch depth at correct / zero bias (V). */
+const CROSSOVER_WIDTH_V = 0.03;
+const CROSSOVER_DEPTH_MIN_V = 4e-5;
+const CROSSOVER_DEPTH_ZERO_BIAS_V = 0.008;
+/** Effective bias fraction while the under-bias fault is on. */
+export const UNDER_BIAS_FRACTION = 0.15;
+// Gentle output-stage curvature relative to the swing: about 0.005 % THD at 4 W into 8 Ω,
+// rising towards clipping (from memory: typical of a good class-AB design).
+const CURVE_A2 = 0.0004;
+const CURVE_A3 = 0.004;
+/** Soft-clip knee as a fraction of the clip voltage. */
+const CLIP_KNEE = 0.95;
+// Hum at the output (V peak) per mains harmonic 1..8: field pickup at odd orders, rectifier
+// ripple at even orders; right channel a little quieter (from memory, about −102 dBV total).
+const HUM_PEAK_V = [6e-6, 9e-6, 3e-6, 2.5e-6, 1e-6, 1e-6, 0.5e-6, 0.5e-6];
+const TIRED_CAP_EVEN_FACTOR = 40;
+const TIRED_CAP_ODD_FACTOR = 3;
+const PHONO_HUM_FACTOR = 3;
+const SEGMENT = 256;
+
+const SIDE_NAMES = ['left', 'right'] as const;
+
+interface Tone {
+	frequencyHz: number;
+	amplitudeV: number;
+	drive: 'both' | 'left' | 'right';
+	phaseCycles: number;
+}
+
+export interface SimulatorOptions {
+	sampleRateHz: number;
+	channels: number;
+	seed: number;
+	state?: SimulatorState;
+	generator?: GeneratorState;
+}
+
+/** The tones a generator setting produces (peak volts); noise is handled separately. */
+export function generatorTones(g: GeneratorState): { frequencyHz: number; amplitudeV: number }[] {
+	const peak = 'levelVrms' in g ? g.levelVrms * Math.SQRT2 : 0;
+	switch (g.kind) {
+		case 'sine':
+			return [{ frequencyHz: g.frequencyHz, amplitudeV: peak }];
+		case 'twin-tone':
+			return [
+				{ frequencyHz: g.f1Hz, amplitudeV: peak / 2 },
+				{ frequencyHz: g.f2Hz, amplitudeV: peak / 2 }
+			];
+		case 'smpte':
+			return [
+				{ frequencyHz: g.lowHz, amplitudeV: (peak * g.ratio) / (g.ratio + 1) },
+				{ frequencyHz: g.highHz, amplitudeV: peak / (g.ratio + 1) }
+			];
+		default:
+			return [];
+	}
+}
+
+/** Highest frequency a generator setting asks for (0 when off or noise). */
+export function generatorMaxHz(g: GeneratorState): number {
+	return Math.max(0, ...generatorTones(g).map((t) => t.frequencyHz));
+}
+
+function drivesSide(drive: Tone['drive'], side: number): boolean {
+	return drive === 'both' || drive === SIDE_NAMES[side];
+}
+
+/** Crosstalk from the other channel's input: capacitive, −80 dB at 1 kHz rising 6 dB/octave, −100 dB floor. */
+function crosstalk(frequencyHz: number): [number, number] {
+	return [1e-5, 1e-4 * (frequencyHz / 1000)];
+}
+
+export class Simulator {
+	readonly sampleRateHz: number;
+	readonly channels: number;
+	readonly seed: number;
+	readonly fullScaleVolts = SIM_FULL_SCALE_VOLTS;
+	private st: SimulatorState;
+	private gen: GeneratorState;
+	private dirty = true;
+
+	private tones: Tone[] = [];
+	/** coef[side][k] = [re, im] so that output = Im(coef · e^{j2πφ}). */
+	private coefs: [number, number][][] = [[], []];
+	private eq: Biquad[][] = [[], []];
+	private hp: Biquad = IDENTITY;
+	private lp: Biquad = IDENTITY;
+	private gainVol = 1;
+	private noisePath = false;
+
+	// Time-domain noise path, per side.
+	private eqStates: BiquadState[][] = [[], []];
+	private hpStates = [new BiquadState(IDENTITY), new BiquadState(IDENTITY)];
+	private lpStates = [new BiquadState(IDENTITY), new BiquadState(IDENTITY)];
+	private phonoStates: BiquadState[];
+	private readonly pinkState = new Float64Array(7);
+	private readonly pinkNorm: number;
+
+	// Output stage, per side.
+	private clipPos = [39, 39];
+	private clipNeg = [39, 39];
+	private swing = 39;
+	private crossoverDepthV = CROSSOVER_DEPTH_MIN_V;
+	private outNoiseSigma = [0, 0];
+	private inNoiseSigma = [0, 0];
+	private dcV = [0, 0];
+
+	// Hum rotators: per harmonic, phase and per-side amplitude.
+	private humPhase: number[] = [];
+	private humAmp: number[][] = [[], []];
+	private lastMeanAbsCurrentA = [0, 0];
+
+	// Faults with time behaviour.
+	private scratchDb = [0, 0];
+	private crackleEnv = [0, 0];
+	private readonly crackleDecay: number;
+
+	private readonly rngNoise: Rng;
+	private readonly rngGen: Rng;
+	private readonly rngFault: Rng;
+
+	private readonly pre: Float64Array[];
+	private readonly work: Float64Array[];
+	private readonly genBuf: Float64Array;
+	private readonly humBuf: Float64Array[];
+
+	constructor(opts: SimulatorOptions) {
+		this.sampleRateHz = opts.sampleRateHz;
+		this.channels = opts.channels;
+		this.seed = opts.seed >>> 0;
+		this.st = structuredClone(opts.state ?? DEFAULT_SIMULATOR_STATE);
+		this.gen = structuredClone(opts.generator ?? GENERATOR_OFF);
+		const root = new Rng(this.seed);
+		const rngHum = root.fork(1);
+		this.rngNoise = root.fork(2);
+		this.rngGen = root.fork(3);
+		this.rngFault = root.fork(4);
+		this.humPhase = HUM_PEAK_V.map(() => rngHum.uniform());
+		this.pre = [new Float64Array(SEGMENT), new Float64Array(SEGMENT)];
+		this.work = [new Float64Array(SEGMENT), new Float64Array(SEGMENT)];
+		this.humBuf = [new Float64Array(SEGMENT), new Float64Array(SEGMENT)];
+		this.genBuf = new Float64Array(SEGMENT);
+		const phono = riaaPlaybackBiquad(this.sampleRateHz, 10 ** (PHONO_GAIN_1KHZ_DB / 20));
+		this.phonoStates = [new BiquadState(phono), new BiquadState(phono)];
+		this.pinkNorm = 1 / pinkRmsGain();
+		this.crackleDecay = Math.exp(-1 / (0.0015 * this.sampleRateHz));
+		this.setGenerator(this.gen);
+	}
+
+	get state(): SimulatorState {
+		return structuredClone(this.st);
+	}
+	get generator(): GeneratorState {
+		return structuredClone(this.gen);
+	}
+
+	setState(next: SimulatorState): void {
+		this.st = structuredClone(next);
+		this.dirty = true;
+	}
+
+	setGenerator(next: GeneratorState): void {
+		this.gen = structuredClone(next);
+		const drive = 'drive' in next && next.drive ? next.drive : 'both';
+		this.tones = generatorTones(next)
+			.filter((t) => t.frequencyHz < this.sampleRateHz / 2)
+			.map((t) => ({ ...t, drive, phaseCycles: 0 }));
+		this.dirty = true;
+	}
+
+	/** Bias as a fraction of correct, including the under-bias fault. */
+	effectiveBias(): number {
+		return (this.st.biasPercent / 100) * (this.st.faults.underBias ? UNDER_BIAS_FRACTION : 1);
+	}
+
+	/** What the thermal model needs to know about the output stage now. */
+	amplifierParams(): AmplifierParams {
+		return {
+			railVolts: this.st.railVolts,
+			loadOhms: this.st.loadOhms,
+			idleCurrentA: NOMINAL_IDLE_CURRENT_A * this.effectiveBias()
+		};
+	}
+
+	/** Complex gain from a side's input to that side's load (line-equivalent), without crosstalk. */
+	responseAt(frequencyHz: number, side = 0): [number, number] {
+		if (this.dirty) this.recompute();
+		return this.linearResponse(frequencyHz, side);
+	}
+
+	private linearResponse(f: number, side: number): [number, number] {
+		const fs = this.sampleRateHz;
+		let h: [number, number] = [this.gainVol, 0];
+		if (this.st.input === 'phono' && !this.st.inverseRiaaNetwork)
+			h = cmul(h, riaaPlaybackComplex(f, 10 ** (PHONO_GAIN_1KHZ_DB / 20)));
+		for (const q of this.eq[side]) if (!isIdentity(q)) h = cmul(h, biquadResponse(q, f, fs));
+		if (!isIdentity(this.hp)) h = cmul(h, biquadResponse(this.hp, f, fs));
+		if (!isIdentity(this.lp)) h = cmul(h, biquadResponse(this.lp, f, fs));
+		// Input coupling capacitor (jf/fc)/(1 + jf/fc) and amplifier bandwidth 1/(1 + jf/fb).
+		const x = f / INPUT_COUPLING_HZ;
+		h = cmul(h, [(x * x) / (1 + x * x), x / (1 + x * x)]);
+		const y = f / AMP_BANDWIDTH_HZ;
+		h = cmul(h, [1 / (1 + y * y), -y / (1 + y * y)]);
+		return h;
+	}
+
+	private recompute(): void {
+		const st = this.st;
+		const fs = this.sampleRateHz;
+		this.dirty = false;
+		this.gainVol = 10 ** (st.volumeDb / 20);
+		const scratch = st.faults.scratchyControl;
+		for (let side = 0; side < 2; side++) {
+			this.eq[side] = EQ_BAND_CENTRES_HZ.map((fc, b) => {
+				const extra = scratch.enabled && b === scratch.band ? this.scratchDb[side] : 0;
+				return peaking(fc, st.eqGainsDb[b] + extra, EQ_Q, fs);
+			});
+			const states = this.eqStates[side];
+			this.eq[side].forEach((q, b) => {
+				if (!states[b]) states[b] = new BiquadState(q);
+				else states[b].q = q;
+			});
+		}
+		this.hp = st.lowFilter.enabled ? highPass(st.lowFilter.frequencyHz, FILTER_Q, fs) : IDENTITY;
+		this.lp = st.highFilter.enabled ? lowPass(st.highFilter.frequencyHz, FILTER_Q, fs) : IDENTITY;
+		for (const s of this.hpStates) s.q = this.hp;
+		for (const s of this.lpStates) s.q = this.lp;
+
+		const sides = Math.min(2, this.channels);
+		for (let side = 0; side < 2; side++) {
+			this.coefs[side] = this.tones.map((t) => {
+				const h = this.linearResponse(t.frequencyHz, side);
+				let own: [number, number] = drivesSide(t.drive, side) ? [1, 0] : [0, 0];
+				if (sides === 2 && drivesSide(t.drive, 1 - side)) {
+					const xt = crosstalk(t.frequencyHz);
+					own = [own[0] + xt[0], own[1] + xt[1]];
+				}
+				const c = cmul(h, own);
+				return [c[0] * t.amplitudeV, c[1] * t.amplitudeV] as [number, number];
+			});
+		}
+
+		this.swing = st.railVolts - OUTPUT_HEADROOM_V;
+		for (let side = 0; side < 2; side++) {
+			const weak = st.faults.weakOutputDevice === SIDE_NAMES[side];
+			this.clipPos[side] = weak ? this.swing * WEAK_DEVICE_SWING_FRACTION : this.swing;
+			this.clipNeg[side] = this.swing;
+			this.dcV[side] = st.faults.dcOffset && side === 0 ? DC_OFFSET_FAULT_V : 0;
+		}
+		const bias = this.effectiveBias();
+		this.crossoverDepthV = CROSSOVER_DEPTH_MIN_V + CROSSOVER_DEPTH_ZERO_BIAS_V * Math.max(0, 1 - bias) ** 1.5;
+
+		const eqFlat = this.eq.every((bands) => bands.every(isIdentity));
+		this.noisePath =
+			this.gen.kind === 'noise' ||
+			st.input === 'phono' ||
+			st.faults.noisySelector !== null ||
+			(scratch.enabled && scratch.moving) ||
+			!eqFlat ||
+			st.lowFilter.enabled ||
+			st.highFilter.enabled;
+		const rootBw = Math.sqrt(fs / 2);
+		for (let side = 0; side < 2; side++) {
+			const selector = st.faults.noisySelector === SIDE_NAMES[side] ? NOISY_SELECTOR_FACTOR : 1;
+			const inDensity = (st.input === 'phono' ? PHONO_NOISE_V_PER_RTHZ : LINE_NOISE_V_PER_RTHZ) * selector;
+			if (this.noisePath) {
+				this.inNoiseSigma[side] = inDensity * rootBw;
+				this.outNoiseSigma[side] = OUTPUT_NOISE_V_PER_RTHZ * rootBw;
+			} else {
+				// A flat chain is a plain gain: fold the input noise into the output noise.
+				this.inNoiseSigma[side] = 0;
+				this.outNoiseSigma[side] = Math.hypot(OUTPUT_NOISE_V_PER_RTHZ, LINE_NOISE_V_PER_RTHZ * this.gainVol) * rootBw;
+			}
+		}
+		this.updateHum();
+	}
+
+	private updateHum(): void {
+		const st = this.st;
+		for (let side = 0; side < 2; side++) {
+			const sideFactor = side === 0 ? 1 : 0.8;
+			// Ripple hum rises with the current drawn when the reservoir capacitor is tired.
+			const load = 1 + 0.5 * this.lastMeanAbsCurrentA[side];
+			this.humAmp[side] = HUM_PEAK_V.map((a, i) => {
+				const order = i + 1;
+				let amp = a * sideFactor;
+				if (st.input === 'phono' && order % 2 === 1) amp *= PHONO_HUM_FACTOR;
+				if (st.faults.tiredFilterCap) amp *= order % 2 === 0 ? TIRED_CAP_EVEN_FACTOR * load : TIRED_CAP_ODD_FACTOR;
+				return amp;
+			});
+		}
+	}
+
+	/**
+	 * Render `n` samples per channel, interleaved, into `out` (sample = volts / full scale).
+	 */
+	render(out: Float32Array, n: number): void {
+		if (out.length < n * this.channels) throw new RangeError('output buffer too small');
+		for (let pos = 0; pos < n; pos += SEGMENT) {
+			const m = Math.min(SEGMENT, n - pos);
+			this.segmentFaults(m);
+			if (this.dirty) this.recompute();
+			this.renderSegment(out, pos, m);
+		}
+	}
+
+	/** Scratchy-control jumps and selector crackles, decided once per segment. */
+	private segmentFaults(m: number): void {
+		const f = this.st.faults;
+		const segS = m / this.sampleRateHz;
+		const scratch = f.scratchyControl;
+		if (scratch.enabled && scratch.moving) {
+			// A worn track: the wiper loses contact for a few ms every ~20 ms of travel.
+			for (let side = 0; side < 2; side++) {
+				if (this.rngFault.uniform() < segS / 0.02) {
+					const r = this.rngFault.uniform();
+					this.scratchDb[side] = r < 0.35 ? 0 : -12 * this.rngFault.uniform() + 1.5 * this.rngFault.uniform();
+					this.crackleEnv[side] += 3e-4 * (0.3 + this.rngFault.uniform());
+					this.dirty = true;
+				}
+			}
+		} else if (this.scratchDb[0] !== 0 || this.scratchDb[1] !== 0) {
+			this.scratchDb[0] = 0;
+			this.scratchDb[1] = 0;
+			this.dirty = true;
+		}
+		for (let side = 0; side < 2; side++) {
+			if (f.noisySelector === SIDE_NAMES[side] && this.rngFault.uniform() < segS * 4)
+				this.crackleEnv[side] += 5e-4 * (0.2 + this.rngFault.uniform());
+		}
+	}
+
+	private renderSegment(out: Float32Array, pos: number, m: number): void {
+		const fs = this.sampleRateHz;
+		const chs = this.channels;
+		const sides = Math.min(2, chs);
+		const pre0 = this.pre[0];
+		const pre1 = this.pre[1];
+		pre0.fill(0, 0, m);
+		pre1.fill(0, 0, m);
+
+		// Tones through the linear chain (exact complex response), two sides at once.
+		for (let k = 0; k < this.tones.length; k++) {
+			const t = this.tones[k];
+			const c0 = this.coefs[0][k];
+			const c1 = this.coefs[1][k];
+			const w = (2 * Math.PI * t.frequencyHz) / fs;
+			const cw = Math.cos(w);
+			const sw = Math.sin(w);
+			let zr = Math.cos(2 * Math.PI * t.phaseCycles);
+			let zi = Math.sin(2 * Math.PI * t.phaseCycles);
+			const a0 = c0[0];
+			const b0 = c0[1];
+			const a1 = c1[0];
+			const b1 = c1[1];
+			for (let i = 0; i < m; i++) {
+				pre0[i] += a0 * zi + b0 * zr;
+				pre1[i] += a1 * zi + b1 * zr;
+				const nr = zr * cw - zi * sw;
+				zi = zi * cw + zr * sw;
+				zr = nr;
+			}
+			t.phaseCycles = (t.phaseCycles + (m * t.frequencyHz) / fs) % 1;
+		}
+
+		if (this.noisePath) this.noiseSegment(m, sides);
+
+		// Hum (added after the output stage).
+		const mainsHz = this.st.mainsHz;
+		const hum0 = this.humBuf[0];
+		const hum1 = this.humBuf[1];
+		hum0.fill(0, 0, m);
+		hum1.fill(0, 0, m);
+		for (let h = 0; h < this.humPhase.length; h++) {
+			const f = mainsHz * (h + 1);
+			if (f >= fs / 2) break;
+			const w = (2 * Math.PI * f) / fs;
+			const cw = Math.cos(w);
+			const sw = Math.sin(w);
+			let zr = Math.cos(2 * Math.PI * this.humPhase[h]);
+			let zi = Math.sin(2 * Math.PI * this.humPhase[h]);
+			const g0 = this.humAmp[0][h];
+			const g1 = this.humAmp[1][h];
+			for (let i = 0; i < m; i++) {
+				hum0[i] += g0 * zi;
+				hum1[i] += g1 * zi;
+				const nr = zr * cw - zi * sw;
+				zi = zi * cw + zr * sw;
+				zr = nr;
+			}
+			this.humPhase[h] = (this.humPhase[h] + (m * f) / fs) % 1;
+		}
+
+		const inv = 1 / this.fullScaleVolts;
+		const depth = this.crossoverDepthV;
+		const invX = 1 / CROSSOVER_WIDTH_V;
+		const invSwing = 1 / this.swing;
+		const rng = this.rngNoise;
+		const loadOhms = this.st.loadOhms;
+		for (let side = 0; side < sides; side++) {
+			const pre = this.pre[side];
+			const hum = this.humBuf[side];
+			const vp = this.clipPos[side];
+			const vn = this.clipNeg[side];
+			const kp = CLIP_KNEE * vp;
+			const kn = CLIP_KNEE * vn;
+			const sigma = this.outNoiseSigma[side];
+			const dc = this.dcV[side];
+			const work = this.work[side];
+			let sumAbs = 0;
+			for (let i = 0; i < m; i++) {
+				let v = pre[i];
+				// Crossover: a small notch around zero, deeper as the bias falls.
+				let x = v * invX;
+				if (x > 3) x = 1;
+				else if (x < -3) x = -1;
+				else x = (x * (27 + x * x)) / (27 + 9 * x * x);
+				v -= depth * x;
+				// Gentle curvature of the output devices (2nd and 3rd order).
+				const r = v * invSwing;
+				v += this.swing * (CURVE_A2 * r * r + CURVE_A3 * r * r * r);
+				// Soft clipping just below the rails.
+				if (v > kp) v = vp * (CLIP_KNEE + (1 - CLIP_KNEE) * Math.tanh((v / vp - CLIP_KNEE) / (1 - CLIP_KNEE)));
+				else if (v < -kn) v = -vn * (CLIP_KNEE + (1 - CLIP_KNEE) * Math.tanh((-v / vn - CLIP_KNEE) / (1 - CLIP_KNEE)));
+				sumAbs += v < 0 ? -v : v;
+				v += hum[i] + dc + sigma * rng.gaussian();
+				work[i] = v;
+			}
+			this.lastMeanAbsCurrentA[side] = sumAbs / m / loadOhms;
+			for (let c = side; c < chs; c += 2) {
+				let o = (pos * chs) + c;
+				for (let i = 0; i < m; i++, o += chs) out[o] = work[i] * inv;
+			}
+		}
+		if (this.st.faults.tiredFilterCap) this.updateHum();
+	}
+
+	/** Generator noise, input-referred noise and crackle through the time-domain chain. */
+	private noiseSegment(m: number, sides: number): void {
+		const g = this.genBuf;
+		const gen = this.gen;
+		if (gen.kind === 'noise') {
+			const sigma = gen.levelVrms;
+			const rng = this.rngGen;
+			if (gen.color === 'pink') {
+				const p = this.pinkState;
+				const k = sigma * this.pinkNorm;
+				for (let i = 0; i < m; i++) {
+					const wv = rng.gaussian();
+					// Pink filter after P. Kellet (public-domain approximation, ±0.05 dB above 9 Hz at 44.1 kHz).
+					p[0] = 0.99886 * p[0] + wv * 0.0555179;
+					p[1] = 0.99332 * p[1] + wv * 0.0750759;
+					p[2] = 0.969 * p[2] + wv * 0.153852;
+					p[3] = 0.8665 * p[3] + wv * 0.3104856;
+					p[4] = 0.55 * p[4] + wv * 0.5329522;
+					p[5] = -0.7616 * p[5] - wv * 0.016898;
+					g[i] = k * (p[0] + p[1] + p[2] + p[3] + p[4] + p[5] + p[6] + wv * 0.5362);
+					p[6] = wv * 0.115926;
+				}
+			} else {
+				for (let i = 0; i < m; i++) g[i] = sigma * rng.gaussian();
+			}
+		} else {
+			g.fill(0, 0, m);
+		}
+		const drive = 'drive' in gen && gen.drive ? gen.drive : 'both';
+		const phono = this.st.input === 'phono';
+		const network = this.st.inverseRiaaNetwork;
+		const rng = this.rngNoise;
+		for (let side = 0; side < sides; side++) {
+			const x = this.work[side];
+			const dg = gen.kind === 'noise' && drivesSide(drive, side) ? 1 : 0;
+			const sigma = this.inNoiseSigma[side];
+			let env = this.crackleEnv[side];
+			const decay = this.crackleDecay;
+			// What enters the input stage (after the inverse network when it is in circuit).
+			for (let i = 0; i < m; i++) {
+				x[i] = sigma * rng.gaussian() + env * rng.gaussian();
+				env *= decay;
+			}
+			this.crackleEnv[side] = env < 1e-9 ? 0 : env;
+			if (phono) {
+				// Generator through inverse network then playback EQ is flat: add it after the stage.
+				if (!network) for (let i = 0; i < m; i++) x[i] += dg * g[i];
+				this.phonoStates[side].run(x, m);
+				if (network) for (let i = 0; i < m; i++) x[i] += dg * g[i];
+			} else {
+				for (let i = 0; i < m; i++) x[i] += dg * g[i];
+			}
+			const gv = this.gainVol;
+			for (let i = 0; i < m; i++) x[i] *= gv;
+			for (const s of this.eqStates[side]) if (!isIdentity(s.q)) s.run(x, m);
+			if (!isIdentity(this.hp)) this.hpStates[side].run(x, m);
+			if (!isIdentity(this.lp)) this.lpStates[side].run(x, m);
+			const pre = this.pre[side];
+			for (let i = 0; i < m; i++) pre[i] += x[i];
+		}
+	}
+}
+
+/** rms gain of the pink filter for unit white input, from its impulse response energy. */
+function pinkRmsGain(): number {
+	const p = new Float64Array(7);
+	let energy = 0;
+	for (let i = 0; i < 200_000; i++) {
+		const wv = i === 0 ? 1 : 0;
+		p[0] = 0.99886 * p[0] + wv * 0.0555179;
+		p[1] = 0.99332 * p[1] + wv * 0.0750759;
+		p[2] = 0.969 * p[2] + wv * 0.153852;
+		p[3] = 0.8665 * p[3] + wv * 0.3104856;
+		p[4] = 0.55 * p[4] + wv * 0.5329522;
+		p[5] = -0.7616 * p[5] - wv * 0.016898;
+		const y = p[0] + p[1] + p[2] + p[3] + p[4] + p[5] + p[6] + wv * 0.5362;
+		p[6] = wv * 0.115926;
+		energy += y * y;
+	}
+	return Math.sqrt(energy);
+}

@@ -1,0 +1,750 @@
+// The measurement engine: one windowed FFT per frame, a 4-parameter sine fit of the fundamental on
+// the spectrum, subtraction of the fit, and band-limited sums of what is left (THD+N, noise).
+// `Analyzer` reuses every buffer (for the live worker); analyzeChannel/analyzeFrames wrap it.
+
+import FFT from 'fft.js';
+import { ANALYSIS_WINDOW, makeWindow, windows, type WindowName } from './windows';
+import { ToneFitter, interpolatePeak, peakBin } from './tonefit';
+import { aWeightingTable } from './weighting';
+import { vrmsToDbu, wattsIntoLoad } from './units';
+import type { AnalysisOptions, AnalysisResult, ChannelResult, HarmonicResult, Weighting } from './types';
+
+/** Floor for dB figures of zero quantities, so results stay finite (JSON has no −Infinity). */
+export const MIN_DB = -300;
+export const MAX_FFT_SIZE = 1 << 20;
+export const MIN_FFT_SIZE = 256;
+export const DEFAULT_FFT_CAP = 262144;
+export const DEFAULT_BAND_HZ: [number, number] = [20, 20000];
+
+export function db10(ratio: number): number {
+	return ratio > 0 ? Math.max(MIN_DB, 10 * Math.log10(ratio)) : MIN_DB;
+}
+export function db20(ratio: number): number {
+	return ratio > 0 ? Math.max(MIN_DB, 20 * Math.log10(ratio)) : MIN_DB;
+}
+
+export function isPowerOfTwo(n: number): boolean {
+	return Number.isInteger(n) && n > 0 && (n & (n - 1)) === 0;
+}
+
+/** Largest power of two ≤ length, capped (the default span the CLI and analyzeChannel use). */
+export function defaultFftSize(length: number, cap = DEFAULT_FFT_CAP): number {
+	let n = MIN_FFT_SIZE;
+	while (n * 2 <= length && n * 2 <= cap) n *= 2;
+	return n;
+}
+
+// Plans, windows and weighting tables are read-only once built: share them between analysers so the
+// one-shot server/CLI path does not rebuild them per call.
+const fftCache = new Map<number, FFT>();
+const windowCache = new Map<string, Float64Array>();
+const weightCache = new Map<string, Float64Array>();
+const CACHE_LIMIT = 8;
+
+function cached<K, V>(map: Map<K, V>, key: K, make: () => V): V {
+	let v = map.get(key);
+	if (v === undefined) {
+		if (map.size >= CACHE_LIMIT) map.delete(map.keys().next().value as K);
+		v = make();
+		map.set(key, v);
+	}
+	return v;
+}
+
+export function sharedFft(n: number): FFT {
+	return cached(fftCache, n, () => new FFT(n));
+}
+export function sharedWindow(name: WindowName, n: number): Float64Array {
+	return cached(windowCache, `${name}/${n}`, () => makeWindow(name, n));
+}
+function sharedAWeights(bins: number, binHz: number): Float64Array {
+	return cached(weightCache, `${bins}/${binHz}`, () => aWeightingTable(bins, binHz));
+}
+
+export type AveragingMode = 'none' | 'power' | 'exponential';
+
+export interface AnalyzerOptions extends Omit<AnalysisOptions, 'fftSize'> {
+	/** 'power': mean of the last `averages` frames; 'exponential': smoothing by `alpha`. */
+	averaging?: AveragingMode;
+	/** Exponential smoothing factor 0 < alpha ≤ 1 (weight of the newest frame). Default 0.25. */
+	alpha?: number;
+	/** Keep a magnitude spectrum for plotting (default true). */
+	spectrum?: boolean;
+}
+
+// Layout of the per-frame figures vector (sample units², before full-scale scaling).
+const V_P1 = 0; // fundamental power
+const V_NU = 1; // fundamental frequency, bins
+const V_DC = 2; // DC, sample units
+const V_T = 3; // total in-band power
+const V_TA = 4; // total in-band power, A-weighted
+const V_R = 5; // residual (all but fundamental) in band
+const V_RA = 6; // residual, A-weighted
+const V_N = 7; // noise (all but fundamental, harmonics, DC) in band
+const V_NA = 8; // noise, A-weighted
+const V_H = 9; // harmonic powers from order 2 (NaN when outside the band)
+
+interface ResolvedConditions {
+	window: WindowName;
+	bandHz: [number, number];
+	weighting: Weighting;
+	loadOhms: number | null;
+	referenceVrms: number | null;
+	maxHarmonic: number;
+}
+
+function resolveConditions(sampleRateHz: number, options: AnalysisOptions): ResolvedConditions {
+	const nyquist = sampleRateHz / 2;
+	const band = options.bandHz ?? DEFAULT_BAND_HZ;
+	const lo = Math.max(0, band[0]);
+	const hi = Math.min(nyquist, band[1]);
+	if (!(hi > lo)) throw new RangeError(`band ${band[0]}–${band[1]} Hz is empty at ${sampleRateHz} Hz sample rate`);
+	const window = options.window ?? ANALYSIS_WINDOW;
+	if (!(window in windows)) throw new RangeError(`unknown window "${window}"`);
+	const maxHarmonic = Math.max(2, Math.min(50, Math.floor(options.maxHarmonic ?? 10)));
+	return {
+		window,
+		bandHz: [lo, hi],
+		weighting: options.weighting ?? 'none',
+		loadOhms: options.loadOhms && options.loadOhms > 0 ? options.loadOhms : null,
+		referenceVrms: options.referenceVrms && options.referenceVrms > 0 ? options.referenceVrms : null,
+		maxHarmonic
+	};
+}
+
+/**
+ * Reusable analyser for one channel at a fixed FFT size and sample rate. Steady-state calls allocate
+ * nothing: the returned ChannelResult and the spectrum array are reused by the next call (copy them,
+ * e.g. with structuredClone, to keep them). Use one Analyzer per channel: averaging state is per channel.
+ */
+export class Analyzer {
+	readonly fftSize: number;
+	readonly sampleRateHz: number;
+	readonly binHz: number;
+	readonly bins: number;
+	readonly conditions: ResolvedConditions;
+	private averaging: AveragingMode;
+	private averages: number;
+	private alpha: number;
+	private readonly wantSpectrum: boolean;
+
+	private readonly fft: FFT;
+	private readonly awin: Float64Array;
+	private readonly dwin: Float64Array | null; // display window when it differs from the analysis one
+	private readonly frame: Float64Array;
+	private readonly spec: Float64Array;
+	private readonly resid: Float64Array;
+	private readonly dspec: Float64Array | null;
+	private readonly fitter: ToneFitter;
+	private readonly aw2: Float64Array;
+	private readonly powerScale: number; // |X|² → mean-square (one side), analysis window
+	private readonly dispScale: number; // |X|² → V rms² per bin at 1 V full scale, display window
+	private readonly kLo: number;
+	private readonly kHi: number;
+
+	private readonly nv: number;
+	private readonly cur: Float64Array;
+	private readonly avg: Float64Array;
+	private readonly ring: Float64Array;
+	private readonly binPow: Float64Array;
+	private readonly binAvg: Float64Array;
+	private readonly binRing: Float64Array | null;
+	private readonly binSum: Float64Array | null;
+	private frames = 0;
+	private ringPos = 0;
+	private readonly _spectrumDbv: Float32Array;
+	private spectrumDirty = false;
+	private lastFullScale = 1;
+	private readonly result: ChannelResult;
+	private sumP = 0;
+	private sumPA = 0;
+	private readonly ivStart: Int32Array;
+	private readonly ivEnd: Int32Array;
+	private ivCount = 0;
+
+	constructor(fftSize: number, sampleRateHz: number, options: AnalyzerOptions = {}) {
+		if (!isPowerOfTwo(fftSize) || fftSize < MIN_FFT_SIZE || fftSize > MAX_FFT_SIZE)
+			throw new RangeError(`FFT size must be a power of two from ${MIN_FFT_SIZE} to ${MAX_FFT_SIZE}, got ${fftSize}`);
+		if (!(sampleRateHz > 0)) throw new RangeError(`sample rate must be positive, got ${sampleRateHz}`);
+		this.fftSize = fftSize;
+		this.sampleRateHz = sampleRateHz;
+		this.binHz = sampleRateHz / fftSize;
+		this.bins = fftSize / 2 + 1;
+		this.conditions = resolveConditions(sampleRateHz, options);
+		this.averaging = options.averaging ?? ((options.averages ?? 1) > 1 ? 'power' : 'none');
+		this.averages = Math.max(1, Math.floor(options.averages ?? 1));
+		this.alpha = Math.min(1, Math.max(1e-4, options.alpha ?? 0.25));
+		this.wantSpectrum = options.spectrum ?? true;
+
+		this.fft = sharedFft(fftSize);
+		this.awin = sharedWindow(ANALYSIS_WINDOW, fftSize);
+		this.dwin =
+			this.wantSpectrum && this.conditions.window !== ANALYSIS_WINDOW ? sharedWindow(this.conditions.window, fftSize) : null;
+		this.frame = new Float64Array(fftSize);
+		this.spec = new Float64Array(2 * fftSize);
+		this.resid = new Float64Array(2 * this.bins);
+		this.dspec = this.dwin ? new Float64Array(2 * fftSize) : null;
+		this.fitter = new ToneFitter(fftSize, ANALYSIS_WINDOW);
+		this.aw2 = sharedAWeights(this.bins, this.binHz);
+
+		let s2 = 0;
+		for (let i = 0; i < fftSize; i++) s2 += this.awin[i] * this.awin[i];
+		this.powerScale = 2 / (fftSize * s2);
+		const dw = this.dwin ?? this.awin;
+		let s1 = 0;
+		for (let i = 0; i < fftSize; i++) s1 += dw[i];
+		// A bin-centred sine of amplitude A gives |X| = A·Σw/2, so V rms² = |X|²·2/(Σw)².
+		this.dispScale = 2 / (s1 * s1);
+
+		const [lo, hi] = this.conditions.bandHz;
+		this.kLo = Math.max(0, Math.ceil(lo / this.binHz - 1e-9));
+		this.kHi = Math.min(this.bins - 1, Math.floor(hi / this.binHz + 1e-9));
+		if (this.kHi - this.kLo < 2) throw new RangeError(`band ${lo}–${hi} Hz holds fewer than 3 bins at FFT size ${fftSize}`);
+
+		this.nv = V_H + this.conditions.maxHarmonic - 1;
+		this.ivStart = new Int32Array(this.conditions.maxHarmonic + 2);
+		this.ivEnd = new Int32Array(this.conditions.maxHarmonic + 2);
+		this.cur = new Float64Array(this.nv);
+		this.avg = new Float64Array(this.nv);
+		this.ring = new Float64Array(this.nv * this.averages);
+		this.binPow = new Float64Array(this.wantSpectrum ? this.bins : 0);
+		this.binAvg = new Float64Array(this.wantSpectrum ? this.bins : 0);
+		this.binRing = this.wantSpectrum && this.averages > 1 ? new Float64Array(this.bins * this.averages) : null;
+		this.binSum = this.binRing ? new Float64Array(this.bins) : null;
+		this._spectrumDbv = new Float32Array(this.wantSpectrum ? this.bins : 0);
+
+		const harmonics: HarmonicResult[] = [];
+		this.result = {
+			channel: 0,
+			frequencyHz: 0,
+			levelVrms: 0,
+			levelDbv: MIN_DB,
+			levelDbu: MIN_DB,
+			levelDbfs: MIN_DB,
+			thdPercent: 0,
+			thdDb: MIN_DB,
+			thdnPercent: 0,
+			thdnDb: MIN_DB,
+			noiseVrms: 0,
+			noiseDbv: MIN_DB,
+			snrDb: 0,
+			noiseWeightedVrms: 0,
+			snrWeightedDb: 0,
+			sinadDb: 0,
+			enob: 0,
+			totalVrms: 0,
+			dcVolts: 0,
+			harmonics
+		};
+	}
+
+	/** Frames currently in the average. */
+	get averagedFrames(): number {
+		return this.averaging === 'power' ? Math.min(this.frames, this.averages) : Math.min(this.frames, 1);
+	}
+
+	setAveraging(mode: AveragingMode, framesOrAlpha?: number): void {
+		if (mode === 'power' && framesOrAlpha && Math.floor(framesOrAlpha) !== this.averages)
+			throw new RangeError('the number of power averages is fixed at construction; make a new Analyzer');
+		if (mode === 'exponential' && framesOrAlpha) this.alpha = Math.min(1, Math.max(1e-4, framesOrAlpha));
+		this.averaging = mode;
+		this.reset();
+	}
+
+	reset(): void {
+		this.frames = 0;
+		this.ringPos = 0;
+		this.avg.fill(0);
+		this.ring.fill(0);
+		this.binAvg.fill(0);
+		this.binRing?.fill(0);
+		this.binSum?.fill(0);
+	}
+
+	/**
+	 * Magnitude spectrum in dBV per bin (bins 0…N/2, display window, averaged), for plotting.
+	 * Amplitude-correct for tones: a bin-centred sine reads its rms level.
+	 */
+	get spectrumDbv(): Float32Array {
+		if (this.spectrumDirty) {
+			const s = this.dispScale * this.lastFullScale * this.lastFullScale;
+			const out = this._spectrumDbv;
+			const src = this.binAvg;
+			for (let k = 0; k < out.length; k++) {
+				const p = src[k] * s;
+				out[k] = p > 1e-30 ? 10 * Math.log10(p) : MIN_DB;
+			}
+			// DC and Nyquist are not split between ±f, so their one-sided rms doubling does not apply.
+			if (out.length > 0) {
+				out[0] -= 3.0103;
+				out[out.length - 1] -= 3.0103;
+			}
+			this.spectrumDirty = false;
+		}
+		return this._spectrumDbv;
+	}
+
+	/**
+	 * Analyses the latest `fftSize` samples of `samples` (instantaneous volts = sample × fullScaleVolts).
+	 * The returned object is reused by the next call.
+	 */
+	analyze(samples: Float32Array | Float64Array, fullScaleVolts = 1, channel = 0): ChannelResult {
+		const n = this.fftSize;
+		if (samples.length < n) throw new RangeError(`need ${n} samples, got ${samples.length}`);
+		const off = samples.length - n;
+		this.measureFrame(samples, off);
+		this.accumulate();
+		this.lastFullScale = fullScaleVolts;
+		return this.fill(fullScaleVolts, channel);
+	}
+
+	/**
+	 * Σ|X_k|²·(½ at DC and Nyquist) over bins k0…k1, and the same A-weighted, into sumP/sumPA.
+	 * The fits only change bins inside a few short intervals, so the long stretches between them are
+	 * summed once and shared by the total, residual and noise figures.
+	 */
+	private bandSum(x: Float64Array, k0: number, k1: number): void {
+		const aw2 = this.aw2;
+		const half = this.fftSize >>> 1;
+		let p = 0;
+		let pa = 0;
+		for (let k = k0; k <= k1; k++) {
+			const v = x[2 * k] * x[2 * k] + x[2 * k + 1] * x[2 * k + 1];
+			p += v;
+			pa += v * aw2[k];
+		}
+		// Bins 0 and N/2 are not split between ±f: count them once.
+		if (k0 === 0 && k1 >= 0) {
+			const v = (x[0] * x[0] + x[1] * x[1]) / 2;
+			p -= v;
+			pa -= v * aw2[0];
+		}
+		if (k1 === half && k0 <= half) {
+			const v = (x[2 * half] * x[2 * half] + x[2 * half + 1] * x[2 * half + 1]) / 2;
+			p -= v;
+			pa -= v * aw2[half];
+		}
+		this.sumP = p;
+		this.sumPA = pa;
+	}
+
+	/** Adds the support interval [c − W, c + W] (clipped) to the list, keeping it sorted and merged. */
+	private addInterval(center: number): void {
+		const w = this.fitter.subtractHalfWidth;
+		const a = Math.max(this.kLo, center - w);
+		const b = Math.min(this.kHi, center + w);
+		if (b < a) return;
+		const st = this.ivStart;
+		const en = this.ivEnd;
+		// Insert, then merge neighbours; the list holds at most maxHarmonic + 1 intervals.
+		let i = this.ivCount;
+		while (i > 0 && st[i - 1] > a) {
+			st[i] = st[i - 1];
+			en[i] = en[i - 1];
+			i--;
+		}
+		st[i] = a;
+		en[i] = b;
+		this.ivCount++;
+		let o = 0;
+		for (let j = 1; j < this.ivCount; j++) {
+			if (st[j] <= en[o] + 1) {
+				if (en[j] > en[o]) en[o] = en[j];
+			} else {
+				o++;
+				st[o] = st[j];
+				en[o] = en[j];
+			}
+		}
+		this.ivCount = o + 1;
+	}
+
+	/** Σ over the support intervals of x (band-limited), into sumP/sumPA. */
+	private intervalSum(x: Float64Array): void {
+		let p = 0;
+		let pa = 0;
+		for (let i = 0; i < this.ivCount; i++) {
+			this.bandSum(x, this.ivStart[i], this.ivEnd[i]);
+			p += this.sumP;
+			pa += this.sumPA;
+		}
+		this.sumP = p;
+		this.sumPA = pa;
+	}
+
+	/** Level (V rms) of the component at exactly `frequencyHz` in the last analysed frame (e.g. crosstalk). */
+	toneVrmsAt(frequencyHz: number): number {
+		const nu = frequencyHz / this.binHz;
+		if (!(nu > 0 && nu < this.fftSize / 2)) return 0;
+		this.fitter.fitFixed(this.spec, nu, false);
+		return (this.fitter.amplitude * this.lastFullScale) / Math.SQRT2;
+	}
+
+	/** Window, transform, fit, subtract: fills `cur` with this frame's figures. */
+	private measureFrame(samples: Float32Array | Float64Array, off: number): void {
+		const n = this.fftSize;
+		const frame = this.frame;
+		const w = this.awin;
+		for (let i = 0; i < n; i++) frame[i] = samples[off + i] * w[i];
+		this.fft.realTransform(this.spec, frame);
+		const spec = this.spec;
+		const cur = this.cur;
+		const kLo = this.kLo;
+		const kHi = this.kHi;
+		const half = n >>> 1;
+		const ps = this.powerScale;
+		const fit = this.fitter;
+		const c = this.conditions;
+
+		// Fundamental: largest in-band bin, refined by the 4-parameter fit.
+		const kPeak = peakBin(spec, Math.max(kLo, 1), Math.min(kHi, half - 1));
+		const nu0 = interpolatePeak(spec, kPeak, half);
+		const nearDc = nu0 < 2 * fit.fitHalfWidth + 2;
+		fit.fitFree(spec, nu0, nearDc);
+		const a = fit.a;
+		const b = fit.b;
+		const nu = fit.nu;
+		cur[V_P1] = (a * a + b * b) / 2;
+		cur[V_NU] = nu;
+
+		// Bins the fits will touch: DC, the fundamental and the in-band harmonics.
+		this.ivCount = 0;
+		this.addInterval(0);
+		this.addInterval(Math.round(nu));
+		const [loHz, hiHz] = c.bandHz;
+		for (let h = 2; h <= c.maxHarmonic; h++) {
+			const nuH = h * nu;
+			const fHz = nuH * this.binHz;
+			if (fHz >= loHz && fHz <= hiHz && nuH <= half) this.addInterval(Math.round(nuH));
+		}
+
+		// Everything between the intervals is the same in the spectrum, the residual and the noise.
+		let outP = 0;
+		let outPA = 0;
+		let k = kLo;
+		for (let i = 0; i <= this.ivCount; i++) {
+			const end = i < this.ivCount ? this.ivStart[i] - 1 : kHi;
+			if (end >= k) {
+				this.bandSum(spec, k, end);
+				outP += this.sumP;
+				outPA += this.sumPA;
+			}
+			if (i < this.ivCount) k = this.ivEnd[i] + 1;
+		}
+		this.intervalSum(spec);
+		cur[V_T] = (outP + this.sumP) * ps;
+		cur[V_TA] = (outPA + this.sumPA) * ps;
+
+		const resid = this.resid;
+		// Only the interval bins change from here on; copy just those.
+		for (let i = 0; i < this.ivCount; i++) {
+			const s0 = 2 * this.ivStart[i];
+			const s1 = 2 * this.ivEnd[i] + 2;
+			for (let j = s0; j < s1; j++) resid[j] = spec[j];
+		}
+		// The subtraction windows may reach outside the band: copy their reach as well.
+		const reach = fit.subtractHalfWidth;
+		for (let j = 0; j <= Math.min(half, reach); j++) {
+			resid[2 * j] = spec[2 * j];
+			resid[2 * j + 1] = spec[2 * j + 1];
+		}
+		const kc = Math.round(nu);
+		for (let j = Math.max(0, kc - reach); j <= Math.min(half, kc + reach); j++) {
+			resid[2 * j] = spec[2 * j];
+			resid[2 * j + 1] = spec[2 * j + 1];
+		}
+		fit.subtract(resid, a, b, nu, 0);
+		let dc = fit.dc;
+		if (nearDc) fit.subtractDc(resid, dc);
+		else {
+			dc = fit.fitDc(resid);
+			fit.subtractDc(resid, dc);
+		}
+		cur[V_DC] = dc;
+		this.intervalSum(resid);
+		cur[V_R] = (outP + this.sumP) * ps;
+		cur[V_RA] = (outPA + this.sumPA) * ps;
+
+		// Harmonics at exact multiples of the fitted frequency, each removed after it is measured.
+		for (let h = 2; h <= c.maxHarmonic; h++) {
+			const nuH = h * nu;
+			const fHz = nuH * this.binHz;
+			if (fHz < loHz || fHz > hiHz || nuH > half) {
+				cur[V_H + h - 2] = NaN;
+				continue;
+			}
+			const kh = Math.round(nuH);
+			for (let j = Math.max(0, kh - reach); j <= Math.min(half, kh + reach); j++) {
+				// Bins outside the band were never copied; harmonics straddling an edge need them.
+				if (j < kLo || j > kHi) {
+					resid[2 * j] = spec[2 * j];
+					resid[2 * j + 1] = spec[2 * j + 1];
+				}
+			}
+			fit.fitFixed(resid, nuH, false);
+			cur[V_H + h - 2] = (fit.a * fit.a + fit.b * fit.b) / 2;
+			fit.subtract(resid, fit.a, fit.b, nuH, 0);
+		}
+		this.intervalSum(resid);
+		cur[V_N] = (outP + this.sumP) * ps;
+		cur[V_NA] = (outPA + this.sumPA) * ps;
+
+		if (this.wantSpectrum) {
+			let src = spec;
+			if (this.dwin && this.dspec) {
+				const dw = this.dwin;
+				for (let i = 0; i < n; i++) frame[i] = samples[off + i] * dw[i];
+				this.fft.realTransform(this.dspec, frame);
+				src = this.dspec;
+			}
+			const bp = this.binPow;
+			for (let k = 0; k < this.bins; k++) bp[k] = src[2 * k] * src[2 * k] + src[2 * k + 1] * src[2 * k + 1];
+		}
+	}
+
+	private accumulate(): void {
+		const nv = this.nv;
+		const cur = this.cur;
+		const avg = this.avg;
+		this.frames++;
+		if (this.averaging === 'power' && this.averages > 1) {
+			const slot = this.ringPos;
+			this.ring.set(cur, slot * nv);
+			const used = Math.min(this.frames, this.averages);
+			for (let v = 0; v < nv; v++) {
+				let s = 0;
+				for (let i = 0; i < used; i++) s += this.ring[i * nv + v];
+				avg[v] = s / used;
+			}
+			if (this.wantSpectrum && this.binRing && this.binSum) {
+				const bins = this.bins;
+				const br = this.binRing;
+				const bp = this.binPow;
+				const bs = this.binSum;
+				const base = slot * bins;
+				if (slot === 0 && this.frames > this.averages) {
+					// Re-sum exactly each time the ring wraps so add/subtract rounding cannot build up.
+					br.set(bp, base);
+					bs.fill(0);
+					for (let i = 0; i < this.averages; i++) for (let k = 0; k < bins; k++) bs[k] += br[i * bins + k];
+				} else {
+					for (let k = 0; k < bins; k++) {
+						bs[k] += bp[k] - br[base + k];
+						br[base + k] = bp[k];
+					}
+				}
+				const inv = 1 / used;
+				const ba = this.binAvg;
+				for (let k = 0; k < bins; k++) ba[k] = Math.max(0, bs[k] * inv);
+			}
+			this.ringPos = (slot + 1) % this.averages;
+		} else if (this.averaging === 'exponential' && this.frames > 1) {
+			const al = this.alpha;
+			for (let v = 0; v < nv; v++) avg[v] += al * (cur[v] - avg[v]);
+			if (this.wantSpectrum) {
+				const bp = this.binPow;
+				const ba = this.binAvg;
+				for (let k = 0; k < this.bins; k++) {
+					ba[k] += al * (bp[k] - ba[k]);
+				}
+			}
+		} else {
+			avg.set(cur);
+			if (this.wantSpectrum) this.binAvg.set(this.binPow);
+		}
+		if (this.wantSpectrum) this.spectrumDirty = true;
+	}
+
+	/** Converts the averaged figures (sample units) to the result at `fs` volts full scale. */
+	private fill(fs: number, channel: number): ChannelResult {
+		const avg = this.avg;
+		const out = this.result;
+		const fs2 = fs * fs;
+		const p1 = avg[V_P1];
+		out.channel = channel;
+		out.frequencyHz = avg[V_NU] * this.binHz;
+		out.levelVrms = Math.sqrt(p1) * fs;
+		out.levelDbv = db20(out.levelVrms);
+		out.levelDbu = out.levelVrms > 0 ? Math.max(MIN_DB, vrmsToDbu(out.levelVrms)) : MIN_DB;
+		out.levelDbfs = db10(p1 / 0.5);
+		const c = this.conditions;
+		if (c.loadOhms !== null) out.powerW = wattsIntoLoad(out.levelVrms, c.loadOhms);
+		else delete out.powerW;
+		if (c.referenceVrms !== null) out.gainDb = db20(out.levelVrms / c.referenceVrms);
+		else delete out.gainDb;
+
+		const hs = out.harmonics;
+		let hsum = 0;
+		let count = 0;
+		for (let h = 2; h <= c.maxHarmonic; h++) {
+			const ph = avg[V_H + h - 2];
+			if (!Number.isFinite(ph)) continue;
+			hsum += ph;
+			let item = hs[count];
+			if (!item) {
+				item = { order: 0, frequencyHz: 0, levelDbc: 0, levelVrms: 0 };
+				hs.push(item);
+			}
+			item.order = h;
+			item.frequencyHz = h * out.frequencyHz;
+			item.levelDbc = db10(ph / p1);
+			item.levelVrms = Math.sqrt(ph) * fs;
+			count++;
+		}
+		hs.length = count;
+		const thd = p1 > 0 ? Math.sqrt(hsum / p1) : 0;
+		out.thdPercent = thd * 100;
+		out.thdDb = db20(thd);
+		const weighted = c.weighting === 'a';
+		const r = weighted ? avg[V_RA] : avg[V_R];
+		const t = weighted ? avg[V_TA] : avg[V_T];
+		const thdn = t > 0 ? Math.sqrt(r / t) : 0;
+		out.thdnPercent = thdn * 100;
+		out.thdnDb = db20(thdn);
+		out.noiseVrms = Math.sqrt(avg[V_N] * fs2);
+		out.noiseDbv = db20(out.noiseVrms);
+		out.snrDb = db10(p1 / avg[V_N]);
+		out.noiseWeightedVrms = Math.sqrt(avg[V_NA] * fs2);
+		out.snrWeightedDb = db10(p1 / avg[V_NA]);
+		out.sinadDb = db10(p1 / avg[V_R]);
+		out.enob = (out.sinadDb - 1.76) / 6.02;
+		out.totalVrms = Math.sqrt(avg[V_T] * fs2);
+		out.dcVolts = avg[V_DC] * fs;
+		return out;
+	}
+}
+
+function cloneResult(r: ChannelResult): ChannelResult {
+	return { ...r, harmonics: r.harmonics.map((h) => ({ ...h })) };
+}
+
+/** Analysis of one channel's samples: `averages` consecutive frames of fftSize from the start, power-averaged. */
+export function analyzeChannel(
+	samples: Float32Array,
+	sampleRateHz: number,
+	fullScaleVolts: number,
+	options: AnalysisOptions = {},
+	channel = 0
+): ChannelResult {
+	const { result } = analyzeOne(samples, sampleRateHz, fullScaleVolts, options, channel);
+	return result;
+}
+
+function analyzeOne(
+	samples: Float32Array,
+	sampleRateHz: number,
+	fullScaleVolts: number,
+	options: AnalysisOptions,
+	channel: number
+): { result: ChannelResult; analyzer: Analyzer; frames: number } {
+	const fftSize = options.fftSize ?? defaultFftSize(samples.length);
+	if (samples.length < fftSize)
+		throw new RangeError(`need at least ${fftSize} samples for FFT size ${fftSize}, got ${samples.length}`);
+	const wanted = Math.max(1, Math.floor(options.averages ?? 1));
+	const frames = Math.max(1, Math.min(wanted, Math.floor(samples.length / fftSize)));
+	const analyzer = new Analyzer(fftSize, sampleRateHz, {
+		...options,
+		averages: frames,
+		averaging: frames > 1 ? 'power' : 'none',
+		spectrum: false
+	});
+	let r: ChannelResult | undefined;
+	for (let i = 0; i < frames; i++) r = analyzer.analyze(samples.subarray(i * fftSize, (i + 1) * fftSize), fullScaleVolts, channel);
+	return { result: cloneResult(r as ChannelResult), analyzer, frames };
+}
+
+/** Level (V rms) of the component at exactly `frequencyHz` in `samples` (first fftSize samples). */
+export function toneLevelAt(
+	samples: Float32Array,
+	sampleRateHz: number,
+	frequencyHz: number,
+	fullScaleVolts = 1,
+	fftSize = defaultFftSize(samples.length)
+): number {
+	const n = fftSize;
+	if (samples.length < n) throw new RangeError(`need ${n} samples, got ${samples.length}`);
+	const fft = sharedFft(n);
+	const w = sharedWindow(ANALYSIS_WINDOW, n);
+	const frame = new Float64Array(n);
+	for (let i = 0; i < n; i++) frame[i] = samples[i] * w[i];
+	const spec = new Float64Array(2 * n);
+	fft.realTransform(spec, frame);
+	const fit = new ToneFitter(n, ANALYSIS_WINDOW);
+	fit.fitFixed(spec, (frequencyHz * n) / sampleRateHz, false);
+	return (fit.amplitude * fullScaleVolts) / Math.SQRT2;
+}
+
+/**
+ * Crosstalk from a driven channel into an undriven one: the level of the driven channel's fundamental
+ * found in `other`, relative to the driven level, dB.
+ */
+export function crosstalkDb(
+	driven: Float32Array,
+	other: Float32Array,
+	sampleRateHz: number,
+	fullScaleVolts: number | [number, number] = 1,
+	options: AnalysisOptions = {}
+): number {
+	const [fsDriven, fsOther] = Array.isArray(fullScaleVolts) ? fullScaleVolts : [fullScaleVolts, fullScaleVolts];
+	const fftSize = options.fftSize ?? defaultFftSize(Math.min(driven.length, other.length));
+	const d = analyzeChannel(driven, sampleRateHz, fsDriven, { ...options, fftSize, averages: 1 });
+	return db20(toneLevelAt(other, sampleRateHz, d.frequencyHz, fsOther, fftSize) / d.levelVrms);
+}
+
+/** Channel balance: level of `a` relative to `b`, dB. */
+export function channelBalanceDb(a: Pick<ChannelResult, 'levelVrms'>, b: Pick<ChannelResult, 'levelVrms'>): number {
+	return db20(a.levelVrms / b.levelVrms);
+}
+
+/** Channels 0 and 1 must differ by at least this much for crosstalk to be reported. */
+export const CROSSTALK_MIN_BALANCE_DB = 10;
+
+/** Analysis of every channel of a frame set, with balance and crosstalk for two or more channels. */
+export function analyzeFrames(
+	channels: Float32Array[],
+	sampleRateHz: number,
+	fullScaleVolts: number | number[],
+	options: AnalysisOptions = {}
+): AnalysisResult {
+	if (channels.length === 0) throw new RangeError('no channels to analyse');
+	const minLen = Math.min(...channels.map((c) => c.length));
+	const fftSize = options.fftSize ?? defaultFftSize(minLen);
+	const fsv = channels.map((_, i) => (Array.isArray(fullScaleVolts) ? (fullScaleVolts[i] ?? fullScaleVolts[0] ?? 1) : fullScaleVolts));
+	const runs = channels.map((c, i) => analyzeOne(c, sampleRateHz, fsv[i], { ...options, fftSize }, i));
+	const results = runs.map((r) => r.result);
+	const frames = runs[0].frames;
+	const rc = runs[0].analyzer.conditions;
+	const out: AnalysisResult = {
+		sampleRateHz,
+		conditions: {
+			window: rc.window,
+			analysisWindow: ANALYSIS_WINDOW,
+			method: 'sine-fit-residual',
+			fftSize,
+			averages: frames,
+			bandHz: rc.bandHz,
+			weighting: rc.weighting,
+			loadOhms: rc.loadOhms,
+			referenceVrms: rc.referenceVrms,
+			fullScaleVolts: fsv,
+			binHz: sampleRateHz / fftSize,
+			maxHarmonic: rc.maxHarmonic,
+			thdReference: 'fundamental',
+			thdnReference: 'total-in-band'
+		},
+		channels: results
+	};
+	if (results.length >= 2) {
+		out.balanceDb = channelBalanceDb(results[0], results[1]);
+		// Crosstalk only means something when one channel is driven and the other is not.
+		if (Math.abs(out.balanceDb) >= CROSSTALK_MIN_BALANCE_DB) {
+			const from = results[0].levelVrms >= results[1].levelVrms ? 0 : 1;
+			const to = 1 - from;
+			const otherVrms = runs[to].analyzer.toneVrmsAt(results[from].frequencyHz);
+			out.crosstalkDb = db20(otherVrms / results[from].levelVrms);
+			out.crosstalkFromChannel = from;
+			out.crosstalkToChannel = to;
+		}
+	}
+	return out;
+}

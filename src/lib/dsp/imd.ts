@@ -1,0 +1,157 @@
+// Intermodulation distortion from two-tone signals (REFERENCES.md §7), measured with the same tone fit
+// as the analyser: both tones are fitted and removed, then each product is fitted at its exact frequency.
+//
+// Conventions fixed here (and checked in imd.test.ts):
+// - SMPTE (RP120 tones 60 Hz + 7 kHz, 4:1): d2 = (U(f2−f1) + U(f2+f1))/U(f2), d3 = (U(f2−2f1) + U(f2+2f1))/U(f2);
+//   sidebands add linearly within an order, orders combine as rss: IMD = √(d2² + d3²) (IEC 60268-3 style,
+//   relative to the HF tone). The classic envelope-demodulation reading is about 1/√2 of this.
+// - Twin-tone / difference frequency (19 + 20 kHz, 1:1): d2 = U(f2−f1)/(U1 + U2),
+//   d3 = (U(2f1−f2) + U(2f2−f1))/(U1 + U2), IMD = √(d2² + d3²), relative to the sum of the tone amplitudes.
+
+import FFT from 'fft.js';
+import { ANALYSIS_WINDOW, makeWindow, windows } from './windows';
+import { ToneFitter, interpolatePeak, peakBin } from './tonefit';
+import { db20, defaultFftSize } from './analyzer';
+
+export interface ImdProduct {
+	label: string;
+	order: 2 | 3;
+	frequencyHz: number;
+	levelVrms: number;
+	/** Relative to the reference (HF tone for SMPTE, U1 + U2 for twin-tone), dB. */
+	levelDbr: number;
+}
+
+export interface ImdResult {
+	method: 'smpte' | 'twin-tone';
+	reference: 'hf-tone' | 'sum-of-tones';
+	f1Hz: number;
+	f2Hz: number;
+	level1Vrms: number;
+	level2Vrms: number;
+	d2Percent: number;
+	d3Percent: number;
+	imdPercent: number;
+	imdDb: number;
+	products: ImdProduct[];
+	fftSize: number;
+}
+
+export interface ImdOptions {
+	f1Hz?: number;
+	f2Hz?: number;
+	fftSize?: number;
+	fullScaleVolts?: number;
+}
+
+interface Prepared {
+	fit: ToneFitter;
+	spec: Float64Array;
+	binHz: number;
+	n: number;
+}
+
+function prepare(samples: Float32Array, sampleRateHz: number, fftSize: number, minSpacingHz: number): Prepared {
+	const n = fftSize;
+	if (samples.length < n) throw new RangeError(`need ${n} samples, got ${samples.length}`);
+	const binHz = sampleRateHz / n;
+	const needBins = 2 * windows[ANALYSIS_WINDOW].mainlobeHalfWidthBins + 1;
+	if (minSpacingHz / binHz < needBins) {
+		const minN = 2 ** Math.ceil(Math.log2((needBins * sampleRateHz) / minSpacingHz));
+		throw new RangeError(`IMD products ${minSpacingHz} Hz apart need an FFT of at least ${minN} samples`);
+	}
+	const w = makeWindow(ANALYSIS_WINDOW, n);
+	const frame = new Float64Array(n);
+	for (let i = 0; i < n; i++) frame[i] = samples[i] * w[i];
+	const spec = new Float64Array(2 * n);
+	new FFT(n).realTransform(spec, frame);
+	return { fit: new ToneFitter(n, ANALYSIS_WINDOW), spec, binHz, n };
+}
+
+/** Fits and removes the tone nearest `nominalHz`; returns [frequency Hz, amplitude]. */
+function takeTone(p: Prepared, nominalHz: number): [number, number] {
+	const half = p.n / 2;
+	const c = nominalHz / p.binHz;
+	const span = Math.max(3, c * 0.02);
+	const k = peakBin(p.spec, Math.max(1, Math.floor(c - span)), Math.min(half - 1, Math.ceil(c + span)));
+	p.fit.fitFree(p.spec, interpolatePeak(p.spec, k, half), c < 20);
+	const r: [number, number] = [p.fit.nu * p.binHz, p.fit.amplitude];
+	p.fit.subtract(p.spec);
+	return r;
+}
+
+function productAmp(p: Prepared, fHz: number): number {
+	const nu = fHz / p.binHz;
+	if (nu <= 0 || nu >= p.n / 2) return 0;
+	p.fit.fitFixed(p.spec, nu, false);
+	return p.fit.amplitude;
+}
+
+function finish(
+	method: ImdResult['method'],
+	f1: number,
+	f2: number,
+	u1: number,
+	u2: number,
+	ref: number,
+	prods: { label: string; order: 2 | 3; f: number; u: number }[],
+	fs: number,
+	fftSize: number
+): ImdResult {
+	const d2 = prods.filter((q) => q.order === 2).reduce((s, q) => s + q.u, 0) / ref;
+	const d3 = prods.filter((q) => q.order === 3).reduce((s, q) => s + q.u, 0) / ref;
+	const imd = Math.hypot(d2, d3);
+	return {
+		method,
+		reference: method === 'smpte' ? 'hf-tone' : 'sum-of-tones',
+		f1Hz: f1,
+		f2Hz: f2,
+		level1Vrms: (u1 * fs) / Math.SQRT2,
+		level2Vrms: (u2 * fs) / Math.SQRT2,
+		d2Percent: d2 * 100,
+		d3Percent: d3 * 100,
+		imdPercent: imd * 100,
+		imdDb: db20(imd),
+		products: prods.map((q) => ({
+			label: q.label,
+			order: q.order,
+			frequencyHz: q.f,
+			levelVrms: (q.u * fs) / Math.SQRT2,
+			levelDbr: db20(q.u / ref)
+		})),
+		fftSize
+	};
+}
+
+/** SMPTE IMD: LF tone f1 (60 Hz) and HF tone f2 (7 kHz) at 4:1. */
+export function smpteImd(samples: Float32Array, sampleRateHz: number, options: ImdOptions = {}): ImdResult {
+	const f1n = options.f1Hz ?? 60;
+	const f2n = options.f2Hz ?? 7000;
+	const fftSize = options.fftSize ?? defaultFftSize(samples.length);
+	const p = prepare(samples, sampleRateHz, fftSize, f1n);
+	const [f1, u1] = takeTone(p, f1n);
+	const [f2, u2] = takeTone(p, f2n);
+	const prods = [
+		{ label: 'f2 − f1', order: 2 as const, f: f2 - f1 },
+		{ label: 'f2 + f1', order: 2 as const, f: f2 + f1 },
+		{ label: 'f2 − 2f1', order: 3 as const, f: f2 - 2 * f1 },
+		{ label: 'f2 + 2f1', order: 3 as const, f: f2 + 2 * f1 }
+	].map((q) => ({ ...q, u: productAmp(p, q.f) }));
+	return finish('smpte', f1, f2, u1, u2, u2, prods, options.fullScaleVolts ?? 1, fftSize);
+}
+
+/** Twin-tone (difference-frequency) IMD: equal tones f1 and f2 (19 + 20 kHz). */
+export function twinToneImd(samples: Float32Array, sampleRateHz: number, options: ImdOptions = {}): ImdResult {
+	const f1n = options.f1Hz ?? 19000;
+	const f2n = options.f2Hz ?? 20000;
+	const fftSize = options.fftSize ?? defaultFftSize(samples.length);
+	const p = prepare(samples, sampleRateHz, fftSize, Math.abs(f2n - f1n));
+	const [f1, u1] = takeTone(p, f1n);
+	const [f2, u2] = takeTone(p, f2n);
+	const prods = [
+		{ label: 'f2 − f1', order: 2 as const, f: f2 - f1 },
+		{ label: '2f1 − f2', order: 3 as const, f: 2 * f1 - f2 },
+		{ label: '2f2 − f1', order: 3 as const, f: 2 * f2 - f1 }
+	].map((q) => ({ ...q, u: productAmp(p, q.f) }));
+	return finish('twin-tone', f1, f2, u1, u2, u1 + u2, prods, options.fullScaleVolts ?? 1, fftSize);
+}

@@ -1,0 +1,70 @@
+// Names shared by the database schema, the server and the browser (roles, unit categories,
+// job statuses, part states) with their display labels. No server imports: forms use these.
+
+export const ROLES = ['technician', 'supervisor', 'admin'] as const;
+export type Role = (typeof ROLES)[number];
+
+export const ROLE_LABELS: Record<Role, string> = {
+	technician: 'Technician',
+	supervisor: 'Supervisor',
+	admin: 'Admin'
+};
+
+export const UNIT_CATEGORIES = [
+	'receiver',
+	'integrated-amplifier',
+	'power-amplifier',
+	'preamplifier',
+	'tuner',
+	'turntable',
+	'tape-deck',
+	'other'
+] as const;
+export type UnitCategory = (typeof UNIT_CATEGORIES)[number];
+
+export const UNIT_CATEGORY_LABELS: Record<UnitCategory, string> = {
+	receiver: 'Receiver',
+	'integrated-amplifier': 'Integrated amplifier',
+	'power-amplifier': 'Power amplifier',
+	preamplifier: 'Preamplifier',
+	tuner: 'Tuner',
+	turntable: 'Turntable',
+	'tape-deck': 'Tape deck',
+	other: 'Other'
+};
+
+export const JOB_STATUSES = [
+	'received',
+	'diagnosing',
+	'awaiting-parts',
+	'repairing',
+	'testing',
+	'awaiting-review',
+	'approved',
+	'returned',
+	'on-hold',
+	'declined'
+] as const;
+export type JobStatus = (typeof JOB_STATUSES)[number];
+
+export const JOB_STATUS_LABELS: Record<JobStatus, string> = {
+	received: 'Received',
+	diagnosing: 'Diagnosing',
+	'awaiting-parts': 'Awaiting parts',
+	repairing: 'Repairing',
+	testing: 'Testing',
+	'awaiting-review': 'Awaiting review',
+	approved: 'Approved',
+	returned: 'Returned to customer',
+	'on-hold': 'On hold',
+	declined: 'Declined'
+};
+
+export const PART_STATES = ['ordered', 'received', 'fitted'] as const;
+export type PartState = (typeof PART_STATES)[number];
+
+export const PART_STATE_LABELS: Record<PartState, string> = {
+	ordered: 'Ordered',
+	received: 'Received',
+	fitted: 'Fitted'
+};

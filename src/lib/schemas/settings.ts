@@ -1,0 +1,53 @@
+// Shop settings: their zod schemas and defaults. Shared by the server (stored as JSON per
+// key) and the admin settings form.
+import { z } from 'zod';
+
+export const soakLimitsSchema = z.object({
+	/** Heatsink temperature that stops a soak run. */
+	maxHeatsinkC: z.number().min(30).max(150),
+	/** Fastest tolerated heatsink warming, °C per minute. */
+	maxRiseCPerMin: z.number().positive().max(60),
+	/** Largest tolerated difference between the channels' heatsinks. */
+	maxDiffC: z.number().positive().max(100),
+	/** Optional THD+N ceiling during the soak in dB (relative), null for none. */
+	thdnCeilingDb: z.number().min(-160).max(0).nullable().optional()
+});
+export type SoakLimits = z.infer<typeof soakLimitsSchema>;
+
+export const shopSettingsSchema = z.object({
+	shopName: z.string().trim().min(1, 'Enter the shop name').max(120),
+	/** Where the browser finds the bench bridge. */
+	bridgeUrl: z
+		.string()
+		.trim()
+		.max(300)
+		.refine((s) => {
+			try {
+				const u = new URL(s);
+				return u.protocol === 'ws:' || u.protocol === 'wss:';
+			} catch {
+				return false;
+			}
+		}, 'Use a ws:// or wss:// address, like ws://127.0.0.1:8787'),
+	/** Local mains frequency: where hum shows up in the spectrum. */
+	mainsHz: z.union([z.literal(50), z.literal(60)], 'Mains is 50 Hz or 60 Hz'),
+	soakDefaultLimits: soakLimitsSchema
+});
+export type ShopSettings = z.infer<typeof shopSettingsSchema>;
+
+export const settingsPatchSchema = shopSettingsSchema
+	.partial()
+	.strict()
+	.refine((v) => Object.keys(v).length > 0, 'Nothing to change');
+export type SettingsPatch = z.infer<typeof settingsPatchSchema>;
+
+/** Soak limits a shop starts with (common practice for consumer amplifier heat soaks). */
+export const DEFAULT_SOAK_LIMITS: SoakLimits = {
+	maxHeatsinkC: 70,
+	maxRiseCPerMin: 3,
+	maxDiffC: 10,
+	thdnCeilingDb: null
+};
+
+export const SETTINGS_KEYS = ['shopName', 'bridgeUrl', 'mainsHz', 'soakDefaultLimits'] as const;
+export type SettingsKey = (typeof SETTINGS_KEYS)[number];

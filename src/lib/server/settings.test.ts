@@ -1,0 +1,57 @@
+// Shop settings: defaults, partial updates, validation, and tolerance of a bad stored row.
+import { beforeEach, describe, expect, it } from 'vitest';
+import { isHttpError } from '@sveltejs/kit';
+import { openDb, type Db } from './db/open';
+import * as table from './db/schema';
+import { defaultSettings, getSetting, getSettings, updateSettings } from './settings';
+import { env } from './env';
+
+let db: Db;
+beforeEach(() => {
+	db = openDb(':memory:');
+});
+
+function statusOf(fn: () => unknown): number | 'ok' {
+	try {
+		fn();
+		return 'ok';
+	} catch (e) {
+		if (isHttpError(e)) return e.status;
+		throw e;
+	}
+}
+
+describe('settings', () => {
+	it('answers defaults on an empty database', () => {
+		expect(getSettings(db)).toEqual({
+			shopName: 'Benchlight',
+			bridgeUrl: env.BRIDGE_URL,
+			mainsHz: 50,
+			// common practice for a consumer amplifier heat soak
+			soakDefaultLimits: { maxHeatsinkC: 70, maxRiseCPerMin: 3, maxDiffC: 10, thdnCeilingDb: null }
+		});
+	});
+
+	it('stores a partial update and keeps the rest', () => {
+		const s = updateSettings(db, { mainsHz: 60, shopName: 'Bench Row' });
+		expect(s).toMatchObject({ mainsHz: 60, shopName: 'Bench Row', bridgeUrl: env.BRIDGE_URL });
+		updateSettings(db, { soakDefaultLimits: { maxHeatsinkC: 65, maxRiseCPerMin: 2, maxDiffC: 8, thdnCeilingDb: -60 } });
+		expect(getSetting(db, 'mainsHz')).toBe(60);
+		expect(getSetting(db, 'soakDefaultLimits')).toEqual({ maxHeatsinkC: 65, maxRiseCPerMin: 2, maxDiffC: 8, thdnCeilingDb: -60 });
+		expect(db.select().from(table.settings).all()).toHaveLength(3);
+	});
+
+	it('refuses bad values (400) and stores none of a bad patch', () => {
+		expect(statusOf(() => updateSettings(db, { bridgeUrl: 'http://127.0.0.1:8787' }))).toBe(400);
+		expect(statusOf(() => updateSettings(db, { mainsHz: 55 as 50 }))).toBe(400);
+		expect(statusOf(() => updateSettings(db, { shopName: 'Fine', colour: 'red' } as never))).toBe(400);
+		expect(statusOf(() => updateSettings(db, {}))).toBe(400);
+		expect(getSettings(db)).toEqual(defaultSettings());
+	});
+
+	it('falls back to the default for a stored value that no longer validates', () => {
+		db.insert(table.settings).values({ key: 'mainsHz', value: 'sixty' }).run();
+		db.insert(table.settings).values({ key: 'shopName', value: 'Kept' }).run();
+		expect(getSettings(db)).toMatchObject({ mainsHz: 50, shopName: 'Kept' });
+	});
+});

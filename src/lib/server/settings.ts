@@ -1,0 +1,64 @@
+// Shop settings stored one JSON value per key. Reads fall back to defaults (and to the
+// default for a stored value that no longer validates), so a bad row never breaks a page.
+import { inArray, sql } from 'drizzle-orm';
+import type { Db } from './db/open';
+import * as table from './db/schema';
+import { env } from './env';
+import { validate } from './validate';
+import {
+	DEFAULT_SOAK_LIMITS,
+	SETTINGS_KEYS,
+	settingsPatchSchema,
+	shopSettingsSchema,
+	type SettingsKey,
+	type SettingsPatch,
+	type ShopSettings
+} from '../schemas/settings';
+
+export function defaultSettings(): ShopSettings {
+	return {
+		shopName: 'Benchlight',
+		bridgeUrl: env.BRIDGE_URL,
+		mainsHz: 50,
+		soakDefaultLimits: { ...DEFAULT_SOAK_LIMITS }
+	};
+}
+
+export function getSettings(db: Db): ShopSettings {
+	const settings = defaultSettings();
+	const rows = db
+		.select()
+		.from(table.settings)
+		.where(inArray(table.settings.key, [...SETTINGS_KEYS]))
+		.all();
+	const shape = shopSettingsSchema.shape;
+	for (const row of rows) {
+		const key = row.key as SettingsKey;
+		const parsed = shape[key].safeParse(row.value);
+		if (parsed.success) Object.assign(settings, { [key]: parsed.data });
+	}
+	return settings;
+}
+
+export function getSetting<K extends SettingsKey>(db: Db, key: K): ShopSettings[K] {
+	return getSettings(db)[key];
+}
+
+/** Store the given settings (validated; 400 on bad input) and answer the full set. */
+export function updateSettings(db: Db, patch: SettingsPatch): ShopSettings {
+	const data = validate(settingsPatchSchema, patch);
+	const now = new Date();
+	db.transaction((tx) => {
+		for (const key of SETTINGS_KEYS) {
+			if (data[key] === undefined) continue;
+			tx.insert(table.settings)
+				.values({ key, value: data[key], updatedAt: now })
+				.onConflictDoUpdate({
+					target: table.settings.key,
+					set: { value: sql`excluded.value`, updatedAt: now }
+				})
+				.run();
+		}
+	});
+	return getSettings(db);
+}

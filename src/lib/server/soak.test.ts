@@ -1,0 +1,205 @@
+// The soak service on an in-memory database: runs from presets and the shop's limits,
+// idempotent and partly-rejecting reading batches, and the server's own verdict.
+import { beforeEach, describe, expect, it } from 'vitest';
+import { eq } from 'drizzle-orm';
+import { openDb, type Db } from './db/open';
+import * as table from './db/schema';
+import {
+	abortRun,
+	addEvents,
+	addReadings,
+	createRun,
+	finishRun,
+	getRunDetail,
+	listRuns,
+	readingsAfter,
+	SoakError
+} from './soak';
+import { DEFAULT_SOAK_LIMITS } from '$lib/schemas/settings';
+
+let db: Db;
+let ratedJob: number;
+let unratedJob: number;
+const T0 = 1_800_000_000_000;
+
+beforeEach(() => {
+	db = openDb(':memory:');
+	db.insert(table.users).values({ id: 'u1', email: 't@example.com', name: 'Tess Tech', role: 'technician', passwordHash: 'x' }).run();
+	const c = db.insert(table.customers).values({ name: 'A. Customer' }).returning().get();
+	const base = { customerId: c.id, category: 'integrated-amplifier' as const, make: 'Vellum', model: 'IA-1', complaint: 'hum' };
+	ratedJob = db.insert(table.jobs).values({ ...base, ratedPowerW: 100, ratedLoadOhms: 8 }).returning().get().id;
+	unratedJob = db.insert(table.jobs).values(base).returning().get().id;
+});
+
+function reading(probe: string, seq: number, celsius: number, tOffsetMs = (seq - 1000) * 1000) {
+	return { probe, seq, t: T0 + tOffsetMs, celsius };
+}
+
+describe('creating a run', () => {
+	it('takes the rating and the shop default limits from { preset } alone', () => {
+		db.insert(table.settings).values({ key: 'soakDefaultLimits', value: { ...DEFAULT_SOAK_LIMITS, maxHeatsinkC: 65, maxDiffC: 6, thdnCeilingDb: -50 } }).run();
+		const { id } = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
+		const d = getRunDetail(db, id);
+		expect(d.run.drivePowerW).toBeCloseTo(12.5, 9); // 100 W / 8
+		expect(d.run.driveVrms).toBeCloseTo(10, 9); // √(12.5 × 8)
+		expect(d.run.durationS).toBe(3600);
+		expect(d.run.status).toBe('running');
+		expect(d.run.createdByName).toBe('Tess Tech');
+		expect(d.limits).toEqual({ ...DEFAULT_SOAK_LIMITS, maxHeatsinkC: 65, maxDiffC: 6, thdnCeilingDb: -50, riseWindowS: 60 });
+		// A run may change one limit and keep the shop's others.
+		const other = createRun(db, unratedJob, 'u1', {
+			preset: 'custom',
+			custom: { watts: 5, loadOhms: 8, frequencyHz: 1000, durationS: 600, channels: ['left', 'right'] },
+			limits: { maxRiseCPerMin: 6 }
+		});
+		expect(getRunDetail(db, other.id).limits).toEqual({ ...d.limits, maxRiseCPerMin: 6 });
+		expect(d.run.probes).toEqual(['heatsink-left', 'heatsink-right', 'transformer', 'ambient']);
+		expect(d.readingCount).toBe(0);
+		expect(d.verdict).toBeNull();
+	});
+
+	it('refuses a preset on a job with no rating, but takes a custom drive', () => {
+		expect(() => createRun(db, unratedJob, 'u1', { preset: 'eighth-power-60' })).toThrow(SoakError);
+		const { id } = createRun(db, unratedJob, 'u1', {
+			preset: 'custom',
+			custom: { volts: 20, loadOhms: 8, frequencyHz: 1000, durationS: 600, channels: ['left'] },
+			limits: { maxHeatsinkC: 60 }
+		});
+		const d = getRunDetail(db, id);
+		expect(d.run.drivePowerW).toBeCloseTo(50, 9); // 20² / 8
+		expect(d.run.channels).toEqual(['left']);
+		expect(d.limits.maxHeatsinkC).toBe(60);
+	});
+
+	it('allows one running soak per job and 404s an unknown job', () => {
+		createRun(db, ratedJob, 'u1', { preset: 'third-power-60' });
+		expect(() => createRun(db, ratedJob, 'u1', { preset: 'third-power-60' })).toThrow(/still running/);
+		expect(() => createRun(db, 9999, 'u1', { preset: 'third-power-60' })).toThrow(/No such job/);
+	});
+});
+
+describe('readings', () => {
+	it('stores the same batch once when it is posted twice', () => {
+		const { id } = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
+		const batch = [reading('heatsink-left', 1001, 30), reading('heatsink-right', 1002, 31), reading('transformer', 1003, 28)];
+		const first = addReadings(db, id, batch, 'boot-a');
+		expect(first).toMatchObject({ stored: 3, duplicates: 0, rejected: [], lastSeq: 1003, readingCount: 3 });
+		const again = addReadings(db, id, batch, 'boot-a');
+		expect(again).toMatchObject({ stored: 0, duplicates: 3, rejected: [], readingCount: 3 });
+		// An overlapping batch stores only what is new.
+		const overlap = addReadings(db, id, [...batch.slice(1), reading('ambient', 1004, 22)]);
+		expect(overlap).toMatchObject({ stored: 1, duplicates: 2, readingCount: 4 });
+		expect(getRunDetail(db, id).readingCount).toBe(4);
+	});
+
+	it('keeps the valid rest of a mixed batch and names the rejected readings', () => {
+		const { id } = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
+		const res = addReadings(db, id, [
+			reading('heatsink-left', 2001, 35),
+			reading('heatsink-left', 2002, 401), // above 400 °C
+			reading('heatsink-right', 2003, -50.5), // below −50 °C
+			{ probe: 'transformer', seq: 2004, t: T0, celsius: 'hot' }, // not a number
+			reading('output-stage', 2005, 40), // not one of the run's probes
+			{ probe: 'ambient', seq: 2006, t: T0, celsius: null },
+			reading('heatsink-right', 2007, 400), // the boundaries themselves are fine
+			reading('ambient', 2008, -50),
+			42
+		]);
+		expect(res.stored).toBe(3);
+		expect(res.rejected.map((r) => [r.index, r.probe, r.seq])).toEqual([
+			[1, 'heatsink-left', 2002],
+			[2, 'heatsink-right', 2003],
+			[3, 'transformer', 2004],
+			[4, 'output-stage', 2005],
+			[5, 'ambient', 2006],
+			[8, null, null]
+		]);
+		expect(res.rejected[0].reason).toMatch(/out of range/);
+		expect(res.rejected[2].reason).toMatch(/not a number/);
+		expect(res.rejected[3].reason).toMatch(/unknown probe/);
+		const after = readingsAfter(db, id, 0);
+		expect(after.readings.map((r) => [r.probe, r.seq, r.celsius])).toEqual([
+			['heatsink-left', 2001, 35],
+			['heatsink-right', 2007, 400],
+			['ambient', 2008, -50]
+		]);
+		expect(readingsAfter(db, id, 2001).readings.map((r) => r.seq)).toEqual([2007, 2008]);
+		expect(readingsAfter(db, id, 0, 2)).toMatchObject({ more: true, lastSeq: 2007 });
+	});
+
+	it('a run that has ended refuses more readings and THD+N samples', () => {
+		const { id } = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
+		abortRun(db, id, { reason: 'operator stopped' }, T0 + 5000);
+		expect(() => addReadings(db, id, [reading('ambient', 5, 20)])).toThrow(/has ended/);
+		expect(() => addEvents(db, id, [{ kind: 'thdn', at: T0, detail: { thdnPercent: 0.1 } }])).toThrow(/has ended/);
+		expect(addEvents(db, id, [{ kind: 'note', at: T0 + 6000, detail: { text: 'let it cool' } }]).stored).toBe(1);
+	});
+
+	it('stores a keyed event once', () => {
+		const { id } = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
+		const gap = {
+			kind: 'gap' as const,
+			at: T0 + 10_000,
+			key: 'gap-boot-b',
+			detail: { reason: 'bridge-restart' as const, fromBootId: 'boot-a', toBootId: 'boot-b' }
+		};
+		expect(addEvents(db, id, [gap])).toEqual({ stored: 1, duplicates: 0 });
+		expect(addEvents(db, id, [gap])).toEqual({ stored: 0, duplicates: 1 });
+		expect(getRunDetail(db, id).events.map((e) => e.kind)).toEqual(['gap']);
+	});
+});
+
+describe('ending a run', () => {
+	// Time scale 60: one wall second is a soak minute, so the 60-minute preset ends after 60 s.
+	function fastRun() {
+		return createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60', bridge: { timeScale: 60, lastSeq: 999 } }, T0).id;
+	}
+	function heatUp(id: number, peakLeftC: number) {
+		// Per wall second s = 0..60 (soak minute s): left and right rise 0.5 °C/min to 55, left ends at peakLeftC.
+		const readings = [];
+		for (let s = 0; s <= 60; s++) {
+			const c = Math.min(25 + s * 0.5, 55);
+			readings.push(reading('heatsink-left', 1000 + 4 * s, s === 60 ? peakLeftC : c, s * 1000));
+			readings.push(reading('heatsink-right', 1001 + 4 * s, c, s * 1000));
+		}
+		addReadings(db, id, readings, 'boot-a');
+	}
+
+	it('refuses to finish before the duration', () => {
+		const id = fastRun();
+		expect(() => finishRun(db, id, T0 + 30_000)).toThrow(/min of soak time left/);
+	});
+
+	it('passes a run whose stored readings stay inside the limits', () => {
+		const id = fastRun();
+		heatUp(id, 55);
+		const d = finishRun(db, id, T0 + 60_000);
+		expect(d.verdict).toBe('passed');
+		// Rises 0.5 °C per soak minute from 25 °C and reaches 55 °C at minute 60.
+		expect(d.summary.probes['heatsink-left']).toMatchObject({ maxC: 55, finalC: 55, finalAtS: 3600 });
+		expect(d.summary.steadyStateS).toBeNull(); // still rising 2.5 °C per 5 min at the end
+		expect(() => finishRun(db, id, T0 + 61_000)).toThrow(/already ended/);
+		expect(listRuns(db, ratedJob)[0]).toMatchObject({ verdict: 'passed', maxC: { 'heatsink-left': 55, 'heatsink-right': 55 } });
+	});
+
+	it('fails a run when the stored readings show a breach the page did not report', () => {
+		const id = fastRun();
+		heatUp(id, 80); // left jumps to 80 °C in the last minute: above 75 °C, and 25 °C/min.
+		const d = finishRun(db, id, T0 + 60_000);
+		expect(d.verdict).toBe('failed');
+		expect(d.summary.breaches.map((b) => b.kind).sort()).toEqual(['left-right', 'max-heatsink', 'rise-rate']);
+	});
+
+	it('aborts with the reason, the moment and the breach', () => {
+		const id = fastRun();
+		heatUp(id, 55);
+		const breach = { kind: 'max-heatsink' as const, probe: 'heatsink-left', t: T0 + 42_000, value: 76, limit: 75, message: 'too hot' };
+		const d = abortRun(db, id, { reason: 'Limit breached: too hot', at: T0 + 42_000, breach }, T0 + 43_000);
+		expect(d.verdict).toBe('aborted');
+		expect(d.run.endedAt).toBe(T0 + 42_000);
+		expect(d.run.abortReason).toBe('Limit breached: too hot');
+		expect(d.events.map((e) => e.kind)).toEqual(['breach', 'abort']);
+		const row = db.select().from(table.soakRuns).where(eq(table.soakRuns.id, id)).get();
+		expect(row?.summary).not.toBeNull();
+	});
+});

@@ -1,0 +1,147 @@
+// User management for admins: list, create, rename, change role, deactivate/reactivate,
+// reset a password. Deactivation and password resets end the user's sessions.
+import { error } from '@sveltejs/kit';
+import { asc, eq, and, count } from 'drizzle-orm';
+import { generateIdFromEntropySize } from 'lucia';
+import type { Db } from './db/open';
+import * as table from './db/schema';
+import type { Role } from './db/schema';
+import { endUserSessions, hashPassword, setPassword } from './auth';
+import { userCreateSchema, userPatchSchema, type UserCreate, type UserPatch } from '../schemas/users';
+import { validate } from './validate';
+
+/** A user as the admin pages and API see them (never the password hash). */
+export interface UserSummary {
+	id: string;
+	email: string;
+	name: string;
+	role: Role;
+	active: boolean;
+	createdAt: string;
+	updatedAt: string;
+}
+
+/** Someone a job can be assigned to. */
+export interface Assignee {
+	id: string;
+	name: string;
+	role: Role;
+}
+
+const summaryColumns = {
+	id: table.users.id,
+	email: table.users.email,
+	name: table.users.name,
+	role: table.users.role,
+	active: table.users.active,
+	createdAt: table.users.createdAt,
+	updatedAt: table.users.updatedAt
+};
+
+function toSummary(row: {
+	id: string;
+	email: string;
+	name: string;
+	role: Role;
+	active: boolean;
+	createdAt: Date;
+	updatedAt: Date;
+}): UserSummary {
+	return { ...row, createdAt: row.createdAt.toISOString(), updatedAt: row.updatedAt.toISOString() };
+}
+
+/** User ids are lucia-style lower-case base32 strings; anything else cannot exist. */
+export function isUserId(value: string | undefined): value is string {
+	return !!value && /^[a-z0-9]{1,64}$/.test(value);
+}
+
+export function listUsers(db: Db): UserSummary[] {
+	return db
+		.select(summaryColumns)
+		.from(table.users)
+		.orderBy(asc(table.users.name))
+		.all()
+		.map(toSummary);
+}
+
+export function getUser(db: Db, id: string): UserSummary | null {
+	const row = db.select(summaryColumns).from(table.users).where(eq(table.users.id, id)).get();
+	return row ? toSummary(row) : null;
+}
+
+/** Active users, for the technician filter and the assignment field (supervisors bench too). */
+export function listAssignableUsers(db: Db): Assignee[] {
+	return db
+		.select({ id: table.users.id, name: table.users.name, role: table.users.role })
+		.from(table.users)
+		.where(eq(table.users.active, true))
+		.orderBy(asc(table.users.name))
+		.all();
+}
+
+function emailTaken(db: Db, email: string): boolean {
+	return !!db.select({ id: table.users.id }).from(table.users).where(eq(table.users.email, email)).get();
+}
+
+/** Create an account (409 when the e-mail is in use). */
+export async function createUser(db: Db, input: UserCreate): Promise<UserSummary> {
+	const data = validate(userCreateSchema, input);
+	if (emailTaken(db, data.email)) error(409, 'That e-mail address already has an account');
+	const passwordHash = await hashPassword(data.password);
+	const id = generateIdFromEntropySize(10);
+	const now = new Date();
+	try {
+		db.insert(table.users)
+			.values({ id, email: data.email, name: data.name, role: data.role, passwordHash, createdAt: now, updatedAt: now })
+			.run();
+	} catch (e) {
+		// Two admins racing for the same e-mail: the unique index decides.
+		if (e instanceof Error && /UNIQUE/.test(e.message)) error(409, 'That e-mail address already has an account');
+		throw e;
+	}
+	return getUser(db, id)!;
+}
+
+function activeAdminCount(db: Db): number {
+	const row = db
+		.select({ n: count() })
+		.from(table.users)
+		.where(and(eq(table.users.role, 'admin'), eq(table.users.active, true)))
+		.get();
+	return row?.n ?? 0;
+}
+
+/**
+ * Rename, change role, (de)activate or reset the password. Deactivating or resetting the
+ * password ends all the user's sessions. The last active admin cannot be demoted or
+ * deactivated (409), so the shop never locks itself out of user management.
+ */
+export async function updateUser(db: Db, id: string, patch: UserPatch): Promise<UserSummary> {
+	const data = validate(userPatchSchema, patch);
+	const current = db.select().from(table.users).where(eq(table.users.id, id)).get();
+	if (!current) error(404, 'No such user');
+
+	const losesAdmin =
+		current.role === 'admin' &&
+		current.active &&
+		((data.role !== undefined && data.role !== 'admin') || data.active === false);
+	if (losesAdmin && activeAdminCount(db) <= 1) {
+		error(409, 'This is the last active admin: make another admin first');
+	}
+
+	const changes: Partial<typeof table.users.$inferInsert> = {};
+	if (data.name !== undefined) changes.name = data.name;
+	if (data.role !== undefined) changes.role = data.role;
+	if (data.active !== undefined) changes.active = data.active;
+	if (Object.keys(changes).length) {
+		changes.updatedAt = new Date();
+		db.update(table.users).set(changes).where(eq(table.users.id, id)).run();
+	}
+	if (data.active === false) await endUserSessions(db, id);
+	if (data.password !== undefined) await setPassword(db, id, data.password, null);
+	return getUser(db, id)!;
+}
+
+export const changeRole = (db: Db, id: string, role: Role) => updateUser(db, id, { role });
+export const deactivateUser = (db: Db, id: string) => updateUser(db, id, { active: false });
+export const reactivateUser = (db: Db, id: string) => updateUser(db, id, { active: true });

@@ -1,0 +1,45 @@
+// Admin: shop settings (name, bridge address, mains frequency, default soak limits).
+import { fail } from '@sveltejs/kit';
+import { db } from '$lib/server/db';
+import { requireAdmin } from '$lib/server/guards';
+import { getSettings, updateSettings } from '$lib/server/settings';
+import { shopSettingsSchema } from '$lib/schemas/settings';
+import { number, text } from '$lib/forms';
+import type { Actions, PageServerLoad } from './$types';
+
+export const load: PageServerLoad = (event) => {
+	requireAdmin(event);
+	return { settings: getSettings(db) };
+};
+
+export const actions: Actions = {
+	default: async (event) => {
+		requireAdmin(event);
+		const form = await event.request.formData();
+		const names = ['shopName', 'bridgeUrl', 'mainsHz', 'maxHeatsinkC', 'maxRiseCPerMin', 'maxDiffC', 'thdnCeilingDb'];
+		const values = Object.fromEntries(names.map((n) => [n, text(form, n)]));
+		const thdn = number(form, 'thdnCeilingDb');
+		const parsed = shopSettingsSchema.safeParse({
+			shopName: values.shopName,
+			bridgeUrl: values.bridgeUrl,
+			mainsHz: number(form, 'mainsHz'),
+			soakDefaultLimits: {
+				maxHeatsinkC: number(form, 'maxHeatsinkC'),
+				maxRiseCPerMin: number(form, 'maxRiseCPerMin'),
+				maxDiffC: number(form, 'maxDiffC'),
+				thdnCeilingDb: thdn === undefined ? null : thdn
+			}
+		});
+		if (!parsed.success) {
+			// Nested limits report under their own field name.
+			const errors: Record<string, string[]> = {};
+			for (const issue of parsed.error.issues) {
+				const key = String(issue.path[issue.path.length - 1] ?? '_form');
+				(errors[key] ??= []).push(issue.message);
+			}
+			return fail(400, { values, errors, ok: false });
+		}
+		updateSettings(db, parsed.data);
+		return { ok: true };
+	}
+};

@@ -1,0 +1,22 @@
+// One job: its detail (customer, technician, history, work log, parts) and edits.
+import { error } from '@sveltejs/kit';
+import { db } from '$lib/server/db';
+import { requireUser } from '$lib/server/guards';
+import { idParam, json, readJson } from '$lib/server/api';
+import { getJob, updateJob } from '$lib/server/jobs';
+import { jobPatchSchema } from '$lib/schemas/jobs';
+import type { RequestHandler } from './$types';
+
+export const GET: RequestHandler = (event) => {
+	requireUser(event);
+	const job = getJob(db, idParam(event.params.id, 'job'));
+	if (!job) error(404, 'No such job');
+	return json(job);
+};
+
+export const PATCH: RequestHandler = async (event) => {
+	requireUser(event);
+	const id = idParam(event.params.id, 'job');
+	const patch = await readJson(event, jobPatchSchema);
+	return json(updateJob(db, id, patch));
+};

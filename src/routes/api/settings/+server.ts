@@ -1,0 +1,19 @@
+// Shop settings: everyone signed in reads them (the bench needs the bridge URL and mains
+// frequency); admins change them.
+import { db } from '$lib/server/db';
+import { requireAdmin, requireUser } from '$lib/server/guards';
+import { json, readJson } from '$lib/server/api';
+import { getSettings, updateSettings } from '$lib/server/settings';
+import { settingsPatchSchema } from '$lib/schemas/settings';
+import type { RequestHandler } from './$types';
+
+export const GET: RequestHandler = (event) => {
+	requireUser(event);
+	return json(getSettings(db));
+};
+
+export const PATCH: RequestHandler = async (event) => {
+	requireAdmin(event);
+	const patch = await readJson(event, settingsPatchSchema);
+	return json(updateSettings(db, patch));
+};

@@ -1,0 +1,23 @@
+// The raw WAV a snapshot was computed from, for re-analysis (e.g. `npm run analyze`).
+import { error } from '@sveltejs/kit';
+import { db } from '$lib/server/db';
+import { requireUser } from '$lib/server/guards';
+import { idParam } from '$lib/server/api';
+import { getSnapshotAudio } from '$lib/server/snapshots';
+import type { RequestHandler } from './$types';
+
+export const GET: RequestHandler = (event) => {
+	requireUser(event);
+	const id = idParam(event.params.id, 'snapshot');
+	const audio = getSnapshotAudio(db, id);
+	if (!audio) error(404, 'No such snapshot');
+	return new Response(new Uint8Array(audio.wav), {
+		headers: {
+			'content-type': 'audio/wav',
+			'content-length': String(audio.wav.byteLength),
+			'content-disposition': `attachment; filename="job-${audio.jobId}-snapshot-${id}.wav"`,
+			etag: `"${audio.sha256}"`,
+			'cache-control': 'private, max-age=31536000, immutable'
+		}
+	});
+};

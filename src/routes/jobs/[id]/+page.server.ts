@@ -1,0 +1,145 @@
+// A job's page: unit, customer, status with its allowed moves, history, work log and parts.
+// Every action guards itself and calls the jobs service; the service enforces the rules again.
+import { error, fail, isHttpError } from '@sveltejs/kit';
+import { db } from '$lib/server/db';
+import { requireUser } from '$lib/server/guards';
+import { idParam } from '$lib/server/api';
+import { addLogEntry, addPart, changeStatus, deletePart, getJob, updateJob, updatePart } from '$lib/server/jobs';
+import { listAssignableUsers } from '$lib/server/users';
+import { allowedNextStatuses, logEntrySchema, partSchema, PART_STATES, statusChangeSchema } from '$lib/schemas/jobs';
+import { fieldErrors, number, optionalText, text } from '$lib/forms';
+import { parseMoneyToCents } from '$lib/format';
+import type { Actions, PageServerLoad } from './$types';
+
+export const load: PageServerLoad = (event) => {
+	const user = requireUser(event);
+	const id = idParam(event.params.id, 'job');
+	const job = getJob(db, id);
+	if (!job) error(404, 'No such job');
+	return {
+		job,
+		nextStatuses: allowedNextStatuses(job.status, user.role),
+		technicians: listAssignableUsers(db),
+		me: user
+	};
+};
+
+/** Refusals from the service (403 approval, 409 move not allowed, 404 gone) become page messages. */
+function refusal(action: string, e: unknown) {
+	if (isHttpError(e) && e.status < 500) {
+		const issues = (e.body as { issues?: { path: string; message: string }[] }).issues;
+		const errors: Record<string, string[]> = {};
+		for (const i of issues ?? []) (errors[i.path || '_form'] ??= []).push(i.message);
+		return fail(e.status, { action, message: e.body.message, errors });
+	}
+	throw e;
+}
+
+function partIdFrom(form: FormData): number | null {
+	const n = Number(text(form, 'partId'));
+	return Number.isSafeInteger(n) && n > 0 ? n : null;
+}
+
+export const actions: Actions = {
+	status: async (event) => {
+		const user = requireUser(event);
+		const id = idParam(event.params.id, 'job');
+		const form = await event.request.formData();
+		const parsed = statusChangeSchema.safeParse({ status: text(form, 'status'), note: optionalText(form, 'note') });
+		if (!parsed.success) return fail(400, { action: 'status', message: 'Choose a status', errors: fieldErrors(parsed.error) });
+		try {
+			changeStatus(db, id, parsed.data, user);
+		} catch (e) {
+			return refusal('status', e);
+		}
+		return { action: 'status', ok: true };
+	},
+
+	assign: async (event) => {
+		requireUser(event);
+		const id = idParam(event.params.id, 'job');
+		const form = await event.request.formData();
+		try {
+			updateJob(db, id, { technicianId: optionalText(form, 'technicianId') });
+		} catch (e) {
+			return refusal('assign', e);
+		}
+		return { action: 'assign', ok: true };
+	},
+
+	log: async (event) => {
+		const user = requireUser(event);
+		const id = idParam(event.params.id, 'job');
+		const form = await event.request.formData();
+		const values = { text: text(form, 'text'), minutes: text(form, 'minutes') };
+		const parsed = logEntrySchema.safeParse({ text: values.text, minutes: number(form, 'minutes') });
+		if (!parsed.success) return fail(400, { action: 'log', values, errors: fieldErrors(parsed.error) });
+		try {
+			addLogEntry(db, id, parsed.data, user.id);
+		} catch (e) {
+			return refusal('log', e);
+		}
+		return { action: 'log', ok: true };
+	},
+
+	addPart: async (event) => {
+		requireUser(event);
+		const id = idParam(event.params.id, 'job');
+		const form = await event.request.formData();
+		const names = ['refDes', 'description', 'value', 'quantity', 'unitCost', 'supplier', 'state', 'verificationNote'];
+		const values = Object.fromEntries(names.map((n) => [n, text(form, n)]));
+		// The cost is typed in the currency (12.50) and stored in integer cents.
+		const costText = values.unitCost.trim();
+		const unitCostCents = costText === '' ? undefined : parseMoneyToCents(costText);
+		const parsed = partSchema.safeParse({
+			refDes: values.refDes,
+			description: values.description,
+			value: optionalText(form, 'value'),
+			quantity: number(form, 'quantity'),
+			unitCostCents: unitCostCents ?? undefined,
+			supplier: optionalText(form, 'supplier'),
+			state: values.state || undefined,
+			verificationNote: optionalText(form, 'verificationNote')
+		});
+		const errors = parsed.success ? {} : fieldErrors(parsed.error);
+		if (unitCostCents === null) errors.unitCost = ['Enter an amount like 12.50'];
+		if (errors.unitCostCents) errors.unitCost = errors.unitCostCents;
+		if (!parsed.success || unitCostCents === null) return fail(400, { action: 'addPart', values, errors });
+		try {
+			addPart(db, id, parsed.data);
+		} catch (e) {
+			return refusal('addPart', e);
+		}
+		return { action: 'addPart', ok: true };
+	},
+
+	partState: async (event) => {
+		requireUser(event);
+		const id = idParam(event.params.id, 'job');
+		const form = await event.request.formData();
+		const partId = partIdFrom(form);
+		const state = text(form, 'state');
+		if (!partId) return fail(404, { action: 'partState', message: 'No such part on this job' });
+		if (!(PART_STATES as readonly string[]).includes(state)) return fail(400, { action: 'partState', message: 'Choose ordered, received or fitted' });
+		try {
+			updatePart(db, id, partId, { state: state as (typeof PART_STATES)[number] });
+		} catch (e) {
+			return refusal('partState', e);
+		}
+		return { action: 'partState', ok: true };
+	},
+
+	deletePart: async (event) => {
+		requireUser(event);
+		const id = idParam(event.params.id, 'job');
+		const form = await event.request.formData();
+		const partId = partIdFrom(form);
+		if (!partId) return fail(404, { action: 'deletePart', message: 'No such part on this job' });
+		try {
+			deletePart(db, id, partId);
+		} catch (e) {
+			return refusal('deletePart', e);
+		}
+		return { action: 'deletePart', ok: true };
+	}
+};

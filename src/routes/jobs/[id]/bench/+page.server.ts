@@ -1,0 +1,31 @@
+// The bench page for one job: the job's headline, the active limit profiles and its snapshots.
+// Live data comes from the bridge in the browser; captures go to /api/jobs/[id]/snapshots.
+import { error } from '@sveltejs/kit';
+import { db } from '$lib/server/db';
+import { requireUser } from '$lib/server/guards';
+import { idParam } from '$lib/server/api';
+import { getJob } from '$lib/server/jobs';
+import { listLimitProfiles } from '$lib/server/limits';
+import type { PageServerLoad } from './$types';
+
+export const load: PageServerLoad = (event) => {
+	requireUser(event);
+	const id = idParam(event.params.id, 'job');
+	const job = getJob(db, id);
+	if (!job) error(404, 'No such job');
+	return {
+		job: {
+			id: job.id,
+			make: job.make,
+			model: job.model,
+			category: job.category,
+			serial: job.serial,
+			complaint: job.complaint,
+			status: job.status,
+			customerName: job.customer.name,
+			ratedPowerW: job.ratedPowerW,
+			ratedLoadOhms: job.ratedLoadOhms
+		},
+		profiles: listLimitProfiles(db)
+	};
+};

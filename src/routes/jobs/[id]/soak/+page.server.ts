@@ -1,0 +1,44 @@
+// The soak page of a job: the job's rating for the presets, the shop's default limits, and the
+// run to show (the job's running run, resumed, or one named in ?run=).
+import { error } from '@sveltejs/kit';
+import { db } from '$lib/server/db';
+import { requireUser } from '$lib/server/guards';
+import { idParam } from '$lib/server/api';
+import { getJob } from '$lib/server/jobs';
+import { getSetting } from '$lib/server/settings';
+import { jobIdOfRun, runningRunId, SoakError } from '$lib/server/soak';
+import type { PageServerLoad } from './$types';
+
+export const load: PageServerLoad = (event) => {
+	requireUser(event);
+	const id = idParam(event.params.id, 'job');
+	const job = getJob(db, id);
+	if (!job) error(404, 'No such job');
+	let viewRunId: number | null = null;
+	const runParam = event.url.searchParams.get('run');
+	if (runParam !== null) {
+		const runId = idParam(runParam, 'soak run');
+		try {
+			if (jobIdOfRun(db, runId) !== id) error(404, 'No such soak run on this job');
+		} catch (e) {
+			if (e instanceof SoakError) error(404, 'No such soak run');
+			throw e;
+		}
+		viewRunId = runId;
+	}
+	return {
+		job: {
+			id: job.id,
+			make: job.make,
+			model: job.model,
+			serial: job.serial,
+			category: job.category,
+			customerName: job.customer.name,
+			ratedPowerW: job.ratedPowerW,
+			ratedLoadOhms: job.ratedLoadOhms
+		},
+		shopLimits: getSetting(db, 'soakDefaultLimits'),
+		runningRunId: runningRunId(db, id),
+		viewRunId
+	};
+};

@@ -1,0 +1,55 @@
+// Intake: a unit comes in. Superforms with the shared zod schema; errors come back beside
+// each field with the input kept, success goes to the new job's page.
+import { fail, isHttpError, redirect } from '@sveltejs/kit';
+import { superValidate, setError } from 'sveltekit-superforms';
+import { zod4 } from 'sveltekit-superforms/adapters';
+import { asc } from 'drizzle-orm';
+import { db, table } from '$lib/server/db';
+import { requireUser } from '$lib/server/guards';
+import { createJob } from '$lib/server/jobs';
+import { listAssignableUsers } from '$lib/server/users';
+import { jobIntakeSchema, type JobIntake } from '$lib/schemas/jobs';
+import type { FormPath } from 'sveltekit-superforms';
+import type { Actions, PageServerLoad } from './$types';
+
+/** Existing customers for the picker, by name (a shop's customer list, not the job queue). */
+function customerChoices() {
+	return db
+		.select({ id: table.customers.id, name: table.customers.name, email: table.customers.email, phone: table.customers.phone })
+		.from(table.customers)
+		.orderBy(asc(table.customers.name))
+		.limit(2000)
+		.all();
+}
+
+export const load: PageServerLoad = async (event) => {
+	const user = requireUser(event);
+	const form = await superValidate(zod4(jobIntakeSchema), { errors: false });
+	// The one taking the unit in usually benches it; they can pick someone else.
+	form.data.technicianId = user.role === 'technician' ? user.id : '';
+	return { form, customers: customerChoices(), technicians: listAssignableUsers(db) };
+};
+
+export const actions: Actions = {
+	default: async (event) => {
+		const user = requireUser(event);
+		const form = await superValidate(event.request, zod4(jobIntakeSchema));
+		if (!form.valid) return fail(400, { form });
+		let jobId: number;
+		try {
+			jobId = createJob(db, form.data, user.id).id;
+		} catch (e) {
+			// The service re-checks what only the database knows (customer, active technician).
+			const issues = isHttpError(e) && e.status === 400 ? (e.body as { issues?: unknown }).issues : null;
+			if (Array.isArray(issues)) {
+				for (const issue of issues as { path?: string; message?: string }[]) {
+					const path = (issue.path || 'customerName') as FormPath<JobIntake>;
+					setError(form, path, issue.message ?? 'Invalid value');
+				}
+				return fail(400, { form });
+			}
+			throw e;
+		}
+		redirect(303, `/jobs/${jobId}`);
+	}
+};

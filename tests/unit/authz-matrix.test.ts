@@ -1,0 +1,464 @@
+// The authorization matrix: every API route file and method under src/routes/api, with the
+// status expected for signed-out, technician, supervisor and admin callers, run against
+// the real handlers on the app's database (in memory in tests, seeded with the demo shop).
+// Route files are found on disk; a route or method without a row here fails the suite.
+import { afterEach, beforeAll, beforeEach, describe, expect, it } from 'vitest';
+import { readdirSync, statSync } from 'node:fs';
+import { join, relative, resolve, sep } from 'node:path';
+import { pathToFileURL } from 'node:url';
+import { isHttpError, isRedirect, type Cookies, type RequestEvent } from '@sveltejs/kit';
+import { db } from '$lib/server/db';
+import { createSession, type SessionInfo, type SessionUser } from '$lib/server/auth';
+import { seedDemo, DEMO_PASSWORD } from '../../scripts/seed';
+import { createRun } from '$lib/server/soak';
+
+/** A running one-hour soak on the fixture job (inside the case's savepoint), as a route param. */
+function soakRun(fx: Fixtures, startedAtMs = Date.now()): string {
+	const custom = { watts: 5, loadOhms: 8, frequencyHz: 1000, durationS: 3600, channels: ['left' as const, 'right' as const] };
+	return String(createRun(fx.db, fx.jobId, fx.users.tech1, { preset: 'custom', custom }, startedAtMs).id);
+}
+
+type Method = 'GET' | 'POST' | 'PUT' | 'PATCH' | 'DELETE';
+const METHODS: Method[] = ['GET', 'POST', 'PUT', 'PATCH', 'DELETE'];
+const ROLES = ['signed-out', 'technician', 'supervisor', 'admin'] as const;
+type Caller = (typeof ROLES)[number];
+
+/** Ids of seeded things a request can point at. Extend it when your routes need more. */
+interface Fixtures {
+	db: typeof db;
+	users: Record<'admin' | 'supervisor' | 'tech1' | 'tech2', string>;
+	/** A job in `received`, with no parts. */
+	jobId: number;
+	/** A job in `awaiting-review`: the one approval is tried on. */
+	reviewJobId: number;
+	/** A part and the job it belongs to. */
+	partJobId: number;
+	partId: number;
+}
+
+interface RequestSpec {
+	params?: Record<string, string>;
+	/** Query string including the leading `?`. */
+	query?: string;
+	/** JSON body (sent with Content-Type: application/json). */
+	body?: unknown;
+	/** Extra or replacement headers (e.g. another content type for uploads). */
+	headers?: Record<string, string>;
+	/** A raw body instead of JSON. */
+	rawBody?: BodyInit;
+}
+
+interface Row {
+	route: string;
+	method: Method;
+	/** Expected status for [signed-out, technician, supervisor, admin]. */
+	expect: [number, number, number, number];
+	/**
+	 * Builds the request for one caller. It runs inside a savepoint that is rolled back after
+	 * the call, so it may create what the request needs (through `fx.db`) and every caller
+	 * starts from the same seeded state.
+	 */
+	request?: (fx: Fixtures, caller: Caller) => RequestSpec | Promise<RequestSpec>;
+	/** Status for a cross-site Origin as admin (mutating methods; default 403). */
+	crossOrigin?: number;
+}
+
+/* ─────────────────────────────────────────────────────────────────────────────
+ * THE MATRIX. Every `+server.ts` under src/routes/api and each method it exports
+ * needs exactly one row here, or this test fails. If you add or change an API route
+ * (bridge-token, limit-profiles, snapshots, soak-runs …), add or update its row in
+ * the same change: the statuses a signed-out visitor, a technician, a supervisor and
+ * an admin get for a VALID request. Use `request` to point at seeded fixtures (see
+ * `Fixtures`) or to create what the call needs through `fx.db`.
+ * ───────────────────────────────────────────────────────────────────────────── */
+const MATRIX: Row[] = [
+	// jobs: everyone signed in reads and works jobs; approval needs supervisor/admin
+	{ route: '/api/jobs', method: 'GET', expect: [401, 200, 200, 200], request: () => ({ query: '?q=a&status=open&sort=-updated&page=1&pageSize=10' }) },
+	{
+		route: '/api/jobs',
+		method: 'POST',
+		expect: [401, 201, 201, 201],
+		request: () => ({
+			body: { customerName: 'Matrix Customer', category: 'tuner', make: 'Orlund', model: 'OT-1', complaint: 'No FM' }
+		})
+	},
+	{ route: '/api/jobs/[id]', method: 'GET', expect: [401, 200, 200, 200], request: (fx) => ({ params: { id: String(fx.jobId) } }) },
+	{
+		route: '/api/jobs/[id]',
+		method: 'PATCH',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: String(fx.jobId) }, body: { complaint: 'Dead, and the dial lamps are out' } })
+	},
+	{
+		route: '/api/jobs/[id]/status',
+		method: 'POST',
+		expect: [401, 403, 200, 200],
+		request: (fx) => ({ params: { id: String(fx.reviewJobId) }, body: { status: 'approved', note: 'Signed off' } })
+	},
+	{
+		route: '/api/jobs/[id]/log',
+		method: 'POST',
+		expect: [401, 201, 201, 201],
+		request: (fx) => ({ params: { id: String(fx.jobId) }, body: { text: 'Checked the fuse', minutes: 5 } })
+	},
+	{
+		route: '/api/jobs/[id]/parts',
+		method: 'POST',
+		expect: [401, 201, 201, 201],
+		request: (fx) => ({ params: { id: String(fx.jobId) }, body: { refDes: 'F1', description: 'Fuse, slow-blow', value: 'T2A' } })
+	},
+	{
+		route: '/api/jobs/[id]/parts/[partId]',
+		method: 'PATCH',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: String(fx.partJobId), partId: String(fx.partId) }, body: { state: 'fitted' } })
+	},
+	{
+		route: '/api/jobs/[id]/parts/[partId]',
+		method: 'DELETE',
+		expect: [401, 204, 204, 204],
+		request: (fx) => ({ params: { id: String(fx.partJobId), partId: String(fx.partId) } })
+	},
+
+	// soak runs: every bench role starts, records, finishes and aborts them
+	{ route: '/api/jobs/[id]/soak-runs', method: 'GET', expect: [401, 200, 200, 200], request: (fx) => ({ params: { id: String(fx.jobId) } }) },
+	{
+		route: '/api/jobs/[id]/soak-runs',
+		method: 'POST',
+		expect: [401, 201, 201, 201],
+		request: (fx) => ({ params: { id: String(fx.jobId) }, body: { preset: 'custom', custom: { watts: 5, loadOhms: 8 } } })
+	},
+	{ route: '/api/soak-runs/[id]', method: 'GET', expect: [401, 200, 200, 200], request: (fx) => ({ params: { id: soakRun(fx) } }) },
+	{
+		route: '/api/soak-runs/[id]/readings',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: soakRun(fx) }, query: '?after=0' })
+	},
+	{
+		route: '/api/soak-runs/[id]/readings',
+		method: 'POST',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: soakRun(fx) }, body: { readings: [{ probe: 'ambient', seq: 1, t: Date.now(), celsius: 22.5 }] } })
+	},
+	{
+		route: '/api/soak-runs/[id]/events',
+		method: 'POST',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: soakRun(fx) }, body: { events: [{ kind: 'note', at: Date.now(), detail: { text: 'fan on' } }] } })
+	},
+	{
+		route: '/api/soak-runs/[id]/finish',
+		method: 'POST',
+		expect: [401, 200, 200, 200],
+		// Started two hours ago, so its 60 minutes are over.
+		request: (fx) => ({ params: { id: soakRun(fx, Date.now() - 2 * 3600_000) } })
+	},
+	{
+		route: '/api/soak-runs/[id]/abort',
+		method: 'POST',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: soakRun(fx) }, body: { reason: 'Stopped for the matrix' } })
+	},
+
+	// users: admins only
+	{ route: '/api/users', method: 'GET', expect: [401, 403, 403, 200] },
+	{
+		route: '/api/users',
+		method: 'POST',
+		expect: [401, 403, 403, 201],
+		request: () => ({ body: { email: 'new.tech@example.com', name: 'New Tech', role: 'technician', password: 'a long enough pass' } })
+	},
+	{
+		route: '/api/users/[id]',
+		method: 'PATCH',
+		expect: [401, 403, 403, 200],
+		request: (fx) => ({ params: { id: fx.users.tech2 }, body: { role: 'supervisor' } })
+	},
+
+	// settings: everyone reads, admins change
+	{ route: '/api/settings', method: 'GET', expect: [401, 200, 200, 200] },
+	{ route: '/api/settings', method: 'PATCH', expect: [401, 403, 403, 200], request: () => ({ body: { mainsHz: 60 } }) },
+
+	// own account
+	{
+		route: '/api/auth/password',
+		method: 'POST',
+		expect: [401, 200, 200, 200],
+		request: () => ({ body: { currentPassword: DEMO_PASSWORD, newPassword: 'another long passphrase' } })
+	}
+];
+
+// ── discovery ───────────────────────────────────────────────────────────────
+
+const ROUTES_DIR = resolve(process.cwd(), 'src/routes');
+
+function findServerFiles(dir: string): string[] {
+	const out: string[] = [];
+	for (const name of readdirSync(dir)) {
+		const path = join(dir, name);
+		if (statSync(path).isDirectory()) out.push(...findServerFiles(path));
+		else if (name === '+server.ts' || name === '+server.js') out.push(path);
+	}
+	return out;
+}
+
+function routeIdOf(file: string): string {
+	const rel = relative(ROUTES_DIR, file).split(sep).slice(0, -1);
+	// Route groups like (app) are not part of the URL.
+	return '/' + rel.filter((seg) => !/^\(.*\)$/.test(seg)).join('/');
+}
+
+type Handler = (event: RequestEvent) => Response | Promise<Response>;
+interface RouteModule {
+	file: string;
+	routeId: string;
+	handlers: Partial<Record<Method, Handler>>;
+}
+
+const discovered: RouteModule[] = [];
+
+// ── calling a handler like SvelteKit does ──────────────────────────────────
+
+const ORIGIN = 'http://127.0.0.1:5173';
+
+function fakeCookies(): Cookies {
+	const jar = new Map<string, string>();
+	return {
+		get: (name: string) => jar.get(name),
+		getAll: () => [...jar].map(([name, value]) => ({ name, value })),
+		set: (name: string, value: string) => void jar.set(name, value),
+		delete: (name: string) => void jar.delete(name),
+		serialize: (name: string, value: string) => `${name}=${value}`
+	} as Cookies;
+}
+
+function fillRoute(routeId: string, params: Record<string, string>): string {
+	return routeId.replace(/\[(?:\.\.\.)?([^\]=]+)(?:=[^\]]+)?\]/g, (_, key: string) => {
+		if (!(key in params)) throw new Error(`request() for ${routeId} must give params.${key}`);
+		return encodeURIComponent(params[key]);
+	});
+}
+
+interface CallOptions {
+	origin?: string | null;
+	contentType?: string;
+}
+
+async function callHandler(
+	mod: RouteModule,
+	method: Method,
+	who: { user: SessionUser | null; session: SessionInfo | null },
+	spec: RequestSpec,
+	options: CallOptions = {}
+): Promise<{ status: number; body: unknown }> {
+	const params = spec.params ?? {};
+	const url = new URL(fillRoute(mod.routeId, params) + (spec.query ?? ''), ORIGIN);
+	const headers = new Headers({ accept: 'application/json' });
+	const origin = options.origin === undefined ? ORIGIN : options.origin;
+	if (origin) headers.set('origin', origin);
+	let body: BodyInit | undefined;
+	if (spec.rawBody !== undefined) body = spec.rawBody;
+	else if (spec.body !== undefined) {
+		body = JSON.stringify(spec.body);
+		headers.set('content-type', options.contentType ?? 'application/json');
+	}
+	for (const [k, v] of Object.entries(spec.headers ?? {})) headers.set(k, v);
+	const request = new Request(url, { method, headers, body });
+
+	const event = {
+		request,
+		url,
+		params,
+		route: { id: mod.routeId },
+		locals: { user: who.user, session: who.session },
+		cookies: fakeCookies(),
+		fetch: (...args: Parameters<typeof fetch>) => fetch(...args),
+		getClientAddress: () => '127.0.0.1',
+		platform: undefined,
+		setHeaders: () => {},
+		isDataRequest: false,
+		isSubRequest: false,
+		isRemoteRequest: false
+	} as unknown as RequestEvent;
+
+	try {
+		const res = await mod.handlers[method]!(event);
+		const text = await res.text();
+		let parsed: unknown = text;
+		try {
+			parsed = text ? JSON.parse(text) : null;
+		} catch {
+			// Not JSON (a download): keep the text.
+		}
+		return { status: res.status, body: parsed };
+	} catch (e) {
+		if (isHttpError(e)) return { status: e.status, body: e.body };
+		if (isRedirect(e)) return { status: e.status, body: e.location };
+		throw e;
+	}
+}
+
+// ── fixtures, and a savepoint around every call ─────────────────────────────
+
+let fx: Fixtures;
+const callers = {} as Record<Caller, { user: SessionUser | null; session: SessionInfo | null }>;
+
+beforeAll(async () => {
+	for (const file of findServerFiles(join(ROUTES_DIR, 'api'))) {
+		const mod = (await import(/* @vite-ignore */ pathToFileURL(file).href)) as Record<string, unknown>;
+		const handlers: Partial<Record<Method, Handler>> = {};
+		for (const m of METHODS) if (typeof mod[m] === 'function') handlers[m] = mod[m] as Handler;
+		discovered.push({ file, routeId: routeIdOf(file), handlers });
+	}
+
+	await seedDemo(db);
+	const sqlite = db.$client;
+	const userId = (email: string) => (sqlite.prepare('SELECT id FROM users WHERE email = ?').get(email) as { id: string }).id;
+	const users = {
+		admin: userId('admin@example.com'),
+		supervisor: userId('supervisor@example.com'),
+		tech1: userId('tech1@example.com'),
+		tech2: userId('tech2@example.com')
+	};
+	const jobIn = (status: string) =>
+		(sqlite.prepare('SELECT id FROM jobs WHERE status = ? ORDER BY id LIMIT 1').get(status) as { id: number }).id;
+	const part = sqlite.prepare('SELECT id, job_id AS jobId FROM parts ORDER BY id LIMIT 1').get() as { id: number; jobId: number };
+	fx = { db, users, jobId: jobIn('received'), reviewJobId: jobIn('awaiting-review'), partJobId: part.jobId, partId: part.id };
+
+	const who = async (email: string, key: keyof Fixtures['users']) => {
+		const { session } = await createSession(db, users[key]);
+		const row = sqlite.prepare('SELECT id, email, name, role FROM users WHERE email = ?').get(email) as SessionUser;
+		return { user: row, session };
+	};
+	callers['signed-out'] = { user: null, session: null };
+	callers.technician = await who('tech1@example.com', 'tech1');
+	callers.supervisor = await who('supervisor@example.com', 'supervisor');
+	callers.admin = await who('admin@example.com', 'admin');
+});
+
+beforeEach(() => {
+	db.$client.exec('SAVEPOINT authz_case');
+});
+afterEach(() => {
+	db.$client.exec('ROLLBACK TO authz_case');
+	db.$client.exec('RELEASE authz_case');
+});
+
+function moduleFor(row: Row): RouteModule {
+	const mod = discovered.find((d) => d.routeId === row.route);
+	if (!mod) throw new Error(`No route file for ${row.route}: remove or fix the row`);
+	if (!mod.handlers[row.method]) throw new Error(`${row.route} does not export ${row.method}: remove or fix the row`);
+	return mod;
+}
+
+// ── the checks ──────────────────────────────────────────────────────────────
+
+describe('authorization matrix', () => {
+	it('has exactly one row for every route file and method on disk', () => {
+		expect(discovered.length).toBeGreaterThan(0);
+		const onDisk = discovered.flatMap((d) => Object.keys(d.handlers).map((m) => `${m} ${d.routeId}`)).sort();
+		const inTable = MATRIX.map((r) => `${r.method} ${r.route}`).sort();
+		const missing = onDisk.filter((k) => !inTable.includes(k));
+		const stale = inTable.filter((k) => !onDisk.includes(k));
+		const duplicated = inTable.filter((k, i) => inTable.indexOf(k) !== i);
+		expect({ missing, stale, duplicated }).toEqual({ missing: [], stale: [], duplicated: [] });
+	});
+
+	for (const row of MATRIX) {
+		for (const [i, caller] of ROLES.entries()) {
+			it(`${row.method} ${row.route} as ${caller} → ${row.expect[i]}`, async () => {
+				const spec = row.request ? await row.request(fx, caller) : {};
+				const res = await callHandler(moduleFor(row), row.method, callers[caller], spec);
+				expect(res.status, JSON.stringify(res.body)).toBe(row.expect[i]);
+				if (res.status >= 400) expect(res.body).toMatchObject({ message: expect.any(String) });
+			});
+		}
+	}
+});
+
+describe('mutating API requests refuse cross-site callers', () => {
+	for (const row of MATRIX.filter((r) => r.method !== 'GET')) {
+		const expected = row.crossOrigin ?? 403;
+		it(`${row.method} ${row.route} with a foreign Origin → ${expected}`, async () => {
+			const spec = row.request ? await row.request(fx, 'admin') : {};
+			const foreign = await callHandler(moduleFor(row), row.method, callers.admin, spec, { origin: 'https://evil.example' });
+			expect(foreign.status).toBe(expected);
+			const none = await callHandler(moduleFor(row), row.method, callers.admin, spec, { origin: null });
+			expect(none.status).toBe(expected);
+		});
+	}
+});
+
+describe('jobs and accounts API input handling', () => {
+	const jobRoute = () => discovered.find((d) => d.routeId === '/api/jobs')!;
+	const admin = () => callers.admin;
+	const intake = { customerName: 'Input Test', category: 'receiver', make: 'Corvane', model: 'CR-1', complaint: 'Hum' };
+
+	it('415 for a body that is not JSON', async () => {
+		const res = await callHandler(jobRoute(), 'POST', admin(), { body: intake }, { contentType: 'text/plain' });
+		expect(res.status).toBe(415);
+	});
+
+	it('413 for a body over the limit', async () => {
+		const res = await callHandler(jobRoute(), 'POST', admin(), { body: { ...intake, complaint: 'x'.repeat(70 * 1024) } });
+		expect(res.status).toBe(413);
+	});
+
+	it('400 with the zod issues for an invalid body, and for malformed JSON', async () => {
+		const res = await callHandler(jobRoute(), 'POST', admin(), { body: { ...intake, make: '', year: 'old' } });
+		expect(res.status).toBe(400);
+		const issues = (res.body as { issues: { path: string }[] }).issues.map((i) => i.path).sort();
+		expect(issues).toEqual(['make', 'year']);
+		const broken = await callHandler(jobRoute(), 'POST', admin(), { rawBody: '{"make": ', headers: { 'content-type': 'application/json' } });
+		expect(broken.status).toBe(400);
+	});
+
+	it('400 for a bad query string (pageSize over 100, unknown sort)', async () => {
+		expect((await callHandler(jobRoute(), 'GET', admin(), { query: '?pageSize=500' })).status).toBe(400);
+		expect((await callHandler(jobRoute(), 'GET', admin(), { query: '?sort=price' })).status).toBe(400);
+	});
+
+	it('answers { items, total, page, pageSize } and resolves technician=me', async () => {
+		const res = await callHandler(jobRoute(), 'GET', callers.technician, { query: '?technician=me&pageSize=100' });
+		expect(res.status).toBe(200);
+		const body = res.body as { items: { technicianId: string }[]; total: number; page: number; pageSize: number };
+		expect(body.page).toBe(1);
+		expect(body.pageSize).toBe(100);
+		expect(body.total).toBe(body.items.length);
+		expect(body.total).toBeGreaterThan(0);
+		expect(new Set(body.items.map((i) => i.technicianId))).toEqual(new Set([fx.users.tech1]));
+	});
+
+	it('404 for unknown or malformed ids', async () => {
+		const one = discovered.find((d) => d.routeId === '/api/jobs/[id]')!;
+		expect((await callHandler(one, 'GET', admin(), { params: { id: '999999' } })).status).toBe(404);
+		expect((await callHandler(one, 'GET', admin(), { params: { id: 'abc' } })).status).toBe(404);
+		expect((await callHandler(one, 'GET', admin(), { params: { id: '-1' } })).status).toBe(404);
+		const user = discovered.find((d) => d.routeId === '/api/users/[id]')!;
+		expect((await callHandler(user, 'PATCH', admin(), { params: { id: 'nosuchuser' }, body: { name: 'X' } })).status).toBe(404);
+		expect((await callHandler(user, 'PATCH', admin(), { params: { id: '../x' }, body: { name: 'X' } })).status).toBe(404);
+	});
+
+	it('409 for a status move the path does not allow; the approval is recorded', async () => {
+		const status = discovered.find((d) => d.routeId === '/api/jobs/[id]/status')!;
+		const skip = await callHandler(status, 'POST', admin(), { params: { id: String(fx.jobId) }, body: { status: 'testing' } });
+		expect(skip.status).toBe(409);
+		const ok = await callHandler(status, 'POST', callers.supervisor, { params: { id: String(fx.reviewJobId) }, body: { status: 'approved' } });
+		const history = (ok.body as { history: { toStatus: string; userId: string }[] }).history;
+		expect(history.at(-1)).toMatchObject({ toStatus: 'approved', userId: fx.users.supervisor });
+	});
+
+	it('a wrong current password is a 400 naming the field', async () => {
+		const pw = discovered.find((d) => d.routeId === '/api/auth/password')!;
+		const res = await callHandler(pw, 'POST', callers.technician, { body: { currentPassword: 'not it', newPassword: 'another long passphrase' } });
+		expect(res.status).toBe(400);
+		expect(res.body).toMatchObject({ issues: [{ path: 'currentPassword' }] });
+	});
+
+	it('an admin cannot deactivate their own account (409)', async () => {
+		const user = discovered.find((d) => d.routeId === '/api/users/[id]')!;
+		const res = await callHandler(user, 'PATCH', admin(), { params: { id: fx.users.admin }, body: { active: false } });
+		expect(res.status).toBe(409);
+	});
+});
