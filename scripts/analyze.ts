@@ -96,11 +96,13 @@ function parseCli(argv: string[]): Cli {
 		console.log(USAGE);
 		process.exit(0);
 	}
-	if (positionals.length !== 1) usageError(positionals.length ? 'give exactly one WAV file' : 'no WAV file given');
+	if (positionals.length !== 1)
+		usageError(positionals.length ? 'give exactly one WAV file' : 'no WAV file given');
 	const options: AnalysisOptions = {};
 	let channel: number | undefined;
 	if (values.channel !== undefined) {
-		if (!/^\d+$/.test(values.channel)) usageError(`--channel must be a channel index (0, 1, …), got "${values.channel}"`);
+		if (!/^\d+$/.test(values.channel))
+			usageError(`--channel must be a channel index (0, 1, …), got "${values.channel}"`);
 		channel = Number(values.channel);
 	}
 	if (values.fft !== undefined) {
@@ -142,7 +144,14 @@ function readWav(file: string) {
 		bytes = readFileSync(file);
 	} catch (err) {
 		const code = (err as NodeJS.ErrnoException).code;
-		const why = code === 'ENOENT' ? 'no such file' : code === 'EISDIR' ? 'is a directory' : code === 'EACCES' ? 'permission denied' : String(code ?? err);
+		const why =
+			code === 'ENOENT'
+				? 'no such file'
+				: code === 'EISDIR'
+					? 'is a directory'
+					: code === 'EACCES'
+						? 'permission denied'
+						: String(code ?? err);
 		throw new CliError(`cannot read ${file}: ${why}`, 1);
 	}
 	try {
@@ -203,7 +212,9 @@ function table(file: string, wav: ReturnType<typeof decodeWav>, result: Analysis
 	if (result.balanceDb !== undefined) {
 		lines.push('');
 		lines.push(`Balance (ch 0 re ch 1)  ${fmt(result.balanceDb, 2)} dB`);
-		lines.push(`Crosstalk (ch ${result.crosstalkFromChannel} → ch ${result.crosstalkToChannel})  ${fmt(result.crosstalkDb, 1)} dB`);
+		lines.push(
+			`Crosstalk (ch ${result.crosstalkFromChannel} → ch ${result.crosstalkToChannel})  ${fmt(result.crosstalkDb, 1)} dB`
+		);
 	}
 	return lines.join('\n');
 }
@@ -214,7 +225,9 @@ function main(argv: string[]): void {
 	let chans = wav.channels;
 	if (cli.channel !== undefined) {
 		if (cli.channel >= wav.channels.length)
-			usageError(`--channel ${cli.channel} does not exist: the file has ${wav.channels.length} channel(s), 0…${wav.channels.length - 1}`);
+			usageError(
+				`--channel ${cli.channel} does not exist: the file has ${wav.channels.length} channel(s), 0…${wav.channels.length - 1}`
+			);
 		chans = [wav.channels[cli.channel]];
 	}
 	const length = chans[0].length;

@@ -32,7 +32,9 @@ export async function backupDatabase(sourcePath: string, outPath: string): Promi
 	}
 	const copy = new Database(outPath, { readonly: true, fileMustExist: true });
 	try {
-		const integrity = (copy.pragma('integrity_check') as { integrity_check: string }[]).map((r) => r.integrity_check);
+		const integrity = (copy.pragma('integrity_check') as { integrity_check: string }[]).map(
+			(r) => r.integrity_check
+		);
 		const fk = copy.pragma('foreign_key_check') as unknown[];
 		return {
 			path: outPath,
@@ -52,7 +54,9 @@ async function main(): Promise<void> {
 	const result = await backupDatabase(source, out);
 	console.log(`Backup of ${source} written to ${result.path}`);
 	console.log(`  integrity_check:   ${result.integrity.join('; ')}`);
-	console.log(`  foreign_key_check: ${result.foreignKeyProblems === 0 ? 'ok' : `${result.foreignKeyProblems} problem rows`}`);
+	console.log(
+		`  foreign_key_check: ${result.foreignKeyProblems === 0 ? 'ok' : `${result.foreignKeyProblems} problem rows`}`
+	);
 	if (!result.ok) {
 		console.error('Backup FAILED verification: do not rely on this copy.');
 		process.exit(1);

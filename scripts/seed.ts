@@ -85,139 +85,431 @@ const upTo = (status: JobStatus) => PATH.slice(0, PATH.indexOf(status) + 1);
 
 const DEMO_JOBS: DemoJob[] = [
 	{
-		customer: 0, category: 'receiver', make: 'Corvane', model: 'CR-7400', serial: 'C74-118203', year: 1977,
+		customer: 0,
+		category: 'receiver',
+		make: 'Corvane',
+		model: 'CR-7400',
+		serial: 'C74-118203',
+		year: 1977,
 		complaint: 'Dead: no dial lamps, no sound. Owner says it went off with a bang.',
-		ratedPowerW: 60, ratedLoadOhms: 8, statuses: upTo('received'), technician: null, promisedInDays: 14, ageDays: 1,
-		log: [], parts: []
-	},
-	{
-		customer: 1, category: 'integrated-amplifier', make: 'Velmora', model: 'VA-120', serial: 'VA120-00457', year: 1981,
-		complaint: 'Hum in both channels, louder once warm. Volume control crackles.',
-		ratedPowerW: 45, ratedLoadOhms: 8, statuses: upTo('diagnosing'), technician: 'tech1', promisedInDays: 10, ageDays: 3,
-		log: [{ text: 'Mains fuse correct value (T2A). Hum at 100 Hz on both rails: main filter capacitors suspected.', minutes: 40 }],
+		ratedPowerW: 60,
+		ratedLoadOhms: 8,
+		statuses: upTo('received'),
+		technician: null,
+		promisedInDays: 14,
+		ageDays: 1,
+		log: [],
 		parts: []
 	},
 	{
-		customer: 2, category: 'power-amplifier', make: 'Halvane', model: 'HP-250', serial: 'HP2-30991', year: 1984,
-		complaint: 'Right channel protection relay drops out after a minute of play.',
-		ratedPowerW: 125, ratedLoadOhms: 8, statuses: upTo('awaiting-parts'), technician: 'tech2', promisedInDays: 21, ageDays: 6,
+		customer: 1,
+		category: 'integrated-amplifier',
+		make: 'Velmora',
+		model: 'VA-120',
+		serial: 'VA120-00457',
+		year: 1981,
+		complaint: 'Hum in both channels, louder once warm. Volume control crackles.',
+		ratedPowerW: 45,
+		ratedLoadOhms: 8,
+		statuses: upTo('diagnosing'),
+		technician: 'tech1',
+		promisedInDays: 10,
+		ageDays: 3,
 		log: [
-			{ text: 'Right channel DC offset drifts to 180 mV when warm. Q412 leaky (checked out of circuit).', minutes: 75 },
+			{
+				text: 'Mains fuse correct value (T2A). Hum at 100 Hz on both rails: main filter capacitors suspected.',
+				minutes: 40
+			}
+		],
+		parts: []
+	},
+	{
+		customer: 2,
+		category: 'power-amplifier',
+		make: 'Halvane',
+		model: 'HP-250',
+		serial: 'HP2-30991',
+		year: 1984,
+		complaint: 'Right channel protection relay drops out after a minute of play.',
+		ratedPowerW: 125,
+		ratedLoadOhms: 8,
+		statuses: upTo('awaiting-parts'),
+		technician: 'tech2',
+		promisedInDays: 21,
+		ageDays: 6,
+		log: [
+			{
+				text: 'Right channel DC offset drifts to 180 mV when warm. Q412 leaky (checked out of circuit).',
+				minutes: 75
+			},
 			{ text: 'Ordered matched output pair and relay. Told customer about two-week wait.', minutes: 15 }
 		],
 		parts: [
-			{ refDes: 'Q412', description: 'Output transistor, NPN', value: '230 V 15 A', quantity: 2, unitCostCents: 645, supplier: 'Northbank Components', state: 'ordered', verificationNote: null },
-			{ refDes: 'RL1', description: 'Speaker protection relay, 24 V coil', value: '24 V DPDT', quantity: 1, unitCostCents: 890, supplier: 'Northbank Components', state: 'ordered', verificationNote: null }
+			{
+				refDes: 'Q412',
+				description: 'Output transistor, NPN',
+				value: '230 V 15 A',
+				quantity: 2,
+				unitCostCents: 645,
+				supplier: 'Northbank Components',
+				state: 'ordered',
+				verificationNote: null
+			},
+			{
+				refDes: 'RL1',
+				description: 'Speaker protection relay, 24 V coil',
+				value: '24 V DPDT',
+				quantity: 1,
+				unitCostCents: 890,
+				supplier: 'Northbank Components',
+				state: 'ordered',
+				verificationNote: null
+			}
 		]
 	},
 	{
-		customer: 3, category: 'preamplifier', make: 'Brixane', model: 'BX-33', serial: 'BX33-7720', year: 1979,
+		customer: 3,
+		category: 'preamplifier',
+		make: 'Brixane',
+		model: 'BX-33',
+		serial: 'BX33-7720',
+		year: 1979,
 		complaint: 'Scratchy volume and balance; left channel cuts out when the selector is touched.',
-		ratedPowerW: null, ratedLoadOhms: null, statuses: upTo('repairing'), technician: 'tech1', promisedInDays: 5, ageDays: 9,
+		ratedPowerW: null,
+		ratedLoadOhms: null,
+		statuses: upTo('repairing'),
+		technician: 'tech1',
+		promisedInDays: 5,
+		ageDays: 9,
 		log: [
-			{ text: 'Selector contacts oxidised on the left deck. Cleaned and lubricated; volume pot cleaned.', minutes: 55 },
+			{
+				text: 'Selector contacts oxidised on the left deck. Cleaned and lubricated; volume pot cleaned.',
+				minutes: 55
+			},
 			{ text: 'Replacing the dried coupling capacitors on the phono stage.', minutes: 30 }
 		],
 		parts: [
-			{ refDes: 'C105', description: 'Film capacitor, coupling', value: '2.2 µF 63 V', quantity: 2, unitCostCents: 180, supplier: 'Relay & Reel Supply', state: 'fitted', verificationNote: 'Capacitance 2.21 µF measured' },
-			{ refDes: 'C12', description: 'Electrolytic capacitor, 105 °C', value: '470 µF 35 V', quantity: 4, unitCostCents: 95, supplier: 'Relay & Reel Supply', state: 'received', verificationNote: 'Sleeve print and vent crisp; ESR in spec' }
+			{
+				refDes: 'C105',
+				description: 'Film capacitor, coupling',
+				value: '2.2 µF 63 V',
+				quantity: 2,
+				unitCostCents: 180,
+				supplier: 'Relay & Reel Supply',
+				state: 'fitted',
+				verificationNote: 'Capacitance 2.21 µF measured'
+			},
+			{
+				refDes: 'C12',
+				description: 'Electrolytic capacitor, 105 °C',
+				value: '470 µF 35 V',
+				quantity: 4,
+				unitCostCents: 95,
+				supplier: 'Relay & Reel Supply',
+				state: 'received',
+				verificationNote: 'Sleeve print and vent crisp; ESR in spec'
+			}
 		]
 	},
 	{
-		customer: 4, category: 'tuner', make: 'Orlund', model: 'OT-55', serial: 'OT55-2211', year: 1983,
+		customer: 4,
+		category: 'tuner',
+		make: 'Orlund',
+		model: 'OT-55',
+		serial: 'OT55-2211',
+		year: 1983,
 		complaint: 'Stereo lamp flickers, FM weak and noisy.',
-		ratedPowerW: null, ratedLoadOhms: null, statuses: upTo('testing'), technician: 'tech2', promisedInDays: 3, ageDays: 12,
+		ratedPowerW: null,
+		ratedLoadOhms: null,
+		statuses: upTo('testing'),
+		technician: 'tech2',
+		promisedInDays: 3,
+		ageDays: 12,
 		log: [
 			{ text: 'Multiplex decoder realigned, dial lamp replaced.', minutes: 90 },
 			{ text: 'Running on the bench overnight to check stereo lock stays stable.', minutes: 10 }
 		],
 		parts: [
-			{ refDes: 'PL1', description: 'Dial lamp, wedge base', value: '8 V 0.3 A', quantity: 1, unitCostCents: 240, supplier: 'Northbank Components', state: 'fitted', verificationNote: null }
+			{
+				refDes: 'PL1',
+				description: 'Dial lamp, wedge base',
+				value: '8 V 0.3 A',
+				quantity: 1,
+				unitCostCents: 240,
+				supplier: 'Northbank Components',
+				state: 'fitted',
+				verificationNote: null
+			}
 		]
 	},
 	{
-		customer: 5, category: 'turntable', make: 'Tessaline', model: 'TL-2', serial: 'TL2-05561', year: 1976,
+		customer: 5,
+		category: 'turntable',
+		make: 'Tessaline',
+		model: 'TL-2',
+		serial: 'TL2-05561',
+		year: 1976,
 		complaint: 'Speed drifts slow on long sides; motor hums audibly.',
-		ratedPowerW: null, ratedLoadOhms: null, statuses: upTo('awaiting-review'), technician: 'tech1', promisedInDays: 2, ageDays: 15,
+		ratedPowerW: null,
+		ratedLoadOhms: null,
+		statuses: upTo('awaiting-review'),
+		technician: 'tech1',
+		promisedInDays: 2,
+		ageDays: 15,
 		log: [
 			{ text: 'Belt glazed and stretched; replaced. Motor bearings cleaned and oiled.', minutes: 60 },
-			{ text: 'Speed within 0.3 % at 33⅓ over a full side. Motor hum gone after remounting grommets.', minutes: 35 }
+			{
+				text: 'Speed within 0.3 % at 33⅓ over a full side. Motor hum gone after remounting grommets.',
+				minutes: 35
+			}
 		],
 		parts: [
-			{ refDes: 'BELT1', description: 'Flat drive belt', value: '540 mm × 5 mm', quantity: 1, unitCostCents: 1250, supplier: 'Relay & Reel Supply', state: 'fitted', verificationNote: 'Length checked against old belt (relaxed)' },
-			{ refDes: 'GR1', description: 'Motor mount grommets', value: null, quantity: 3, unitCostCents: 60, supplier: 'Relay & Reel Supply', state: 'fitted', verificationNote: null }
+			{
+				refDes: 'BELT1',
+				description: 'Flat drive belt',
+				value: '540 mm × 5 mm',
+				quantity: 1,
+				unitCostCents: 1250,
+				supplier: 'Relay & Reel Supply',
+				state: 'fitted',
+				verificationNote: 'Length checked against old belt (relaxed)'
+			},
+			{
+				refDes: 'GR1',
+				description: 'Motor mount grommets',
+				value: null,
+				quantity: 3,
+				unitCostCents: 60,
+				supplier: 'Relay & Reel Supply',
+				state: 'fitted',
+				verificationNote: null
+			}
 		]
 	},
 	{
-		customer: 6, category: 'tape-deck', make: 'Stennick', model: 'ST-9', serial: 'ST9-44012', year: 1980,
+		customer: 6,
+		category: 'tape-deck',
+		make: 'Stennick',
+		model: 'ST-9',
+		serial: 'ST9-44012',
+		year: 1980,
 		complaint: 'Left channel dull, no top end on playback.',
-		ratedPowerW: null, ratedLoadOhms: null, statuses: upTo('approved'), technician: 'tech2', promisedInDays: -1, ageDays: 20,
+		ratedPowerW: null,
+		ratedLoadOhms: null,
+		statuses: upTo('approved'),
+		technician: 'tech2',
+		promisedInDays: -1,
+		ageDays: 20,
 		log: [
 			{ text: 'Heads cleaned and demagnetised; azimuth was off. Pinch roller replaced.', minutes: 80 },
 			{ text: 'Response within ±2 dB to 14 kHz on both channels after adjustment.', minutes: 45 }
 		],
 		parts: [
-			{ refDes: 'PR1', description: 'Pinch roller', value: '13 mm', quantity: 1, unitCostCents: 1890, supplier: 'Northbank Components', state: 'fitted', verificationNote: 'Shore hardness matches the original' }
+			{
+				refDes: 'PR1',
+				description: 'Pinch roller',
+				value: '13 mm',
+				quantity: 1,
+				unitCostCents: 1890,
+				supplier: 'Northbank Components',
+				state: 'fitted',
+				verificationNote: 'Shore hardness matches the original'
+			}
 		]
 	},
 	{
-		customer: 7, category: 'other', make: 'Marrowby', model: 'MB-40 headphone amplifier', serial: 'MB40-0098', year: 1988,
+		customer: 7,
+		category: 'other',
+		make: 'Marrowby',
+		model: 'MB-40 headphone amplifier',
+		serial: 'MB40-0098',
+		year: 1988,
 		complaint: 'Crackling in the right earpiece when the level is turned.',
-		ratedPowerW: 1, ratedLoadOhms: 32, statuses: upTo('returned'), technician: 'tech1', promisedInDays: -8, ageDays: 30,
+		ratedPowerW: 1,
+		ratedLoadOhms: 32,
+		statuses: upTo('returned'),
+		technician: 'tech1',
+		promisedInDays: -8,
+		ageDays: 30,
 		log: [{ text: 'Level pot worn through on the right track. Replaced; crackle gone.', minutes: 35 }],
 		parts: [
-			{ refDes: 'VR1', description: 'Dual potentiometer, log taper', value: '50 kΩ A', quantity: 1, unitCostCents: 760, supplier: 'Relay & Reel Supply', state: 'fitted', verificationNote: 'Track matching within 1 dB measured' }
+			{
+				refDes: 'VR1',
+				description: 'Dual potentiometer, log taper',
+				value: '50 kΩ A',
+				quantity: 1,
+				unitCostCents: 760,
+				supplier: 'Relay & Reel Supply',
+				state: 'fitted',
+				verificationNote: 'Track matching within 1 dB measured'
+			}
 		]
 	},
 	{
-		customer: 8, category: 'receiver', make: 'Corvane', model: 'CR-5200', serial: 'C52-09931', year: 1975,
+		customer: 8,
+		category: 'receiver',
+		make: 'Corvane',
+		model: 'CR-5200',
+		serial: 'C52-09931',
+		year: 1975,
 		complaint: 'Dial lamps out and the tuning dial is stuck.',
-		ratedPowerW: 40, ratedLoadOhms: 8, statuses: [...upTo('awaiting-parts'), 'on-hold'], technician: 'tech2', promisedInDays: null, ageDays: 25,
-		log: [{ text: 'Dial cord snapped. Waiting on the customer to approve the cost of a restring and lamps.', minutes: 25 }],
+		ratedPowerW: 40,
+		ratedLoadOhms: 8,
+		statuses: [...upTo('awaiting-parts'), 'on-hold'],
+		technician: 'tech2',
+		promisedInDays: null,
+		ageDays: 25,
+		log: [
+			{
+				text: 'Dial cord snapped. Waiting on the customer to approve the cost of a restring and lamps.',
+				minutes: 25
+			}
+		],
 		parts: [
-			{ refDes: 'CORD1', description: 'Dial cord', value: '0.5 mm braided', quantity: 1, unitCostCents: 450, supplier: 'Northbank Components', state: 'ordered', verificationNote: null }
+			{
+				refDes: 'CORD1',
+				description: 'Dial cord',
+				value: '0.5 mm braided',
+				quantity: 1,
+				unitCostCents: 450,
+				supplier: 'Northbank Components',
+				state: 'ordered',
+				verificationNote: null
+			}
 		]
 	},
 	{
-		customer: 9, category: 'power-amplifier', make: 'Velmora', model: 'VP-400', serial: 'VP4-11870', year: 1986,
+		customer: 9,
+		category: 'power-amplifier',
+		make: 'Velmora',
+		model: 'VP-400',
+		serial: 'VP4-11870',
+		year: 1986,
 		complaint: 'Blows the mains fuse at switch-on.',
-		ratedPowerW: 200, ratedLoadOhms: 4, statuses: ['received', 'diagnosing', 'declined'], technician: 'tech1', promisedInDays: null, ageDays: 18,
-		log: [{ text: 'All four output devices on the left channel shorted, driver board scorched. Estimate declined by owner.', minutes: 50 }],
+		ratedPowerW: 200,
+		ratedLoadOhms: 4,
+		statuses: ['received', 'diagnosing', 'declined'],
+		technician: 'tech1',
+		promisedInDays: null,
+		ageDays: 18,
+		log: [
+			{
+				text: 'All four output devices on the left channel shorted, driver board scorched. Estimate declined by owner.',
+				minutes: 50
+			}
+		],
 		parts: []
 	},
 	{
-		customer: 10, category: 'integrated-amplifier', make: 'Orlund', model: 'OA-90', serial: 'OA90-3305', year: 1990,
+		customer: 10,
+		category: 'integrated-amplifier',
+		make: 'Orlund',
+		model: 'OA-90',
+		serial: 'OA90-3305',
+		year: 1990,
 		complaint: 'Sound cuts out now and then; relay chatters.',
-		ratedPowerW: 90, ratedLoadOhms: 8, statuses: upTo('repairing'), technician: 'tech2', promisedInDays: 7, ageDays: 8,
-		log: [{ text: 'Cold joints on the relay and the regulator pins. Reflowed; replacing the relay anyway.', minutes: 45 }],
+		ratedPowerW: 90,
+		ratedLoadOhms: 8,
+		statuses: upTo('repairing'),
+		technician: 'tech2',
+		promisedInDays: 7,
+		ageDays: 8,
+		log: [
+			{
+				text: 'Cold joints on the relay and the regulator pins. Reflowed; replacing the relay anyway.',
+				minutes: 45
+			}
+		],
 		parts: [
-			{ refDes: 'RL2', description: 'Speaker relay, 12 V coil', value: '12 V DPDT', quantity: 1, unitCostCents: 720, supplier: 'Northbank Components', state: 'received', verificationNote: 'Contact rating printed, coil 12 V measured 400 Ω' }
+			{
+				refDes: 'RL2',
+				description: 'Speaker relay, 12 V coil',
+				value: '12 V DPDT',
+				quantity: 1,
+				unitCostCents: 720,
+				supplier: 'Northbank Components',
+				state: 'received',
+				verificationNote: 'Contact rating printed, coil 12 V measured 400 Ω'
+			}
 		]
 	},
 	{
-		customer: 11, category: 'receiver', make: 'Halvane', model: 'HR-330', serial: 'HR3-60214', year: 1978,
+		customer: 11,
+		category: 'receiver',
+		make: 'Halvane',
+		model: 'HR-330',
+		serial: 'HR3-60214',
+		year: 1978,
 		complaint: 'Left channel weak and distorted since a thunderstorm.',
-		ratedPowerW: 35, ratedLoadOhms: 8, statuses: upTo('awaiting-review'), technician: 'tech1', promisedInDays: 4, ageDays: 14,
+		ratedPowerW: 35,
+		ratedLoadOhms: 8,
+		statuses: upTo('awaiting-review'),
+		technician: 'tech1',
+		promisedInDays: 4,
+		ageDays: 14,
 		log: [
-			{ text: 'Left driver transistor open, bias resistor burnt. Replaced both, bias set to service figure.', minutes: 95 },
+			{
+				text: 'Left driver transistor open, bias resistor burnt. Replaced both, bias set to service figure.',
+				minutes: 95
+			},
 			{ text: 'One-hour soak at one-eighth power: heatsink settled at 48 °C.', minutes: 70 }
 		],
 		parts: [
-			{ refDes: 'Q305', description: 'Driver transistor, PNP', value: '160 V 1.5 A', quantity: 1, unitCostCents: 310, supplier: 'Northbank Components', state: 'fitted', verificationNote: 'hFE 118 measured; markings and weight checked' },
-			{ refDes: 'R321', description: 'Bias resistor, metal film', value: '220 Ω 0.5 W', quantity: 1, unitCostCents: 25, supplier: 'Relay & Reel Supply', state: 'fitted', verificationNote: null }
+			{
+				refDes: 'Q305',
+				description: 'Driver transistor, PNP',
+				value: '160 V 1.5 A',
+				quantity: 1,
+				unitCostCents: 310,
+				supplier: 'Northbank Components',
+				state: 'fitted',
+				verificationNote: 'hFE 118 measured; markings and weight checked'
+			},
+			{
+				refDes: 'R321',
+				description: 'Bias resistor, metal film',
+				value: '220 Ω 0.5 W',
+				quantity: 1,
+				unitCostCents: 25,
+				supplier: 'Relay & Reel Supply',
+				state: 'fitted',
+				verificationNote: null
+			}
 		]
 	},
 	{
-		customer: 0, category: 'preamplifier', make: 'Stennick', model: 'SP-7', serial: 'SP7-1403', year: 1985,
+		customer: 0,
+		category: 'preamplifier',
+		make: 'Stennick',
+		model: 'SP-7',
+		serial: 'SP7-1403',
+		year: 1985,
 		complaint: 'Phono input very quiet and thin.',
-		ratedPowerW: null, ratedLoadOhms: null, statuses: upTo('received'), technician: null, promisedInDays: 20, ageDays: 0,
-		log: [], parts: []
+		ratedPowerW: null,
+		ratedLoadOhms: null,
+		statuses: upTo('received'),
+		technician: null,
+		promisedInDays: 20,
+		ageDays: 0,
+		log: [],
+		parts: []
 	},
 	{
-		customer: 3, category: 'tape-deck', make: 'Brixane', model: 'BX-D2', serial: 'BXD2-8812', year: 1982,
+		customer: 3,
+		category: 'tape-deck',
+		make: 'Brixane',
+		model: 'BX-D2',
+		serial: 'BXD2-8812',
+		year: 1982,
 		complaint: 'Will not fast-forward; counter stuck.',
-		ratedPowerW: null, ratedLoadOhms: null, statuses: upTo('diagnosing'), technician: 'tech2', promisedInDays: 12, ageDays: 2,
-		log: [], parts: []
+		ratedPowerW: null,
+		ratedLoadOhms: null,
+		statuses: upTo('diagnosing'),
+		technician: 'tech2',
+		promisedInDays: 12,
+		ageDays: 2,
+		log: [],
+		parts: []
 	}
 ];
 
@@ -246,13 +538,22 @@ export async function seedDemo(db: Db, options: { now?: Date } = {}): Promise<bo
 		DEMO_USERS.forEach((u, i) => {
 			const at = new Date(nowMs - 90 * DAY_MS);
 			tx.insert(table.users)
-				.values({ id: userIds[u.key], email: u.email, name: u.name, role: u.role, passwordHash: hashes[i], createdAt: at, updatedAt: at })
+				.values({
+					id: userIds[u.key],
+					email: u.email,
+					name: u.name,
+					role: u.role,
+					passwordHash: hashes[i],
+					createdAt: at,
+					updatedAt: at
+				})
 				.run();
 		});
 
 		const customerIds = CUSTOMERS.map(
 			(c, i) =>
-				tx.insert(table.customers)
+				tx
+					.insert(table.customers)
 					.values({ ...c, createdAt: new Date(nowMs - (60 - i) * DAY_MS) })
 					.returning({ id: table.customers.id })
 					.get().id
@@ -294,9 +595,22 @@ export async function seedDemo(db: Db, options: { now?: Date } = {}): Promise<bo
 							? userIds.admin
 							: (techId ?? userIds.supervisor);
 				const note =
-					i === 0 ? 'Taken in' : status === 'on-hold' ? 'Waiting for the customer to approve the estimate' : status === 'declined' ? 'Customer declined the estimate' : null;
+					i === 0
+						? 'Taken in'
+						: status === 'on-hold'
+							? 'Waiting for the customer to approve the estimate'
+							: status === 'declined'
+								? 'Customer declined the estimate'
+								: null;
 				tx.insert(table.jobStatusHistory)
-					.values({ jobId: job.id, userId: by, fromStatus: i === 0 ? null : j.statuses[i - 1], toStatus: status, note, createdAt: stepAt(i) })
+					.values({
+						jobId: job.id,
+						userId: by,
+						fromStatus: i === 0 ? null : j.statuses[i - 1],
+						toStatus: status,
+						note,
+						createdAt: stepAt(i)
+					})
 					.run();
 			});
 
@@ -336,7 +650,33 @@ function rng(seed: number): () => number {
 	};
 }
 
-const SYLLABLES = ['al', 'bre', 'cor', 'dan', 'el', 'fen', 'gar', 'hol', 'is', 'jor', 'kel', 'lun', 'mar', 'nor', 'ost', 'pel', 'quin', 'ros', 'sel', 'tor', 'ul', 'ven', 'wyn', 'yar', 'zel'];
+const SYLLABLES = [
+	'al',
+	'bre',
+	'cor',
+	'dan',
+	'el',
+	'fen',
+	'gar',
+	'hol',
+	'is',
+	'jor',
+	'kel',
+	'lun',
+	'mar',
+	'nor',
+	'ost',
+	'pel',
+	'quin',
+	'ros',
+	'sel',
+	'tor',
+	'ul',
+	'ven',
+	'wyn',
+	'yar',
+	'zel'
+];
 const COMPLAINTS = [
 	'Dead, no sound',
 	'Hum in both channels',
@@ -361,7 +701,9 @@ export function seedLarge(db: Db, jobCount = 10_000, options: { seed?: number; n
 	const pick = <T>(list: readonly T[]): T => list[Math.floor(random() * list.length)];
 	const nowMs = (options.now ?? new Date()).getTime();
 	const sqlite = db.$client;
-	const staff = sqlite.prepare("SELECT id FROM users WHERE active = 1 AND role IN ('technician', 'supervisor')").all() as { id: string }[];
+	const staff = sqlite
+		.prepare("SELECT id FROM users WHERE active = 1 AND role IN ('technician', 'supervisor')")
+		.all() as { id: string }[];
 	const staffIds = staff.map((s) => s.id);
 
 	const name = () => {
@@ -372,7 +714,9 @@ export function seedLarge(db: Db, jobCount = 10_000, options: { seed?: number; n
 		return `${part()} ${part()}${pick(SYLLABLES)}`;
 	};
 
-	const insertCustomer = sqlite.prepare('INSERT INTO customers (name, email, phone, created_at) VALUES (?, ?, ?, ?)');
+	const insertCustomer = sqlite.prepare(
+		'INSERT INTO customers (name, email, phone, created_at) VALUES (?, ?, ?, ?)'
+	);
 	const insertJob = sqlite.prepare(
 		`INSERT INTO jobs (customer_id, category, make, model, serial, year, complaint, rated_power_w, rated_load_ohms,
 		  status, technician_id, promised_date, created_at, updated_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)`
@@ -388,7 +732,12 @@ export function seedLarge(db: Db, jobCount = 10_000, options: { seed?: number; n
 		for (let i = 0; i < customerCount; i++) {
 			const n = name();
 			const email = random() < 0.7 ? `${n.toLowerCase().replace(/[^a-z]+/g, '.')}.${i}@example.net` : null;
-			const info = insertCustomer.run(n, email, random() < 0.6 ? `555-${String(1000 + i).slice(-4)}` : null, nowMs - 800 * DAY_MS);
+			const info = insertCustomer.run(
+				n,
+				email,
+				random() < 0.6 ? `555-${String(1000 + i).slice(-4)}` : null,
+				nowMs - 800 * DAY_MS
+			);
 			customerIds.push(Number(info.lastInsertRowid));
 		}
 		for (let i = 0; i < jobCount; i++) {
@@ -427,7 +776,9 @@ async function main(): Promise<void> {
 	const db = openDb(url);
 	try {
 		const seeded = await seedDemo(db);
-		console.log(seeded ? `Seeded the demo shop into ${url}.` : `${url} already has users: demo seed skipped.`);
+		console.log(
+			seeded ? `Seeded the demo shop into ${url}.` : `${url} already has users: demo seed skipped.`
+		);
 		if (large) {
 			const jobs = db.select({ n: count() }).from(table.jobs).get()?.n ?? 0;
 			if (jobs >= 10_000) {

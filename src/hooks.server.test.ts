@@ -20,7 +20,8 @@ function makeEvent(path: string, cookie?: string, headers: Record<string, string
 	const url = new URL(path, 'http://127.0.0.1:5173');
 	const cookies = {
 		get: (name: string) => (name === SESSION_COOKIE ? cookie : undefined),
-		set: (name: string, value: string, opts: Record<string, unknown>) => calls.push({ op: 'set', name, value, opts }),
+		set: (name: string, value: string, opts: Record<string, unknown>) =>
+			calls.push({ op: 'set', name, value, opts }),
 		delete: (name: string, opts: Record<string, unknown>) => calls.push({ op: 'delete', name, opts })
 	} as unknown as Cookies;
 	const event = {
@@ -59,7 +60,11 @@ describe('hooks: session', () => {
 	it('fills locals.user and locals.session from a valid cookie', async () => {
 		const { event, calls } = makeEvent('/jobs', token);
 		const { locals } = await run(event, new Response('ok'));
-		expect(locals.user).toMatchObject({ email: 'tech1@example.com', role: 'technician', name: 'Tamsin Oakridge' });
+		expect(locals.user).toMatchObject({
+			email: 'tech1@example.com',
+			role: 'technician',
+			name: 'Tamsin Oakridge'
+		});
 		expect(locals.session?.id).toMatch(/^[0-9a-f]{64}$/);
 		expect(calls).toEqual([]);
 	});
@@ -69,7 +74,9 @@ describe('hooks: session', () => {
 		expect((await run(none.event, new Response('ok'))).locals).toEqual({ user: null, session: null });
 		const dead = makeEvent('/jobs', 'a'.repeat(32));
 		expect((await run(dead.event, new Response('ok'))).locals.user).toBeNull();
-		expect(dead.calls).toEqual([{ op: 'delete', name: SESSION_COOKIE, opts: expect.objectContaining({ path: '/', secure: false }) }]);
+		expect(dead.calls).toEqual([
+			{ op: 'delete', name: SESSION_COOKIE, opts: expect.objectContaining({ path: '/', secure: false }) }
+		]);
 	});
 
 	it('sends the cookie again when the idle expiry slides forward', async () => {
@@ -78,7 +85,12 @@ describe('hooks: session', () => {
 		const { event, calls } = makeEvent('/jobs', token);
 		await run(event, new Response('ok'));
 		expect(calls).toHaveLength(1);
-		expect(calls[0]).toMatchObject({ op: 'set', name: SESSION_COOKIE, value: token, opts: { httpOnly: true, sameSite: 'lax', secure: false, path: '/' } });
+		expect(calls[0]).toMatchObject({
+			op: 'set',
+			name: SESSION_COOKIE,
+			value: token,
+			opts: { httpOnly: true, sameSite: 'lax', secure: false, path: '/' }
+		});
 		const expires = calls[0].opts.expires as Date;
 		expect(expires.getTime()).toBe(Date.now() + env.SESSION_IDLE_MINUTES * 60_000);
 	});
@@ -95,7 +107,10 @@ describe('hooks: headers and API errors', () => {
 
 	it('turns an HTML error page under /api/ into JSON, uncached', async () => {
 		const { event } = makeEvent('/api/nothing-here');
-		const { res } = await run(event, new Response('<h1>Not found</h1>', { status: 404, headers: { 'content-type': 'text/html' } }));
+		const { res } = await run(
+			event,
+			new Response('<h1>Not found</h1>', { status: 404, headers: { 'content-type': 'text/html' } })
+		);
 		expect(res.status).toBe(404);
 		expect(res.headers.get('content-type')).toMatch(/application\/json/);
 		expect(await res.json()).toMatchObject({ message: expect.any(String) });

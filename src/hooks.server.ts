@@ -64,7 +64,8 @@ export const handle: Handle = async ({ event, resolve }) => {
 			response = json({ message: response.statusText || 'Request failed' }, { status: response.status });
 		}
 		// Answers depend on who is signed in: no shared caches.
-		if (!response.headers.has('cache-control')) response = withHeaders(response, { 'cache-control': 'no-store' });
+		if (!response.headers.has('cache-control'))
+			response = withHeaders(response, { 'cache-control': 'no-store' });
 	}
 
 	// CSP itself (with frame-ancestors 'none') comes from kit.csp in svelte.config.js.

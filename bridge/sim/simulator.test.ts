@@ -136,7 +136,6 @@ describe('simulator output stage', () => {
 		const pAt1Pct = (lo * gain) ** 2 / loadOhms;
 		const vClip = railVolts - OUTPUT_HEADROOM_V;
 		const pClip = (vClip / Math.SQRT2) ** 2 / loadOhms;
-		console.log(railVolts, loadOhms, pAt1Pct / pClip);
 		expect(pAt1Pct / pClip).toBeGreaterThan(0.9);
 		expect(pAt1Pct / pClip).toBeLessThan(1.1);
 		// Overdriven hard, the peaks flatten at the clip voltage.

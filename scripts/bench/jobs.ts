@@ -77,7 +77,8 @@ export async function run(): Promise<void> {
 				locals: { user, session: null }
 			} as unknown as RequestEvent;
 			const res = await route.GET(event);
-			if (res.status !== 200) throw new Error(`GET ${url.search} answered ${res.status}: ${await res.text()}`);
+			if (res.status !== 200)
+				throw new Error(`GET ${url.search} answered ${res.status}: ${await res.text()}`);
 			return res.text();
 		};
 
@@ -96,16 +97,29 @@ export async function run(): Promise<void> {
 		all.sort((a, b) => a - b);
 		const p50 = percentile(all, 50);
 		const p95 = percentile(all, 95);
-		console.log(`jobs: seeded ${total} jobs in ${seedMs.toFixed(0)} ms (one transaction, prepared statements)`);
+		console.log(
+			`jobs: seeded ${total} jobs in ${seedMs.toFixed(0)} ms (one transaction, prepared statements)`
+		);
 		console.log(
 			`jobs: GET /api/jobs × ${REQUESTS} (${QUERIES.length} query kinds): p50 ${p50.toFixed(2)} ms, p95 ${p95.toFixed(2)} ms ` +
 				`(goal p95 ≤ 50 ms: ${p95 <= 50 ? 'met' : 'NOT met'})`
 		);
 		const slowest = [...byKind]
-			.map(([kind, times]) => [kind, percentile([...times].sort((a, b) => a - b), 95)] as const)
+			.map(
+				([kind, times]) =>
+					[
+						kind,
+						percentile(
+							[...times].sort((a, b) => a - b),
+							95
+						)
+					] as const
+			)
 			.sort((a, b) => b[1] - a[1])
 			.slice(0, 3);
-		console.log(`jobs: slowest kinds by p95: ${slowest.map(([k, ms]) => `${k} ${ms.toFixed(2)} ms`).join(', ')}`);
+		console.log(
+			`jobs: slowest kinds by p95: ${slowest.map(([k, ms]) => `${k} ${ms.toFixed(2)} ms`).join(', ')}`
+		);
 	} finally {
 		await server?.close();
 		if (previousUrl === undefined) delete process.env.DATABASE_URL;

@@ -70,7 +70,13 @@ export const METRICS = {
 		units: ['%', 'ppm'],
 		help: 'Harmonics 2–10 in band, relative to the fundamental'
 	},
-	thdDb: { label: 'THD (dB)', scope: 'channel', baseUnit: 'dB', units: ['dB'], help: 'THD in dB re fundamental' },
+	thdDb: {
+		label: 'THD (dB)',
+		scope: 'channel',
+		baseUnit: 'dB',
+		units: ['dB'],
+		help: 'THD in dB re fundamental'
+	},
 	thdnPercent: {
 		label: 'THD+N',
 		scope: 'channel',
@@ -132,7 +138,9 @@ export const METRICS = {
 
 export type Metric = keyof typeof METRICS;
 export const METRIC_KEYS = Object.keys(METRICS) as [Metric, ...Metric[]];
-export type ChannelMetric = { [K in Metric]: (typeof METRICS)[K]['scope'] extends 'channel' ? K : never }[Metric];
+export type ChannelMetric = {
+	[K in Metric]: (typeof METRICS)[K]['scope'] extends 'channel' ? K : never;
+}[Metric];
 export type StereoMetric = Exclude<Metric, ChannelMetric>;
 export const CHANNEL_METRICS = METRIC_KEYS.filter((m) => METRICS[m].scope === 'channel') as ChannelMetric[];
 export const STEREO_METRICS = METRIC_KEYS.filter((m) => METRICS[m].scope === 'stereo') as StereoMetric[];
@@ -216,8 +224,8 @@ export interface LimitProfileView {
 
 /** The figures a limit can be checked against. Missing or non-finite values fail their checks. */
 export interface Measurements {
-	/** Index 0 = left, 1 = right; a mono capture has one entry. */
-	channels: Partial<Record<ChannelMetric, number | null>>[];
+	/** Index 0 = left, 1 = right; a mono capture has one entry; a channel not analysed is undefined. */
+	channels: (Partial<Record<ChannelMetric, number | null>> | undefined)[];
 	stereo: Partial<Record<StereoMetric, number | null>>;
 }
 
@@ -286,12 +294,14 @@ export function evaluateLimits(limits: readonly Limit[], m: Measurements): Check
 		const info = METRICS[limit.metric];
 		if (info.scope === 'stereo') {
 			const v = m.stereo[limit.metric as StereoMetric];
-			checks.push(checkOne(index, limit, null, v, m.channels.length < 2 ? 'needs both channels' : 'not measured'));
+			const both = m.channels[0] !== undefined && m.channels[1] !== undefined;
+			checks.push(checkOne(index, limit, null, v, both ? 'not measured' : 'needs both channels'));
 			return;
 		}
 		const metric = limit.metric as ChannelMetric;
-		const wanted: (0 | 1)[] =
-			limit.channel === 'left' ? [0] : limit.channel === 'right' ? [1] : m.channels.length >= 2 ? [0, 1] : [0];
+		const present = ([0, 1] as const).filter((c) => m.channels[c] !== undefined);
+		const wanted: readonly (0 | 1)[] =
+			limit.channel === 'left' ? [0] : limit.channel === 'right' ? [1] : present.length ? present : [0];
 		for (const ch of wanted) {
 			const row = m.channels[ch];
 			const note = row ? 'not measured' : `${CHANNEL_NAMES[ch]} channel not captured`;
@@ -315,14 +325,17 @@ export function stereoFigures(
 	const l = left?.levelDbv;
 	const r = right?.levelDbv;
 	const balanceDb =
-		typeof l === 'number' && typeof r === 'number' && Number.isFinite(l) && Number.isFinite(r) ? Math.abs(l - r) : null;
+		typeof l === 'number' && typeof r === 'number' && Number.isFinite(l) && Number.isFinite(r)
+			? Math.abs(l - r)
+			: null;
 	return { balanceDb, crosstalkDb: crosstalkDb ?? null };
 }
 
 /** A limit as one line of text: "THD+N each ≤ 0.1 %". */
 export function describeLimit(limit: Limit): string {
 	const info = METRICS[limit.metric];
-	const where = info.scope === 'stereo' ? '' : limit.channel === 'each' ? ' (each channel)' : ` (${limit.channel})`;
+	const where =
+		info.scope === 'stereo' ? '' : limit.channel === 'each' ? ' (each channel)' : ` (${limit.channel})`;
 	return `${info.label}${where} ${OP_SYMBOLS[limit.op]} ${formatLimitValue(limit.value)} ${UNITS[limit.unit].label}`;
 }
 
@@ -380,28 +393,32 @@ export interface SteadinessFiguresLike {
  * weighted figures (THD+N is already weighted by the analysis); balance is |L − R|.
  */
 export function measurementsFromResults(
-	channels: readonly ChannelFigures[],
+	channels: readonly (ChannelFigures | undefined)[],
 	stereo: { balanceDb?: number | null; crosstalkDb?: number | null },
 	steadiness: readonly (SteadinessFiguresLike | null | undefined)[],
 	weighting: Weighting
 ): Measurements {
 	const weighted = weighting === 'a';
 	return {
-		channels: channels.map((c, i) => ({
-			levelVrms: c.levelVrms,
-			levelDbv: c.levelDbv,
-			powerW: c.powerW ?? null,
-			gainDb: c.gainDb ?? null,
-			thdPercent: c.thdPercent,
-			thdDb: c.thdDb,
-			thdnPercent: c.thdnPercent,
-			thdnDb: c.thdnDb,
-			snrDb: weighted ? c.snrWeightedDb : c.snrDb,
-			noiseVrms: weighted ? c.noiseWeightedVrms : c.noiseVrms,
-			frequencyHz: c.frequencyHz,
-			levelSpreadDb: steadiness[i]?.levelSpreadDb ?? null,
-			thdnSpreadDb: steadiness[i]?.thdnSpreadDb ?? null
-		})),
+		channels: channels.map((c, i) =>
+			c === undefined
+				? undefined
+				: {
+						levelVrms: c.levelVrms,
+						levelDbv: c.levelDbv,
+						powerW: c.powerW ?? null,
+						gainDb: c.gainDb ?? null,
+						thdPercent: c.thdPercent,
+						thdDb: c.thdDb,
+						thdnPercent: c.thdnPercent,
+						thdnDb: c.thdnDb,
+						snrDb: weighted ? c.snrWeightedDb : c.snrDb,
+						noiseVrms: weighted ? c.noiseWeightedVrms : c.noiseVrms,
+						frequencyHz: c.frequencyHz,
+						levelSpreadDb: steadiness[i]?.levelSpreadDb ?? null,
+						thdnSpreadDb: steadiness[i]?.thdnSpreadDb ?? null
+					}
+		),
 		stereo: {
 			balanceDb: typeof stereo.balanceDb === 'number' ? Math.abs(stereo.balanceDb) : null,
 			crosstalkDb: stereo.crosstalkDb ?? null

@@ -5,12 +5,19 @@ import { expect, test, type Page } from '@playwright/test';
 
 const PASSWORD = 'bench-demo-2026';
 
+/** After a full page load, wait until the app has hydrated (inputs wired to their handlers). */
+async function ready(page: Page) {
+	await page.locator('html[data-hydrated="true"]').waitFor({ state: 'attached' });
+}
+
 async function signIn(page: Page, email: string) {
 	await page.goto('/login');
+	await ready(page);
 	await page.getByLabel('Email').fill(email);
 	await page.getByLabel('Password').fill(PASSWORD);
 	await page.getByRole('button', { name: 'Sign in' }).click();
 	await expect(page).toHaveURL(/\/jobs$/);
+	await ready(page);
 }
 
 async function moveTo(page: Page, status: string, label: string) {
@@ -29,7 +36,7 @@ test('technician takes a unit in and works it; only a supervisor approves', asyn
 	await page.getByTestId('new-job').click();
 	await expect(page).toHaveURL(/\/jobs\/new$/);
 	await page.getByTestId('customer-new').click();
-	await page.getByLabel('Name', { exact: true }).fill('Odile Marrowby');
+	await page.getByRole('textbox', { name: 'Name', exact: true }).fill('Odile Marrowby');
 	await page.getByLabel('E-mail').fill(`odile.${model.toLowerCase()}@example.org`);
 	await page.getByLabel('Phone').fill('555-0199');
 	await page.getByLabel('Category').selectOption('power-amplifier');
@@ -60,6 +67,7 @@ test('technician takes a unit in and works it; only a supervisor approves', asyn
 
 	// ── find it in the filtered queue ───────────────────────────────────────
 	await page.goto('/jobs');
+	await ready(page);
 	await page.getByTestId('jobs-search').fill(model);
 	await page.getByTestId('jobs-status').selectOption('received');
 	await expect(page.getByTestId('job-row')).toHaveCount(1);
@@ -68,6 +76,7 @@ test('technician takes a unit in and works it; only a supervisor approves', asyn
 	await expect(page).toHaveURL(new RegExp(`q=${model}`));
 	await expect(page).toHaveURL(/status=received/);
 	await page.reload();
+	await ready(page);
 	await expect(page.getByTestId('jobs-search')).toHaveValue(model);
 	await expect(page.getByTestId('job-row')).toHaveCount(1);
 	// A filter that excludes it empties the table.
@@ -121,6 +130,7 @@ test('technician takes a unit in and works it; only a supervisor approves', asyn
 	});
 	expect(await viaAction.json()).toMatchObject({ type: 'failure', status: 403 });
 	await page.reload();
+	await ready(page);
 	await expect(page.getByTestId('job-status').getByTestId('status-badge')).toHaveText('Awaiting review');
 
 	// ── a supervisor approves ───────────────────────────────────────────────
@@ -128,6 +138,7 @@ test('technician takes a unit in and works it; only a supervisor approves', asyn
 	await expect(page).toHaveURL(/\/login$/);
 	await signIn(page, 'supervisor@example.com');
 	await page.goto(`/jobs/${jobId}`);
+	await ready(page);
 	await page.getByLabel('Note (optional)').fill('Figures within limits; heat soak clean.');
 	await moveTo(page, 'approved', 'Approved');
 	const latest = page.getByTestId('history-entry').first();

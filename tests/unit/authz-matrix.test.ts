@@ -14,7 +14,13 @@ import { createRun } from '$lib/server/soak';
 
 /** A running one-hour soak on the fixture job (inside the case's savepoint), as a route param. */
 function soakRun(fx: Fixtures, startedAtMs = Date.now()): string {
-	const custom = { watts: 5, loadOhms: 8, frequencyHz: 1000, durationS: 3600, channels: ['left' as const, 'right' as const] };
+	const custom = {
+		watts: 5,
+		loadOhms: 8,
+		frequencyHz: 1000,
+		durationS: 3600,
+		channels: ['left' as const, 'right' as const]
+	};
 	return String(createRun(fx.db, fx.jobId, fx.users.tech1, { preset: 'custom', custom }, startedAtMs).id);
 }
 
@@ -73,27 +79,49 @@ interface Row {
  * ───────────────────────────────────────────────────────────────────────────── */
 const MATRIX: Row[] = [
 	// jobs: everyone signed in reads and works jobs; approval needs supervisor/admin
-	{ route: '/api/jobs', method: 'GET', expect: [401, 200, 200, 200], request: () => ({ query: '?q=a&status=open&sort=-updated&page=1&pageSize=10' }) },
+	{
+		route: '/api/jobs',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: () => ({ query: '?q=a&status=open&sort=-updated&page=1&pageSize=10' })
+	},
 	{
 		route: '/api/jobs',
 		method: 'POST',
 		expect: [401, 201, 201, 201],
 		request: () => ({
-			body: { customerName: 'Matrix Customer', category: 'tuner', make: 'Orlund', model: 'OT-1', complaint: 'No FM' }
+			body: {
+				customerName: 'Matrix Customer',
+				category: 'tuner',
+				make: 'Orlund',
+				model: 'OT-1',
+				complaint: 'No FM'
+			}
 		})
 	},
-	{ route: '/api/jobs/[id]', method: 'GET', expect: [401, 200, 200, 200], request: (fx) => ({ params: { id: String(fx.jobId) } }) },
+	{
+		route: '/api/jobs/[id]',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: String(fx.jobId) } })
+	},
 	{
 		route: '/api/jobs/[id]',
 		method: 'PATCH',
 		expect: [401, 200, 200, 200],
-		request: (fx) => ({ params: { id: String(fx.jobId) }, body: { complaint: 'Dead, and the dial lamps are out' } })
+		request: (fx) => ({
+			params: { id: String(fx.jobId) },
+			body: { complaint: 'Dead, and the dial lamps are out' }
+		})
 	},
 	{
 		route: '/api/jobs/[id]/status',
 		method: 'POST',
 		expect: [401, 403, 200, 200],
-		request: (fx) => ({ params: { id: String(fx.reviewJobId) }, body: { status: 'approved', note: 'Signed off' } })
+		request: (fx) => ({
+			params: { id: String(fx.reviewJobId) },
+			body: { status: 'approved', note: 'Signed off' }
+		})
 	},
 	{
 		route: '/api/jobs/[id]/log',
@@ -105,13 +133,19 @@ const MATRIX: Row[] = [
 		route: '/api/jobs/[id]/parts',
 		method: 'POST',
 		expect: [401, 201, 201, 201],
-		request: (fx) => ({ params: { id: String(fx.jobId) }, body: { refDes: 'F1', description: 'Fuse, slow-blow', value: 'T2A' } })
+		request: (fx) => ({
+			params: { id: String(fx.jobId) },
+			body: { refDes: 'F1', description: 'Fuse, slow-blow', value: 'T2A' }
+		})
 	},
 	{
 		route: '/api/jobs/[id]/parts/[partId]',
 		method: 'PATCH',
 		expect: [401, 200, 200, 200],
-		request: (fx) => ({ params: { id: String(fx.partJobId), partId: String(fx.partId) }, body: { state: 'fitted' } })
+		request: (fx) => ({
+			params: { id: String(fx.partJobId), partId: String(fx.partId) },
+			body: { state: 'fitted' }
+		})
 	},
 	{
 		route: '/api/jobs/[id]/parts/[partId]',
@@ -121,14 +155,27 @@ const MATRIX: Row[] = [
 	},
 
 	// soak runs: every bench role starts, records, finishes and aborts them
-	{ route: '/api/jobs/[id]/soak-runs', method: 'GET', expect: [401, 200, 200, 200], request: (fx) => ({ params: { id: String(fx.jobId) } }) },
+	{
+		route: '/api/jobs/[id]/soak-runs',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: String(fx.jobId) } })
+	},
 	{
 		route: '/api/jobs/[id]/soak-runs',
 		method: 'POST',
 		expect: [401, 201, 201, 201],
-		request: (fx) => ({ params: { id: String(fx.jobId) }, body: { preset: 'custom', custom: { watts: 5, loadOhms: 8 } } })
+		request: (fx) => ({
+			params: { id: String(fx.jobId) },
+			body: { preset: 'custom', custom: { watts: 5, loadOhms: 8 } }
+		})
 	},
-	{ route: '/api/soak-runs/[id]', method: 'GET', expect: [401, 200, 200, 200], request: (fx) => ({ params: { id: soakRun(fx) } }) },
+	{
+		route: '/api/soak-runs/[id]',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: soakRun(fx) } })
+	},
 	{
 		route: '/api/soak-runs/[id]/readings',
 		method: 'GET',
@@ -139,13 +186,19 @@ const MATRIX: Row[] = [
 		route: '/api/soak-runs/[id]/readings',
 		method: 'POST',
 		expect: [401, 200, 200, 200],
-		request: (fx) => ({ params: { id: soakRun(fx) }, body: { readings: [{ probe: 'ambient', seq: 1, t: Date.now(), celsius: 22.5 }] } })
+		request: (fx) => ({
+			params: { id: soakRun(fx) },
+			body: { readings: [{ probe: 'ambient', seq: 1, t: Date.now(), celsius: 22.5 }] }
+		})
 	},
 	{
 		route: '/api/soak-runs/[id]/events',
 		method: 'POST',
 		expect: [401, 200, 200, 200],
-		request: (fx) => ({ params: { id: soakRun(fx) }, body: { events: [{ kind: 'note', at: Date.now(), detail: { text: 'fan on' } }] } })
+		request: (fx) => ({
+			params: { id: soakRun(fx) },
+			body: { events: [{ kind: 'note', at: Date.now(), detail: { text: 'fan on' } }] }
+		})
 	},
 	{
 		route: '/api/soak-runs/[id]/finish',
@@ -167,7 +220,14 @@ const MATRIX: Row[] = [
 		route: '/api/users',
 		method: 'POST',
 		expect: [401, 403, 403, 201],
-		request: () => ({ body: { email: 'new.tech@example.com', name: 'New Tech', role: 'technician', password: 'a long enough pass' } })
+		request: () => ({
+			body: {
+				email: 'new.tech@example.com',
+				name: 'New Tech',
+				role: 'technician',
+				password: 'a long enough pass'
+			}
+		})
 	},
 	{
 		route: '/api/users/[id]',
@@ -178,7 +238,12 @@ const MATRIX: Row[] = [
 
 	// settings: everyone reads, admins change
 	{ route: '/api/settings', method: 'GET', expect: [401, 200, 200, 200] },
-	{ route: '/api/settings', method: 'PATCH', expect: [401, 403, 403, 200], request: () => ({ body: { mainsHz: 60 } }) },
+	{
+		route: '/api/settings',
+		method: 'PATCH',
+		expect: [401, 403, 403, 200],
+		request: () => ({ body: { mainsHz: 60 } })
+	},
 
 	// own account
 	{
@@ -314,7 +379,8 @@ beforeAll(async () => {
 
 	await seedDemo(db);
 	const sqlite = db.$client;
-	const userId = (email: string) => (sqlite.prepare('SELECT id FROM users WHERE email = ?').get(email) as { id: string }).id;
+	const userId = (email: string) =>
+		(sqlite.prepare('SELECT id FROM users WHERE email = ?').get(email) as { id: string }).id;
 	const users = {
 		admin: userId('admin@example.com'),
 		supervisor: userId('supervisor@example.com'),
@@ -322,13 +388,26 @@ beforeAll(async () => {
 		tech2: userId('tech2@example.com')
 	};
 	const jobIn = (status: string) =>
-		(sqlite.prepare('SELECT id FROM jobs WHERE status = ? ORDER BY id LIMIT 1').get(status) as { id: number }).id;
-	const part = sqlite.prepare('SELECT id, job_id AS jobId FROM parts ORDER BY id LIMIT 1').get() as { id: number; jobId: number };
-	fx = { db, users, jobId: jobIn('received'), reviewJobId: jobIn('awaiting-review'), partJobId: part.jobId, partId: part.id };
+		(sqlite.prepare('SELECT id FROM jobs WHERE status = ? ORDER BY id LIMIT 1').get(status) as { id: number })
+			.id;
+	const part = sqlite.prepare('SELECT id, job_id AS jobId FROM parts ORDER BY id LIMIT 1').get() as {
+		id: number;
+		jobId: number;
+	};
+	fx = {
+		db,
+		users,
+		jobId: jobIn('received'),
+		reviewJobId: jobIn('awaiting-review'),
+		partJobId: part.jobId,
+		partId: part.id
+	};
 
 	const who = async (email: string, key: keyof Fixtures['users']) => {
 		const { session } = await createSession(db, users[key]);
-		const row = sqlite.prepare('SELECT id, email, name, role FROM users WHERE email = ?').get(email) as SessionUser;
+		const row = sqlite
+			.prepare('SELECT id, email, name, role FROM users WHERE email = ?')
+			.get(email) as SessionUser;
 		return { user: row, session };
 	};
 	callers['signed-out'] = { user: null, session: null };
@@ -348,7 +427,8 @@ afterEach(() => {
 function moduleFor(row: Row): RouteModule {
 	const mod = discovered.find((d) => d.routeId === row.route);
 	if (!mod) throw new Error(`No route file for ${row.route}: remove or fix the row`);
-	if (!mod.handlers[row.method]) throw new Error(`${row.route} does not export ${row.method}: remove or fix the row`);
+	if (!mod.handlers[row.method])
+		throw new Error(`${row.route} does not export ${row.method}: remove or fix the row`);
 	return mod;
 }
 
@@ -382,7 +462,9 @@ describe('mutating API requests refuse cross-site callers', () => {
 		const expected = row.crossOrigin ?? 403;
 		it(`${row.method} ${row.route} with a foreign Origin → ${expected}`, async () => {
 			const spec = row.request ? await row.request(fx, 'admin') : {};
-			const foreign = await callHandler(moduleFor(row), row.method, callers.admin, spec, { origin: 'https://evil.example' });
+			const foreign = await callHandler(moduleFor(row), row.method, callers.admin, spec, {
+				origin: 'https://evil.example'
+			});
 			expect(foreign.status).toBe(expected);
 			const none = await callHandler(moduleFor(row), row.method, callers.admin, spec, { origin: null });
 			expect(none.status).toBe(expected);
@@ -393,24 +475,43 @@ describe('mutating API requests refuse cross-site callers', () => {
 describe('jobs and accounts API input handling', () => {
 	const jobRoute = () => discovered.find((d) => d.routeId === '/api/jobs')!;
 	const admin = () => callers.admin;
-	const intake = { customerName: 'Input Test', category: 'receiver', make: 'Corvane', model: 'CR-1', complaint: 'Hum' };
+	const intake = {
+		customerName: 'Input Test',
+		category: 'receiver',
+		make: 'Corvane',
+		model: 'CR-1',
+		complaint: 'Hum'
+	};
 
 	it('415 for a body that is not JSON', async () => {
-		const res = await callHandler(jobRoute(), 'POST', admin(), { body: intake }, { contentType: 'text/plain' });
+		const res = await callHandler(
+			jobRoute(),
+			'POST',
+			admin(),
+			{ body: intake },
+			{ contentType: 'text/plain' }
+		);
 		expect(res.status).toBe(415);
 	});
 
 	it('413 for a body over the limit', async () => {
-		const res = await callHandler(jobRoute(), 'POST', admin(), { body: { ...intake, complaint: 'x'.repeat(70 * 1024) } });
+		const res = await callHandler(jobRoute(), 'POST', admin(), {
+			body: { ...intake, complaint: 'x'.repeat(70 * 1024) }
+		});
 		expect(res.status).toBe(413);
 	});
 
 	it('400 with the zod issues for an invalid body, and for malformed JSON', async () => {
-		const res = await callHandler(jobRoute(), 'POST', admin(), { body: { ...intake, make: '', year: 'old' } });
+		const res = await callHandler(jobRoute(), 'POST', admin(), {
+			body: { ...intake, make: '', year: 'old' }
+		});
 		expect(res.status).toBe(400);
 		const issues = (res.body as { issues: { path: string }[] }).issues.map((i) => i.path).sort();
 		expect(issues).toEqual(['make', 'year']);
-		const broken = await callHandler(jobRoute(), 'POST', admin(), { rawBody: '{"make": ', headers: { 'content-type': 'application/json' } });
+		const broken = await callHandler(jobRoute(), 'POST', admin(), {
+			rawBody: '{"make": ',
+			headers: { 'content-type': 'application/json' }
+		});
 		expect(broken.status).toBe(400);
 	});
 
@@ -420,9 +521,16 @@ describe('jobs and accounts API input handling', () => {
 	});
 
 	it('answers { items, total, page, pageSize } and resolves technician=me', async () => {
-		const res = await callHandler(jobRoute(), 'GET', callers.technician, { query: '?technician=me&pageSize=100' });
+		const res = await callHandler(jobRoute(), 'GET', callers.technician, {
+			query: '?technician=me&pageSize=100'
+		});
 		expect(res.status).toBe(200);
-		const body = res.body as { items: { technicianId: string }[]; total: number; page: number; pageSize: number };
+		const body = res.body as {
+			items: { technicianId: string }[];
+			total: number;
+			page: number;
+			pageSize: number;
+		};
 		expect(body.page).toBe(1);
 		expect(body.pageSize).toBe(100);
 		expect(body.total).toBe(body.items.length);
@@ -436,29 +544,45 @@ describe('jobs and accounts API input handling', () => {
 		expect((await callHandler(one, 'GET', admin(), { params: { id: 'abc' } })).status).toBe(404);
 		expect((await callHandler(one, 'GET', admin(), { params: { id: '-1' } })).status).toBe(404);
 		const user = discovered.find((d) => d.routeId === '/api/users/[id]')!;
-		expect((await callHandler(user, 'PATCH', admin(), { params: { id: 'nosuchuser' }, body: { name: 'X' } })).status).toBe(404);
-		expect((await callHandler(user, 'PATCH', admin(), { params: { id: '../x' }, body: { name: 'X' } })).status).toBe(404);
+		expect(
+			(await callHandler(user, 'PATCH', admin(), { params: { id: 'nosuchuser' }, body: { name: 'X' } }))
+				.status
+		).toBe(404);
+		expect(
+			(await callHandler(user, 'PATCH', admin(), { params: { id: '../x' }, body: { name: 'X' } })).status
+		).toBe(404);
 	});
 
 	it('409 for a status move the path does not allow; the approval is recorded', async () => {
 		const status = discovered.find((d) => d.routeId === '/api/jobs/[id]/status')!;
-		const skip = await callHandler(status, 'POST', admin(), { params: { id: String(fx.jobId) }, body: { status: 'testing' } });
+		const skip = await callHandler(status, 'POST', admin(), {
+			params: { id: String(fx.jobId) },
+			body: { status: 'testing' }
+		});
 		expect(skip.status).toBe(409);
-		const ok = await callHandler(status, 'POST', callers.supervisor, { params: { id: String(fx.reviewJobId) }, body: { status: 'approved' } });
+		const ok = await callHandler(status, 'POST', callers.supervisor, {
+			params: { id: String(fx.reviewJobId) },
+			body: { status: 'approved' }
+		});
 		const history = (ok.body as { history: { toStatus: string; userId: string }[] }).history;
 		expect(history.at(-1)).toMatchObject({ toStatus: 'approved', userId: fx.users.supervisor });
 	});
 
 	it('a wrong current password is a 400 naming the field', async () => {
 		const pw = discovered.find((d) => d.routeId === '/api/auth/password')!;
-		const res = await callHandler(pw, 'POST', callers.technician, { body: { currentPassword: 'not it', newPassword: 'another long passphrase' } });
+		const res = await callHandler(pw, 'POST', callers.technician, {
+			body: { currentPassword: 'not it', newPassword: 'another long passphrase' }
+		});
 		expect(res.status).toBe(400);
 		expect(res.body).toMatchObject({ issues: [{ path: 'currentPassword' }] });
 	});
 
 	it('an admin cannot deactivate their own account (409)', async () => {
 		const user = discovered.find((d) => d.routeId === '/api/users/[id]')!;
-		const res = await callHandler(user, 'PATCH', admin(), { params: { id: fx.users.admin }, body: { active: false } });
+		const res = await callHandler(user, 'PATCH', admin(), {
+			params: { id: fx.users.admin },
+			body: { active: false }
+		});
 		expect(res.status).toBe(409);
 	});
 });

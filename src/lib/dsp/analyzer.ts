@@ -5,7 +5,7 @@
 import FFT from 'fft.js';
 import { ANALYSIS_WINDOW, makeWindow, windows, type WindowName } from './windows';
 import { ToneFitter, interpolatePeak, peakBin } from './tonefit';
-import { aWeightingTable } from './weighting';
+import { aWeightingPowerGain, aWeightingTable } from './weighting';
 import { vrmsToDbu, wattsIntoLoad } from './units';
 import type { AnalysisOptions, AnalysisResult, ChannelResult, HarmonicResult, Weighting } from './types';
 
@@ -98,7 +98,8 @@ function resolveConditions(sampleRateHz: number, options: AnalysisOptions): Reso
 	const band = options.bandHz ?? DEFAULT_BAND_HZ;
 	const lo = Math.max(0, band[0]);
 	const hi = Math.min(nyquist, band[1]);
-	if (!(hi > lo)) throw new RangeError(`band ${band[0]}–${band[1]} Hz is empty at ${sampleRateHz} Hz sample rate`);
+	if (!(hi > lo))
+		throw new RangeError(`band ${band[0]}–${band[1]} Hz is empty at ${sampleRateHz} Hz sample rate`);
 	const window = options.window ?? ANALYSIS_WINDOW;
 	if (!(window in windows)) throw new RangeError(`unknown window "${window}"`);
 	const maxHarmonic = Math.max(2, Math.min(50, Math.floor(options.maxHarmonic ?? 10)));
@@ -161,10 +162,15 @@ export class Analyzer {
 	private readonly ivStart: Int32Array;
 	private readonly ivEnd: Int32Array;
 	private ivCount = 0;
+	private readonly hA: Float64Array;
+	private readonly hB: Float64Array;
+	private readonly toneNu: Float64Array;
 
 	constructor(fftSize: number, sampleRateHz: number, options: AnalyzerOptions = {}) {
 		if (!isPowerOfTwo(fftSize) || fftSize < MIN_FFT_SIZE || fftSize > MAX_FFT_SIZE)
-			throw new RangeError(`FFT size must be a power of two from ${MIN_FFT_SIZE} to ${MAX_FFT_SIZE}, got ${fftSize}`);
+			throw new RangeError(
+				`FFT size must be a power of two from ${MIN_FFT_SIZE} to ${MAX_FFT_SIZE}, got ${fftSize}`
+			);
 		if (!(sampleRateHz > 0)) throw new RangeError(`sample rate must be positive, got ${sampleRateHz}`);
 		this.fftSize = fftSize;
 		this.sampleRateHz = sampleRateHz;
@@ -179,12 +185,14 @@ export class Analyzer {
 		this.fft = sharedFft(fftSize);
 		this.awin = sharedWindow(ANALYSIS_WINDOW, fftSize);
 		this.dwin =
-			this.wantSpectrum && this.conditions.window !== ANALYSIS_WINDOW ? sharedWindow(this.conditions.window, fftSize) : null;
+			this.wantSpectrum && this.conditions.window !== ANALYSIS_WINDOW
+				? sharedWindow(this.conditions.window, fftSize)
+				: null;
 		this.frame = new Float64Array(fftSize);
 		this.spec = new Float64Array(2 * fftSize);
 		this.resid = new Float64Array(2 * this.bins);
 		this.dspec = this.dwin ? new Float64Array(2 * fftSize) : null;
-		this.fitter = new ToneFitter(fftSize, ANALYSIS_WINDOW);
+		this.fitter = new ToneFitter(fftSize, ANALYSIS_WINDOW, this.conditions.maxHarmonic);
 		this.aw2 = sharedAWeights(this.bins, this.binHz);
 
 		let s2 = 0;
@@ -199,17 +207,22 @@ export class Analyzer {
 		const [lo, hi] = this.conditions.bandHz;
 		this.kLo = Math.max(0, Math.ceil(lo / this.binHz - 1e-9));
 		this.kHi = Math.min(this.bins - 1, Math.floor(hi / this.binHz + 1e-9));
-		if (this.kHi - this.kLo < 2) throw new RangeError(`band ${lo}–${hi} Hz holds fewer than 3 bins at FFT size ${fftSize}`);
+		if (this.kHi - this.kLo < 2)
+			throw new RangeError(`band ${lo}–${hi} Hz holds fewer than 3 bins at FFT size ${fftSize}`);
 
 		this.nv = V_H + this.conditions.maxHarmonic - 1;
 		this.ivStart = new Int32Array(this.conditions.maxHarmonic + 2);
+		this.hA = new Float64Array(this.conditions.maxHarmonic);
+		this.hB = new Float64Array(this.conditions.maxHarmonic);
+		this.toneNu = new Float64Array(this.conditions.maxHarmonic);
 		this.ivEnd = new Int32Array(this.conditions.maxHarmonic + 2);
 		this.cur = new Float64Array(this.nv);
 		this.avg = new Float64Array(this.nv);
 		this.ring = new Float64Array(this.nv * this.averages);
 		this.binPow = new Float64Array(this.wantSpectrum ? this.bins : 0);
 		this.binAvg = new Float64Array(this.wantSpectrum ? this.bins : 0);
-		this.binRing = this.wantSpectrum && this.averages > 1 ? new Float64Array(this.bins * this.averages) : null;
+		this.binRing =
+			this.wantSpectrum && this.averages > 1 ? new Float64Array(this.bins * this.averages) : null;
 		this.binSum = this.binRing ? new Float64Array(this.bins) : null;
 		this._spectrumDbv = new Float32Array(this.wantSpectrum ? this.bins : 0);
 
@@ -293,6 +306,8 @@ export class Analyzer {
 		if (samples.length < n) throw new RangeError(`need ${n} samples, got ${samples.length}`);
 		const off = samples.length - n;
 		this.measureFrame(samples, off);
+		// One NaN or infinity poisons every bin; say so rather than return NaN figures.
+		if (!Number.isFinite(this.cur[V_T]) || !Number.isFinite(this.cur[V_N])) throw new RangeError('the frame holds non-finite samples (NaN or infinity)');
 		this.accumulate();
 		this.lastFullScale = fullScaleVolts;
 		return this.fill(fullScaleVolts, channel);
@@ -400,10 +415,26 @@ export class Analyzer {
 		const kPeak = peakBin(spec, Math.max(kLo, 1), Math.min(kHi, half - 1));
 		const nu0 = interpolatePeak(spec, kPeak, half);
 		const nearDc = nu0 < 2 * fit.fitHalfWidth + 2;
+		// Harmonics closer together than their own support: fit fundamental, harmonics and DC jointly. Below
+		// 2 bins the series is no longer resolvable; the fundamental and DC alone are then the better fit.
+		const crowded = nu0 < 2 * fit.subtractHalfWidth + 2 && nu0 >= 2;
+		const hA = this.hA;
+		const hB = this.hB;
+		const tones = this.toneNu;
+		let toneCount = 0;
+		let jointDc = 0;
 		fit.fitFree(spec, nu0, nearDc);
-		const a = fit.a;
-		const b = fit.b;
-		const nu = fit.nu;
+		let nu = fit.nu;
+		let a = fit.a;
+		let b = fit.b;
+		if (crowded) {
+			for (let h = 1; h <= c.maxHarmonic && h * nu < half - 1; h++) tones[toneCount++] = h * nu;
+			jointDc = fit.fitHarmonics(spec, nu, toneCount, true, hA, hB);
+			nu = fit.nu;
+			for (let i = 0; i < toneCount; i++) tones[i] = (i + 1) * nu;
+			a = hA[0];
+			b = hB[0];
+		}
 		cur[V_P1] = (a * a + b * b) / 2;
 		cur[V_NU] = nu;
 
@@ -431,11 +462,14 @@ export class Analyzer {
 			}
 			if (i < this.ivCount) k = this.ivEnd[i] + 1;
 		}
-		this.intervalSum(spec);
-		cur[V_T] = (outP + this.sumP) * ps;
-		cur[V_TA] = (outPA + this.sumPA) * ps;
 
 		const resid = this.resid;
+		const reach = fit.subtractHalfWidth;
+		if (crowded) {
+			// Everything the joint fit touched lies low in the spectrum: copy that stretch whole.
+			const top = Math.min(half, Math.round(tones[toneCount - 1]) + reach);
+			for (let j = 0; j < 2 * (top + 1); j++) resid[j] = spec[j];
+		}
 		// Only the interval bins change from here on; copy just those.
 		for (let i = 0; i < this.ivCount; i++) {
 			const s0 = 2 * this.ivStart[i];
@@ -443,7 +477,6 @@ export class Analyzer {
 			for (let j = s0; j < s1; j++) resid[j] = spec[j];
 		}
 		// The subtraction windows may reach outside the band: copy their reach as well.
-		const reach = fit.subtractHalfWidth;
 		for (let j = 0; j <= Math.min(half, reach); j++) {
 			resid[2 * j] = spec[2 * j];
 			resid[2 * j + 1] = spec[2 * j + 1];
@@ -455,17 +488,19 @@ export class Analyzer {
 		}
 		fit.subtract(resid, a, b, nu, 0);
 		let dc = fit.dc;
-		if (nearDc) fit.subtractDc(resid, dc);
+		if (crowded) {
+			dc = jointDc;
+			fit.subtractDc(resid, dc);
+		} else if (nearDc) fit.subtractDc(resid, dc);
 		else {
 			dc = fit.fitDc(resid);
 			fit.subtractDc(resid, dc);
 		}
 		cur[V_DC] = dc;
-		this.intervalSum(resid);
-		cur[V_R] = (outP + this.sumP) * ps;
-		cur[V_RA] = (outPA + this.sumPA) * ps;
 
 		// Harmonics at exact multiples of the fitted frequency, each removed after it is measured.
+		let hSum = 0;
+		let hSumA = 0;
 		for (let h = 2; h <= c.maxHarmonic; h++) {
 			const nuH = h * nu;
 			const fHz = nuH * this.binHz;
@@ -481,13 +516,33 @@ export class Analyzer {
 					resid[2 * j + 1] = spec[2 * j + 1];
 				}
 			}
-			fit.fitFixed(resid, nuH, false);
-			cur[V_H + h - 2] = (fit.a * fit.a + fit.b * fit.b) / 2;
-			fit.subtract(resid, fit.a, fit.b, nuH, 0);
+			let ha: number;
+			let hb: number;
+			if (crowded && h - 1 < toneCount) {
+				ha = hA[h - 1];
+				hb = hB[h - 1];
+			} else {
+				fit.fitFixed(resid, nuH, false);
+				ha = fit.a;
+				hb = fit.b;
+			}
+			const ph = (ha * ha + hb * hb) / 2;
+			cur[V_H + h - 2] = ph;
+			hSum += ph;
+			hSumA += ph * aWeightingPowerGain(fHz);
+			fit.subtract(resid, ha, hb, nuH, 0);
 		}
 		this.intervalSum(resid);
 		cur[V_N] = (outP + this.sumP) * ps;
 		cur[V_NA] = (outPA + this.sumPA) * ps;
+
+		// THD+N residual and in-band total from the fitted tones plus the noise. Summing bins instead would
+		// count the window's spill of DC into the band, lose a low tone's spill below it, and add the
+		// interference of a low tone with its own negative-frequency image.
+		cur[V_R] = hSum + cur[V_N];
+		cur[V_RA] = hSumA + cur[V_NA];
+		cur[V_T] = cur[V_P1] + cur[V_R];
+		cur[V_TA] = cur[V_P1] * aWeightingPowerGain(nu * this.binHz) + cur[V_RA];
 
 		if (this.wantSpectrum) {
 			let src = spec;
@@ -649,7 +704,8 @@ function analyzeOne(
 		spectrum: false
 	});
 	let r: ChannelResult | undefined;
-	for (let i = 0; i < frames; i++) r = analyzer.analyze(samples.subarray(i * fftSize, (i + 1) * fftSize), fullScaleVolts, channel);
+	for (let i = 0; i < frames; i++)
+		r = analyzer.analyze(samples.subarray(i * fftSize, (i + 1) * fftSize), fullScaleVolts, channel);
 	return { result: cloneResult(r as ChannelResult), analyzer, frames };
 }
 
@@ -685,14 +741,19 @@ export function crosstalkDb(
 	fullScaleVolts: number | [number, number] = 1,
 	options: AnalysisOptions = {}
 ): number {
-	const [fsDriven, fsOther] = Array.isArray(fullScaleVolts) ? fullScaleVolts : [fullScaleVolts, fullScaleVolts];
+	const [fsDriven, fsOther] = Array.isArray(fullScaleVolts)
+		? fullScaleVolts
+		: [fullScaleVolts, fullScaleVolts];
 	const fftSize = options.fftSize ?? defaultFftSize(Math.min(driven.length, other.length));
 	const d = analyzeChannel(driven, sampleRateHz, fsDriven, { ...options, fftSize, averages: 1 });
 	return db20(toneLevelAt(other, sampleRateHz, d.frequencyHz, fsOther, fftSize) / d.levelVrms);
 }
 
 /** Channel balance: level of `a` relative to `b`, dB. */
-export function channelBalanceDb(a: Pick<ChannelResult, 'levelVrms'>, b: Pick<ChannelResult, 'levelVrms'>): number {
+export function channelBalanceDb(
+	a: Pick<ChannelResult, 'levelVrms'>,
+	b: Pick<ChannelResult, 'levelVrms'>
+): number {
 	return db20(a.levelVrms / b.levelVrms);
 }
 
@@ -709,7 +770,9 @@ export function analyzeFrames(
 	if (channels.length === 0) throw new RangeError('no channels to analyse');
 	const minLen = Math.min(...channels.map((c) => c.length));
 	const fftSize = options.fftSize ?? defaultFftSize(minLen);
-	const fsv = channels.map((_, i) => (Array.isArray(fullScaleVolts) ? (fullScaleVolts[i] ?? fullScaleVolts[0] ?? 1) : fullScaleVolts));
+	const fsv = channels.map((_, i) =>
+		Array.isArray(fullScaleVolts) ? (fullScaleVolts[i] ?? fullScaleVolts[0] ?? 1) : fullScaleVolts
+	);
 	const runs = channels.map((c, i) => analyzeOne(c, sampleRateHz, fsv[i], { ...options, fftSize }, i));
 	const results = runs.map((r) => r.result);
 	const frames = runs[0].frames;

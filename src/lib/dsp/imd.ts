@@ -51,7 +51,12 @@ interface Prepared {
 	n: number;
 }
 
-function prepare(samples: Float32Array, sampleRateHz: number, fftSize: number, minSpacingHz: number): Prepared {
+function prepare(
+	samples: Float32Array,
+	sampleRateHz: number,
+	fftSize: number,
+	minSpacingHz: number
+): Prepared {
 	const n = fftSize;
 	if (samples.length < n) throw new RangeError(`need ${n} samples, got ${samples.length}`);
 	const binHz = sampleRateHz / n;
@@ -141,7 +146,11 @@ export function smpteImd(samples: Float32Array, sampleRateHz: number, options: I
 }
 
 /** Twin-tone (difference-frequency) IMD: equal tones f1 and f2 (19 + 20 kHz). */
-export function twinToneImd(samples: Float32Array, sampleRateHz: number, options: ImdOptions = {}): ImdResult {
+export function twinToneImd(
+	samples: Float32Array,
+	sampleRateHz: number,
+	options: ImdOptions = {}
+): ImdResult {
 	const f1n = options.f1Hz ?? 19000;
 	const f2n = options.f2Hz ?? 20000;
 	const fftSize = options.fftSize ?? defaultFftSize(samples.length);

@@ -18,12 +18,15 @@ const RIAA_TABLE: [number, number, number][] = [
 
 describe('RIAA / IEC 60098', () => {
 	it('playback curve matches the published table to its 0.01 dB rounding', () => {
-		for (const [f, db] of RIAA_TABLE) expect(Math.abs(riaaPlaybackDb(f) - db), `${f} Hz`).toBeLessThanOrEqual(0.005 + 1e-9); // IEC 60098 table (REFERENCES §2)
+		for (const [f, db] of RIAA_TABLE)
+			expect(Math.abs(riaaPlaybackDb(f) - db), `${f} Hz`).toBeLessThanOrEqual(0.005 + 1e-9); // IEC 60098 table (REFERENCES §2)
 	});
 
 	it('with the IEC 7950 µs roll-off matches its column', () => {
 		for (const [f, , db] of RIAA_TABLE)
-			expect(Math.abs(riaaPlaybackDb(f, { iecRolloff: true }) - db), `${f} Hz`).toBeLessThanOrEqual(0.005 + 1e-9); // IEC 60098 amendment (REFERENCES §2)
+			expect(Math.abs(riaaPlaybackDb(f, { iecRolloff: true }) - db), `${f} Hz`).toBeLessThanOrEqual(
+				0.005 + 1e-9
+			); // IEC 60098 amendment (REFERENCES §2)
 	});
 
 	it('approaches the +19.91 dB DC asymptote and the inverse is the negative', () => {

@@ -43,7 +43,11 @@ export const analysisConditionsSchema = z.object({
 	window: windowName,
 	analysisWindow: windowName,
 	method: z.literal('sine-fit-residual'),
-	fftSize: z.number().int().min(256).max(1 << 20),
+	fftSize: z
+		.number()
+		.int()
+		.min(256)
+		.max(1 << 20),
 	averages: z.number().int().min(1),
 	bandHz: z.tuple([finite.nonnegative(), finite.positive()]),
 	weighting: weightingSchema,

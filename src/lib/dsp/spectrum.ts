@@ -27,7 +27,10 @@ export function compactSpectrum(
 		const f0 = lo * ratio ** (i / points);
 		const f1 = lo * ratio ** ((i + 1) / points);
 		let k0 = Math.ceil(f0 / binHz - 1e-9);
-		let k1 = Math.min(lastBin, i === points - 1 ? Math.floor(f1 / binHz + 1e-9) : Math.ceil(f1 / binHz - 1e-9) - 1);
+		let k1 = Math.min(
+			lastBin,
+			i === points - 1 ? Math.floor(f1 / binHz + 1e-9) : Math.ceil(f1 / binHz - 1e-9) - 1
+		);
 		if (k1 < k0) {
 			// Log bin narrower than an FFT bin: take the nearest FFT bin once.
 			k0 = k1 = Math.min(lastBin, Math.round(Math.sqrt(f0 * f1) / binHz));

@@ -19,10 +19,23 @@ export interface SteadinessStats {
 }
 
 function emptyStats(): SteadinessStats {
-	return { frames: 0, levelMeanDbv: 0, levelSpreadDb: 0, levelStdDb: 0, thdnMeanDb: 0, thdnSpreadDb: 0, thdnStdDb: 0 };
+	return {
+		frames: 0,
+		levelMeanDbv: 0,
+		levelSpreadDb: 0,
+		levelStdDb: 0,
+		thdnMeanDb: 0,
+		thdnSpreadDb: 0,
+		thdnStdDb: 0
+	};
 }
 
-function statsOf(levels: ArrayLike<number>, thdns: ArrayLike<number>, count: number, out: SteadinessStats): SteadinessStats {
+function statsOf(
+	levels: ArrayLike<number>,
+	thdns: ArrayLike<number>,
+	count: number,
+	out: SteadinessStats
+): SteadinessStats {
 	out.frames = count;
 	if (count === 0) return Object.assign(out, emptyStats());
 	let lMin = Infinity;

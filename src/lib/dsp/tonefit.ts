@@ -58,7 +58,7 @@ export class ToneFitter {
 	readonly subtractHalfWidth: number;
 	private readonly kernel: WindowKernel;
 	private readonly kv = new Float64Array(2);
-	private readonly colv = new Float64Array(6); // Cc re/im, Cs re/im, Cd re/im
+	private readonly colv = new Float64Array(8); // Cc re/im, Cs re/im, Cd re/im, ∂/∂ν re/im
 	private readonly ata = new Float64Array(16);
 	private readonly atb = new Float64Array(4);
 	private readonly dcol = new Float64Array(4);
@@ -69,12 +69,156 @@ export class ToneFitter {
 	nu = 0;
 	dc = 0;
 
-	constructor(n: number, window: WindowName) {
+	// Joint-fit scratch, sized for `maxTones` tones plus DC and the frequency.
+	private readonly maxTones: number;
+	private readonly jAta: Float64Array;
+	private readonly jAtb: Float64Array;
+	private readonly jCol: Float64Array;
+	private readonly jIdx: Int32Array;
+
+	constructor(n: number, window: WindowName, maxTones = 16) {
 		this.n = n;
 		this.halfBins = n >>> 1;
 		this.kernel = new WindowKernel(window, n);
 		this.fitHalfWidth = windows[window].mainlobeHalfWidthBins;
 		this.subtractHalfWidth = this.fitHalfWidth + 3;
+		this.maxTones = maxTones;
+		const p = 2 * maxTones + 2; // cos and sin per tone, DC, and ν
+		this.jAta = new Float64Array(p * p);
+		this.jAtb = new Float64Array(p);
+		this.jCol = new Float64Array(2 * p);
+		this.jIdx = new Int32Array(p);
+	}
+
+	/**
+	 * Multi-harmonic sine fit (the IEEE 1057 fit extended to a harmonic series) for a fundamental whose
+	 * harmonics' main lobes overlap: tones at h·ν for h = 1…count and optionally DC, amplitudes by joint
+	 * least squares, and — with `refine` — ν by Gauss-Newton on the whole series. Writes
+	 * x ≈ Σ A_h·cos + B_h·sin into outA/outB (index h − 1), sets `nu`, and returns the DC.
+	 */
+	fitHarmonics(
+		spec: Spectrum,
+		nuStart: number,
+		count: number,
+		withDc: boolean,
+		outA: Float64Array,
+		outB: Float64Array,
+		refine = true
+	): number {
+		if (count > this.maxTones) throw new RangeError(`joint fit of ${count} tones exceeds ${this.maxTones}`);
+		let nu = nuStart;
+		let dc = this.jointStep(spec, nu, count, withDc, outA, outB, 0, false);
+		for (let it = 0; refine && it < 12; it++) {
+			let step = this.jointStep(spec, nu, count, withDc, outA, outB, dc, true);
+			if (!Number.isFinite(step)) break;
+			if (step > 0.5 / count) step = 0.5 / count;
+			else if (step < -0.5 / count) step = -0.5 / count;
+			nu += step;
+			dc = this.jointStep(spec, nu, count, withDc, outA, outB, 0, false);
+			if (Math.abs(step) < 1e-10) break;
+		}
+		this.nu = nu;
+		return dc;
+	}
+
+	/**
+	 * One linear solve (withNu = false: amplitudes and DC into outA/outB, DC returned) or one Gauss-Newton
+	 * step for ν given the current amplitudes (withNu = true: returns Δν, leaves outA/outB alone).
+	 */
+	private jointStep(
+		spec: Spectrum,
+		nu: number,
+		count: number,
+		withDc: boolean,
+		outA: Float64Array,
+		outB: Float64Array,
+		dcNow: number,
+		withNu: boolean
+	): number {
+		const iDc = 2 * count;
+		const iNu = iDc + (withDc ? 1 : 0);
+		const p = iNu + (withNu ? 1 : 0);
+		const ata = this.jAta;
+		const atb = this.jAtb;
+		const col = this.jCol;
+		const idx = this.jIdx;
+		const c = this.colv;
+		ata.fill(0, 0, p * p);
+		atb.fill(0, 0, p);
+		const fitW = this.fitHalfWidth;
+		const reach = this.subtractHalfWidth + 1;
+		const h = 1e-5;
+		const kMax = Math.min(this.halfBins, Math.round(count * nu) + fitW);
+		for (let k = 0; k <= kMax; k++) {
+			let fitted = withDc && k <= fitW;
+			for (let i = 1; i <= count && !fitted; i++) if (Math.abs(k - i * nu) <= fitW + 0.5) fitted = true;
+			if (!fitted) continue;
+			// Columns of every tone close enough to leave energy in this bin (farther ones are below −170 dB).
+			let m = 0;
+			let mr = 0;
+			let mi = 0;
+			let dr = 0;
+			let di = 0;
+			for (let i = 0; i < count; i++) {
+				const nuI = (i + 1) * nu;
+				if (Math.abs(k - nuI) > reach) continue;
+				if (withNu) {
+					// ∂model/∂ν: harmonic h moves h times as fast as the fundamental.
+					const a = outA[i];
+					const b = outB[i];
+					this.columns(k, nuI + h, false);
+					const pr = a * c[0] + b * c[2];
+					const pi = a * c[1] + b * c[3];
+					this.columns(k, nuI - h, false);
+					dr += ((i + 1) * (pr - (a * c[0] + b * c[2]))) / (2 * h);
+					di += ((i + 1) * (pi - (a * c[1] + b * c[3]))) / (2 * h);
+					this.columns(k, nuI, false);
+					mr += a * c[0] + b * c[2];
+					mi += a * c[1] + b * c[3];
+				} else this.columns(k, nuI, false);
+				col[2 * m] = c[0];
+				col[2 * m + 1] = c[1];
+				idx[m++] = 2 * i;
+				col[2 * m] = c[2];
+				col[2 * m + 1] = c[3];
+				idx[m++] = 2 * i + 1;
+			}
+			if (withDc && k <= reach) {
+				this.k(k);
+				col[2 * m] = this.kv[0];
+				col[2 * m + 1] = this.kv[1];
+				idx[m++] = iDc;
+				mr += dcNow * this.kv[0];
+				mi += dcNow * this.kv[1];
+			}
+			if (withNu) {
+				col[2 * m] = dr;
+				col[2 * m + 1] = di;
+				idx[m++] = iNu;
+			}
+			// Linear solve fits the spectrum itself; the Gauss-Newton step fits the residual.
+			const xr = withNu ? spec[2 * k] - mr : spec[2 * k];
+			const xi = withNu ? spec[2 * k + 1] - mi : spec[2 * k + 1];
+			for (let u = 0; u < m; u++) {
+				const ur = col[2 * u];
+				const ui = col[2 * u + 1];
+				const iu = idx[u];
+				atb[iu] += ur * xr + ui * xi;
+				for (let v = 0; v < m; v++) ata[iu * p + idx[v]] += ur * col[2 * v] + ui * col[2 * v + 1];
+			}
+		}
+		if (!solve(ata, atb, p)) {
+			if (withNu) return NaN;
+			outA.fill(0, 0, count);
+			outB.fill(0, 0, count);
+			return 0;
+		}
+		if (withNu) return atb[iNu];
+		for (let i = 0; i < count; i++) {
+			outA[i] = atb[2 * i];
+			outB[i] = atb[2 * i + 1];
+		}
+		return withDc ? atb[iDc] : 0;
 	}
 
 	/** Kernel K(u) into kv, skipping far side lobes (the analysis window's are below −170 dB). */

@@ -56,14 +56,19 @@ function ascii(bytes: Uint8Array, at: number): string {
 
 export function decodeWav(bytes: Uint8Array): DecodedWav {
 	if (!bytes || bytes.length === 0) throw new WavError('empty file: no WAV data');
-	if (bytes.length < 12 || (ascii(bytes, 0) !== 'RIFF' && ascii(bytes, 0) !== 'RIFX') || ascii(bytes, 8) !== 'WAVE')
+	if (
+		bytes.length < 12 ||
+		(ascii(bytes, 0) !== 'RIFF' && ascii(bytes, 0) !== 'RIFX') ||
+		ascii(bytes, 8) !== 'WAVE'
+	)
 		throw new WavError('not a WAV file (no RIFF/WAVE header)');
 	let wav: WaveFileInstance;
 	try {
 		wav = new WaveFile(bytes);
 	} catch (err) {
 		const msg = err instanceof Error ? err.message : String(err);
-		if (/fmt/i.test(msg)) throw new WavError('not a usable WAV file: no "fmt " chunk (file truncated or damaged)');
+		if (/fmt/i.test(msg))
+			throw new WavError('not a usable WAV file: no "fmt " chunk (file truncated or damaged)');
 		if (/data/i.test(msg)) throw new WavError('truncated WAV file: no "data" chunk');
 		throw new WavError(`unreadable WAV file: ${msg.split('\n')[0]}`);
 	}
@@ -87,10 +92,12 @@ export function decodeWav(bytes: Uint8Array): DecodedWav {
 	if (!(rate > 0)) throw new WavError('WAV header gives no sample rate');
 	const bytesPerSample = bits / 8;
 	const frameBytes = bytesPerSample * nch;
-	const raw = data.samples;
-	if (!raw || raw.length === 0) throw new WavError('WAV file has no samples');
+	const raw = data.samples ?? new Uint8Array(0);
 	if (data.chunkSize > raw.length)
-		throw new WavError(`truncated WAV file: data chunk declares ${data.chunkSize} bytes, ${raw.length} present`);
+		throw new WavError(
+			`truncated WAV file: data chunk declares ${data.chunkSize} bytes, ${raw.length} present`
+		);
+	if (raw.length === 0) throw new WavError('WAV file has no samples');
 	const frames = Math.floor(raw.length / frameBytes);
 	if (frames === 0) throw new WavError('WAV file has no complete sample frame');
 
@@ -112,20 +119,29 @@ export function decodeWav(bytes: Uint8Array): DecodedWav {
 		for (let i = 0; i < frames; i++)
 			for (let c = 0; c < nch; c++) channels[c][i] = (samples[i * nch + c] - offset) * scale;
 	}
-	return { sampleRateHz: rate, channels, bitsPerSample: bits, format: format === FORMAT_FLOAT ? 'pcm-float' : 'pcm-int', extensible };
+	return {
+		sampleRateHz: rate,
+		channels,
+		bitsPerSample: bits,
+		format: format === FORMAT_FLOAT ? 'pcm-float' : 'pcm-int',
+		extensible
+	};
 }
 
 /** 32-bit float WAV of the given channels (±1.0 = full scale). */
 export function encodeWav(channels: Float32Array[], sampleRateHz: number): Uint8Array {
 	if (channels.length < 1 || channels.length > MAX_WAV_CHANNELS)
 		throw new WavError(`cannot write ${channels.length} channels (1 to ${MAX_WAV_CHANNELS})`);
-	if (!(sampleRateHz > 0) || !Number.isInteger(sampleRateHz)) throw new WavError(`invalid sample rate ${sampleRateHz}`);
+	if (!(sampleRateHz > 0) || !Number.isInteger(sampleRateHz))
+		throw new WavError(`invalid sample rate ${sampleRateHz}`);
 	const len = channels[0].length;
 	if (channels.some((c) => c.length !== len)) throw new WavError('channels differ in length');
 	const wav = new WaveFile();
-	const fromScratch = (wav as unknown as {
-		fromScratch(n: number, r: number, depth: string, s: Float64Array | Float64Array[]): void;
-	}).fromScratch.bind(wav);
+	const fromScratch = (
+		wav as unknown as {
+			fromScratch(n: number, r: number, depth: string, s: Float64Array | Float64Array[]): void;
+		}
+	).fromScratch.bind(wav);
 	// wavefile wants the samples as numbers per channel; Float64Array avoids a second rounding.
 	const input = channels.map((c) => Float64Array.from(c));
 	fromScratch(channels.length, sampleRateHz, '32f', channels.length === 1 ? input[0] : input);

@@ -58,7 +58,8 @@ describe('IEC 61672-1 weightings', () => {
 
 	it('is 0 dB at 1 kHz and the power gain is the square of the dB response', () => {
 		expect(Math.abs(aWeightingDb(1000))).toBeLessThan(0.001); // IEC 61672-1: A1000 normalisation, −2.000 dB + 2.00 dB
-		for (const f of [31.5, 1000, 8000]) expect(10 * Math.log10(aWeightingPowerGain(f))).toBeCloseTo(aWeightingDb(f), 10);
+		for (const f of [31.5, 1000, 8000])
+			expect(10 * Math.log10(aWeightingPowerGain(f))).toBeCloseTo(aWeightingDb(f), 10);
 		const t = aWeightingTable(5, 250);
 		expect(t[0]).toBe(0);
 		expect(t[4]).toBeCloseTo(aWeightingPowerGain(1000), 12);

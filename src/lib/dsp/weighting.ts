@@ -13,7 +13,8 @@ const C1000_DB = 0.062;
 function raSquared(f: number): number {
 	const f2 = f * f;
 	const num = F4_HZ * F4_HZ * f2 * f2;
-	const den = (f2 + F1_HZ * F1_HZ) * Math.sqrt((f2 + F2_HZ * F2_HZ) * (f2 + F3_HZ * F3_HZ)) * (f2 + F4_HZ * F4_HZ);
+	const den =
+		(f2 + F1_HZ * F1_HZ) * Math.sqrt((f2 + F2_HZ * F2_HZ) * (f2 + F3_HZ * F3_HZ)) * (f2 + F4_HZ * F4_HZ);
 	const r = num / den;
 	return r * r;
 }

@@ -1,13 +1,7 @@
 // Zod schemas for job input (intake form, edits, status changes, work log, parts, list
 // queries) and the status-transition rules. Shared by the server and the browser's forms.
 import { z } from 'zod';
-import {
-	JOB_STATUSES,
-	PART_STATES,
-	UNIT_CATEGORIES,
-	type JobStatus,
-	type Role
-} from './enums';
+import { JOB_STATUSES, PART_STATES, UNIT_CATEGORIES, type JobStatus, type Role } from './enums';
 
 export * from './enums';
 
@@ -103,7 +97,10 @@ const jobFields = {
 		.optional(),
 	/** User id of the technician, or ''/null for unassigned. */
 	technicianId: z.string().trim().max(64).nullable().optional(),
-	promisedDate: z.union([isoDate, z.literal('')]).nullable().optional()
+	promisedDate: z
+		.union([isoDate, z.literal('')])
+		.nullable()
+		.optional()
 };
 
 /**

@@ -20,7 +20,10 @@ export const personNameSchema = z
 	.trim()
 	.min(1, 'Enter a name')
 	.max(100, 'At most 100 characters')
-	.refine((s) => !/[\u0000-\u001f\u007f<>]/.test(s), 'No control characters or angle brackets');
+	.refine(
+		(s) => ![...s].some((c) => c.charCodeAt(0) < 0x20 || c.charCodeAt(0) === 0x7f || c === '<' || c === '>'),
+		'No control characters or angle brackets'
+	);
 
 export const newPasswordSchema = z
 	.string()
@@ -67,7 +70,11 @@ export const passwordChangeSchema = z
 			ctx.addIssue({ code: 'custom', path: ['confirmPassword'], message: 'The two new passwords differ' });
 		}
 		if (v.newPassword === v.currentPassword) {
-			ctx.addIssue({ code: 'custom', path: ['newPassword'], message: 'Choose a password you are not using now' });
+			ctx.addIssue({
+				code: 'custom',
+				path: ['newPassword'],
+				message: 'Choose a password you are not using now'
+			});
 		}
 	});
 export type PasswordChange = z.infer<typeof passwordChangeSchema>;

@@ -31,8 +31,18 @@ const MINUTE_MS = 60_000;
 async function freshDb(): Promise<{ db: Db; userId: string }> {
 	const db = openDb(':memory:');
 	// Two admins so deactivating one is allowed by the last-admin rule.
-	await createUser(db, { email: 'other.admin@example.com', name: 'Other Admin', role: 'admin', password: PASSWORD });
-	const user = await createUser(db, { email: 'pat@example.com', name: 'Pat Benchley', role: 'technician', password: PASSWORD });
+	await createUser(db, {
+		email: 'other.admin@example.com',
+		name: 'Other Admin',
+		role: 'admin',
+		password: PASSWORD
+	});
+	const user = await createUser(db, {
+		email: 'pat@example.com',
+		name: 'Pat Benchley',
+		role: 'technician',
+		password: PASSWORD
+	});
 	return { db, userId: user.id };
 }
 
@@ -80,7 +90,12 @@ describe('sign-in and sessions', () => {
 		expect(rows.some((s) => s.id === r.token)).toBe(false);
 		expect(rows[0].userId).toBe(userId);
 		const v = await validateSessionToken(db, r.token);
-		expect(v?.user).toEqual({ id: userId, email: 'pat@example.com', name: 'Pat Benchley', role: 'technician' });
+		expect(v?.user).toEqual({
+			id: userId,
+			email: 'pat@example.com',
+			name: 'Pat Benchley',
+			role: 'technician'
+		});
 	});
 
 	it('starts a fresh session at every sign-in', async () => {
@@ -173,7 +188,13 @@ describe('sign-in and sessions', () => {
 		vi.setSystemTime(Date.now() + (env.SESSION_IDLE_MINUTES + 1) * MINUTE_MS);
 		const live = await signInOk(db);
 		expect(purgeExpiredSessions(db)).toBe(1);
-		expect(db.select().from(table.sessions).all().map((s) => s.id)).toEqual([live.session.id]);
+		expect(
+			db
+				.select()
+				.from(table.sessions)
+				.all()
+				.map((s) => s.id)
+		).toEqual([live.session.id]);
 	});
 
 	it('a password change ends every other session and keeps the current one', async () => {
@@ -183,19 +204,27 @@ describe('sign-in and sessions', () => {
 		expect(result).toEqual({ ok: true });
 		expect(await validateSessionToken(db, here.token)).not.toBeNull();
 		expect(await validateSessionToken(db, elsewhere.token)).toBeNull();
-		expect((await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '10.0.0.5' })).ok).toBe(false);
-		expect((await signIn(db, { email: 'pat@example.com', password: 'a brand new passphrase', ip: '10.0.0.5' })).ok).toBe(true);
+		expect((await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '10.0.0.5' })).ok).toBe(
+			false
+		);
+		expect(
+			(await signIn(db, { email: 'pat@example.com', password: 'a brand new passphrase', ip: '10.0.0.5' })).ok
+		).toBe(true);
 	});
 
 	it('a wrong current password changes nothing', async () => {
 		const here = await signInOk(db);
 		const elsewhere = await signInOk(db);
-		expect(await changePassword(db, userId, 'not my password', 'a brand new passphrase', here.session.id)).toEqual({
+		expect(
+			await changePassword(db, userId, 'not my password', 'a brand new passphrase', here.session.id)
+		).toEqual({
 			ok: false,
 			reason: 'wrong-password'
 		});
 		expect(await validateSessionToken(db, elsewhere.token)).not.toBeNull();
-		expect((await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '10.0.0.6' })).ok).toBe(true);
+		expect((await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '10.0.0.6' })).ok).toBe(
+			true
+		);
 	});
 
 	it('deactivation ends all the user’s sessions; reactivation allows sign-in again', async () => {
@@ -206,7 +235,9 @@ describe('sign-in and sessions', () => {
 		expect(await validateSessionToken(db, b.token)).toBeNull();
 		expect(db.select().from(table.sessions).all()).toHaveLength(0);
 		await updateUser(db, userId, { active: true });
-		expect((await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '10.0.0.7' })).ok).toBe(true);
+		expect((await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '10.0.0.7' })).ok).toBe(
+			true
+		);
 	});
 
 	it('an admin password reset ends all the user’s sessions', async () => {
@@ -244,11 +275,16 @@ describe('sign-in rate limits', () => {
 
 	it('a successful sign-in clears the account’s failure count', async () => {
 		const { db } = await freshDb();
-		const fail = (i: number) => signIn(db, { email: 'pat@example.com', password: `wrong ${i}`, ip: `10.2.0.${i}` });
+		const fail = (i: number) =>
+			signIn(db, { email: 'pat@example.com', password: `wrong ${i}`, ip: `10.2.0.${i}` });
 		for (let i = 0; i < SIGN_IN_LIMITS.perAccount.points - 1; i++) await fail(i);
-		expect((await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '10.2.1.1' })).ok).toBe(true);
+		expect((await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '10.2.1.1' })).ok).toBe(
+			true
+		);
 		for (let i = 0; i < SIGN_IN_LIMITS.perAccount.points - 1; i++) await fail(i);
-		expect((await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '10.2.1.1' })).ok).toBe(true);
+		expect((await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '10.2.1.1' })).ok).toBe(
+			true
+		);
 	});
 
 	it(`pauses an address after ${SIGN_IN_LIMITS.perAddress.points} failures across accounts`, async () => {
@@ -258,7 +294,9 @@ describe('sign-in rate limits', () => {
 		}
 		const r = await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '192.0.2.50' });
 		expect(r).toMatchObject({ ok: false, reason: 'rate-limited' });
-		expect((await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '192.0.2.51' })).ok).toBe(true);
+		expect((await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '192.0.2.51' })).ok).toBe(
+			true
+		);
 	});
 });
 
@@ -266,7 +304,8 @@ describe('cookies', () => {
 	function fakeCookies() {
 		const calls: { op: string; name: string; value?: string; opts: Record<string, unknown> }[] = [];
 		const cookies = {
-			set: (name: string, value: string, opts: Record<string, unknown>) => calls.push({ op: 'set', name, value, opts }),
+			set: (name: string, value: string, opts: Record<string, unknown>) =>
+				calls.push({ op: 'set', name, value, opts }),
 			delete: (name: string, opts: Record<string, unknown>) => calls.push({ op: 'delete', name, opts })
 		} as unknown as Cookies;
 		return { cookies, calls };
@@ -277,10 +316,19 @@ describe('cookies', () => {
 		const expires = new Date('2026-03-02T16:00:00Z');
 		setSessionCookie(cookies, 'tok', expires, true);
 		expect(calls).toEqual([
-			{ op: 'set', name: SESSION_COOKIE, value: 'tok', opts: { path: '/', httpOnly: true, sameSite: 'lax', secure: true, expires } }
+			{
+				op: 'set',
+				name: SESSION_COOKIE,
+				value: 'tok',
+				opts: { path: '/', httpOnly: true, sameSite: 'lax', secure: true, expires }
+			}
 		]);
 		deleteSessionCookie(cookies, false);
-		expect(calls[1]).toEqual({ op: 'delete', name: SESSION_COOKIE, opts: { path: '/', httpOnly: true, sameSite: 'lax', secure: false } });
+		expect(calls[1]).toEqual({
+			op: 'delete',
+			name: SESSION_COOKIE,
+			opts: { path: '/', httpOnly: true, sameSite: 'lax', secure: false }
+		});
 	});
 
 	it('is Secure everywhere except plain-HTTP loopback', () => {
@@ -294,6 +342,8 @@ describe('cookies', () => {
 
 	it('derives the session id from the token with SHA-256 (hex)', () => {
 		// FIPS 180-2 appendix B.1 test vector: SHA-256("abc")
-		expect(sessionIdFromToken('abc')).toBe('ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad');
+		expect(sessionIdFromToken('abc')).toBe(
+			'ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad'
+		);
 	});
 });

@@ -164,7 +164,10 @@ export async function createSession(
 		{ createdAt },
 		{ sessionId: sessionIdFromToken(token) }
 	);
-	return { token, session: { id: session.id, expiresAt: capExpiry(session.expiresAt, createdAt), createdAt } };
+	return {
+		token,
+		session: { id: session.id, expiresAt: capExpiry(session.expiresAt, createdAt), createdAt }
+	};
 }
 
 function capExpiry(expiresAt: Date, createdAt: Date): Date {
@@ -207,7 +210,11 @@ export async function signOut(db: Db, sessionId: string): Promise<void> {
 }
 
 /** End every session of a user, or every one but `exceptSessionId` (password change). */
-export async function endUserSessions(db: Db, userId: string, exceptSessionId?: string | null): Promise<void> {
+export async function endUserSessions(
+	db: Db,
+	userId: string,
+	exceptSessionId?: string | null
+): Promise<void> {
 	if (exceptSessionId) {
 		db.delete(table.sessions)
 			.where(and(eq(table.sessions.userId, userId), ne(table.sessions.id, exceptSessionId)))
@@ -343,7 +350,8 @@ export async function changePassword(
 ): Promise<ChangePasswordResult> {
 	const user = db.select().from(table.users).where(eq(table.users.id, userId)).get();
 	if (!user || !user.active) return { ok: false, reason: 'no-user' };
-	if (!(await verifyPassword(user.passwordHash, currentPassword))) return { ok: false, reason: 'wrong-password' };
+	if (!(await verifyPassword(user.passwordHash, currentPassword)))
+		return { ok: false, reason: 'wrong-password' };
 	await setPassword(db, userId, newPassword, keepSessionId);
 	return { ok: true };
 }

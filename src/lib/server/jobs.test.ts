@@ -42,7 +42,8 @@ function issuesOf(fn: () => unknown): { path: string; message: string }[] {
 	try {
 		fn();
 	} catch (e) {
-		if (isHttpError(e) && e.status === 400) return (e.body.issues ?? []) as { path: string; message: string }[];
+		if (isHttpError(e) && e.status === 400)
+			return (e.body.issues ?? []) as { path: string; message: string }[];
 		throw e;
 	}
 	throw new Error('expected a 400');
@@ -92,7 +93,13 @@ describe('status transition rules', () => {
 		expect(nextStatuses('awaiting-parts')).toEqual(['repairing', 'on-hold', 'declined']);
 		expect(nextStatuses('repairing')).toEqual(['awaiting-parts', 'testing', 'on-hold', 'declined']);
 		expect(nextStatuses('testing')).toEqual(['repairing', 'awaiting-review', 'on-hold', 'declined']);
-		expect(nextStatuses('awaiting-review')).toEqual(['repairing', 'testing', 'approved', 'on-hold', 'declined']);
+		expect(nextStatuses('awaiting-review')).toEqual([
+			'repairing',
+			'testing',
+			'approved',
+			'on-hold',
+			'declined'
+		]);
 		expect(nextStatuses('approved')).toEqual(['returned', 'on-hold', 'declined']);
 		expect(nextStatuses('returned')).toEqual([]);
 		expect(nextStatuses('on-hold')).toEqual([
@@ -127,11 +134,20 @@ describe('intake', () => {
 		expect(job.technician).toEqual({ id: 'tech', name: 'Tamsin Oakridge' });
 		expect(job.promisedDate).toBe('2026-04-01');
 		expect(job.history).toHaveLength(1);
-		expect(job.history[0]).toMatchObject({ fromStatus: null, toStatus: 'received', userId: 'sup', userName: 'Rowan Thistlewood' });
+		expect(job.history[0]).toMatchObject({
+			fromStatus: null,
+			toStatus: 'received',
+			userId: 'sup',
+			userName: 'Rowan Thistlewood'
+		});
 	});
 
 	it('stores empty optional fields as null', () => {
-		const job = createJob(db, intake({ serial: '', customerEmail: '', year: null, ratedPowerW: null }), 'tech');
+		const job = createJob(
+			db,
+			intake({ serial: '', customerEmail: '', year: null, ratedPowerW: null }),
+			'tech'
+		);
 		expect(job.serial).toBeNull();
 		expect(job.year).toBeNull();
 		expect(job.ratedPowerW).toBeNull();
@@ -141,11 +157,27 @@ describe('intake', () => {
 
 	it('reuses a customer by e-mail (any case), else by name and phone', () => {
 		const a = createJob(db, intake(), 'tech');
-		const b = createJob(db, intake({ customerName: 'G. Fallowmere', customerEmail: 'GRETA@example.net' }), 'tech');
+		const b = createJob(
+			db,
+			intake({ customerName: 'G. Fallowmere', customerEmail: 'GRETA@example.net' }),
+			'tech'
+		);
 		expect(b.customer.id).toBe(a.customer.id);
-		const c = createJob(db, intake({ customerName: 'Lio Brent', customerEmail: '', customerPhone: '555-0101' }), 'tech');
-		const d = createJob(db, intake({ customerName: 'lio brent', customerEmail: '', customerPhone: '555-0101' }), 'tech');
-		const e = createJob(db, intake({ customerName: 'Lio Brent', customerEmail: '', customerPhone: '555-0999' }), 'tech');
+		const c = createJob(
+			db,
+			intake({ customerName: 'Lio Brent', customerEmail: '', customerPhone: '555-0101' }),
+			'tech'
+		);
+		const d = createJob(
+			db,
+			intake({ customerName: 'lio brent', customerEmail: '', customerPhone: '555-0101' }),
+			'tech'
+		);
+		const e = createJob(
+			db,
+			intake({ customerName: 'Lio Brent', customerEmail: '', customerPhone: '555-0999' }),
+			'tech'
+		);
 		expect(d.customer.id).toBe(c.customer.id);
 		expect(e.customer.id).not.toBe(c.customer.id);
 		expect(db.select().from(table.customers).all()).toHaveLength(3);
@@ -168,10 +200,17 @@ describe('intake', () => {
 				'tech'
 			)
 		);
-		expect(issues.map((i) => i.path).sort()).toEqual(['customerName', 'make', 'promisedDate', 'ratedLoadOhms', 'year']);
-		expect(issuesOf(() => createJob(db, { ...intake(), category: 'jukebox' } as unknown as JobIntake, 'tech'))[0].path).toBe(
-			'category'
-		);
+		expect(issues.map((i) => i.path).sort()).toEqual([
+			'customerName',
+			'make',
+			'promisedDate',
+			'ratedLoadOhms',
+			'year'
+		]);
+		expect(
+			issuesOf(() => createJob(db, { ...intake(), category: 'jukebox' } as unknown as JobIntake, 'tech'))[0]
+				.path
+		).toBe('category');
 		expect(db.select().from(table.jobs).all()).toHaveLength(0);
 		expect(db.select().from(table.customers).all()).toHaveLength(0);
 	});
@@ -189,7 +228,11 @@ describe('edits', () => {
 	it('changes unit details and assignment, not status', () => {
 		const job = createJob(db, intake(), 'tech');
 		const edited = updateJob(db, job.id, { model: 'CR-7410', technicianId: 'tech2', serial: '' });
-		expect(edited).toMatchObject({ model: 'CR-7410', serial: null, technician: { id: 'tech2', name: 'Niko Brambleton' } });
+		expect(edited).toMatchObject({
+			model: 'CR-7410',
+			serial: null,
+			technician: { id: 'tech2', name: 'Niko Brambleton' }
+		});
 		expect(statusOf(() => updateJob(db, job.id, { status: 'approved' } as never))).toBe(400);
 		expect(statusOf(() => updateJob(db, job.id, {}))).toBe(400);
 		expect(statusOf(() => updateJob(db, 424242, { model: 'X' }))).toBe(404);
@@ -200,7 +243,8 @@ describe('edits', () => {
 describe('status changes', () => {
 	it('walks the path, recording who moved it from what to what', () => {
 		const job = createJob(db, intake(), 'tech');
-		for (const s of ['diagnosing', 'repairing', 'testing', 'awaiting-review'] as const) changeStatus(db, job.id, { status: s }, TECH);
+		for (const s of ['diagnosing', 'repairing', 'testing', 'awaiting-review'] as const)
+			changeStatus(db, job.id, { status: s }, TECH);
 		const approved = changeStatus(db, job.id, { status: 'approved', note: 'Figures within limits' }, SUP);
 		expect(approved.status).toBe('approved');
 		expect(approved.history.map((h) => [h.fromStatus, h.toStatus, h.userName])).toEqual([
@@ -217,7 +261,8 @@ describe('status changes', () => {
 
 	it('lets only supervisors and admins approve (403), writing nothing for a refusal', () => {
 		const job = createJob(db, intake(), 'tech');
-		for (const s of ['diagnosing', 'repairing', 'testing', 'awaiting-review'] as const) changeStatus(db, job.id, { status: s }, TECH);
+		for (const s of ['diagnosing', 'repairing', 'testing', 'awaiting-review'] as const)
+			changeStatus(db, job.id, { status: s }, TECH);
 		expect(statusOf(() => changeStatus(db, job.id, { status: 'approved' }, TECH))).toBe(403);
 		expect(getJob(db, job.id)!.status).toBe('awaiting-review');
 		expect(getJob(db, job.id)!.history).toHaveLength(5);
@@ -250,7 +295,8 @@ describe('status changes', () => {
 		const job = createJob(db, intake(), 'tech');
 		changeStatus(db, job.id, { status: 'declined' }, TECH);
 		changeStatus(db, job.id, { status: 'returned' }, TECH);
-		for (const s of JOB_STATUSES) expect(statusOf(() => changeStatus(db, job.id, { status: s }, ADMIN))).toBe(409);
+		for (const s of JOB_STATUSES)
+			expect(statusOf(() => changeStatus(db, job.id, { status: s }, ADMIN))).toBe(409);
 	});
 
 	it('writes the status and its history row in one transaction', () => {
@@ -281,13 +327,21 @@ describe('work log and parts', () => {
 
 	it('keeps parts with line totals and a job total in cents', () => {
 		const job = createJob(db, intake(), 'tech');
-		const q = addPart(db, job.id, partSchema.parse({ refDes: 'q412', description: 'Output transistor', quantity: 2, unitCostCents: 645 }));
+		const q = addPart(
+			db,
+			job.id,
+			partSchema.parse({ refDes: 'q412', description: 'Output transistor', quantity: 2, unitCostCents: 645 })
+		);
 		expect(q).toMatchObject({ refDes: 'Q412', state: 'ordered', lineTotalCents: 1290 });
 		addPart(db, job.id, partSchema.parse({ refDes: 'RL1', description: 'Relay', unitCostCents: 890 }));
 		expect(getJob(db, job.id)!.partsTotalCents).toBe(2180);
 
 		const fitted = updatePart(db, job.id, q.id, { state: 'fitted', verificationNote: 'hFE 85/88 matched' });
-		expect(fitted).toMatchObject({ state: 'fitted', verificationNote: 'hFE 85/88 matched', lineTotalCents: 1290 });
+		expect(fitted).toMatchObject({
+			state: 'fitted',
+			verificationNote: 'hFE 85/88 matched',
+			lineTotalCents: 1290
+		});
 		expect(updatePart(db, job.id, q.id, { quantity: 3 }).lineTotalCents).toBe(1935);
 		expect(getJob(db, job.id)!.partsTotalCents).toBe(2825);
 
@@ -303,15 +357,32 @@ describe('work log and parts', () => {
 		expect(statusOf(() => updatePart(db, b.id, part.id, { state: 'fitted' }))).toBe(404);
 		expect(statusOf(() => deletePart(db, b.id, part.id))).toBe(404);
 		expect(statusOf(() => updatePart(db, a.id, part.id, { quantity: 0 }))).toBe(400);
-		expect(statusOf(() => addPart(db, a.id, { refDes: '', description: 'x', quantity: 1, unitCostCents: 0, state: 'ordered' }))).toBe(400);
-		expect(statusOf(() => addPart(db, a.id, { refDes: 'C2', description: 'x', quantity: 1, unitCostCents: 1.5, state: 'ordered' }))).toBe(400);
+		expect(
+			statusOf(() =>
+				addPart(db, a.id, { refDes: '', description: 'x', quantity: 1, unitCostCents: 0, state: 'ordered' })
+			)
+		).toBe(400);
+		expect(
+			statusOf(() =>
+				addPart(db, a.id, {
+					refDes: 'C2',
+					description: 'x',
+					quantity: 1,
+					unitCostCents: 1.5,
+					state: 'ordered'
+				})
+			)
+		).toBe(400);
 		expect(getJob(db, a.id)!.parts).toHaveLength(1);
 	});
 
 	it('moves the job to the top of "recently updated" when work is logged', () => {
 		const a = createJob(db, intake({ make: 'Alpha' }), 'tech');
 		createJob(db, intake({ make: 'Beta' }), 'tech');
-		db.update(table.jobs).set({ updatedAt: new Date('2020-01-01T00:00:00Z') }).where(eq(table.jobs.id, a.id)).run();
+		db.update(table.jobs)
+			.set({ updatedAt: new Date('2020-01-01T00:00:00Z') })
+			.where(eq(table.jobs.id, a.id))
+			.run();
 		expect(listJobs(db, { sort: '-updated' }).items[0].make).toBe('Beta');
 		addLogEntry(db, a.id, { text: 'Bench time', minutes: 5 }, 'tech');
 		expect(listJobs(db, { sort: '-updated' }).items[0].make).toBe('Alpha');
@@ -322,10 +393,42 @@ describe('list', () => {
 	function seedList() {
 		const j = (over: Partial<JobIntake>) => createJob(db, intake(over), 'tech');
 		const rows = [
-			j({ make: 'Corvane', model: 'CR-7400', customerName: 'Ines Halloran', customerEmail: 'ines@example.net', complaint: 'Dead', technicianId: 'tech', promisedDate: '2026-05-01' }),
-			j({ make: 'Velmora', model: 'VA-120', customerName: 'Bram Ellsworthy', customerEmail: 'bram@example.net', complaint: 'Hum when warm', technicianId: 'tech2', promisedDate: '2026-04-01' }),
-			j({ make: 'Halvane', model: 'HP-250', serial: 'HP2-30991', customerName: 'Wren Castellow', customerEmail: 'wren@example.net', complaint: '100% distortion at 1 kHz', technicianId: '' }),
-			j({ make: 'orlund', model: 'OT-55', customerName: 'Ines Halloran', customerEmail: 'ines@example.net', complaint: 'Weak FM', technicianId: 'tech', promisedDate: '2026-03-01' })
+			j({
+				make: 'Corvane',
+				model: 'CR-7400',
+				customerName: 'Ines Halloran',
+				customerEmail: 'ines@example.net',
+				complaint: 'Dead',
+				technicianId: 'tech',
+				promisedDate: '2026-05-01'
+			}),
+			j({
+				make: 'Velmora',
+				model: 'VA-120',
+				customerName: 'Bram Ellsworthy',
+				customerEmail: 'bram@example.net',
+				complaint: 'Hum when warm',
+				technicianId: 'tech2',
+				promisedDate: '2026-04-01'
+			}),
+			j({
+				make: 'Halvane',
+				model: 'HP-250',
+				serial: 'HP2-30991',
+				customerName: 'Wren Castellow',
+				customerEmail: 'wren@example.net',
+				complaint: '100% distortion at 1 kHz',
+				technicianId: ''
+			}),
+			j({
+				make: 'orlund',
+				model: 'OT-55',
+				customerName: 'Ines Halloran',
+				customerEmail: 'ines@example.net',
+				complaint: 'Weak FM',
+				technicianId: 'tech',
+				promisedDate: '2026-03-01'
+			})
 		];
 		changeStatus(db, rows[1].id, { status: 'diagnosing' }, TECH);
 		changeStatus(db, rows[2].id, { status: 'declined' }, TECH);
@@ -334,7 +437,10 @@ describe('list', () => {
 
 	it('searches make, model, serial, customer name and complaint, and job numbers', () => {
 		const rows = seedList();
-		const makes = (q: string) => listJobs(db, { q }).items.map((i) => i.make).sort();
+		const makes = (q: string) =>
+			listJobs(db, { q })
+				.items.map((i) => i.make)
+				.sort();
 		expect(makes('velm')).toEqual(['Velmora']);
 		expect(makes('ot-55')).toEqual(['orlund']);
 		expect(makes('30991')).toEqual(['Halvane']);
@@ -346,17 +452,57 @@ describe('list', () => {
 		expect(makes('_')).toEqual([]);
 	});
 
+	it('keeps the search index in step with edits and customer renames', () => {
+		const rows = seedList();
+		const makes = (q: string) =>
+			listJobs(db, { q })
+				.items.map((i) => i.make)
+				.sort();
+		updateJob(db, rows[0].id, { model: 'Quasar-9' });
+		expect(makes('quasar')).toEqual(['Corvane']);
+		expect(makes('CR-7400')).toEqual([]);
+		db.update(table.customers)
+			.set({ name: 'Solène Marchetti' })
+			.where(eq(table.customers.id, rows[1].customer.id))
+			.run();
+		expect(makes('SOLÈNE')).toEqual(['Velmora']);
+		expect(makes('Ellsworthy')).toEqual([]);
+		db.delete(table.jobStatusHistory).where(eq(table.jobStatusHistory.jobId, rows[2].id)).run();
+		db.delete(table.jobs).where(eq(table.jobs.id, rows[2].id)).run();
+		expect(makes('30991')).toEqual([]);
+	});
+
+	it('searches short terms and odd characters without error', () => {
+		seedList();
+		const makes = (q: string) =>
+			listJobs(db, { q })
+				.items.map((i) => i.make)
+				.sort();
+		expect(makes('55')).toEqual(['orlund']);
+		expect(makes('hp')).toEqual(['Halvane']);
+		expect(makes('"dead"')).toEqual([]);
+		expect(makes('Dead" OR "x')).toEqual([]);
+		expect(makes('*')).toEqual([]);
+		expect(listJobs(db, { q: 'NEAR(dead weak)' }).total).toBe(0);
+	});
+
 	it('filters by status (lists, open, closed) and technician (id or none)', () => {
 		seedList();
 		const status = (s: string) => {
 			const q = jobListQuerySchema.parse({ status: s });
-			return listJobs(db, q).items.map((i) => i.make).sort();
+			return listJobs(db, q)
+				.items.map((i) => i.make)
+				.sort();
 		};
 		expect(status('diagnosing')).toEqual(['Velmora']);
 		expect(status('received,declined')).toEqual(['Corvane', 'Halvane', 'orlund']);
 		expect(status('closed')).toEqual(['Halvane']);
 		expect(status('open')).toEqual(['Corvane', 'Velmora', 'orlund']);
-		expect(listJobs(db, { technician: 'tech' }).items.map((i) => i.make).sort()).toEqual(['Corvane', 'orlund']);
+		expect(
+			listJobs(db, { technician: 'tech' })
+				.items.map((i) => i.make)
+				.sort()
+		).toEqual(['Corvane', 'orlund']);
 		expect(listJobs(db, { technician: 'none' }).items.map((i) => i.make)).toEqual(['Halvane']);
 		expect(listJobs(db, { technician: 'tech2', status: ['received'] }).total).toBe(0);
 	});
@@ -364,7 +510,11 @@ describe('list', () => {
 	it('carries customer and technician names', () => {
 		seedList();
 		const item = listJobs(db, { q: 'Velmora' }).items[0];
-		expect(item).toMatchObject({ customerName: 'Bram Ellsworthy', technicianName: 'Niko Brambleton', status: 'diagnosing' });
+		expect(item).toMatchObject({
+			customerName: 'Bram Ellsworthy',
+			technicianName: 'Niko Brambleton',
+			status: 'diagnosing'
+		});
 		expect(listJobs(db, { q: 'Halvane' }).items[0].technicianName).toBeNull();
 	});
 
@@ -401,12 +551,17 @@ describe('list query validation', () => {
 	const bad = (q: Record<string, string>) => jobListQuerySchema.safeParse(q).success === false;
 	it('fills defaults and treats empty values as no filter', () => {
 		expect(jobListQuerySchema.parse({})).toEqual({ sort: '-updated', page: 1, pageSize: 25 });
-		expect(jobListQuerySchema.parse({ q: '', status: '', technician: '', sort: '', page: '', pageSize: '' })).toEqual({
+		expect(
+			jobListQuerySchema.parse({ q: '', status: '', technician: '', sort: '', page: '', pageSize: '' })
+		).toEqual({
 			sort: '-updated',
 			page: 1,
 			pageSize: 25
 		});
-		expect(jobListQuerySchema.parse({ page: '3', pageSize: '100' })).toMatchObject({ page: 3, pageSize: 100 });
+		expect(jobListQuerySchema.parse({ page: '3', pageSize: '100' })).toMatchObject({
+			page: 3,
+			pageSize: 100
+		});
 	});
 	it('refuses what it cannot honour', () => {
 		expect(bad({ pageSize: '101' })).toBe(true);

@@ -175,17 +175,29 @@ function orderFor(sort: JobSort): SQL[] {
 			return [dir(table.jobs.createdAt), dir(table.jobs.id)];
 		case 'promised':
 			// Jobs without a promised date sort last either way.
-			return [asc(sql`${table.jobs.promisedDate} IS NULL`), dir(table.jobs.promisedDate), desc(table.jobs.id)];
+			return [
+				asc(sql`${table.jobs.promisedDate} IS NULL`),
+				dir(table.jobs.promisedDate),
+				desc(table.jobs.id)
+			];
 		case 'status':
 			return [dir(STATUS_ORDER), desc(table.jobs.updatedAt), desc(table.jobs.id)];
 		case 'make':
-			return [dir(sql`${table.jobs.make} COLLATE NOCASE`), dir(sql`${table.jobs.model} COLLATE NOCASE`), desc(table.jobs.id)];
+			return [
+				dir(sql`${table.jobs.make} COLLATE NOCASE`),
+				dir(sql`${table.jobs.model} COLLATE NOCASE`),
+				desc(table.jobs.id)
+			];
 		case 'model':
 			return [dir(sql`${table.jobs.model} COLLATE NOCASE`), desc(table.jobs.id)];
 		case 'customer':
 			return [dir(sql`${table.customers.name} COLLATE NOCASE`), desc(table.jobs.id)];
 		case 'technician':
-			return [asc(sql`${technicians.name} IS NULL`), dir(sql`${technicians.name} COLLATE NOCASE`), desc(table.jobs.id)];
+			return [
+				asc(sql`${technicians.name} IS NULL`),
+				dir(sql`${technicians.name} COLLATE NOCASE`),
+				desc(table.jobs.id)
+			];
 		case 'id':
 			return [dir(table.jobs.id)];
 		case 'updated':
@@ -206,54 +218,67 @@ export function listJobs(db: Db, query: Partial<JobListQuery>): JobList {
 
 	const q = query.q?.trim();
 	if (q) {
-		const pattern = `%${escapeLike(q)}%`;
-		const matches = [table.jobs.make, table.jobs.model, table.jobs.serial, table.customers.name, table.jobs.complaint].map(
-			(col) => sql`${col} LIKE ${pattern} ESCAPE '\\'`
-		);
-		const idMatch = /^#?(\d{1,12})$/.exec(q);
-		if (idMatch) matches.push(sql`${table.jobs.id} = ${Number(idMatch[1])}`);
-		conditions.push(or(...matches)!);
+		const jobNumber = /^#(\d{1,12})$/.exec(q);
+		if (jobNumber) {
+			// "#42" names a job: no text search needed.
+			conditions.push(eq(table.jobs.id, Number(jobNumber[1])));
+		} else {
+			const matches: SQL[] = [textMatch(q)];
+			if (/^\d{1,12}$/.test(q)) matches.push(eq(table.jobs.id, Number(q)));
+			conditions.push(or(...matches)!);
+		}
 	}
 	if (query.status?.length) conditions.push(inArray(table.jobs.status, query.status));
 	if (query.technician === 'none') conditions.push(isNull(table.jobs.technicianId));
 	else if (query.technician) conditions.push(eq(table.jobs.technicianId, query.technician));
 	const where = conditions.length ? and(...conditions) : undefined;
 
-	// The customer join is only needed to count when the search looks at customer names.
-	const totalRow = q
-		? db
-				.select({ n: count() })
-				.from(table.jobs)
-				.innerJoin(table.customers, eq(table.customers.id, table.jobs.customerId))
-				.where(where)
-				.get()
-		: db.select({ n: count() }).from(table.jobs).where(where).get();
+	const totalRow = db.select({ n: count() }).from(table.jobs).where(where).get();
 
-	const rows = db
-		.select({
-			id: table.jobs.id,
-			category: table.jobs.category,
-			make: table.jobs.make,
-			model: table.jobs.model,
-			serial: table.jobs.serial,
-			complaint: table.jobs.complaint,
-			status: table.jobs.status,
-			customerId: table.jobs.customerId,
-			customerName: table.customers.name,
-			technicianId: table.jobs.technicianId,
-			technicianName: technicians.name,
-			promisedDate: table.jobs.promisedDate,
-			createdAt: table.jobs.createdAt,
-			updatedAt: table.jobs.updatedAt
-		})
-		.from(table.jobs)
-		.innerJoin(table.customers, eq(table.customers.id, table.jobs.customerId))
-		.leftJoin(technicians, eq(technicians.id, table.jobs.technicianId))
+	// Pick the page's ids first, joining only what the sort needs, then fetch those rows
+	// with their names: SQLite then sorts thousands of narrow rows (often straight from an
+	// index) and joins names for one page only.
+	const sort = query.sort ?? '-updated';
+	const key = sort.replace(/^-/, '');
+	let idQuery = db.select({ id: table.jobs.id }).from(table.jobs).$dynamic();
+	if (key === 'customer')
+		idQuery = idQuery.innerJoin(table.customers, eq(table.customers.id, table.jobs.customerId));
+	if (key === 'technician')
+		idQuery = idQuery.leftJoin(technicians, eq(technicians.id, table.jobs.technicianId));
+	const pageIds = idQuery
 		.where(where)
-		.orderBy(...orderFor(query.sort ?? '-updated'))
+		.orderBy(...orderFor(sort))
 		.limit(pageSize)
 		.offset((page - 1) * pageSize)
-		.all();
+		.all()
+		.map((r) => r.id);
+
+	const found = pageIds.length
+		? db
+				.select({
+					id: table.jobs.id,
+					category: table.jobs.category,
+					make: table.jobs.make,
+					model: table.jobs.model,
+					serial: table.jobs.serial,
+					complaint: table.jobs.complaint,
+					status: table.jobs.status,
+					customerId: table.jobs.customerId,
+					customerName: table.customers.name,
+					technicianId: table.jobs.technicianId,
+					technicianName: technicians.name,
+					promisedDate: table.jobs.promisedDate,
+					createdAt: table.jobs.createdAt,
+					updatedAt: table.jobs.updatedAt
+				})
+				.from(table.jobs)
+				.innerJoin(table.customers, eq(table.customers.id, table.jobs.customerId))
+				.leftJoin(technicians, eq(technicians.id, table.jobs.technicianId))
+				.where(inArray(table.jobs.id, pageIds))
+				.all()
+		: [];
+	const byId = new Map(found.map((r) => [r.id, r]));
+	const rows = pageIds.flatMap((id) => byId.get(id) ?? []);
 
 	return {
 		items: rows.map((r) => ({ ...r, createdAt: iso(r.createdAt), updatedAt: iso(r.updatedAt) })),
@@ -261,6 +286,31 @@ export function listJobs(db: Db, query: Partial<JobListQuery>): JobList {
 		page,
 		pageSize
 	};
+}
+
+/**
+ * Case-insensitive substring match on make, model, serial, complaint and customer name.
+ * Three characters or more go through the trigram index (migration 0003_job_search);
+ * shorter ones, which a trigram cannot match, scan the columns with LIKE.
+ */
+function textMatch(q: string): SQL {
+	if ([...q].length >= 3) {
+		// An FTS5 string literal: everything inside double quotes is literal text.
+		const phrase = `"${q.replace(/"/g, '""')}"`;
+		return sql`${table.jobs.id} IN (SELECT rowid FROM job_search WHERE job_search MATCH ${phrase})`;
+	}
+	const pattern = `%${escapeLike(q)}%`;
+	const customerName = customerNameOf();
+	return or(
+		...[table.jobs.make, table.jobs.model, table.jobs.serial, table.jobs.complaint, customerName].map(
+			(col) => sql`${col} LIKE ${pattern} ESCAPE '\\'`
+		)
+	)!;
+}
+
+/** The job's customer name as a scalar subquery, so a count needs no join. */
+function customerNameOf(): SQL {
+	return sql`(SELECT ${table.customers.name} FROM ${table.customers} WHERE ${table.customers.id} = ${table.jobs.customerId})`;
 }
 
 // ── detail ──────────────────────────────────────────────────────────────────
@@ -339,7 +389,8 @@ export function getJob(db: Db, id: number): JobDetail | null {
 		createdAt: iso(job.createdAt),
 		updatedAt: iso(job.updatedAt),
 		customer: { id: customer.id, name: customer.name, email: customer.email, phone: customer.phone },
-		technician: job.technicianId && row.technicianName ? { id: job.technicianId, name: row.technicianName } : null,
+		technician:
+			job.technicianId && row.technicianName ? { id: job.technicianId, name: row.technicianName } : null,
 		history,
 		log,
 		logMinutesTotal: log.reduce((sum, l) => sum + l.minutes, 0),
@@ -386,7 +437,11 @@ function resolveCustomer(db: Conn, input: JobIntake): number {
 	const email = blank(input.customerEmail);
 	const phone = blank(input.customerPhone);
 	const existing = email
-		? db.select({ id: table.customers.id }).from(table.customers).where(sql`lower(${table.customers.email}) = ${email}`).get()
+		? db
+				.select({ id: table.customers.id })
+				.from(table.customers)
+				.where(sql`lower(${table.customers.email}) = ${email}`)
+				.get()
 		: db
 				.select({ id: table.customers.id })
 				.from(table.customers)
@@ -434,7 +489,14 @@ export function createJob(db: Db, input: JobIntake, userId: string): JobDetail {
 			.returning({ id: table.jobs.id })
 			.get();
 		tx.insert(table.jobStatusHistory)
-			.values({ jobId: job.id, userId, fromStatus: null, toStatus: 'received', note: 'Taken in', createdAt: now })
+			.values({
+				jobId: job.id,
+				userId,
+				fromStatus: null,
+				toStatus: 'received',
+				note: 'Taken in',
+				createdAt: now
+			})
 			.run();
 		return job.id;
 	});
@@ -510,7 +572,11 @@ export function addLogEntry(db: Db, jobId: number, input: LogEntryInput, authorI
 			.returning()
 			.get();
 		tx.update(table.jobs).set({ updatedAt: now }).where(eq(table.jobs.id, jobId)).run();
-		const author = tx.select({ name: table.users.name }).from(table.users).where(eq(table.users.id, authorId)).get();
+		const author = tx
+			.select({ name: table.users.name })
+			.from(table.users)
+			.where(eq(table.users.id, authorId))
+			.get();
 		return {
 			id: entry.id,
 			text: entry.text,

@@ -10,7 +10,7 @@ import {
 	type LimitProfileView,
 	type ProfileInput,
 	type ProfilePatch
-} from '$lib/limits';
+} from '../limits';
 import { z } from 'zod';
 
 export class LimitProfileError extends Error {

@@ -35,9 +35,16 @@ describe('settings', () => {
 	it('stores a partial update and keeps the rest', () => {
 		const s = updateSettings(db, { mainsHz: 60, shopName: 'Bench Row' });
 		expect(s).toMatchObject({ mainsHz: 60, shopName: 'Bench Row', bridgeUrl: env.BRIDGE_URL });
-		updateSettings(db, { soakDefaultLimits: { maxHeatsinkC: 65, maxRiseCPerMin: 2, maxDiffC: 8, thdnCeilingDb: -60 } });
+		updateSettings(db, {
+			soakDefaultLimits: { maxHeatsinkC: 65, maxRiseCPerMin: 2, maxDiffC: 8, thdnCeilingDb: -60 }
+		});
 		expect(getSetting(db, 'mainsHz')).toBe(60);
-		expect(getSetting(db, 'soakDefaultLimits')).toEqual({ maxHeatsinkC: 65, maxRiseCPerMin: 2, maxDiffC: 8, thdnCeilingDb: -60 });
+		expect(getSetting(db, 'soakDefaultLimits')).toEqual({
+			maxHeatsinkC: 65,
+			maxRiseCPerMin: 2,
+			maxDiffC: 8,
+			thdnCeilingDb: -60
+		});
 		expect(db.select().from(table.settings).all()).toHaveLength(3);
 	});
 

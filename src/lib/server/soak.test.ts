@@ -190,6 +190,30 @@ describe('ending a run', () => {
 		expect(d.summary.breaches.map((b) => b.kind).sort()).toEqual(['left-right', 'max-heatsink', 'rise-rate']);
 	});
 
+	it('fails a run whose record stops short of the duration', () => {
+		const id = fastRun();
+		// Readings only for soak minutes 0..40 (wall seconds 0..40): 20 minutes are missing.
+		const readings = [];
+		for (let s = 0; s <= 40; s++) readings.push(reading('heatsink-left', 1000 + s, 30, s * 1000));
+		addReadings(db, id, readings);
+		const d = finishRun(db, id, T0 + 60_000);
+		expect(d.summary.coveredS).toBe(2400); // 40 wall s × 60
+		expect(d.summary.incomplete).toBe(true); // 2400 < 3600 − max(60, 3 × 60)
+		expect(d.summary.breaches).toEqual([]);
+		expect(d.verdict).toBe('failed');
+	});
+
+	it('does not judge readings logged after the planned end', () => {
+		const id = fastRun();
+		heatUp(id, 55);
+		// The page came back late: the unit ran on and reached 90 °C at wall second 70 (soak minute 70).
+		addReadings(db, id, [reading('heatsink-left', 2000, 90, 70_000), reading('heatsink-right', 2001, 90, 70_000)]);
+		const d = finishRun(db, id, T0 + 75_000);
+		expect(d.verdict).toBe('passed');
+		expect(d.summary.probes['heatsink-left'].maxC).toBe(55);
+		expect(d.readingCount).toBe(124); // 61 × 2 judged + 2 kept but not judged
+	});
+
 	it('aborts with the reason, the moment and the breach', () => {
 		const id = fastRun();
 		heatUp(id, 55);

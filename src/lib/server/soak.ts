@@ -240,9 +240,23 @@ function thdnSamples(db: Tx, runId: number): ThdnSample[] {
 	return out;
 }
 
-function computeSummary(db: Tx, row: RunRow): SoakSummary {
-	const clock = { startedAtMs: row.startedAt.getTime(), timeScale: row.timeScale };
-	return summarize(storedReadings(db, row.id), limitsOf(row), clock, thdnSamples(db, row.id));
+/**
+ * The summary of what is stored, judged up to `untilMs` (the planned end for a finished run, the
+ * abort moment for an aborted one): readings the bridge logged after that are kept but not judged.
+ */
+function computeSummary(db: Tx, row: RunRow, end?: { untilMs: number; complete: boolean }): SoakSummary {
+	const startedAtMs = row.startedAt.getTime();
+	const clock = { startedAtMs, timeScale: row.timeScale };
+	// Two wall-clock seconds of grace: the reading that closes the run may land just after its end.
+	const untilMs = end ? end.untilMs + 2000 : Infinity;
+	const readings = storedReadings(db, row.id).filter((r) => r.t <= untilMs);
+	const thdn = thdnSamples(db, row.id).filter((x) => x.t <= untilMs);
+	return summarize(readings, limitsOf(row), clock, thdn, end?.complete ? { durationS: row.durationS } : {});
+}
+
+/** Wall-clock ms at which a run's planned duration ends. */
+function plannedEndMs(row: RunRow): number {
+	return row.startedAt.getTime() + (row.durationS * 1000) / row.timeScale;
 }
 
 function readingStats(db: Tx, runId: number): { count: number; lastSeq: number | null } {
@@ -527,7 +541,7 @@ export function finishRun(db: Db, runId: number, nowMs = Date.now()): SoakRunDet
 		const left = remainingS({ startedAt: row.startedAt.getTime(), timeScale: row.timeScale, durationS: row.durationS }, nowMs);
 		if (left > 2 * row.timeScale)
 			throw new SoakError(`The run has ${Math.ceil(left / 60)} min of soak time left; abort it to stop early`, 'too-early');
-		const summary = computeSummary(tx, row);
+		const summary = computeSummary(tx, row, { untilMs: plannedEndMs(row), complete: true });
 		tx.update(table.soakRuns)
 			.set({ status: verdictOf(summary), endedAt: new Date(nowMs), summary })
 			.where(eq(table.soakRuns.id, runId))
@@ -544,7 +558,7 @@ export function abortRun(db: Db, runId: number, input: AbortInput, nowMs = Date.
 		if (row.status !== 'running') throw new SoakError(`The run has already ended (${row.status})`, 'not-running');
 		// The moment may not precede the start nor lie in the future.
 		const endedAtMs = Math.min(nowMs, Math.max(row.startedAt.getTime(), data.at ?? nowMs));
-		const summary = computeSummary(tx, row);
+		const summary = computeSummary(tx, row, { untilMs: endedAtMs, complete: false });
 		if (data.breach) {
 			tx.insert(table.soakEvents)
 				.values({ runId, kind: 'breach', at: new Date(Math.round(data.breach.t)), detail: data.breach })

@@ -24,17 +24,33 @@ beforeEach(() => {
 
 describe('users', () => {
 	it('creates an account with a normalised e-mail and no hash in the answer', async () => {
-		const u = await createUser(db, { email: '  Ola.Venn@Example.COM ', name: ' Ola Venn ', role: 'technician', password: PASSWORD });
-		expect(u).toMatchObject({ email: 'ola.venn@example.com', name: 'Ola Venn', role: 'technician', active: true });
+		const u = await createUser(db, {
+			email: '  Ola.Venn@Example.COM ',
+			name: ' Ola Venn ',
+			role: 'technician',
+			password: PASSWORD
+		});
+		expect(u).toMatchObject({
+			email: 'ola.venn@example.com',
+			name: 'Ola Venn',
+			role: 'technician',
+			active: true
+		});
 		expect(isUserId(u.id)).toBe(true);
 		expect(Object.keys(u)).not.toContain('passwordHash');
 		expect(Object.keys(listUsers(db)[0])).not.toContain('passwordHash');
-		expect((await signIn(db, { email: 'ola.venn@example.com', password: PASSWORD, ip: '10.9.0.1' })).ok).toBe(true);
+		expect((await signIn(db, { email: 'ola.venn@example.com', password: PASSWORD, ip: '10.9.0.1' })).ok).toBe(
+			true
+		);
 	});
 
 	it('refuses a second account for the same e-mail (409)', async () => {
 		await createUser(db, { email: 'a@example.com', name: 'A', role: 'admin', password: PASSWORD });
-		expect(await statusOf(() => createUser(db, { email: 'A@example.com', name: 'B', role: 'technician', password: PASSWORD }))).toBe(409);
+		expect(
+			await statusOf(() =>
+				createUser(db, { email: 'A@example.com', name: 'B', role: 'technician', password: PASSWORD })
+			)
+		).toBe(409);
 		expect(listUsers(db)).toHaveLength(1);
 	});
 
@@ -51,8 +67,16 @@ describe('users', () => {
 
 	it('changes role and name; unknown id is 404', async () => {
 		await createUser(db, { email: 'adm@example.com', name: 'Adm', role: 'admin', password: PASSWORD });
-		const t = await createUser(db, { email: 't@example.com', name: 'T', role: 'technician', password: PASSWORD });
-		expect(await updateUser(db, t.id, { role: 'supervisor', name: 'Tee' })).toMatchObject({ role: 'supervisor', name: 'Tee' });
+		const t = await createUser(db, {
+			email: 't@example.com',
+			name: 'T',
+			role: 'technician',
+			password: PASSWORD
+		});
+		expect(await updateUser(db, t.id, { role: 'supervisor', name: 'Tee' })).toMatchObject({
+			role: 'supervisor',
+			name: 'Tee'
+		});
 		expect(getUser(db, t.id)?.role).toBe('supervisor');
 		expect(await statusOf(() => updateUser(db, 'nosuchuser', { name: 'X' }))).toBe(404);
 		expect(await statusOf(() => updateUser(db, t.id, {}))).toBe(400);
@@ -69,7 +93,12 @@ describe('users', () => {
 
 	it('lists only active accounts as assignees, by name', async () => {
 		await createUser(db, { email: 'z@example.com', name: 'Zed', role: 'admin', password: PASSWORD });
-		const t = await createUser(db, { email: 't@example.com', name: 'Ann', role: 'technician', password: PASSWORD });
+		const t = await createUser(db, {
+			email: 't@example.com',
+			name: 'Ann',
+			role: 'technician',
+			password: PASSWORD
+		});
 		await createUser(db, { email: 's@example.com', name: 'Mo', role: 'supervisor', password: PASSWORD });
 		await updateUser(db, t.id, { active: false });
 		expect(listAssignableUsers(db).map((u) => u.name)).toEqual(['Mo', 'Zed']);

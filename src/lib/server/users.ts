@@ -56,12 +56,7 @@ export function isUserId(value: string | undefined): value is string {
 }
 
 export function listUsers(db: Db): UserSummary[] {
-	return db
-		.select(summaryColumns)
-		.from(table.users)
-		.orderBy(asc(table.users.name))
-		.all()
-		.map(toSummary);
+	return db.select(summaryColumns).from(table.users).orderBy(asc(table.users.name)).all().map(toSummary);
 }
 
 export function getUser(db: Db, id: string): UserSummary | null {
@@ -92,11 +87,20 @@ export async function createUser(db: Db, input: UserCreate): Promise<UserSummary
 	const now = new Date();
 	try {
 		db.insert(table.users)
-			.values({ id, email: data.email, name: data.name, role: data.role, passwordHash, createdAt: now, updatedAt: now })
+			.values({
+				id,
+				email: data.email,
+				name: data.name,
+				role: data.role,
+				passwordHash,
+				createdAt: now,
+				updatedAt: now
+			})
 			.run();
 	} catch (e) {
 		// Two admins racing for the same e-mail: the unique index decides.
-		if (e instanceof Error && /UNIQUE/.test(e.message)) error(409, 'That e-mail address already has an account');
+		if (e instanceof Error && /UNIQUE/.test(e.message))
+			error(409, 'That e-mail address already has an account');
 		throw e;
 	}
 	return getUser(db, id)!;

@@ -3,7 +3,11 @@
 import type { z } from 'zod';
 import { badRequest, formatIssues } from './api';
 
-export function validate<S extends z.ZodType>(schema: S, input: unknown, message = 'Invalid input'): z.infer<S> {
+export function validate<S extends z.ZodType>(
+	schema: S,
+	input: unknown,
+	message = 'Invalid input'
+): z.infer<S> {
 	const parsed = schema.safeParse(input);
 	if (!parsed.success) badRequest(message, formatIssues(parsed.error));
 	return parsed.data;

@@ -226,5 +226,11 @@ describe('gaps, summary and verdict', () => {
 			['heatsink-right', 180]
 		]);
 		expect(verdictOf(failed)).toBe('failed');
+		// Planned 10 minutes but readings end at minute 3: 180 < 600 − max(60, 3 × 60) → incomplete.
+		const short = summarize(readings, { ...limits, maxRiseCPerMin: 20 }, clock, thdn, { durationS: 600 });
+		expect(short.incomplete).toBe(true);
+		expect(verdictOf(short)).toBe('failed');
+		// Planned 5 minutes: 180 ≥ 300 − 180, within three readings of the end → complete.
+		expect(summarize(readings, { ...limits, maxRiseCPerMin: 20 }, clock, thdn, { durationS: 300 }).incomplete).toBe(false);
 	});
 });

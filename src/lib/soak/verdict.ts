@@ -307,6 +307,24 @@ export interface SoakSummary {
 	gaps: Gap[];
 	/** Soak seconds covered by readings (the latest reading). */
 	coveredS: number;
+	/**
+	 * True when the record stops short of the planned duration by more than a few readings
+	 * (only judged when the duration is given): a run cannot pass on evidence it does not have.
+	 */
+	incomplete: boolean;
+}
+
+export interface SummaryOptions {
+	/** The planned duration: the record must reach it (within a few readings) for the run to pass. */
+	durationS?: number;
+	criterion?: SteadyCriterion;
+}
+
+/** Median spacing between one probe's readings, soak seconds (0 with fewer than two). */
+function medianIntervalS(byProbe: Map<string, Pt[]>): number {
+	const list = [...byProbe.values()].sort((a, b) => b.length - a.length)[0] ?? [];
+	const d = list.slice(1).map((p, i) => p.s - list[i].s).sort((a, b) => a - b);
+	return d.length ? d[Math.floor(d.length / 2)] : 0;
 }
 
 export function summarize(
@@ -314,11 +332,13 @@ export function summarize(
 	limits: SoakLimits,
 	clock: SoakClock,
 	thdn: readonly ThdnSample[] = [],
-	criterion: SteadyCriterion = STEADY_CRITERION
+	options: SummaryOptions = {}
 ): SoakSummary {
+	const criterion = options.criterion ?? STEADY_CRITERION;
 	const probes: Record<string, ProbeSummary> = {};
 	let coveredS = 0;
-	for (const [probe, list] of seriesByProbe(readings, clock)) {
+	const byProbe = seriesByProbe(readings, clock);
+	for (const [probe, list] of byProbe) {
 		let max = list[0];
 		for (const p of list) if (p.c > max.c) max = p;
 		const last = list[list.length - 1];
@@ -326,17 +346,21 @@ export function summarize(
 		coveredS = Math.max(coveredS, last.s);
 	}
 	const lastThdn = [...thdn].sort((a, b) => a.t - b.t).at(-1);
+	// A few readings' worth of slack (at least a minute) for where the last reading falls.
+	const slackS = Math.max(60, 3 * medianIntervalS(byProbe));
+	const incomplete = options.durationS !== undefined && (readings.length === 0 || coveredS < options.durationS - slackS);
 	return {
 		probes,
 		steadyStateS: steadyStateS(readings, clock, criterion),
 		thdnEndPercent: lastThdn ? lastThdn.thdnPercent : null,
 		breaches: findBreaches(readings, limits, clock, thdn),
 		gaps: findGaps(readings),
-		coveredS
+		coveredS,
+		incomplete
 	};
 }
 
-/** A finished run passes when its stored record shows no breach; a breach fails it. */
+/** A finished run passes when its stored record is complete and shows no breach. */
 export function verdictOf(summary: SoakSummary): 'passed' | 'failed' {
-	return summary.breaches.length ? 'failed' : 'passed';
+	return summary.breaches.length || summary.incomplete ? 'failed' : 'passed';
 }

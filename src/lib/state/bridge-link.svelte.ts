@@ -44,6 +44,10 @@ export interface TempsEvent {
 	readings: TempReading[];
 	/** True when these readings answer a `temps-after` backfill request. */
 	backfill: boolean;
+	/** Backfill answers: true on the last chunk (the request is fully answered). */
+	complete?: boolean;
+	/** Backfill answers: the oldest seq the bridge still holds; older readings are gone. */
+	oldestSeq?: number | null;
 }
 
 /** The bridge restarted (new bootId) or the link came back after an outage: mark a gap. */
@@ -424,7 +428,13 @@ export class BridgeLink {
 					if (!prev || r.seq > prev.seq) latest[r.probe] = r;
 				}
 				this.#latestTemps = latest;
-				const ev: TempsEvent = { bootId: m.bootId, readings: m.readings, backfill: m.backfill ?? false };
+				const ev: TempsEvent = {
+					bootId: m.bootId,
+					readings: m.readings,
+					backfill: m.backfill ?? false,
+					complete: m.complete,
+					oldestSeq: m.oldestSeq
+				};
 				for (const fn of this.#tempsListeners) fn(ev);
 				break;
 			}

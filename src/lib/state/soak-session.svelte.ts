@@ -9,8 +9,7 @@ import { findBreaches, findGaps, soakSeconds, type Breach, type Gap, type SoakRe
 import type { SoakRunDetail, SoakRunView } from '$lib/soak/types';
 import type { CustomDrive, SoakPresetId } from '$lib/soak/presets';
 import type { SoakLimits } from '$lib/soak/limits';
-import type { FromWorker, ToWorker } from '$lib/workers/analysis-messages';
-import { DEFAULT_SETTINGS } from '$lib/workers/analysis-messages';
+import { LiveAnalysis, type LiveReadouts } from './live-analysis.svelte';
 
 export type SoakPhase = 'idle' | 'loading' | 'starting' | 'running' | 'ending' | 'ended' | 'error';
 
@@ -131,7 +130,9 @@ export class SoakSession {
 	#initialLevelVrms: number | null = null;
 	#lastThdnPostAt = 0;
 	#helloSeen = false;
-	#worker: Worker | null = null;
+	/** A temps-after request whose last chunk has not arrived yet. */
+	#backfillOutstanding = false;
+	#analysis: LiveAnalysis | null = null;
 	#disposed = false;
 
 	constructor(link: BridgeLink, jobId: number) {
@@ -164,7 +165,9 @@ export class SoakSession {
 		const run = this.run;
 		if (!run) return 0;
 		const end = run.endedAt ?? this.#nowMs;
-		return Math.max(0, soakSeconds(end, { startedAtMs: run.startedAt, timeScale: run.timeScale }));
+		const s = Math.max(0, soakSeconds(end, { startedAtMs: run.startedAt, timeScale: run.timeScale }));
+		// A finished run ran its duration, however late the page came back to close it.
+		return run.status === 'passed' || run.status === 'failed' ? Math.min(s, run.durationS) : s;
 	}
 	get remainingS(): number {
 		const run = this.run;
@@ -325,8 +328,8 @@ export class SoakSession {
 		this.#tick = null;
 		this.#persist();
 		this.#alarm.dispose();
-		this.#worker?.terminate();
-		this.#worker = null;
+		this.#analysis?.stop();
+		this.#analysis = null;
 	}
 
 	// ── wiring ───────────────────────────────────────────────────────────────
@@ -336,55 +339,36 @@ export class SoakSession {
 		this.#unsubs.push(
 			this.#link.onTemps((e) => this.#onTemps(e)),
 			this.#link.onRestart((e) => this.#onRestart(e)),
-			this.#link.onHello((h) => this.#onHello(h)),
-			this.#link.onFrame((buffer, info) => {
-				this.#worker?.postMessage({ type: 'frame', buffer, receivedAtMs: info.receivedAtMs } satisfies ToWorker, [buffer]);
-			})
+			this.#link.onHello((h) => this.#onHello(h))
 		);
 		this.#tick = setInterval(() => this.#onTick(), 250);
-		this.#startWorker();
+		this.#startAnalysis();
 		// Already connected (the page connected before the run existed): catch up now.
 		if (this.#link.hello && this.#link.status === 'connected') this.#onHello(this.#link.hello);
 		this.#link.connect();
 	}
 
-	#startWorker(): void {
-		if (this.#worker || typeof Worker === 'undefined') return;
-		void import('$lib/workers/analysis.worker?worker').then(({ default: AnalysisWorker }) => {
-			if (this.#disposed) return;
-			const w = new AnalysisWorker();
-			this.#worker = w;
-			w.onmessage = (ev: MessageEvent<FromWorker>) => this.#onWorker(ev.data);
-			if (this.#link.hello) this.#configureWorker(this.#link.hello);
-		});
-	}
-
-	#configureWorker(h: HelloMessage): void {
+	/** Output level, power and THD+N from the shared analysis worker (the bench page's LiveAnalysis). */
+	#startAnalysis(): void {
 		const run = this.run;
-		if (!this.#worker || !run) return;
-		this.#worker.postMessage({
-			type: 'config',
-			sampleRateHz: h.sampleRateHz,
-			channels: h.channels,
-			fullScaleVolts: h.fullScaleVolts,
-			// A soak needs level, power and THD+N a couple of times a second, not a fast spectrum.
-			settings: { ...DEFAULT_SETTINGS, fftSize: 16384, maxUpdatesPerS: 2, loadOhms: run.loadOhms, channels: 'both' }
-		} satisfies ToWorker);
+		if (this.#analysis || !run || typeof Worker === 'undefined') return;
+		// A soak needs level, power and THD+N a couple of times a second, not a fast spectrum.
+		const a = new LiveAnalysis(this.#link, { fftSize: 16384, maxUpdatesPerS: 2, loadOhms: run.loadOhms, channels: 'both' });
+		this.#unsubs.push(a.onResult((r) => this.#onAnalysis(r)));
+		a.start();
+		this.#analysis = a;
 	}
 
-	#onWorker(m: FromWorker): void {
-		if (m.type !== 'result') return;
-		const buffers = [...m.spectra.map((s) => s.buffer), ...m.scope.map((s) => s.buffer)] as ArrayBuffer[];
-		this.#worker?.postMessage({ type: 'recycle', buffers } satisfies ToWorker, buffers);
+	#onAnalysis(r: LiveReadouts): void {
 		const levelVrms: (number | null)[] = [null, null];
 		const powerW: (number | null)[] = [null, null];
 		const thdnPercent: (number | null)[] = [null, null];
-		m.results.forEach((r, i) => {
-			const ch = m.channelIndex[i];
+		r.results.forEach((res, i) => {
+			const ch = r.channelIndex[i];
 			if (ch > 1) return;
-			levelVrms[ch] = r.levelVrms;
-			powerW[ch] = r.powerW ?? null;
-			thdnPercent[ch] = r.thdnPercent;
+			levelVrms[ch] = res.levelVrms;
+			powerW[ch] = res.powerW ?? null;
+			thdnPercent[ch] = res.thdnPercent;
 		});
 		this.#measured = { levelVrms, powerW, thdnPercent, atMs: Date.now() };
 		this.#servo();
@@ -393,7 +377,6 @@ export class SoakSession {
 
 	#onHello(h: HelloMessage): void {
 		if (this.#phase !== 'running' && this.#phase !== 'ending') return;
-		this.#configureWorker(h);
 		const known = this.readings();
 		const last = known.at(-1);
 		// After a reload the link has no history: a different boot than our last reading is a restart we slept through.
@@ -403,7 +386,7 @@ export class SoakSession {
 		this.#helloSeen = true;
 		const run = this.run;
 		const after = last?.seq ?? run?.startSeq ?? -1;
-		this.#link.requestTempsAfter(after);
+		if (this.#link.requestTempsAfter(after)) this.#backfillOutstanding = true;
 	}
 
 	#onRestart(e: RestartEvent): void {
@@ -425,6 +408,7 @@ export class SoakSession {
 	}
 
 	#onTemps(e: TempsEvent): void {
+		if (e.backfill && e.complete !== false) this.#backfillOutstanding = false;
 		const run = this.run;
 		if (!run || (this.#phase !== 'running' && this.#phase !== 'ending')) return;
 		const probes = new Set(run.probes);
@@ -625,7 +609,9 @@ export class SoakSession {
 			if (thdn !== null) this.#recordThdn(Date.now(), run.channels[0], thdn, m.powerW[i], m.levelVrms[i]);
 		}
 		this.#driveOff();
-		// Nothing is dropped: every reading and event is acknowledged before the run is closed.
+		// Nothing is dropped: the bridge hands over what it logged while this page was away, and
+		// every reading and event is acknowledged before the run is closed.
+		await this.#awaitBridgeHandover();
 		await this.#flush();
 		const url = `/api/soak-runs/${run.id}/${action.kind}`;
 		const body = action.kind === 'abort' ? { reason: action.reason, at: action.at, breach: action.breach } : {};
@@ -654,6 +640,19 @@ export class SoakSession {
 		this.#syncCounts();
 		this.#clearStore(run.id);
 		this.#bump();
+	}
+
+	/**
+	 * Wait until the bridge has answered our backfill request (its history since our last reading).
+	 * Bounded: a bridge that stays away cannot hold the run open forever; the server then sees the
+	 * missing stretch as a gap (and an incomplete record does not pass).
+	 */
+	async #awaitBridgeHandover(timeoutMs = 30_000): Promise<void> {
+		const started = Date.now();
+		while (!this.#disposed && Date.now() - started < timeoutMs) {
+			if (this.#link.status === 'connected' && this.#helloSeen && !this.#backfillOutstanding) return;
+			await new Promise((r) => setTimeout(r, 250));
+		}
 	}
 
 	async #flush(): Promise<void> {

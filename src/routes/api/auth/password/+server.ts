@@ -17,7 +17,9 @@ export const POST: RequestHandler = async (event) => {
 		event.locals.session?.id ?? null
 	);
 	if (!result.ok) {
-		badRequest('Password not changed', [{ path: 'currentPassword', message: 'That is not your current password' }]);
+		badRequest('Password not changed', [
+			{ path: 'currentPassword', message: 'That is not your current password' }
+		]);
 	}
 	return json({ ok: true });
 };

@@ -29,7 +29,7 @@ export const POST: RequestHandler = async (event) => {
 	const bytes = await readBodyCapped(event.request, SNAPSHOT_MAX_WAV_BYTES + MULTIPART_OVERHEAD_BYTES);
 	let form: FormData;
 	try {
-		form = await new Response(bytes, { headers: { 'content-type': type } }).formData();
+		form = await new Response(bytes as Uint8Array<ArrayBuffer>, { headers: { 'content-type': type } }).formData();
 	} catch {
 		badRequest('The body is not valid multipart/form-data');
 	}
