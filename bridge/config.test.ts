@@ -1,7 +1,7 @@
 // The bridge's start command: flags, environment, and the process refusing to start
 // without a secret (and starting, serving and stopping cleanly with one).
-import { spawn } from 'node:child_process';
-import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
+import { spawn, type ChildProcess } from 'node:child_process';
+import { mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
@@ -69,12 +69,23 @@ describe('bridge flags and environment', () => {
 });
 
 describe('npm run bridge', () => {
-	const run = (args: string[], env: Record<string, string>) =>
-		spawn(join(root, 'node_modules/.bin/tsx'), [join(root, 'bridge/main.ts'), ...args], {
-			cwd: dir,
+	// An empty working directory, so no .env supplies a secret.
+	const cwd = join(dir, 'run');
+	mkdirSync(cwd);
+	const children: ChildProcess[] = [];
+	// Never leave a bridge running if a test fails half-way.
+	afterAll(() => {
+		for (const c of children) if (c.exitCode === null && c.signalCode === null) c.kill('SIGTERM');
+	});
+	const run = (args: string[], env: Record<string, string>) => {
+		const child = spawn(join(root, 'node_modules/.bin/tsx'), [join(root, 'bridge/main.ts'), ...args], {
+			cwd,
 			env: { PATH: process.env.PATH ?? '', ...env },
 			stdio: ['ignore', 'pipe', 'pipe']
 		});
+		children.push(child);
+		return child;
+	};
 
 	it('refuses to start without BRIDGE_SECRET', async () => {
 		const child = run([], {});

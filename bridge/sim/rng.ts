@@ -12,6 +12,29 @@ function splitmix32(seed: number): () => number {
 	};
 }
 
+const GAUSS_TABLE_SIZE = 1 << 16;
+let gaussTable: Float64Array | null = null;
+
+/**
+ * 65 536 standard-normal values (Box–Muller from a fixed seed, rescaled to exactly unit rms),
+ * drawn by random index for bulk noise: an order of magnitude cheaper than Box–Muller per
+ * sample and statistically indistinguishable for a noise floor.
+ */
+function gaussianTable(): Float64Array {
+	if (gaussTable) return gaussTable;
+	const r = new Rng(0x5eed);
+	const t = new Float64Array(GAUSS_TABLE_SIZE);
+	let mean = 0;
+	for (let i = 0; i < t.length; i++) mean += t[i] = r.gaussian();
+	mean /= t.length;
+	let sq = 0;
+	for (let i = 0; i < t.length; i++) sq += (t[i] -= mean) ** 2;
+	const k = 1 / Math.sqrt(sq / t.length);
+	for (let i = 0; i < t.length; i++) t[i] *= k;
+	gaussTable = t;
+	return t;
+}
+
 export class Rng {
 	private a: number;
 	private b: number;
@@ -57,6 +80,30 @@ export class Rng {
 		this.spare = r * Math.sin(th);
 		this.hasSpare = true;
 		return r * Math.cos(th);
+	}
+
+	private xs = 0;
+
+	/** Add (or write) `n` normal values of standard deviation `sigma` to `dst`. */
+	fillGaussian(dst: Float64Array, n: number, sigma: number, add = false): void {
+		const t = gaussianTable();
+		let x = this.xs || this.nextU32() | 1;
+		if (add) {
+			for (let i = 0; i < n; i++) {
+				x ^= x << 13;
+				x ^= x >>> 17;
+				x ^= x << 5;
+				dst[i] += sigma * t[x >>> 16];
+			}
+		} else {
+			for (let i = 0; i < n; i++) {
+				x ^= x << 13;
+				x ^= x >>> 17;
+				x ^= x << 5;
+				dst[i] = sigma * t[x >>> 16];
+			}
+		}
+		this.xs = x;
 	}
 
 	/** A derived generator, so one feature's randomness does not shift another's. */

@@ -175,6 +175,7 @@ export class Simulator {
 	private readonly work: Float64Array[];
 	private readonly genBuf: Float64Array;
 	private readonly humBuf: Float64Array[];
+	private readonly crackleBuf = new Float64Array(SEGMENT);
 
 	constructor(opts: SimulatorOptions) {
 		this.sampleRateHz = opts.sampleRateHz;
@@ -459,6 +460,8 @@ export class Simulator {
 			const sigma = this.outNoiseSigma[side];
 			const dc = this.dcV[side];
 			const work = this.work[side];
+			// Output-stage noise first, so the loop below only adds to it.
+			rng.fillGaussian(work, m, sigma);
 			let sumAbs = 0;
 			for (let i = 0; i < m; i++) {
 				let v = pre[i];
@@ -475,8 +478,7 @@ export class Simulator {
 				if (v > kp) v = vp * (CLIP_KNEE + (1 - CLIP_KNEE) * Math.tanh((v / vp - CLIP_KNEE) / (1 - CLIP_KNEE)));
 				else if (v < -kn) v = -vn * (CLIP_KNEE + (1 - CLIP_KNEE) * Math.tanh((-v / vn - CLIP_KNEE) / (1 - CLIP_KNEE)));
 				sumAbs += v < 0 ? -v : v;
-				v += hum[i] + dc + sigma * rng.gaussian();
-				work[i] = v;
+				work[i] += v + hum[i] + dc;
 			}
 			this.lastMeanAbsCurrentA[side] = sumAbs / m / loadOhms;
 			for (let c = side; c < chs; c += 2) {
@@ -497,8 +499,9 @@ export class Simulator {
 			if (gen.color === 'pink') {
 				const p = this.pinkState;
 				const k = sigma * this.pinkNorm;
+				rng.fillGaussian(g, m, 1);
 				for (let i = 0; i < m; i++) {
-					const wv = rng.gaussian();
+					const wv = g[i];
 					// Pink filter after P. Kellet (public-domain approximation, ±0.05 dB above 9 Hz at 44.1 kHz).
 					p[0] = 0.99886 * p[0] + wv * 0.0555179;
 					p[1] = 0.99332 * p[1] + wv * 0.0750759;
@@ -510,7 +513,7 @@ export class Simulator {
 					p[6] = wv * 0.115926;
 				}
 			} else {
-				for (let i = 0; i < m; i++) g[i] = sigma * rng.gaussian();
+				rng.fillGaussian(g, m, sigma);
 			}
 		} else {
 			g.fill(0, 0, m);
@@ -526,9 +529,14 @@ export class Simulator {
 			let env = this.crackleEnv[side];
 			const decay = this.crackleDecay;
 			// What enters the input stage (after the inverse network when it is in circuit).
-			for (let i = 0; i < m; i++) {
-				x[i] = sigma * rng.gaussian() + env * rng.gaussian();
-				env *= decay;
+			rng.fillGaussian(x, m, sigma);
+			if (env > 0) {
+				const burst = this.crackleBuf;
+				this.rngFault.fillGaussian(burst, m, 1);
+				for (let i = 0; i < m; i++) {
+					x[i] += env * burst[i];
+					env *= decay;
+				}
 			}
 			this.crackleEnv[side] = env < 1e-9 ? 0 : env;
 			if (phono) {

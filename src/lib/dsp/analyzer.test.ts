@@ -96,7 +96,9 @@ describe('level and frequency', () => {
 			[1024, 100], // 2.1 bins
 			[8192, 5] // 0.85 bin, with the band opened to 1 Hz
 		]) {
-			const r = analyzeChannel(synth(FS, n, [{ f, a: 0.5, ph: 0.4 }], 0, 1, 0.01), FS, 1, { bandHz: [1, 24000] });
+			const r = analyzeChannel(synth(FS, n, [{ f, a: 0.5, ph: 0.4 }], 0, 1, 0.01), FS, 1, {
+				bandHz: [1, 24000]
+			});
 			expect(Math.abs(r.frequencyHz - f), `${f} Hz in ${n}`).toBeLessThan(1e-4);
 			expect(Math.abs(r.levelDbv - db(0.5 / Math.SQRT2))).toBeLessThan(1e-4);
 			expect(r.dcVolts).toBeCloseTo(0.01, 6);

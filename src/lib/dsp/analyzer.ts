@@ -39,6 +39,7 @@ export function defaultFftSize(length: number, cap = DEFAULT_FFT_CAP): number {
 const fftCache = new Map<number, FFT>();
 const windowCache = new Map<string, Float64Array>();
 const weightCache = new Map<string, Float64Array>();
+const oneShotCache = new Map<string, Analyzer>();
 const CACHE_LIMIT = 8;
 
 function cached<K, V>(map: Map<K, V>, key: K, make: () => V): V {
@@ -307,7 +308,8 @@ export class Analyzer {
 		const off = samples.length - n;
 		this.measureFrame(samples, off);
 		// One NaN or infinity poisons every bin; say so rather than return NaN figures.
-		if (!Number.isFinite(this.cur[V_T]) || !Number.isFinite(this.cur[V_N])) throw new RangeError('the frame holds non-finite samples (NaN or infinity)');
+		if (!Number.isFinite(this.cur[V_T]) || !Number.isFinite(this.cur[V_N]))
+			throw new RangeError('the frame holds non-finite samples (NaN or infinity)');
 		this.accumulate();
 		this.lastFullScale = fullScaleVolts;
 		return this.fill(fullScaleVolts, channel);
@@ -481,10 +483,14 @@ export class Analyzer {
 			resid[2 * j] = spec[2 * j];
 			resid[2 * j + 1] = spec[2 * j + 1];
 		}
-		const kc = Math.round(nu);
-		for (let j = Math.max(0, kc - reach); j <= Math.min(half, kc + reach); j++) {
-			resid[2 * j] = spec[2 * j];
-			resid[2 * j + 1] = spec[2 * j + 1];
+		// Every tone's subtraction reach, band or not, before anything is subtracted (they may overlap).
+		for (let h = 1; h <= c.maxHarmonic; h++) {
+			const kh = Math.round(h * nu);
+			if (kh - reach > half) break;
+			for (let j = Math.max(0, kh - reach); j <= Math.min(half, kh + reach); j++) {
+				resid[2 * j] = spec[2 * j];
+				resid[2 * j + 1] = spec[2 * j + 1];
+			}
 		}
 		fit.subtract(resid, a, b, nu, 0);
 		let dc = fit.dc;
@@ -507,14 +513,6 @@ export class Analyzer {
 			if (fHz < loHz || fHz > hiHz || nuH > half) {
 				cur[V_H + h - 2] = NaN;
 				continue;
-			}
-			const kh = Math.round(nuH);
-			for (let j = Math.max(0, kh - reach); j <= Math.min(half, kh + reach); j++) {
-				// Bins outside the band were never copied; harmonics straddling an edge need them.
-				if (j < kLo || j > kHi) {
-					resid[2 * j] = spec[2 * j];
-					resid[2 * j + 1] = spec[2 * j + 1];
-				}
 			}
 			let ha: number;
 			let hb: number;
@@ -697,12 +695,21 @@ function analyzeOne(
 		throw new RangeError(`need at least ${fftSize} samples for FFT size ${fftSize}, got ${samples.length}`);
 	const wanted = Math.max(1, Math.floor(options.averages ?? 1));
 	const frames = Math.max(1, Math.min(wanted, Math.floor(samples.length / fftSize)));
-	const analyzer = new Analyzer(fftSize, sampleRateHz, {
-		...options,
+	const analyzerOptions: AnalyzerOptions = {
+		window: options.window,
+		bandHz: options.bandHz,
+		weighting: options.weighting,
+		loadOhms: options.loadOhms,
+		referenceVrms: options.referenceVrms,
+		maxHarmonic: options.maxHarmonic,
 		averages: frames,
 		averaging: frames > 1 ? 'power' : 'none',
 		spectrum: false
-	});
+	};
+	// One-shot calls (server, CLI) reuse a few analysers rather than allocate megabytes of buffers each time.
+	const key = `${channel}|${fftSize}|${sampleRateHz}|${JSON.stringify(analyzerOptions)}`;
+	const analyzer = cached(oneShotCache, key, () => new Analyzer(fftSize, sampleRateHz, analyzerOptions));
+	analyzer.reset();
 	let r: ChannelResult | undefined;
 	for (let i = 0; i < frames; i++)
 		r = analyzer.analyze(samples.subarray(i * fftSize, (i + 1) * fftSize), fullScaleVolts, channel);

@@ -247,8 +247,7 @@ function thdnSamples(db: Tx, runId: number): ThdnSample[] {
 function computeSummary(db: Tx, row: RunRow, end?: { untilMs: number; complete: boolean }): SoakSummary {
 	const startedAtMs = row.startedAt.getTime();
 	const clock = { startedAtMs, timeScale: row.timeScale };
-	// Two wall-clock seconds of grace: the reading that closes the run may land just after its end.
-	const untilMs = end ? end.untilMs + 2000 : Infinity;
+	const untilMs = end ? end.untilMs : Infinity;
 	const readings = storedReadings(db, row.id).filter((r) => r.t <= untilMs);
 	const thdn = thdnSamples(db, row.id).filter((x) => x.t <= untilMs);
 	return summarize(readings, limitsOf(row), clock, thdn, end?.complete ? { durationS: row.durationS } : {});

@@ -180,7 +180,6 @@ export class LiveAnalysis {
 	}
 
 	#onMessage(m: FromWorker): void {
-		console.log("DBG worker msg", m.type, m.type === "error" ? m.message : "");
 		switch (m.type) {
 			case 'axis': {
 				this.#axisVersion = m.version;

@@ -295,8 +295,6 @@ function capture(id: number, seconds: number): void {
 }
 
 ctx.onmessage = (ev: MessageEvent<ToWorker>) => {
-	if (ev.data.type !== "frame") console.log("DBG in worker", ev.data.type, written, rings.length);
-	else if (framesIngested % 10 === 0) console.log("DBG frame", written, ringCap, analyzers.length, settings?.fftSize);
 	const m = ev.data;
 	try {
 		switch (m.type) {
