@@ -31,14 +31,40 @@ describe('bridge flags and environment', () => {
 
 	it('reads every flag', () => {
 		const o = buildOptions(
-			['--source', 'cmd:arecord -D hw:1 -f S32_LE -r 96000 -c 2 -t raw', '--format', 's32le', '--rate', '96000', '--channels', '2',
-				'--block', '8192', '--host', '127.0.0.1', '--port', '8801', '--temps', 'serial:/dev/ttyUSB0@115200', '--time-scale', '60', '--seed', '9'],
+			[
+				'--source',
+				'cmd:arecord -D hw:1 -f S32_LE -r 96000 -c 2 -t raw',
+				'--format',
+				's32le',
+				'--rate',
+				'96000',
+				'--channels',
+				'2',
+				'--block',
+				'8192',
+				'--host',
+				'127.0.0.1',
+				'--port',
+				'8801',
+				'--temps',
+				'serial:/dev/ttyUSB0@115200',
+				'--time-scale',
+				'60',
+				'--seed',
+				'9'
+			],
 			{ BRIDGE_SECRET: SECRET }
 		);
-		expect(o.source).toEqual({ kind: 'cmd', command: 'arecord -D hw:1 -f S32_LE -r 96000 -c 2 -t raw', format: 's32le' });
+		expect(o.source).toEqual({
+			kind: 'cmd',
+			command: 'arecord -D hw:1 -f S32_LE -r 96000 -c 2 -t raw',
+			format: 's32le'
+		});
 		expect(o.temps).toEqual({ kind: 'serial', path: '/dev/ttyUSB0', baudRate: 115200 });
 		expect(o).toMatchObject({ sampleRateHz: 96_000, blockSize: 8192, port: 8801, timeScale: 60, seed: 9 });
-		expect(buildOptions(['--source', 'wav:/tmp/a b.wav', '--temps', 'none'], { BRIDGE_SECRET: SECRET }).source).toEqual({ kind: 'wav', path: '/tmp/a b.wav' });
+		expect(
+			buildOptions(['--source', 'wav:/tmp/a b.wav', '--temps', 'none'], { BRIDGE_SECRET: SECRET }).source
+		).toEqual({ kind: 'wav', path: '/tmp/a b.wav' });
 	});
 
 	it('refuses bad flags and a missing or short secret with a clear message', () => {
@@ -51,10 +77,9 @@ describe('bridge flags and environment', () => {
 	});
 
 	it('derives allowed origins from BRIDGE_ALLOWED_ORIGINS, else ORIGIN', () => {
-		expect(allowedOriginsFrom({ BRIDGE_ALLOWED_ORIGINS: 'http://127.0.0.1:4173, https://bench.example/' })).toEqual([
-			'http://127.0.0.1:4173',
-			'https://bench.example'
-		]);
+		expect(
+			allowedOriginsFrom({ BRIDGE_ALLOWED_ORIGINS: 'http://127.0.0.1:4173, https://bench.example/' })
+		).toEqual(['http://127.0.0.1:4173', 'https://bench.example']);
 		expect(allowedOriginsFrom({ ORIGIN: 'http://127.0.0.1:4173' })).toEqual(['http://127.0.0.1:4173']);
 		expect(() => allowedOriginsFrom({ BRIDGE_ALLOWED_ORIGINS: 'file:///x' })).toThrow(ConfigError);
 	});
@@ -64,7 +89,10 @@ describe('bridge flags and environment', () => {
 		writeFileSync(path, 'BRIDGE_SECRET=from-file-0123456789-0123456789-xyz\nORIGIN=http://127.0.0.1:4173\n');
 		const env: Record<string, string | undefined> = { ORIGIN: 'http://127.0.0.1:3000' };
 		loadDotEnv(env, path);
-		expect(env).toEqual({ ORIGIN: 'http://127.0.0.1:3000', BRIDGE_SECRET: 'from-file-0123456789-0123456789-xyz' });
+		expect(env).toEqual({
+			ORIGIN: 'http://127.0.0.1:3000',
+			BRIDGE_SECRET: 'from-file-0123456789-0123456789-xyz'
+		});
 	});
 });
 

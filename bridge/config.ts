@@ -65,7 +65,8 @@ export function allowedOriginsFrom(env: Record<string, string | undefined>): str
 		} catch {
 			throw new ConfigError(`allowed origin "${raw}" is not a URL`);
 		}
-		if (u.protocol !== 'http:' && u.protocol !== 'https:') throw new ConfigError(`allowed origin "${raw}" must be http(s)`);
+		if (u.protocol !== 'http:' && u.protocol !== 'https:')
+			throw new ConfigError(`allowed origin "${raw}" must be http(s)`);
 		out.push(u.origin);
 	}
 	return out;
@@ -104,7 +105,8 @@ export function buildOptions(argv: string[], env: Record<string, string | undefi
 	}
 	if (values.help) throw new ConfigError('');
 	const f = Flags.safeParse(values);
-	if (!f.success) throw new ConfigError(f.error.issues.map((i) => `--${i.path.join('.')}: ${i.message}`).join('\n'));
+	if (!f.success)
+		throw new ConfigError(f.error.issues.map((i) => `--${i.path.join('.')}: ${i.message}`).join('\n'));
 	const secret = env.BRIDGE_SECRET;
 	if (!secret || secret.length < BRIDGE_SECRET_MIN_LENGTH)
 		throw new ConfigError(
@@ -114,7 +116,8 @@ export function buildOptions(argv: string[], env: Record<string, string | undefi
 	let fullScaleVolts: number[] | undefined;
 	if (env.BRIDGE_FULL_SCALE_VOLTS) {
 		fullScaleVolts = env.BRIDGE_FULL_SCALE_VOLTS.split(',').map((s) => Number(s.trim()));
-		if (fullScaleVolts.some((v) => !(v > 0 && v < 10_000))) throw new ConfigError('BRIDGE_FULL_SCALE_VOLTS must be positive numbers');
+		if (fullScaleVolts.some((v) => !(v > 0 && v < 10_000)))
+			throw new ConfigError('BRIDGE_FULL_SCALE_VOLTS must be positive numbers');
 	}
 	const v = f.data;
 	return {

@@ -22,7 +22,9 @@ async function main(): Promise<void> {
 		`[bridge] ${src.label}: ${src.sampleRateHz} Hz × ${src.channels} ch, ${src.blockSize}-sample frames; ` +
 			`temperatures: ${bridge.temps.kind}; time scale ${options.timeScale}×`
 	);
-	console.log(`[bridge] listening on ${bridge.url}/stream (allowed origins: ${options.allowedOrigins.join(', ')})`);
+	console.log(
+		`[bridge] listening on ${bridge.url}/stream (allowed origins: ${options.allowedOrigins.join(', ')})`
+	);
 	let stopping = false;
 	const stop = async (signal: string) => {
 		if (stopping) return;

@@ -45,7 +45,11 @@ const token = async (ttlS = 60, nowMs = Date.now()) =>
 	(await mintBridgeToken(SECRET, { userId: 'tech-1', role: 'technician' }, ttlS, nowMs)).token;
 
 /** Status of a raw upgrade attempt: 101 when the bridge accepted it. */
-function upgradeStatus(port: number, path: string, headers: Record<string, string | undefined>): Promise<number> {
+function upgradeStatus(
+	port: number,
+	path: string,
+	headers: Record<string, string | undefined>
+): Promise<number> {
 	return new Promise((resolve, reject) => {
 		const h: Record<string, string> = {
 			Connection: 'Upgrade',
@@ -84,7 +88,9 @@ interface TestClient {
 }
 
 async function client(port: number, tok?: string): Promise<TestClient> {
-	const ws = new WebSocket(`ws://127.0.0.1:${port}/stream?token=${tok ?? (await token())}`, { headers: { origin: ORIGIN } });
+	const ws = new WebSocket(`ws://127.0.0.1:${port}/stream?token=${tok ?? (await token())}`, {
+		headers: { origin: ORIGIN }
+	});
 	const c: TestClient = {
 		ws,
 		messages: [],
@@ -148,7 +154,9 @@ describe('bridge server', () => {
 			.setIssuedAt(iat)
 			.setExpirationTime(iat + 60)
 			.sign(key);
-		const forged = (await mintBridgeToken('some-other-secret-0123456789-abcdefghij', { userId: 'x', role: 'admin' })).token;
+		const forged = (
+			await mintBridgeToken('some-other-secret-0123456789-abcdefghij', { userId: 'x', role: 'admin' })
+		).token;
 		const expired = await token(60, Date.now() - 120_000);
 		const good = await token();
 		expect(await upgradeStatus(p, '/stream', {})).toBe(401); // no token
@@ -157,7 +165,9 @@ describe('bridge server', () => {
 		expect(await upgradeStatus(p, `/stream?token=${wrongAudience}`, {})).toBe(401);
 		expect(await upgradeStatus(p, `/stream?token=garbage`, {})).toBe(401);
 		expect(await upgradeStatus(p, `/stream?token=${good}`, { Origin: 'http://evil.example' })).toBe(403);
-		expect(await upgradeStatus(p, `/stream?token=${good}`, { Origin: 'http://127.0.0.1:3000.evil.example' })).toBe(403);
+		expect(
+			await upgradeStatus(p, `/stream?token=${good}`, { Origin: 'http://127.0.0.1:3000.evil.example' })
+		).toBe(403);
 		expect(await upgradeStatus(p, `/stream?token=${good}`, { Origin: undefined })).toBe(403);
 		// DNS rebinding: the attacker's name resolves to 127.0.0.1 but the Host header gives it away.
 		expect(await upgradeStatus(p, `/stream?token=${good}`, { Host: `evil.example:${p}` })).toBe(403);
@@ -184,21 +194,37 @@ describe('bridge server', () => {
 			seed: 7,
 			bootId: bridge.bootId
 		});
-		expect(hello.probes.map((p) => p.id)).toEqual(['heatsink-left', 'heatsink-right', 'transformer', 'ambient']);
+		expect(hello.probes.map((p) => p.id)).toEqual([
+			'heatsink-left',
+			'heatsink-right',
+			'transformer',
+			'ambient'
+		]);
 		const seqs = c.frames.map((f) => f.seq);
 		for (let i = 1; i < seqs.length; i++) expect(seqs[i]).toBe(seqs[i - 1] + 1);
-		for (const f of c.frames) expect(f).toMatchObject({ channels: 2, sampleCount: 1024, sampleRateHz: 48_000 });
+		for (const f of c.frames)
+			expect(f).toMatchObject({ channels: 2, sampleCount: 1024, sampleRateHz: 48_000 });
 		expect(c.frames[1].firstSampleIndex - c.frames[0].firstSampleIndex).toBe(1024);
 		const temps = await c.waitFor(() => ofType(c, 'temps')[0], 'temps');
 		expect(temps.bootId).toBe(bridge.bootId);
-		expect(temps.readings.map((r) => r.probe).sort()).toEqual(['ambient', 'heatsink-left', 'heatsink-right', 'transformer']);
+		expect(temps.readings.map((r) => r.probe).sort()).toEqual([
+			'ambient',
+			'heatsink-left',
+			'heatsink-right',
+			'transformer'
+		]);
 		c.ws.close();
 	});
 
 	it('applies control messages, answers with state, and the stream carries the new level', async () => {
 		const c = await client(bridge.port);
 		await c.waitFor(() => c.messages[0], 'hello');
-		c.send({ v: 1, id: 'g1', type: 'generator', generator: { kind: 'sine', frequencyHz: 750, levelVrms: 0.25 } });
+		c.send({
+			v: 1,
+			id: 'g1',
+			type: 'generator',
+			generator: { kind: 'sine', frequencyHz: 750, levelVrms: 0.25 }
+		});
 		const state = await c.waitFor(() => ofType(c, 'state').find((m) => m.replyTo === 'g1'), 'state');
 		expect(state.generator).toEqual({ kind: 'sine', frequencyHz: 750, levelVrms: 0.25 });
 		expect(state.simulator?.volumeDb).toBe(26);
@@ -206,14 +232,23 @@ describe('bridge server', () => {
 		const frame = await c.waitFor(() => c.frames[after + 2], 'a frame after the change');
 		// 1024 samples at 48 kHz hold exactly 16 periods of 750 Hz; 0.25 V × 26 dB = 4.99 V rms.
 		const left = Float64Array.from({ length: 1024 }, (_, i) => frame.samples[2 * i] * 50);
-		expect(Math.abs(db(toneAmplitude(left, 750, 48_000) / Math.SQRT2 / (0.25 * 10 ** (26 / 20))))).toBeLessThan(0.02);
+		expect(
+			Math.abs(db(toneAmplitude(left, 750, 48_000) / Math.SQRT2 / (0.25 * 10 ** (26 / 20))))
+		).toBeLessThan(0.02);
 
 		c.send({ v: 1, id: 's1', type: 'sim', volumeDb: 0, faults: { tiredFilterCap: true } });
 		const s2 = await c.waitFor(() => ofType(c, 'state').find((m) => m.replyTo === 's1'), 'sim state');
 		expect(s2.simulator).toMatchObject({ volumeDb: 0, faults: { tiredFilterCap: true } });
 		c.send({ v: 1, id: 'l1', type: 'load', loadOhms: 4 });
-		expect((await c.waitFor(() => ofType(c, 'state').find((m) => m.replyTo === 'l1'), 'load state')).loadOhms).toBe(4);
-		c.send({ v: 1, id: 'n1', type: 'generator', generator: { kind: 'sine', frequencyHz: 30_000, levelVrms: 1 } });
+		expect(
+			(await c.waitFor(() => ofType(c, 'state').find((m) => m.replyTo === 'l1'), 'load state')).loadOhms
+		).toBe(4);
+		c.send({
+			v: 1,
+			id: 'n1',
+			type: 'generator',
+			generator: { kind: 'sine', frequencyHz: 30_000, levelVrms: 1 }
+		});
 		const err = await c.waitFor(() => ofType(c, 'error').find((m) => m.replyTo === 'n1'), 'nyquist error');
 		expect(err.code).toBe('out-of-range');
 		// Put things back for the other tests.
@@ -227,7 +262,7 @@ describe('bridge server', () => {
 		const c = await client(bridge.port);
 		const hello = await c.waitFor(() => c.messages[0] as HelloMessage | undefined, 'hello');
 		let seed = 12345;
-		const rnd = () => ((seed = (Math.imul(seed, 1664525) + 1013904223) >>> 0) / 4294967296);
+		const rnd = () => (seed = (Math.imul(seed, 1664525) + 1013904223) >>> 0) / 4294967296;
 		const templates = [
 			{ v: 1, type: 'generator', generator: { kind: 'sine', frequencyHz: 1000, levelVrms: 1 } },
 			{ v: 1, type: 'sim', volumeDb: 10 },
@@ -240,7 +275,8 @@ describe('bridge server', () => {
 		for (let i = 0; i < 2000; i++) {
 			const m = structuredClone(templates[i % templates.length]) as Record<string, unknown>;
 			const keys = Object.keys(m);
-			m[rnd() < 0.3 ? 'v' : keys[1 + Math.floor(rnd() * (keys.length - 1))]] = junk[Math.floor(rnd() * junk.length)];
+			m[rnd() < 0.3 ? 'v' : keys[1 + Math.floor(rnd() * (keys.length - 1))]] =
+				junk[Math.floor(rnd() * junk.length)];
 			if (m.v === 1 && rnd() < 0.5) m.v = 'one';
 			let text = JSON.stringify(m);
 			if (rnd() < 0.4) text = text.slice(0, Math.max(1, Math.floor(rnd() * text.length)));
@@ -255,7 +291,11 @@ describe('bridge server', () => {
 			c.send(randomBytes(1 + Math.floor(rnd() * 300)).toString('latin1'));
 			sent++;
 		}
-		const errors = await c.waitFor(() => (ofType(c, 'error').length >= sent ? ofType(c, 'error') : undefined), 'errors', 20_000);
+		const errors = await c.waitFor(
+			() => (ofType(c, 'error').length >= sent ? ofType(c, 'error') : undefined),
+			'errors',
+			20_000
+		);
 		expect(errors.length).toBe(sent);
 		expect(ofType(c, 'state')).toHaveLength(0);
 		expect(ofType(c, 'temps').filter((m) => m.backfill)).toHaveLength(0);
@@ -275,7 +315,9 @@ describe('bridge server', () => {
 		});
 		await new Promise<void>((resolve) => {
 			const s: Socket = netConnect(bridge.port, '127.0.0.1', () => {
-				s.write(`GET /stream HTTP/1.1\r\nHost: 127.0.0.1:${bridge.port}\r\nUpgrade: websocket\r\nConnection: Upgrade\r\n`);
+				s.write(
+					`GET /stream HTTP/1.1\r\nHost: 127.0.0.1:${bridge.port}\r\nUpgrade: websocket\r\nConnection: Upgrade\r\n`
+				);
 				setTimeout(() => s.destroy(), 50);
 			});
 			s.resume();
@@ -306,7 +348,8 @@ describe('bridge server', () => {
 		expect(reply.complete).toBe(true);
 		expect(reply.oldestSeq).toBe(all[0].seq);
 		expect(reply.readings[0].seq).toBe(from + 1);
-		for (let i = 1; i < reply.readings.length; i++) expect(reply.readings[i].seq).toBe(reply.readings[i - 1].seq + 1);
+		for (let i = 1; i < reply.readings.length; i++)
+			expect(reply.readings[i].seq).toBe(reply.readings[i - 1].seq + 1);
 		expect(reply.readings[0].seq).toBeGreaterThanOrEqual(bridge.tempLog.bootMs);
 		c.ws.close();
 	});
@@ -318,7 +361,10 @@ describe('bridge server limits', () => {
 		try {
 			const c = await client(b.port);
 			for (let i = 0; i < 40; i++) c.send({ v: 1, type: 'load', loadOhms: 8 });
-			const limited = await c.waitFor(() => ofType(c, 'error').find((m) => m.code === 'rate-limited'), 'rate-limited');
+			const limited = await c.waitFor(
+				() => ofType(c, 'error').find((m) => m.code === 'rate-limited'),
+				'rate-limited'
+			);
 			expect(limited.message).toMatch(/5 control messages/);
 			const stats = await c.waitFor(
 				() => ofType(c, 'stats').find((s) => s.controlRejected >= 35),
@@ -335,7 +381,13 @@ describe('bridge server limits', () => {
 	it('drops whole frames for a slow client, counts them, and never slows a fast one', async () => {
 		// 192 kHz × 8 channels ≈ 6 MB/s, so a paused reader backs up quickly.
 		const b = await startBridge(
-			options({ sampleRateHz: 192_000, channels: 8, blockSize: 8192, temps: { kind: 'none' }, tuning: { highWaterBytes: 512 * 1024 } })
+			options({
+				sampleRateHz: 192_000,
+				channels: 8,
+				blockSize: 8192,
+				temps: { kind: 'none' },
+				tuning: { highWaterBytes: 512 * 1024 }
+			})
 		);
 		try {
 			const slow = await client(b.port);
@@ -349,7 +401,10 @@ describe('bridge server limits', () => {
 			for (let i = 1; i < seqs.length; i++) expect(seqs[i]).toBe(seqs[i - 1] + 1);
 			const statsAfter = slow.messages.length;
 			const stats = await slow.waitFor(
-				() => slow.messages.slice(statsAfter).find((m): m is StatsMessage => m.type === 'stats' && m.framesDropped > 0),
+				() =>
+					slow.messages
+						.slice(statsAfter)
+						.find((m): m is StatsMessage => m.type === 'stats' && m.framesDropped > 0),
 				'slow stats'
 			);
 			expect(stats.framesDropped).toBeGreaterThan(0);
@@ -359,7 +414,7 @@ describe('bridge server limits', () => {
 				const n = seqs.slice(1).filter((s, i) => s !== seqs[i] + 1).length;
 				return n > 0 ? n : undefined;
 			};
-			expect(await slow.waitFor(gaps, 'a gap in the slow client\'s frames')).toBeGreaterThan(0);
+			expect(await slow.waitFor(gaps, "a gap in the slow client's frames")).toBeGreaterThan(0);
 			expect(slow.badFrames).toBe(0);
 			for (const f of slow.frames) expect(f.sampleCount).toBe(8192);
 			slow.ws.close();

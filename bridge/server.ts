@@ -34,9 +34,7 @@ import { SerialTemps, type PortFactory } from './temps/serial';
 import type { TempsSource } from './temps/types';
 
 export type SourceSpec =
-	| { kind: 'sim' }
-	| { kind: 'wav'; path: string }
-	| { kind: 'cmd'; command: string; format: PcmFormat };
+	{ kind: 'sim' } | { kind: 'wav'; path: string } | { kind: 'cmd'; command: string; format: PcmFormat };
 
 export type TempsSpec =
 	| { kind: 'sim' }
@@ -107,7 +105,12 @@ interface Client {
 /** Host header values naming this bridge (anti DNS rebinding): loopback names or the configured host, with our port. */
 export function allowedHosts(host: string, port: number): Set<string> {
 	const h = host.toLowerCase();
-	const names = new Set(['localhost', '127.0.0.1', '[::1]', h.includes(':') && !h.startsWith('[') ? `[${h}]` : h]);
+	const names = new Set([
+		'localhost',
+		'127.0.0.1',
+		'[::1]',
+		h.includes(':') && !h.startsWith('[') ? `[${h}]` : h
+	]);
 	const out = new Set<string>();
 	for (const n of names) {
 		out.add(`${n}:${port}`);
@@ -140,7 +143,10 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 	// ── source ──
 	let source: AudioSource;
 	const fsv = (channels: number) =>
-		Array.from({ length: channels }, (_, i) => options.fullScaleVolts?.[i] ?? options.fullScaleVolts?.[0] ?? 1);
+		Array.from(
+			{ length: channels },
+			(_, i) => options.fullScaleVolts?.[i] ?? options.fullScaleVolts?.[0] ?? 1
+		);
 	switch (options.source.kind) {
 		case 'sim':
 			source = new SimSource({
@@ -179,7 +185,13 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 			temps = new SimTemps(thermal, tempLog, options.seed, tuning.tempsIntervalMs);
 			break;
 		case 'serial':
-			temps = new SerialTemps(tempLog, options.temps.path, options.temps.baudRate, options.temps.portFactory, log);
+			temps = new SerialTemps(
+				tempLog,
+				options.temps.path,
+				options.temps.baudRate,
+				options.temps.portFactory,
+				log
+			);
 			break;
 		case 'none':
 			temps = new NoTemps();
@@ -189,7 +201,12 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 	// ── clients ──
 	const clients = new Set<Client>();
 	const limiter = new RateLimiterMemory({ points: tuning.controlPerSecond, duration: 1 });
-	const wss = new WebSocketServer({ noServer: true, maxPayload: CONTROL_MAX_BYTES, perMessageDeflate: false, clientTracking: false });
+	const wss = new WebSocketServer({
+		noServer: true,
+		maxPayload: CONTROL_MAX_BYTES,
+		perMessageDeflate: false,
+		clientTracking: false
+	});
 
 	const sendJson = (c: Client, msg: BridgeMessage) => {
 		if (c.ws.readyState === WebSocket.OPEN) c.ws.send(JSON.stringify(msg));
@@ -198,9 +215,21 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 		const text = JSON.stringify(msg);
 		for (const c of clients) if (c.ws.readyState === WebSocket.OPEN) c.ws.send(text);
 	};
-	const sendError = (c: Client, code: ErrorMessage['code'], message: string, replyTo?: string | number, issues?: Issue[]) => {
+	const sendError = (
+		c: Client,
+		code: ErrorMessage['code'],
+		message: string,
+		replyTo?: string | number,
+		issues?: Issue[]
+	) => {
 		c.controlRejected++;
-		sendJson(c, { type: 'error', code, message, ...(issues ? { issues } : {}), ...(replyTo !== undefined ? { replyTo } : {}) });
+		sendJson(c, {
+			type: 'error',
+			code,
+			message,
+			...(issues ? { issues } : {}),
+			...(replyTo !== undefined ? { replyTo } : {})
+		});
 	};
 	const stateMessage = (replyTo?: string | number): BridgeMessage => ({
 		type: 'state',
@@ -215,7 +244,11 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 			const params = sim
 				? sim.amplifierParams()
 				: { railVolts: DEFAULT_RAIL_VOLTS, loadOhms, idleCurrentA: NOMINAL_IDLE_CURRENT_A };
-			thermal.advance(frame.sampleCount / source.sampleRateHz, blockSums(frame.samples, source.channels, frame.sampleCount, source.fullScaleVolts), params);
+			thermal.advance(
+				frame.sampleCount / source.sampleRateHz,
+				blockSums(frame.samples, source.channels, frame.sampleCount, source.fullScaleVolts),
+				params
+			);
 		}
 		for (const c of clients) {
 			if (c.ws.readyState !== WebSocket.OPEN) continue;
@@ -239,7 +272,12 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 				if (!sim) return sendError(c, 'unsupported', `the ${source.kind} source has no generator`, replyTo);
 				const maxHz = generatorMaxHz(msg.generator);
 				if (maxHz >= source.sampleRateHz / 2)
-					return sendError(c, 'out-of-range', `${maxHz} Hz is above the Nyquist frequency (${source.sampleRateHz / 2} Hz)`, replyTo);
+					return sendError(
+						c,
+						'out-of-range',
+						`${maxHz} Hz is above the Nyquist frequency (${source.sampleRateHz / 2} Hz)`,
+						replyTo
+					);
 				sim.setGenerator(msg.generator);
 				generator = sim.generator;
 				log(`generator ${JSON.stringify(generator)} (user ${c.claims.userId})`);
@@ -251,7 +289,8 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 				return broadcast(stateMessage(replyTo));
 			case 'input':
 			case 'sim': {
-				if (!sim) return sendError(c, 'unsupported', `the ${source.kind} source has no simulator controls`, replyTo);
+				if (!sim)
+					return sendError(c, 'unsupported', `the ${source.kind} source has no simulator controls`, replyTo);
 				const { v: _v, id: _id, type: _t, ...patch } = msg;
 				let next;
 				try {
@@ -269,7 +308,15 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 				for (;;) {
 					const readings = tempLog.ring.after(after, tuning.backfillChunk);
 					const complete = readings.length < tuning.backfillChunk;
-					sendJson(c, { type: 'temps', bootId, readings, backfill: true, complete, oldestSeq, ...(replyTo !== undefined ? { replyTo } : {}) });
+					sendJson(c, {
+						type: 'temps',
+						bootId,
+						readings,
+						backfill: true,
+						complete,
+						oldestSeq,
+						...(replyTo !== undefined ? { replyTo } : {})
+					});
 					if (complete) return;
 					after = readings[readings.length - 1].seq;
 				}
@@ -282,9 +329,18 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 		limiter.consume(c.id).then(
 			() => {
 				if (c.ws.readyState !== WebSocket.OPEN) return;
-				const text = Array.isArray(data) ? Buffer.concat(data).toString('utf8') : Buffer.from(data as ArrayBuffer).toString('utf8');
+				const text = Array.isArray(data)
+					? Buffer.concat(data).toString('utf8')
+					: Buffer.from(data as ArrayBuffer).toString('utf8');
 				const parsed = parseControlMessage(text);
-				if (!parsed.ok) return sendError(c, parsed.error.includes('JSON') ? 'bad-json' : 'bad-message', parsed.error, undefined, parsed.issues);
+				if (!parsed.ok)
+					return sendError(
+						c,
+						parsed.error.includes('JSON') ? 'bad-json' : 'bad-message',
+						parsed.error,
+						undefined,
+						parsed.issues
+					);
 				try {
 					handleControl(c, parsed.message);
 				} catch (e) {
@@ -298,7 +354,11 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 				const now = Date.now();
 				if (now - c.lastRateErrorMs > 1000) {
 					c.lastRateErrorMs = now;
-					sendJson(c, { type: 'error', code: 'rate-limited', message: `more than ${tuning.controlPerSecond} control messages a second` });
+					sendJson(c, {
+						type: 'error',
+						code: 'rate-limited',
+						message: `more than ${tuning.controlPerSecond} control messages a second`
+					});
 				}
 			}
 		);
@@ -411,14 +471,16 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 		if (url.pathname !== BRIDGE_STREAM_PATH) return refuse(socket, 404, 'Not found');
 		if (!hostOk(req)) return refuse(socket, 403, 'Host not allowed');
 		const origin = req.headers.origin;
-		if (!origin || !allowedOrigins.has(normaliseOrigin(origin))) return refuse(socket, 403, 'Origin not allowed');
+		if (!origin || !allowedOrigins.has(normaliseOrigin(origin)))
+			return refuse(socket, 403, 'Origin not allowed');
 		if (clients.size >= tuning.maxClients) return refuse(socket, 503, 'Too many clients');
 		verifyBridgeToken(options.secret, url.searchParams.get('token')).then(
 			(claims) => {
 				if (socket.destroyed) return;
 				wss.handleUpgrade(req, socket, head, (ws) => onConnection(ws, claims));
 			},
-			(e) => refuse(socket, 401, e instanceof BridgeTokenError ? `Unauthorized: ${e.message}` : 'Unauthorized')
+			(e) =>
+				refuse(socket, 401, e instanceof BridgeTokenError ? `Unauthorized: ${e.message}` : 'Unauthorized')
 		);
 	});
 

@@ -33,12 +33,18 @@ export function db(ratio: number): number {
 export function thd(x: ArrayLike<number>, f0Hz: number, sampleRateHz: number, maxOrder = 10): number {
 	const a1 = toneAmplitude(x, f0Hz, sampleRateHz);
 	let h = 0;
-	for (let k = 2; k <= maxOrder && k * f0Hz < sampleRateHz / 2; k++) h += toneAmplitude(x, k * f0Hz, sampleRateHz) ** 2;
+	for (let k = 2; k <= maxOrder && k * f0Hz < sampleRateHz / 2; k++)
+		h += toneAmplitude(x, k * f0Hz, sampleRateHz) ** 2;
 	return Math.sqrt(h) / a1;
 }
 
 /** One channel of interleaved samples, scaled to volts. */
-export function channelVolts(interleaved: Float32Array, channels: number, channel: number, fullScaleVolts: number): Float64Array {
+export function channelVolts(
+	interleaved: Float32Array,
+	channels: number,
+	channel: number,
+	fullScaleVolts: number
+): Float64Array {
 	const n = Math.floor(interleaved.length / channels);
 	const out = new Float64Array(n);
 	for (let i = 0; i < n; i++) out[i] = interleaved[i * channels + channel] * fullScaleVolts;

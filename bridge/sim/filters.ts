@@ -85,7 +85,14 @@ export function riaaPlaybackBiquad(sampleRateHz: number, gain1kHz: number): Biqu
 	const T1 = RIAA_T1_S;
 	const T2 = RIAA_T2_S;
 	const T3 = RIAA_T3_S;
-	const q = norm(1 + T2 * K, 2, 1 - T2 * K, 1 + (T1 + T3) * K + T1 * T3 * K * K, 2 - 2 * T1 * T3 * K * K, 1 - (T1 + T3) * K + T1 * T3 * K * K);
+	const q = norm(
+		1 + T2 * K,
+		2,
+		1 - T2 * K,
+		1 + (T1 + T3) * K + T1 * T3 * K * K,
+		2 - 2 * T1 * T3 * K * K,
+		1 - (T1 + T3) * K + T1 * T3 * K * K
+	);
 	const [re, im] = biquadResponse(q, 1000, sampleRateHz);
 	const g = gain1kHz / Math.hypot(re, im);
 	return { ...q, b0: q.b0 * g, b1: q.b1 * g, b2: q.b2 * g };
@@ -115,6 +122,38 @@ export class BiquadState {
 		this.z1 = z1;
 		this.z2 = z2;
 	}
+}
+
+/** Two independent biquads over two buffers in one loop (their recursions overlap in the CPU). */
+export function runBiquadPair(
+	a: BiquadState,
+	b: BiquadState,
+	xa: Float64Array,
+	xb: Float64Array,
+	n: number
+): void {
+	const { b0: a0, b1: a1c, b2: a2c, a1: aa1, a2: aa2 } = a.q;
+	const { b0: c0, b1: c1, b2: c2, a1: ca1, a2: ca2 } = b.q;
+	let za1 = a.z1;
+	let za2 = a.z2;
+	let zb1 = b.z1;
+	let zb2 = b.z2;
+	for (let i = 0; i < n; i++) {
+		const u = xa[i];
+		const w = xb[i];
+		const y = a0 * u + za1;
+		const v = c0 * w + zb1;
+		za1 = a1c * u - aa1 * y + za2;
+		zb1 = c1 * w - ca1 * v + zb2;
+		za2 = a2c * u - aa2 * y;
+		zb2 = c2 * w - ca2 * v;
+		xa[i] = y;
+		xb[i] = v;
+	}
+	a.z1 = za1;
+	a.z2 = za2;
+	b.z1 = zb1;
+	b.z2 = zb2;
 }
 
 export function cmul(a: [number, number], b: [number, number]): [number, number] {

@@ -109,8 +109,18 @@ describe('simulator output stage', () => {
 	it('crossover distortion grows as the bias drops', () => {
 		const vin = Math.sqrt(1 * 8) / 10 ** (26 / 20); // 1 W into 8 Ω
 		const good = thd(capture(state(), sine(1000, vin), { seconds: 0.5 }).left, 1000, FS, 15);
-		const half = thd(capture(state({ biasPercent: 50 }), sine(1000, vin), { seconds: 0.5 }).left, 1000, FS, 15);
-		const fault = thd(capture(state({ faults: { underBias: true } }), sine(1000, vin), { seconds: 0.5 }).left, 1000, FS, 15);
+		const half = thd(
+			capture(state({ biasPercent: 50 }), sine(1000, vin), { seconds: 0.5 }).left,
+			1000,
+			FS,
+			15
+		);
+		const fault = thd(
+			capture(state({ faults: { underBias: true } }), sine(1000, vin), { seconds: 0.5 }).left,
+			1000,
+			FS,
+			15
+		);
 		expect(half).toBeGreaterThan(2 * good);
 		expect(fault).toBeGreaterThan(2 * half);
 		expect(fault).toBeGreaterThan(0.0005); // clearly visible: > 0.05 %
@@ -122,28 +132,32 @@ describe('simulator output stage', () => {
 		[42, 8],
 		[42, 4],
 		[30, 8]
-	])('with ±%f V rails into %f Ω the 1-percent-THD power follows P = V²/R at the clip voltage', (railVolts, loadOhms) => {
-		const st = state({ railVolts, loadOhms, volumeDb: 30 });
-		const gain = 10 ** (30 / 20);
-		const thdAt = (vin: number) => thd(capture(st, sine(1000, vin), { seconds: 0.05, settleS: 0 }).left, 1000, FS);
-		let lo = 0.1;
-		let hi = 3;
-		for (let i = 0; i < 22; i++) {
-			const mid = (lo + hi) / 2;
-			if (thdAt(mid) < 0.01) lo = mid;
-			else hi = mid;
+	])(
+		'with ±%f V rails into %f Ω the 1-percent-THD power follows P = V²/R at the clip voltage',
+		(railVolts, loadOhms) => {
+			const st = state({ railVolts, loadOhms, volumeDb: 30 });
+			const gain = 10 ** (30 / 20);
+			const thdAt = (vin: number) =>
+				thd(capture(st, sine(1000, vin), { seconds: 0.05, settleS: 0 }).left, 1000, FS);
+			let lo = 0.1;
+			let hi = 3;
+			for (let i = 0; i < 22; i++) {
+				const mid = (lo + hi) / 2;
+				if (thdAt(mid) < 0.01) lo = mid;
+				else hi = mid;
+			}
+			const pAt1Pct = (lo * gain) ** 2 / loadOhms;
+			const vClip = railVolts - OUTPUT_HEADROOM_V;
+			const pClip = (vClip / Math.SQRT2) ** 2 / loadOhms;
+			expect(pAt1Pct / pClip).toBeGreaterThan(0.9);
+			expect(pAt1Pct / pClip).toBeLessThan(1.1);
+			// Overdriven hard, the peaks flatten at the clip voltage.
+			const { left } = capture(st, sine(1000, 5), { seconds: 0.05 });
+			const peak = Math.max(...left.map(Math.abs));
+			expect(peak / vClip).toBeGreaterThan(0.97);
+			expect(peak / vClip).toBeLessThan(1.005);
 		}
-		const pAt1Pct = (lo * gain) ** 2 / loadOhms;
-		const vClip = railVolts - OUTPUT_HEADROOM_V;
-		const pClip = (vClip / Math.SQRT2) ** 2 / loadOhms;
-		expect(pAt1Pct / pClip).toBeGreaterThan(0.9);
-		expect(pAt1Pct / pClip).toBeLessThan(1.1);
-		// Overdriven hard, the peaks flatten at the clip voltage.
-		const { left } = capture(st, sine(1000, 5), { seconds: 0.05 });
-		const peak = Math.max(...left.map(Math.abs));
-		expect(peak / vClip).toBeGreaterThan(0.97);
-		expect(peak / vClip).toBeLessThan(1.005);
-	});
+	);
 
 	it('a weak output device clips one half of one channel early', () => {
 		const st = state({ faults: { weakOutputDevice: 'right' } });
@@ -230,7 +244,11 @@ describe('simulator hum and noise', () => {
 	it('the noise generator produces its level in V rms at unity volume', () => {
 		const { left } = capture(state({ volumeDb: 0 }), { kind: 'noise', levelVrms: 0.5 });
 		expect(Math.abs(db(rms(left) / 0.5))).toBeLessThan(0.1);
-		const pink = capture(state({ volumeDb: 0 }), { kind: 'noise', levelVrms: 0.5, color: 'pink' }, { seconds: 2 });
+		const pink = capture(
+			state({ volumeDb: 0 }),
+			{ kind: 'noise', levelVrms: 0.5, color: 'pink' },
+			{ seconds: 2 }
+		);
 		expect(Math.abs(db(rms(pink.left) / 0.5))).toBeLessThan(0.5);
 	});
 });
@@ -247,14 +265,22 @@ describe('simulator faults over time and determinism', () => {
 
 	it('a scratchy control makes its band jump while moved and settles when left alone', () => {
 		const scratch = { enabled: true, band: 5 };
-		const moving = capture(state({ faults: { scratchyControl: { ...scratch, moving: true } } }), sine(1000, 0.2));
-		const still = capture(state({ faults: { scratchyControl: { ...scratch, moving: false } } }), sine(1000, 0.2));
+		const moving = capture(
+			state({ faults: { scratchyControl: { ...scratch, moving: true } } }),
+			sine(1000, 0.2)
+		);
+		const still = capture(
+			state({ faults: { scratchyControl: { ...scratch, moving: false } } }),
+			sine(1000, 0.2)
+		);
 		expect(spread(windowLevels(moving.left))).toBeGreaterThan(3);
 		expect(spread(windowLevels(still.left))).toBeLessThan(0.01);
 	});
 
 	it('is deterministic for a seed', () => {
-		const st = state({ faults: { noisySelector: 'right', scratchyControl: { enabled: true, moving: true, band: 4 } } });
+		const st = state({
+			faults: { noisySelector: 'right', scratchyControl: { enabled: true, moving: true, band: 4 } }
+		});
 		const a = capture(st, sine(997, 0.3), { seconds: 0.2, seed: 42 });
 		const b = capture(st, sine(997, 0.3), { seconds: 0.2, seed: 42 });
 		const c = capture(st, sine(997, 0.3), { seconds: 0.2, seed: 43 });
@@ -283,7 +309,13 @@ describe('thermal model', () => {
 		const pOut = (39 * 39) / 16 / 8;
 		const vPeak = Math.sqrt(2 * pOut * 8);
 		const vin = vPeak / Math.SQRT2 / 10 ** (26 / 20);
-		const sim = new Simulator({ sampleRateHz: FS, channels: 2, seed: 1, state: st, generator: sine(1000, vin) });
+		const sim = new Simulator({
+			sampleRateHz: FS,
+			channels: 2,
+			seed: 1,
+			state: st,
+			generator: sine(1000, vin)
+		});
 		const block = new Float32Array(4800 * 2); // 100 ms = 100 whole periods
 		sim.render(block, 4800);
 		const sums = blockSums(block, 2, 4800, [SIM_FULL_SCALE_VOLTS, SIM_FULL_SCALE_VOLTS]);

@@ -30,6 +30,7 @@ import {
 	peaking,
 	riaaPlaybackBiquad,
 	riaaPlaybackComplex,
+	runBiquadPair,
 	type Biquad
 } from './filters';
 import { Rng } from './rng';
@@ -157,9 +158,12 @@ export class Simulator {
 	private inNoiseSigma = [0, 0];
 	private dcV = [0, 0];
 
-	// Hum rotators: per harmonic, phase and per-side amplitude.
+	// Hum: per harmonic, starting phase and per-side amplitude; one tabulated mains cycle.
 	private humPhase: number[] = [];
 	private humAmp: number[][] = [[], []];
+	private humKey = '';
+	private humTables: { odd: Float64Array; even: Float64Array }[] | null = null;
+	private humPos = 0;
 	private lastMeanAbsCurrentA = [0, 0];
 
 	// Faults with time behaviour.
@@ -322,7 +326,8 @@ export class Simulator {
 			} else {
 				// A flat chain is a plain gain: fold the input noise into the output noise.
 				this.inNoiseSigma[side] = 0;
-				this.outNoiseSigma[side] = Math.hypot(OUTPUT_NOISE_V_PER_RTHZ, LINE_NOISE_V_PER_RTHZ * this.gainVol) * rootBw;
+				this.outNoiseSigma[side] =
+					Math.hypot(OUTPUT_NOISE_V_PER_RTHZ, LINE_NOISE_V_PER_RTHZ * this.gainVol) * rootBw;
 			}
 		}
 		this.updateHum();
@@ -330,17 +335,38 @@ export class Simulator {
 
 	private updateHum(): void {
 		const st = this.st;
+		const key = `${st.mainsHz}|${st.input}|${st.faults.tiredFilterCap}`;
+		if (key === this.humKey) return;
+		this.humKey = key;
 		for (let side = 0; side < 2; side++) {
 			const sideFactor = side === 0 ? 1 : 0.8;
-			// Ripple hum rises with the current drawn when the reservoir capacitor is tired.
-			const load = 1 + 0.5 * this.lastMeanAbsCurrentA[side];
 			this.humAmp[side] = HUM_PEAK_V.map((a, i) => {
 				const order = i + 1;
 				let amp = a * sideFactor;
 				if (st.input === 'phono' && order % 2 === 1) amp *= PHONO_HUM_FACTOR;
-				if (st.faults.tiredFilterCap) amp *= order % 2 === 0 ? TIRED_CAP_EVEN_FACTOR * load : TIRED_CAP_ODD_FACTOR;
+				if (st.faults.tiredFilterCap) amp *= order % 2 === 0 ? TIRED_CAP_EVEN_FACTOR : TIRED_CAP_ODD_FACTOR;
 				return amp;
 			});
+		}
+		// With a whole number of samples per mains cycle (every common rate), one cycle of hum
+		// is tabulated (odd and even orders apart, so ripple can follow the load current).
+		const period = this.sampleRateHz / st.mainsHz;
+		if (Number.isInteger(period)) {
+			this.humTables = [0, 1].map((side) => {
+				const odd = new Float64Array(period);
+				const even = new Float64Array(period);
+				this.humAmp[side].forEach((amp, i) => {
+					const order = i + 1;
+					if (order * st.mainsHz >= this.sampleRateHz / 2) return;
+					const t = order % 2 === 0 ? even : odd;
+					for (let j = 0; j < period; j++)
+						t[j] += amp * Math.sin(2 * Math.PI * (this.humPhase[i] + (order * j) / period));
+				});
+				return { odd, even };
+			});
+			this.humPos %= period;
+		} else {
+			this.humTables = null;
 		}
 	}
 
@@ -418,30 +444,51 @@ export class Simulator {
 
 		if (this.noisePath) this.noiseSegment(m, sides);
 
-		// Hum (added after the output stage).
-		const mainsHz = this.st.mainsHz;
+		// Hum (added after the output stage). Ripple (even orders) rises with the current drawn
+		// when the reservoir capacitor is tired.
+		const tired = this.st.faults.tiredFilterCap;
+		const evenScale = [0, 1].map((side) => (tired ? 1 + 0.5 * this.lastMeanAbsCurrentA[side] : 1));
 		const hum0 = this.humBuf[0];
 		const hum1 = this.humBuf[1];
-		hum0.fill(0, 0, m);
-		hum1.fill(0, 0, m);
-		for (let h = 0; h < this.humPhase.length; h++) {
-			const f = mainsHz * (h + 1);
-			if (f >= fs / 2) break;
-			const w = (2 * Math.PI * f) / fs;
-			const cw = Math.cos(w);
-			const sw = Math.sin(w);
-			let zr = Math.cos(2 * Math.PI * this.humPhase[h]);
-			let zi = Math.sin(2 * Math.PI * this.humPhase[h]);
-			const g0 = this.humAmp[0][h];
-			const g1 = this.humAmp[1][h];
+		if (this.humTables) {
+			const { odd: o0, even: e0 } = this.humTables[0];
+			const { odd: o1, even: e1 } = this.humTables[1];
+			const period = o0.length;
+			const k0 = evenScale[0];
+			const k1 = evenScale[1];
+			let p = this.humPos;
 			for (let i = 0; i < m; i++) {
-				hum0[i] += g0 * zi;
-				hum1[i] += g1 * zi;
-				const nr = zr * cw - zi * sw;
-				zi = zi * cw + zr * sw;
-				zr = nr;
+				hum0[i] = o0[p] + k0 * e0[p];
+				hum1[i] = o1[p] + k1 * e1[p];
+				if (++p === period) p = 0;
 			}
-			this.humPhase[h] = (this.humPhase[h] + (m * f) / fs) % 1;
+			this.humPos = p;
+		} else {
+			hum0.fill(0, 0, m);
+			hum1.fill(0, 0, m);
+			const mainsHz = this.st.mainsHz;
+			for (let h = 0; h < this.humPhase.length; h++) {
+				const f = mainsHz * (h + 1);
+				if (f >= fs / 2) break;
+				const w = (2 * Math.PI * f) / fs;
+				const cw = Math.cos(w);
+				const sw = Math.sin(w);
+				const phase = this.humPhase[h] + (this.humPos * f) / fs;
+				let zr = Math.cos(2 * Math.PI * phase);
+				let zi = Math.sin(2 * Math.PI * phase);
+				const even = (h + 1) % 2 === 0;
+				const g0 = this.humAmp[0][h] * (even ? evenScale[0] : 1);
+				const g1 = this.humAmp[1][h] * (even ? evenScale[1] : 1);
+				for (let i = 0; i < m; i++) {
+					hum0[i] += g0 * zi;
+					hum1[i] += g1 * zi;
+					const nr = zr * cw - zi * sw;
+					zi = zi * cw + zr * sw;
+					zr = nr;
+				}
+			}
+			// Samples since the hum phases' origin, wrapped at a whole number of mains cycles.
+			this.humPos = (this.humPos + m) % (fs * 10);
 		}
 
 		const inv = 1 / this.fullScaleVolts;
@@ -475,18 +522,19 @@ export class Simulator {
 				const r = v * invSwing;
 				v += this.swing * (CURVE_A2 * r * r + CURVE_A3 * r * r * r);
 				// Soft clipping just below the rails.
-				if (v > kp) v = vp * (CLIP_KNEE + (1 - CLIP_KNEE) * Math.tanh((v / vp - CLIP_KNEE) / (1 - CLIP_KNEE)));
-				else if (v < -kn) v = -vn * (CLIP_KNEE + (1 - CLIP_KNEE) * Math.tanh((-v / vn - CLIP_KNEE) / (1 - CLIP_KNEE)));
+				if (v > kp)
+					v = vp * (CLIP_KNEE + (1 - CLIP_KNEE) * Math.tanh((v / vp - CLIP_KNEE) / (1 - CLIP_KNEE)));
+				else if (v < -kn)
+					v = -vn * (CLIP_KNEE + (1 - CLIP_KNEE) * Math.tanh((-v / vn - CLIP_KNEE) / (1 - CLIP_KNEE)));
 				sumAbs += v < 0 ? -v : v;
 				work[i] += v + hum[i] + dc;
 			}
 			this.lastMeanAbsCurrentA[side] = sumAbs / m / loadOhms;
 			for (let c = side; c < chs; c += 2) {
-				let o = (pos * chs) + c;
+				let o = pos * chs + c;
 				for (let i = 0; i < m; i++, o += chs) out[o] = work[i] * inv;
 			}
 		}
-		if (this.st.faults.tiredFilterCap) this.updateHum();
 	}
 
 	/** Generator noise, input-referred noise and crackle through the time-domain chain. */
@@ -522,13 +570,15 @@ export class Simulator {
 		const phono = this.st.input === 'phono';
 		const network = this.st.inverseRiaaNetwork;
 		const rng = this.rngNoise;
+		const gv = this.gainVol;
+		const x0 = this.work[0];
+		const x1 = this.work[1];
 		for (let side = 0; side < sides; side++) {
 			const x = this.work[side];
-			const dg = gen.kind === 'noise' && drivesSide(drive, side) ? 1 : 0;
 			const sigma = this.inNoiseSigma[side];
 			let env = this.crackleEnv[side];
 			const decay = this.crackleDecay;
-			// What enters the input stage (after the inverse network when it is in circuit).
+			// Input-referred noise and crackle (already through the phono stage's input when phono).
 			rng.fillGaussian(x, m, sigma);
 			if (env > 0) {
 				const burst = this.crackleBuf;
@@ -539,19 +589,34 @@ export class Simulator {
 				}
 			}
 			this.crackleEnv[side] = env < 1e-9 ? 0 : env;
-			if (phono) {
-				// Generator through inverse network then playback EQ is flat: add it after the stage.
-				if (!network) for (let i = 0; i < m; i++) x[i] += dg * g[i];
-				this.phonoStates[side].run(x, m);
-				if (network) for (let i = 0; i < m; i++) x[i] += dg * g[i];
-			} else {
-				for (let i = 0; i < m; i++) x[i] += dg * g[i];
-			}
-			const gv = this.gainVol;
-			for (let i = 0; i < m; i++) x[i] *= gv;
-			for (const s of this.eqStates[side]) if (!isIdentity(s.q)) s.run(x, m);
-			if (!isIdentity(this.hp)) this.hpStates[side].run(x, m);
-			if (!isIdentity(this.lp)) this.lpStates[side].run(x, m);
+			// Without the inverse network the generator meets the playback curve itself.
+			const dg = gen.kind === 'noise' && drivesSide(drive, side) ? 1 : 0;
+			if (phono && !network && dg) for (let i = 0; i < m; i++) x[i] += g[i];
+		}
+		if (phono) {
+			if (sides > 1) runBiquadPair(this.phonoStates[0], this.phonoStates[1], x0, x1, m);
+			else this.phonoStates[0].run(x0, m);
+		}
+		for (let side = 0; side < sides; side++) {
+			const x = this.work[side];
+			// Generator through the inverse network then the playback curve is flat: add it after the stage.
+			const dg = gen.kind === 'noise' && drivesSide(drive, side) && !(phono && !network) ? 1 : 0;
+			if (dg) for (let i = 0; i < m; i++) x[i] = gv * (x[i] + g[i]);
+			else for (let i = 0; i < m; i++) x[i] *= gv;
+		}
+		// Volume is done; EQ and filters run both sides in one loop (independent recursions overlap).
+		const stages: [BiquadState, BiquadState][] = [];
+		for (let b = 0; b < this.eqStates[0].length; b++) stages.push([this.eqStates[0][b], this.eqStates[1][b]]);
+		stages.push([this.hpStates[0], this.hpStates[1]], [this.lpStates[0], this.lpStates[1]]);
+		for (const [a, b] of stages) {
+			const runA = !isIdentity(a.q);
+			const runB = sides > 1 && !isIdentity(b.q);
+			if (runA && runB) runBiquadPair(a, b, x0, x1, m);
+			else if (runA) a.run(x0, m);
+			else if (runB) b.run(x1, m);
+		}
+		for (let side = 0; side < sides; side++) {
+			const x = this.work[side];
 			const pre = this.pre[side];
 			for (let i = 0; i < m; i++) pre[i] += x[i];
 		}

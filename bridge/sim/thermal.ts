@@ -89,7 +89,11 @@ export class AmplifierThermal {
 	 * Advance by a block of `wallS` real seconds (× timeScale simulated) with the given
 	 * per-channel running sums of load voltage.
 	 */
-	advance(wallS: number, sums: { sumAbsV: number; sumSqV: number; count: number }[], p: AmplifierParams): void {
+	advance(
+		wallS: number,
+		sums: { sumAbsV: number; sumSqV: number; count: number }[],
+		p: AmplifierParams
+	): void {
 		const dtS = wallS * this.timeScale;
 		let supplyTotal = 0;
 		for (let side = 0; side < 2; side++) {

@@ -11,7 +11,14 @@ export function bytesPerSample(format: PcmFormat): number {
 }
 
 /** Decode `count` little-endian PCM samples from `buf` at `offset` into `out` (±1 full scale). */
-export function decodePcm(buf: Buffer, offset: number, count: number, format: PcmFormat, out: Float32Array, outOffset: number): void {
+export function decodePcm(
+	buf: Buffer,
+	offset: number,
+	count: number,
+	format: PcmFormat,
+	out: Float32Array,
+	outOffset: number
+): void {
 	switch (format) {
 		case 's16le':
 			for (let i = 0; i < count; i++) out[outOffset + i] = buf.readInt16LE(offset + 2 * i) / 32768;
@@ -82,7 +89,14 @@ export class CmdSource implements AudioSource {
 				this.filled = 0;
 			}
 			const frames = Math.min(this.blockSize - this.filled, Math.floor((buf.length - offset) / frameBytes));
-			decodePcm(buf, offset, frames * this.channels, this.opts.format, this.block.samples, this.filled * this.channels);
+			decodePcm(
+				buf,
+				offset,
+				frames * this.channels,
+				this.opts.format,
+				this.block.samples,
+				this.filled * this.channels
+			);
 			offset += frames * frameBytes;
 			this.filled += frames;
 			if (this.filled === this.blockSize) {
@@ -99,7 +113,10 @@ export class CmdSource implements AudioSource {
 		if (this.stopped) return;
 		const startedMs = Date.now();
 		// The command line is the operator's own (from the bridge's start command), so a shell is appropriate.
-		const child = spawn('/bin/sh', ['-c', this.opts.command], { stdio: ['ignore', 'pipe', 'pipe'], detached: true });
+		const child = spawn('/bin/sh', ['-c', this.opts.command], {
+			stdio: ['ignore', 'pipe', 'pipe'],
+			detached: true
+		});
 		this.child = child;
 		child.stdout!.on('data', (c: Buffer) => this.onData(c));
 		child.stderr!.on('data', (c: Buffer) => {

@@ -47,7 +47,9 @@ export class SimSource implements AudioSource {
 	}
 
 	async start(sink: FrameSink): Promise<void> {
-		this.pacer = new Pacer((this.blockSize / this.sampleRateHz) * 1000, (skipped) => sink(this.renderBlock(skipped)));
+		this.pacer = new Pacer((this.blockSize / this.sampleRateHz) * 1000, (skipped) =>
+			sink(this.renderBlock(skipped))
+		);
 		this.pacer.start();
 	}
 

@@ -38,25 +38,43 @@ async function collect(source: CmdSource, samples: number): Promise<FrameOut[]> 
 }
 
 describe('cmd: source', () => {
-	it.each(['s16le', 's24le', 'f32le'] as PcmFormat[])('reads a 1 kHz tone at −6 dBFS from sox as %s', async (format) => {
-		// sox "synth sine" at vol 0.5: a sine peaking at half of digital full scale, left; 3 kHz at 0.25 right.
-		const cmd = `${SOX} -n -r 48000 -c 2 ${soxEncoding[format].join(' ')} -t raw - synth 2 sine 1000 sine 3000 remix 1 2v0.5 vol 0.5 2>/dev/null`;
-		const source = new CmdSource({ command: cmd, format, sampleRateHz: 48000, channels: 2, blockSize: 4800, fullScaleVolts: [2, 2] });
-		const frames = await collect(source, 48000);
-		expect(frames.map((f) => f.seq)).toEqual(frames.map((_, i) => i));
-		expect(frames.map((f) => f.firstSampleIndex)).toEqual(frames.map((_, i) => i * 4800));
-		const all = new Float32Array(48000 * 2);
-		frames.slice(0, 10).forEach((f, i) => all.set(f.samples, i * 9600));
-		const left = channelVolts(all, 2, 0, 1);
-		const right = channelVolts(all, 2, 1, 1);
-		expect(Math.abs(db(toneAmplitude(left, 1000, 48000) / 0.5))).toBeLessThan(0.01);
-		expect(Math.abs(db(toneAmplitude(right, 3000, 48000) / 0.25))).toBeLessThan(0.01);
-		expect(toneAmplitude(left, 3000, 48000)).toBeLessThan(1e-3);
-	});
+	it.each(['s16le', 's24le', 'f32le'] as PcmFormat[])(
+		'reads a 1 kHz tone at −6 dBFS from sox as %s',
+		async (format) => {
+			// sox "synth sine" at vol 0.5: a sine peaking at half of digital full scale, left; 3 kHz at 0.25 right.
+			const cmd = `${SOX} -n -r 48000 -c 2 ${soxEncoding[format].join(' ')} -t raw - synth 2 sine 1000 sine 3000 remix 1 2v0.5 vol 0.5 2>/dev/null`;
+			const source = new CmdSource({
+				command: cmd,
+				format,
+				sampleRateHz: 48000,
+				channels: 2,
+				blockSize: 4800,
+				fullScaleVolts: [2, 2]
+			});
+			const frames = await collect(source, 48000);
+			expect(frames.map((f) => f.seq)).toEqual(frames.map((_, i) => i));
+			expect(frames.map((f) => f.firstSampleIndex)).toEqual(frames.map((_, i) => i * 4800));
+			const all = new Float32Array(48000 * 2);
+			frames.slice(0, 10).forEach((f, i) => all.set(f.samples, i * 9600));
+			const left = channelVolts(all, 2, 0, 1);
+			const right = channelVolts(all, 2, 1, 1);
+			expect(Math.abs(db(toneAmplitude(left, 1000, 48000) / 0.5))).toBeLessThan(0.01);
+			expect(Math.abs(db(toneAmplitude(right, 3000, 48000) / 0.25))).toBeLessThan(0.01);
+			expect(toneAmplitude(left, 3000, 48000)).toBeLessThan(1e-3);
+		}
+	);
 
 	it('restarts a command that exits and marks the gap', async () => {
 		const cmd = `${SOX} -n -r 8000 -c 1 -e signed-integer -b 16 -t raw - synth 0.05 sine 500 2>/dev/null`;
-		const source = new CmdSource({ command: cmd, format: 's16le', sampleRateHz: 8000, channels: 1, blockSize: 100, fullScaleVolts: [1], restartMs: 20 });
+		const source = new CmdSource({
+			command: cmd,
+			format: 's16le',
+			sampleRateHz: 8000,
+			channels: 1,
+			blockSize: 100,
+			fullScaleVolts: [1],
+			restartMs: 20
+		});
 		const frames = await collect(source, 900); // 0.05 s = 400 samples per run, so at least 3 runs
 		expect(source.restarts).toBeGreaterThanOrEqual(2);
 		expect(frames.some((f) => new DataView(f.buffer).getUint32(28, true) === 1)).toBe(true);
@@ -91,7 +109,22 @@ describe('wav: source', () => {
 	it('decodes a WAV file and loops it seamlessly', async () => {
 		const path = join(dir, 'tone.wav');
 		// 0.1 s of 500 Hz at half scale, 16-bit stereo: exactly 50 periods, so the loop is seamless.
-		execFileSync(SOX, ['-n', '-r', '48000', '-c', '2', '-b', '16', path, 'synth', '0.1', 'sine', '500', 'vol', '0.5']);
+		execFileSync(SOX, [
+			'-n',
+			'-r',
+			'48000',
+			'-c',
+			'2',
+			'-b',
+			'16',
+			path,
+			'synth',
+			'0.1',
+			'sine',
+			'500',
+			'vol',
+			'0.5'
+		]);
 		const data = await loadWav(path);
 		expect(data).toMatchObject({ sampleRateHz: 48000, channels: 2 });
 		expect(data.samples.length).toBe(4800 * 2);

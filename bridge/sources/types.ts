@@ -59,7 +59,13 @@ export class FrameWriter {
 		this.sampleIndex += sampleCount;
 		return {
 			...frame,
-			finish: () => ({ buffer: finishFrame(frame), seq, firstSampleIndex, sampleCount, samples: frame.samples })
+			finish: () => ({
+				buffer: finishFrame(frame),
+				seq,
+				firstSampleIndex,
+				sampleCount,
+				samples: frame.samples
+			})
 		};
 	}
 }

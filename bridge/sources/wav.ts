@@ -8,16 +8,22 @@ import { FRAME_MAX_CHANNELS, FRAME_MIN_RATE_HZ, FRAME_MAX_RATE_HZ } from '../../
 
 // wavefile ships CommonJS for Node and an ES module for bundlers; take the class from either shape.
 type WaveFileClass = typeof wavefile.WaveFile;
-const wavefileModule = wavefile as unknown as { WaveFile?: WaveFileClass; default?: { WaveFile: WaveFileClass } };
+const wavefileModule = wavefile as unknown as {
+	WaveFile?: WaveFileClass;
+	default?: { WaveFile: WaveFileClass };
+};
 const WaveFile = (wavefileModule.WaveFile ?? wavefileModule.default?.WaveFile) as WaveFileClass;
 
 /** Interleaved float samples (±1 full scale) and the format of a WAV file. */
-export async function loadWav(path: string): Promise<{ samples: Float32Array; sampleRateHz: number; channels: number }> {
+export async function loadWav(
+	path: string
+): Promise<{ samples: Float32Array; sampleRateHz: number; channels: number }> {
 	const wav = new WaveFile(await readFile(path));
 	const fmt = wav.fmt as { sampleRate: number; numChannels: number };
 	const channels = fmt.numChannels;
 	const sampleRateHz = fmt.sampleRate;
-	if (!(channels >= 1 && channels <= FRAME_MAX_CHANNELS)) throw new Error(`${path}: ${channels} channels is not supported`);
+	if (!(channels >= 1 && channels <= FRAME_MAX_CHANNELS))
+		throw new Error(`${path}: ${channels} channels is not supported`);
 	if (!(sampleRateHz >= FRAME_MIN_RATE_HZ && sampleRateHz <= FRAME_MAX_RATE_HZ))
 		throw new Error(`${path}: sample rate ${sampleRateHz} Hz is not supported`);
 	// 32-bit float keeps every integer format's values exactly, scaled to ±1.
@@ -46,7 +52,11 @@ export class WavSource implements AudioSource {
 		this.writer = new FrameWriter(data.sampleRateHz, data.channels);
 	}
 
-	static async open(path: string, blockSize: number, fullScaleVolts: (channels: number) => number[]): Promise<WavSource> {
+	static async open(
+		path: string,
+		blockSize: number,
+		fullScaleVolts: (channels: number) => number[]
+	): Promise<WavSource> {
 		const data = await loadWav(path);
 		return new WavSource(data, path, blockSize, fullScaleVolts(data.channels));
 	}
@@ -79,7 +89,9 @@ export class WavSource implements AudioSource {
 	}
 
 	async start(sink: FrameSink): Promise<void> {
-		this.pacer = new Pacer((this.blockSize / this.sampleRateHz) * 1000, (skipped) => sink(this.renderBlock(skipped)));
+		this.pacer = new Pacer((this.blockSize / this.sampleRateHz) * 1000, (skipped) =>
+			sink(this.renderBlock(skipped))
+		);
 		this.pacer.start();
 	}
 

@@ -48,7 +48,10 @@ export function parseLoggerLine(raw: string, ctx: LoggerContext): LineResult {
 			}
 		} else celsius = value;
 		if (!(celsius >= MIN_PLAUSIBLE_C && celsius <= MAX_PLAUSIBLE_C))
-			return { ok: false, error: `${celsius.toFixed(1)} °C is outside ${MIN_PLAUSIBLE_C}–${MAX_PLAUSIBLE_C} °C` };
+			return {
+				ok: false,
+				error: `${celsius.toFixed(1)} °C is outside ${MIN_PLAUSIBLE_C}–${MAX_PLAUSIBLE_C} °C`
+			};
 		if (name === 'cj') {
 			if (unit === 'mv') return { ok: false, error: 'cold junction must be given in °C or °F' };
 			cj = celsius;

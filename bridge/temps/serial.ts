@@ -16,7 +16,8 @@ export interface SerialLike extends NodeJS.ReadableStream {
 
 export type PortFactory = (opts: { path: string; baudRate: number }) => SerialLike;
 
-const defaultFactory: PortFactory = (opts) => new SerialPort({ ...opts, autoOpen: true }) as unknown as SerialLike;
+const defaultFactory: PortFactory = (opts) =>
+	new SerialPort({ ...opts, autoOpen: true }) as unknown as SerialLike;
 
 const REOPEN_MS = 5000;
 

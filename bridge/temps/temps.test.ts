@@ -1,7 +1,6 @@
 // Temperature inputs: type K conversion against NIST ITS-90, logger lines, the serial
 // logger through the mock binding, and the history ring used for backfill.
 import { afterEach, describe, expect, it } from 'vitest';
-import type { MockBindingInterface } from '@serialport/binding-mock';
 import { SerialPortMock } from 'serialport';
 import { typeKCelsiusToMillivolts, typeKMillivoltsToCelsius, typeKCompensated } from './typek';
 import { parseLoggerLine } from './parse';
@@ -44,9 +43,18 @@ describe('type K thermocouple (NIST ITS-90, Monograph 175)', () => {
 describe('logger lines', () => {
 	it('reads °C, °F and millivolts, several pairs a line', () => {
 		const ctx = { coldJunctionC: 0 };
-		expect(parseLoggerLine('heatsink-left=45.25', ctx)).toEqual({ ok: true, readings: [{ probe: 'heatsink-left', celsius: 45.25 }] });
-		expect(parseLoggerLine('ambient=77F', ctx)).toEqual({ ok: true, readings: [{ probe: 'ambient', celsius: 25 }] });
-		expect(parseLoggerLine('ambient = 212 °F\r', ctx)).toEqual({ ok: true, readings: [{ probe: 'ambient', celsius: 100 }] });
+		expect(parseLoggerLine('heatsink-left=45.25', ctx)).toEqual({
+			ok: true,
+			readings: [{ probe: 'heatsink-left', celsius: 45.25 }]
+		});
+		expect(parseLoggerLine('ambient=77F', ctx)).toEqual({
+			ok: true,
+			readings: [{ probe: 'ambient', celsius: 25 }]
+		});
+		expect(parseLoggerLine('ambient = 212 °F\r', ctx)).toEqual({
+			ok: true,
+			readings: [{ probe: 'ambient', celsius: 100 }]
+		});
 		const r = parseLoggerLine('transformer=4.096mV, heatsink-right=30.5°C', ctx);
 		expect(r.ok && r.readings.map((x) => x.probe)).toEqual(['transformer', 'heatsink-right']);
 		expect(r.ok && Math.abs(r.readings[0].celsius - 100)).toBeLessThan(0.06);
@@ -54,7 +62,18 @@ describe('logger lines', () => {
 
 	it('refuses bad lines without throwing', () => {
 		const ctx = { coldJunctionC: 0 };
-		for (const line of ['garbage', 'heatsink-left=', 'heatsink-left=abc', 'fan=30', 'ambient=9999', 'ambient=30K', 'ambient=25mV', 'x'.repeat(300), '=5', 'heatsink-left=1e999'])
+		for (const line of [
+			'garbage',
+			'heatsink-left=',
+			'heatsink-left=abc',
+			'fan=30',
+			'ambient=9999',
+			'ambient=30K',
+			'ambient=25mV',
+			'x'.repeat(300),
+			'=5',
+			'heatsink-left=1e999'
+		])
 			expect(parseLoggerLine(line, ctx).ok, line).toBe(false);
 		expect(parseLoggerLine('', ctx)).toMatchObject({ ok: true, readings: [] });
 	});
@@ -63,7 +82,7 @@ describe('logger lines', () => {
 describe('serial temperature logger', () => {
 	// serialport's mock port is built on @serialport/binding-mock; use that same (CommonJS)
 	// instance, since an ES import of the package would be a second copy with its own ports.
-	const MockBinding: MockBindingInterface = SerialPortMock.binding;
+	const MockBinding = SerialPortMock.binding;
 	afterEach(() => MockBinding.reset());
 
 	it('logs good lines from a mock serial port and counts bad ones', async () => {
@@ -100,7 +119,10 @@ describe('temperature history', () => {
 	it('numbers readings from the boot wall-clock ms so a restart keeps them increasing', () => {
 		const first = new TempLog(1_700_000_000_000);
 		first.record([{ probe: 'ambient', celsius: 22 }]);
-		const last = first.record([{ probe: 'ambient', celsius: 22 }, { probe: 'transformer', celsius: 30 }]);
+		const last = first.record([
+			{ probe: 'ambient', celsius: 22 },
+			{ probe: 'transformer', celsius: 30 }
+		]);
 		const restarted = new TempLog(1_700_000_005_000);
 		const after = restarted.record([{ probe: 'ambient', celsius: 22 }]);
 		expect(last.map((r) => r.seq)).toEqual([1_700_000_000_001, 1_700_000_000_002]);

@@ -1,6 +1,11 @@
 // Display helpers shared by pages: human labels for stored enum values, money from
 // integer cents, dates and durations. Pure functions, safe in the browser and on the server.
-import { JOB_STATUS_LABELS, UNIT_CATEGORY_LABELS, type JobStatus, type UnitCategory } from '$lib/schemas/enums';
+import {
+	JOB_STATUS_LABELS,
+	UNIT_CATEGORY_LABELS,
+	type JobStatus,
+	type UnitCategory
+} from '$lib/schemas/enums';
 
 export { JOB_STATUS_LABELS, UNIT_CATEGORY_LABELS, PART_STATE_LABELS, ROLE_LABELS } from '$lib/schemas/enums';
 

@@ -361,7 +361,10 @@ export function formatHz(hz: number): string {
 /** Up to 4 significant digits without trailing zeros. */
 export function formatLimitValue(v: number): string {
 	if (!Number.isFinite(v)) return '—';
-	return String(Number(v.toPrecision(4)));
+	// Float dust (a balance of 1e-7 dB) reads as 0, never in exponent notation.
+	if (Math.abs(v) < 1e-4) return '0';
+	const s = String(Number(v.toPrecision(4)));
+	return s.includes('e') ? v.toFixed(4) : s;
 }
 
 // ── from analysis results ───────────────────────────────────────────────────

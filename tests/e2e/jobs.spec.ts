@@ -87,7 +87,9 @@ test('technician takes a unit in and works it; only a supervisor approves', asyn
 	await expect(page).toHaveURL(new RegExp(`/jobs/${jobId}$`));
 
 	// ── work log ────────────────────────────────────────────────────────────
-	await page.getByLabel('What was done').fill('Measured rails: +42 V / -41 V. Right bias drifting; reflowed driver board joints.');
+	await page
+		.getByLabel('What was done')
+		.fill('Measured rails: +42 V / -41 V. Right bias drifting; reflowed driver board joints.');
 	await page.getByLabel('Minutes').fill('35');
 	await page.getByRole('button', { name: 'Add entry' }).click();
 	await expect(page.getByTestId('log-entry')).toHaveCount(1);

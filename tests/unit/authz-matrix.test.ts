@@ -11,6 +11,9 @@ import { db } from '$lib/server/db';
 import { createSession, type SessionInfo, type SessionUser } from '$lib/server/auth';
 import { seedDemo, DEMO_PASSWORD } from '../../scripts/seed';
 import { createRun } from '$lib/server/soak';
+import { createLimitProfile } from '$lib/server/limits';
+import { createSnapshot } from '$lib/server/snapshots';
+import { encodeWav } from '$lib/dsp';
 
 /** A running one-hour soak on the fixture job (inside the case's savepoint), as a route param. */
 function soakRun(fx: Fixtures, startedAtMs = Date.now()): string {
@@ -22,6 +25,46 @@ function soakRun(fx: Fixtures, startedAtMs = Date.now()): string {
 		channels: ['left' as const, 'right' as const]
 	};
 	return String(createRun(fx.db, fx.jobId, fx.users.tech1, { preset: 'custom', custom }, startedAtMs).id);
+}
+
+/** A valid limit profile body. */
+function matrixProfile(name: string) {
+	return {
+		name,
+		conditions: { generatorFrequencyHz: 1000 },
+		limits: [{ metric: 'thdnPercent', channel: 'each', op: 'le', value: 0.1, unit: '%' }]
+	};
+}
+
+/** A limit profile created inside the case's savepoint, as a route param. */
+function profileIn(fx: Fixtures): string {
+	return String(createLimitProfile(fx.db, matrixProfile('Matrix fixture profile'), fx.users.supervisor).id);
+}
+
+function matrixWav(): Uint8Array {
+	const n = 8192;
+	const tone = new Float32Array(n);
+	for (let i = 0; i < n; i++) tone[i] = 0.5 * Math.sin((2 * Math.PI * 1000 * i) / 48000);
+	return encodeWav([tone], 48000);
+}
+
+/** A multipart capture (`samples` WAV + `meta` JSON) for the snapshot upload. */
+function snapshotForm(): FormData {
+	const form = new FormData();
+	form.set('samples', new Blob([matrixWav() as BlobPart], { type: 'audio/wav' }), 'capture.wav');
+	form.set('meta', JSON.stringify({ label: 'Matrix capture', stage: 'before' }));
+	return form;
+}
+
+/** A snapshot stored inside the case's savepoint (rolled back after; no DELETE, so the immutability triggers allow it). */
+function snapshotIn(fx: Fixtures): string {
+	const created = createSnapshot(fx.db, {
+		jobId: fx.jobId,
+		userId: fx.users.tech1,
+		wav: matrixWav(),
+		meta: { label: 'Matrix snapshot', stage: 'after' }
+	});
+	return String(created.id);
 }
 
 type Method = 'GET' | 'POST' | 'PUT' | 'PATCH' | 'DELETE';
@@ -243,6 +286,59 @@ const MATRIX: Row[] = [
 		method: 'PATCH',
 		expect: [401, 403, 403, 200],
 		request: () => ({ body: { mainsHz: 60 } })
+	},
+
+	// limit profiles: everyone signed in reads (the bench picks one); supervisors and admins change them
+	{ route: '/api/limit-profiles', method: 'GET', expect: [401, 200, 200, 200] },
+	{
+		route: '/api/limit-profiles',
+		method: 'POST',
+		expect: [401, 403, 201, 201],
+		request: () => ({ body: matrixProfile('Matrix profile') })
+	},
+	{
+		route: '/api/limit-profiles/[id]',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: profileIn(fx) } })
+	},
+	{
+		route: '/api/limit-profiles/[id]',
+		method: 'PATCH',
+		expect: [401, 403, 200, 200],
+		request: (fx) => ({ params: { id: profileIn(fx) }, body: { description: 'Tighter after review' } })
+	},
+	{
+		route: '/api/limit-profiles/[id]',
+		method: 'DELETE',
+		expect: [401, 403, 200, 200],
+		request: (fx) => ({ params: { id: profileIn(fx) } })
+	},
+
+	// snapshots: everyone signed in captures and reads; the WAV is re-analysed on the server
+	{
+		route: '/api/jobs/[id]/snapshots',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: String(fx.jobId) } })
+	},
+	{
+		route: '/api/jobs/[id]/snapshots',
+		method: 'POST',
+		expect: [401, 201, 201, 201],
+		request: (fx) => ({ params: { id: String(fx.jobId) }, rawBody: snapshotForm() })
+	},
+	{
+		route: '/api/snapshots/[id]',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: snapshotIn(fx) } })
+	},
+	{
+		route: '/api/snapshots/[id]/audio',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: snapshotIn(fx) } })
 	},
 
 	// own account

@@ -26,7 +26,14 @@ function lcg(seed: number): () => number {
 describe('frame codec', () => {
 	it('round-trips header and samples exactly', () => {
 		const samples = Float32Array.from({ length: 2 * 5 }, (_, i) => (i - 4.5) / 7);
-		const header = { seq: 0xfffffffe, firstSampleIndex: 2 ** 52 + 3, sampleRateHz: 192_000, channels: 2, sampleCount: 5, flags: FRAME_FLAG_DISCONTINUITY };
+		const header = {
+			seq: 0xfffffffe,
+			firstSampleIndex: 2 ** 52 + 3,
+			sampleRateHz: 192_000,
+			channels: 2,
+			sampleCount: 5,
+			flags: FRAME_FLAG_DISCONTINUITY
+		};
 		const buf = encodeFrame(header, samples);
 		expect(buf.byteLength).toBe(FRAME_HEADER_BYTES + 40);
 		const f = decodeFrame(buf);
@@ -36,7 +43,10 @@ describe('frame codec', () => {
 	});
 
 	it('writes the documented little-endian layout', () => {
-		const buf = encodeFrame({ seq: 7, firstSampleIndex: 4096, sampleRateHz: 48_000, channels: 1, sampleCount: 1 }, [0.5]);
+		const buf = encodeFrame(
+			{ seq: 7, firstSampleIndex: 4096, sampleRateHz: 48_000, channels: 1, sampleCount: 1 },
+			[0.5]
+		);
 		const dv = new DataView(buf);
 		expect(dv.getUint32(0, true)).toBe(FRAME_MAGIC);
 		expect(new TextDecoder().decode(new Uint8Array(buf, 0, 4))).toBe('BLSF');
@@ -49,7 +59,13 @@ describe('frame codec', () => {
 	});
 
 	it('gives a zero-copy view on an ArrayBuffer (what a worker receives) and copies unaligned Node buffers', () => {
-		const { buffer, samples } = allocFrame({ seq: 1, firstSampleIndex: 0, sampleRateHz: 48_000, channels: 2, sampleCount: 3 });
+		const { buffer, samples } = allocFrame({
+			seq: 1,
+			firstSampleIndex: 0,
+			sampleRateHz: 48_000,
+			channels: 2,
+			sampleCount: 3
+		});
 		samples.set([1, 2, 3, 4, 5, 6]);
 		finishFrame({ buffer, samples });
 		const view = decodeFrame(buffer);
@@ -63,26 +79,41 @@ describe('frame codec', () => {
 	});
 
 	it('refuses bad headers when encoding', () => {
-		expect(() => encodeFrame({ seq: 0, firstSampleIndex: 0, sampleRateHz: 48_000, channels: 0, sampleCount: 1 }, [])).toThrow(FrameError);
-		expect(() => encodeFrame({ seq: 0, firstSampleIndex: -1, sampleRateHz: 48_000, channels: 1, sampleCount: 1 }, [0])).toThrow(FrameError);
-		expect(() => encodeFrame({ seq: 0, firstSampleIndex: 0, sampleRateHz: 48_000, channels: 2, sampleCount: 2 }, [0, 0, 0])).toThrow(/expected 4/);
+		expect(() =>
+			encodeFrame({ seq: 0, firstSampleIndex: 0, sampleRateHz: 48_000, channels: 0, sampleCount: 1 }, [])
+		).toThrow(FrameError);
+		expect(() =>
+			encodeFrame({ seq: 0, firstSampleIndex: -1, sampleRateHz: 48_000, channels: 1, sampleCount: 1 }, [0])
+		).toThrow(FrameError);
+		expect(() =>
+			encodeFrame(
+				{ seq: 0, firstSampleIndex: 0, sampleRateHz: 48_000, channels: 2, sampleCount: 2 },
+				[0, 0, 0]
+			)
+		).toThrow(/expected 4/);
 	});
 
 	it('answers thousands of random and truncated frames with FrameError only', () => {
 		const rnd = lcg(1234);
 		const good = new Uint8Array(
-			encodeFrame({ seq: 9, firstSampleIndex: 100, sampleRateHz: 48_000, channels: 2, sampleCount: 64 }, new Float32Array(128).fill(0.25))
+			encodeFrame(
+				{ seq: 9, firstSampleIndex: 100, sampleRateHz: 48_000, channels: 2, sampleCount: 64 },
+				new Float32Array(128).fill(0.25)
+			)
 		);
 		const codes = new Map<string, number>();
 		let accepted = 0;
 		for (let i = 0; i < 5000; i++) {
 			let bytes: Uint8Array;
 			const mode = i % 4;
-			if (mode === 0) bytes = good.slice(0, Math.floor(rnd() * good.length)); // truncated
+			if (mode === 0)
+				bytes = good.slice(0, Math.floor(rnd() * good.length)); // truncated
 			else if (mode === 1) {
 				bytes = good.slice();
-				for (let k = 0; k < 1 + rnd() * 4; k++) bytes[Math.floor(rnd() * FRAME_HEADER_BYTES)] = Math.floor(rnd() * 256);
-			} else if (mode === 2) bytes = Uint8Array.from({ length: Math.floor(rnd() * 600) }, () => Math.floor(rnd() * 256));
+				for (let k = 0; k < 1 + rnd() * 4; k++)
+					bytes[Math.floor(rnd() * FRAME_HEADER_BYTES)] = Math.floor(rnd() * 256);
+			} else if (mode === 2)
+				bytes = Uint8Array.from({ length: Math.floor(rnd() * 600) }, () => Math.floor(rnd() * 256));
 			else {
 				bytes = new Uint8Array(good.length + 1 + Math.floor(rnd() * 8));
 				bytes.set(good);

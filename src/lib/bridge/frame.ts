@@ -75,10 +75,20 @@ function checkHeader(h: FrameHeader): void {
 		throw new FrameError('bad-channels', `channel count ${h.channels} is outside 1–${FRAME_MAX_CHANNELS}`);
 	if (!Number.isInteger(h.sampleCount) || h.sampleCount < 1 || h.sampleCount > FRAME_MAX_SAMPLES)
 		throw new FrameError('bad-count', `sample count ${h.sampleCount} is outside 1–${FRAME_MAX_SAMPLES}`);
-	if (!Number.isInteger(h.sampleRateHz) || h.sampleRateHz < FRAME_MIN_RATE_HZ || h.sampleRateHz > FRAME_MAX_RATE_HZ)
-		throw new FrameError('bad-rate', `sample rate ${h.sampleRateHz} Hz is outside ${FRAME_MIN_RATE_HZ}–${FRAME_MAX_RATE_HZ}`);
+	if (
+		!Number.isInteger(h.sampleRateHz) ||
+		h.sampleRateHz < FRAME_MIN_RATE_HZ ||
+		h.sampleRateHz > FRAME_MAX_RATE_HZ
+	)
+		throw new FrameError(
+			'bad-rate',
+			`sample rate ${h.sampleRateHz} Hz is outside ${FRAME_MIN_RATE_HZ}–${FRAME_MAX_RATE_HZ}`
+		);
 	if (!Number.isSafeInteger(h.firstSampleIndex) || h.firstSampleIndex < 0)
-		throw new FrameError('bad-index', `first-sample index ${h.firstSampleIndex} is not a non-negative safe integer`);
+		throw new FrameError(
+			'bad-index',
+			`first-sample index ${h.firstSampleIndex} is not a non-negative safe integer`
+		);
 	if (!Number.isInteger(h.seq) || h.seq < 0 || h.seq > 0xffffffff)
 		throw new FrameError('bad-index', `sequence number ${h.seq} is outside 0–2^32-1`);
 }
@@ -103,7 +113,9 @@ export function allocFrame(header: FrameHeader): { buffer: ArrayBuffer; samples:
 	const n = header.channels * header.sampleCount;
 	// On a big-endian host a typed-array view would write the wrong byte order; callers then
 	// fill this scratch array and `finishFrame` copies it out little-endian.
-	const samples = HOST_IS_LITTLE_ENDIAN ? new Float32Array(buffer, FRAME_HEADER_BYTES, n) : new Float32Array(n);
+	const samples = HOST_IS_LITTLE_ENDIAN
+		? new Float32Array(buffer, FRAME_HEADER_BYTES, n)
+		: new Float32Array(n);
 	return { buffer, samples };
 }
 
@@ -111,7 +123,8 @@ export function allocFrame(header: FrameHeader): { buffer: ArrayBuffer; samples:
 export function finishFrame(frame: { buffer: ArrayBuffer; samples: Float32Array }): ArrayBuffer {
 	if (!HOST_IS_LITTLE_ENDIAN) {
 		const dv = new DataView(frame.buffer);
-		for (let i = 0; i < frame.samples.length; i++) dv.setFloat32(FRAME_HEADER_BYTES + 4 * i, frame.samples[i], true);
+		for (let i = 0; i < frame.samples.length; i++)
+			dv.setFloat32(FRAME_HEADER_BYTES + 4 * i, frame.samples[i], true);
 	}
 	return frame.buffer;
 }
@@ -156,12 +169,16 @@ export function decodeFrame(data: ArrayBuffer | ArrayBufferView): DecodedFrame {
 		throw new FrameError('too-short', 'a frame must be an ArrayBuffer or a byte view');
 	}
 	if (length < FRAME_HEADER_BYTES)
-		throw new FrameError('too-short', `frame of ${length} bytes is shorter than the ${FRAME_HEADER_BYTES}-byte header`);
+		throw new FrameError(
+			'too-short',
+			`frame of ${length} bytes is shorter than the ${FRAME_HEADER_BYTES}-byte header`
+		);
 	const dv = new DataView(buffer, offset, length);
 	const magic = dv.getUint32(0, true);
 	if (magic !== FRAME_MAGIC) throw new FrameError('bad-magic', `bad magic 0x${magic.toString(16)}`);
 	const version = dv.getUint8(4);
-	if (version !== FRAME_VERSION) throw new FrameError('bad-version', `frame version ${version} is not ${FRAME_VERSION}`);
+	if (version !== FRAME_VERSION)
+		throw new FrameError('bad-version', `frame version ${version} is not ${FRAME_VERSION}`);
 	const kind = dv.getUint8(5);
 	if (kind !== FRAME_KIND_SAMPLES) throw new FrameError('bad-kind', `unknown frame kind ${kind}`);
 	const header: Required<FrameHeader> = {
@@ -207,7 +224,10 @@ export function tryDecodeFrame(
 }
 
 /** Copy one channel out of interleaved samples (for plotting or per-channel analysis). */
-export function extractChannel(frame: Pick<DecodedFrame, 'samples' | 'channels' | 'sampleCount'>, channel: number): Float32Array {
+export function extractChannel(
+	frame: Pick<DecodedFrame, 'samples' | 'channels' | 'sampleCount'>,
+	channel: number
+): Float32Array {
 	const out = new Float32Array(frame.sampleCount);
 	const { samples, channels } = frame;
 	for (let i = 0, j = channel; i < out.length; i++, j += channels) out[i] = samples[j];

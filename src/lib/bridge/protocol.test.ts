@@ -20,7 +20,12 @@ const valid = [
 	{ v: 1, type: 'generator', generator: { kind: 'noise', levelVrms: 0.1, color: 'pink' } },
 	{ v: 1, type: 'input', input: 'phono', id: 'a1' },
 	{ v: 1, type: 'load', loadOhms: 4 },
-	{ v: 1, type: 'sim', volumeDb: -10, faults: { scratchyControl: { moving: true }, weakOutputDevice: 'left' } },
+	{
+		v: 1,
+		type: 'sim',
+		volumeDb: -10,
+		faults: { scratchyControl: { moving: true }, weakOutputDevice: 'left' }
+	},
 	{ v: 1, type: 'sim', eqBand: { index: 9, gainDb: -12 }, lowFilter: { enabled: true } },
 	{ v: 1, type: 'temps-after', seq: 1_767_000_000_000 }
 ];
@@ -35,7 +40,8 @@ function lcg(seed: number): () => number {
 
 describe('control messages', () => {
 	it('accepts every documented shape', () => {
-		for (const m of valid) expect(parseControlMessage(JSON.stringify(m)), JSON.stringify(m)).toMatchObject({ ok: true });
+		for (const m of valid)
+			expect(parseControlMessage(JSON.stringify(m)), JSON.stringify(m)).toMatchObject({ ok: true });
 	});
 
 	it('refuses wrong versions, unknown types, unknown keys and out-of-range values with a message', () => {
@@ -77,7 +83,8 @@ describe('control messages', () => {
 			base[rnd() < 0.2 ? `k${i}` : k] = pool[Math.floor(rnd() * pool.length)];
 			let text = JSON.stringify(base);
 			if (rnd() < 0.3) text = text.slice(0, Math.floor(rnd() * text.length));
-			if (rnd() < 0.1) text = String.fromCharCode(...Array.from({ length: 40 }, () => Math.floor(rnd() * 0xffff)));
+			if (rnd() < 0.1)
+				text = String.fromCharCode(...Array.from({ length: 40 }, () => Math.floor(rnd() * 0xffff)));
 			const r = parseControlMessage(text);
 			if (!r.ok) refused++;
 		}

@@ -64,7 +64,12 @@ export type Drive = z.infer<typeof DriveSchema>;
 
 export const GeneratorSchema = z.discriminatedUnion('kind', [
 	z.strictObject({ kind: z.literal('off') }),
-	z.strictObject({ kind: z.literal('sine'), frequencyHz: freq, levelVrms: level, drive: DriveSchema.optional() }),
+	z.strictObject({
+		kind: z.literal('sine'),
+		frequencyHz: freq,
+		levelVrms: level,
+		drive: DriveSchema.optional()
+	}),
 	z.strictObject({
 		kind: z.literal('twin-tone'),
 		f1Hz: freq,
@@ -116,7 +121,10 @@ export const FaultsSchema = z.strictObject({
 	scratchyControl: z.strictObject({
 		enabled: z.boolean(),
 		moving: z.boolean(),
-		band: z.int().min(0).max(EQ_BAND_CENTRES_HZ.length - 1)
+		band: z
+			.int()
+			.min(0)
+			.max(EQ_BAND_CENTRES_HZ.length - 1)
 	}),
 	/** A dried-out reservoir capacitor: much more ripple hum at 2× mains and its harmonics. */
 	tiredFilterCap: z.boolean(),
@@ -176,15 +184,23 @@ export const DEFAULT_SIMULATOR_STATE: SimulatorState = {
 };
 
 /** Peak clip voltage of a channel's positive (+) or negative (−) half for a simulator state. */
-export function clipVoltsPeak(state: SimulatorState, channel: ChannelName, half: 'positive' | 'negative' = 'positive'): number {
+export function clipVoltsPeak(
+	state: SimulatorState,
+	channel: ChannelName,
+	half: 'positive' | 'negative' = 'positive'
+): number {
 	const swing = state.railVolts - OUTPUT_HEADROOM_V;
-	if (half === 'positive' && state.faults.weakOutputDevice === channel) return swing * WEAK_DEVICE_SWING_FRACTION;
+	if (half === 'positive' && state.faults.weakOutputDevice === channel)
+		return swing * WEAK_DEVICE_SWING_FRACTION;
 	return swing;
 }
 
 /** Largest clean sine power into the load (P = V²/R with V the rms of the clip-point sine). */
 export function maxSinePowerW(state: SimulatorState, channel: ChannelName = 'left'): number {
-	const vPeak = Math.min(clipVoltsPeak(state, channel, 'positive'), clipVoltsPeak(state, channel, 'negative'));
+	const vPeak = Math.min(
+		clipVoltsPeak(state, channel, 'positive'),
+		clipVoltsPeak(state, channel, 'negative')
+	);
 	return (vPeak * vPeak) / 2 / state.loadOhms;
 }
 
@@ -193,7 +209,12 @@ export function maxSinePowerW(state: SimulatorState, channel: ChannelName = 'lef
 const id = z.union([z.string().max(64), z.number()]).optional();
 const v = z.literal(CONTROL_VERSION);
 
-export const GeneratorMessageSchema = z.strictObject({ v, id, type: z.literal('generator'), generator: GeneratorSchema });
+export const GeneratorMessageSchema = z.strictObject({
+	v,
+	id,
+	type: z.literal('generator'),
+	generator: GeneratorSchema
+});
 export const InputMessageSchema = z.strictObject({ v, id, type: z.literal('input'), input: InputSchema });
 export const LoadMessageSchema = z.strictObject({
 	v,
@@ -212,7 +233,15 @@ export const SimMessageSchema = z.strictObject({
 	volumeDb: SimulatorStateSchema.shape.volumeDb.optional(),
 	eqGainsDb: SimulatorStateSchema.shape.eqGainsDb.optional(),
 	/** Set one EQ band (applied after eqGainsDb when both are present). */
-	eqBand: z.strictObject({ index: z.int().min(0).max(EQ_BAND_CENTRES_HZ.length - 1), gainDb }).optional(),
+	eqBand: z
+		.strictObject({
+			index: z
+				.int()
+				.min(0)
+				.max(EQ_BAND_CENTRES_HZ.length - 1),
+			gainDb
+		})
+		.optional(),
 	lowFilter: filterSchema(10, 200).partial().optional(),
 	highFilter: filterSchema(2000, 20000).partial().optional(),
 	biasPercent: SimulatorStateSchema.shape.biasPercent.optional(),
@@ -250,7 +279,10 @@ export type ControlMessage = z.infer<typeof ControlMessageSchema>;
 export type SimMessage = z.infer<typeof SimMessageSchema>;
 
 /** Apply a partial `sim` message to a simulator state (pure; returns a new validated state). */
-export function applySimPatch(state: SimulatorState, patch: Omit<SimMessage, 'v' | 'id' | 'type'>): SimulatorState {
+export function applySimPatch(
+	state: SimulatorState,
+	patch: Omit<SimMessage, 'v' | 'id' | 'type'>
+): SimulatorState {
 	const next: SimulatorState = structuredClone(state);
 	if (patch.input !== undefined) next.input = patch.input;
 	if (patch.inverseRiaaNetwork !== undefined) next.inverseRiaaNetwork = patch.inverseRiaaNetwork;
@@ -266,7 +298,8 @@ export function applySimPatch(state: SimulatorState, patch: Omit<SimMessage, 'v'
 	const f = patch.faults;
 	if (f) {
 		if (f.noisySelector !== undefined) next.faults.noisySelector = f.noisySelector;
-		if (f.scratchyControl) next.faults.scratchyControl = { ...next.faults.scratchyControl, ...f.scratchyControl };
+		if (f.scratchyControl)
+			next.faults.scratchyControl = { ...next.faults.scratchyControl, ...f.scratchyControl };
 		if (f.tiredFilterCap !== undefined) next.faults.tiredFilterCap = f.tiredFilterCap;
 		if (f.underBias !== undefined) next.faults.underBias = f.underBias;
 		if (f.weakOutputDevice !== undefined) next.faults.weakOutputDevice = f.weakOutputDevice;
@@ -286,7 +319,8 @@ export function parseControlMessage(
 ): { ok: true; message: ControlMessage } | { ok: false; error: string; issues?: Issue[] } {
 	let value: unknown = raw;
 	if (typeof raw === 'string') {
-		if (raw.length > CONTROL_MAX_BYTES) return { ok: false, error: `control message longer than ${CONTROL_MAX_BYTES} bytes` };
+		if (raw.length > CONTROL_MAX_BYTES)
+			return { ok: false, error: `control message longer than ${CONTROL_MAX_BYTES} bytes` };
 		try {
 			value = JSON.parse(raw);
 		} catch {
@@ -297,7 +331,10 @@ export function parseControlMessage(
 		return { ok: false, error: 'control message must be a JSON object' };
 	const rec = value as Record<string, unknown>;
 	if (rec.v !== CONTROL_VERSION)
-		return { ok: false, error: `unsupported control message version ${JSON.stringify(rec.v)}; this bridge speaks v${CONTROL_VERSION}` };
+		return {
+			ok: false,
+			error: `unsupported control message version ${JSON.stringify(rec.v)}; this bridge speaks v${CONTROL_VERSION}`
+		};
 	const parsed = ControlMessageSchema.safeParse(value);
 	if (!parsed.success) {
 		const issues = parsed.error.issues.map((i) => ({ path: i.path.join('.'), message: i.message }));
@@ -416,7 +453,9 @@ export const BridgeMessageSchema = z.discriminatedUnion('type', [
 export type BridgeMessage = z.infer<typeof BridgeMessageSchema>;
 
 /** Parse a text message from the bridge; never throws. */
-export function parseBridgeMessage(text: string): { ok: true; message: BridgeMessage } | { ok: false; error: string } {
+export function parseBridgeMessage(
+	text: string
+): { ok: true; message: BridgeMessage } | { ok: false; error: string } {
 	let value: unknown;
 	try {
 		value = JSON.parse(text);
@@ -424,7 +463,8 @@ export function parseBridgeMessage(text: string): { ok: true; message: BridgeMes
 		return { ok: false, error: 'bridge message is not valid JSON' };
 	}
 	const parsed = BridgeMessageSchema.safeParse(value);
-	if (!parsed.success) return { ok: false, error: `unexpected bridge message: ${parsed.error.issues[0]?.message ?? 'invalid'}` };
+	if (!parsed.success)
+		return { ok: false, error: `unexpected bridge message: ${parsed.error.issues[0]?.message ?? 'invalid'}` };
 	return { ok: true, message: parsed.data };
 }
 

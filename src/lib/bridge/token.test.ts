@@ -1,7 +1,13 @@
 // Bridge tokens: minting limits and every refusal reason.
 import { describe, expect, it } from 'vitest';
 import { SignJWT } from 'jose';
-import { BRIDGE_AUDIENCE, BRIDGE_ISSUER, BridgeTokenError, mintBridgeToken, verifyBridgeToken } from './token';
+import {
+	BRIDGE_AUDIENCE,
+	BRIDGE_ISSUER,
+	BridgeTokenError,
+	mintBridgeToken,
+	verifyBridgeToken
+} from './token';
 
 const SECRET = 'a-test-secret-that-is-long-enough-0123456789';
 const OTHER = 'another-secret-that-is-long-enough-9876543210';
@@ -18,7 +24,12 @@ async function reason(p: Promise<unknown>): Promise<string> {
 describe('bridge tokens', () => {
 	it('mint and verify carry the user id and role, expiring within 5 minutes', async () => {
 		const now = Date.UTC(2026, 0, 5, 9, 0, 0);
-		const { token, expiresAt } = await mintBridgeToken(SECRET, { userId: 'user-7', role: 'supervisor' }, 300, now);
+		const { token, expiresAt } = await mintBridgeToken(
+			SECRET,
+			{ userId: 'user-7', role: 'supervisor' },
+			300,
+			now
+		);
 		expect(expiresAt).toBe('2026-01-05T09:05:00.000Z');
 		const claims = await verifyBridgeToken(SECRET, token, now + 1000);
 		expect(claims).toMatchObject({ userId: 'user-7', role: 'supervisor' });

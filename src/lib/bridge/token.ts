@@ -16,7 +16,8 @@ export interface BridgeClaims {
 	role: BridgeRole;
 }
 
-export type BridgeTokenFailure = 'missing' | 'malformed' | 'bad-signature' | 'expired' | 'wrong-audience' | 'bad-claims';
+export type BridgeTokenFailure =
+	'missing' | 'malformed' | 'bad-signature' | 'expired' | 'wrong-audience' | 'bad-claims';
 
 export class BridgeTokenError extends Error {
 	constructor(
@@ -83,18 +84,21 @@ export async function verifyBridgeToken(
 		if (e instanceof errors.JWSSignatureVerificationFailed)
 			throw new BridgeTokenError('bad-signature', 'bridge token signature does not verify');
 		if (e instanceof errors.JWTClaimValidationFailed) {
-			if (e.claim === 'aud') throw new BridgeTokenError('wrong-audience', 'bridge token is for another audience');
+			if (e.claim === 'aud')
+				throw new BridgeTokenError('wrong-audience', 'bridge token is for another audience');
 			throw new BridgeTokenError('bad-claims', `bridge token claim "${e.claim}" is invalid`);
 		}
 		throw new BridgeTokenError('malformed', 'bridge token is malformed');
 	}
 	const role = payload.role;
-	if (typeof payload.sub !== 'string' || !payload.sub) throw new BridgeTokenError('bad-claims', 'bridge token has no subject');
+	if (typeof payload.sub !== 'string' || !payload.sub)
+		throw new BridgeTokenError('bad-claims', 'bridge token has no subject');
 	if (typeof role !== 'string' || !(BRIDGE_ROLES as readonly string[]).includes(role))
 		throw new BridgeTokenError('bad-claims', 'bridge token has no bench role');
 	const exp = payload.exp as number;
 	const iat = payload.iat as number;
 	// A token minted elsewhere with a long life is refused even though it verifies.
-	if (exp - iat > BRIDGE_TOKEN_MAX_TTL_S) throw new BridgeTokenError('bad-claims', 'bridge token lifetime exceeds 5 minutes');
+	if (exp - iat > BRIDGE_TOKEN_MAX_TTL_S)
+		throw new BridgeTokenError('bad-claims', 'bridge token lifetime exceeds 5 minutes');
 	return { userId: payload.sub, role: role as BridgeRole, expiresAt: new Date(exp * 1000) };
 }

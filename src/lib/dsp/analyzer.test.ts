@@ -129,6 +129,13 @@ describe('level and frequency', () => {
 		}
 	});
 
+	it('a DC offset far larger than the tone does not hide it', () => {
+		const r = analyzeChannel(synth(FS, 4096, [{ f: 1000, a: 0.01 }], 0, 1, 0.5), FS, 1);
+		expect(Math.abs(r.frequencyHz - 1000)).toBeLessThan(1e-4);
+		expect(Math.abs(r.levelDbv - db(0.01 / Math.SQRT2))).toBeLessThan(1e-3);
+		expect(r.dcVolts).toBeCloseTo(0.5, 6);
+	});
+
 	it('a low fundamental with a DC offset is still measured (near-DC fit)', () => {
 		const r = analyzeChannel(synth(FS, N, [{ f: 20.3, a: 0.3 }], 0, 1, 0.05), FS, 4);
 		expect(Math.abs(r.frequencyHz - 20.3)).toBeLessThan(1e-4);

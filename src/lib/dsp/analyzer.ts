@@ -1,10 +1,11 @@
 // The measurement engine: one windowed FFT per frame, a 4-parameter sine fit of the fundamental on
-// the spectrum, subtraction of the fit, and band-limited sums of what is left (THD+N, noise).
+// the spectrum, fits of its harmonics, subtraction of all of them, and a band-limited sum of what is
+// left (the noise); THD+N is the fitted harmonics plus that noise.
 // `Analyzer` reuses every buffer (for the live worker); analyzeChannel/analyzeFrames wrap it.
 
 import FFT from 'fft.js';
 import { ANALYSIS_WINDOW, makeWindow, windows, type WindowName } from './windows';
-import { ToneFitter, interpolatePeak, peakBin } from './tonefit';
+import { ToneFitter, interpolatePeak } from './tonefit';
 import { aWeightingPowerGain, aWeightingTable } from './weighting';
 import { vrmsToDbu, wattsIntoLoad } from './units';
 import type { AnalysisOptions, AnalysisResult, ChannelResult, HarmonicResult, Weighting } from './types';
@@ -42,10 +43,10 @@ const weightCache = new Map<string, Float64Array>();
 const oneShotCache = new Map<string, Analyzer>();
 const CACHE_LIMIT = 8;
 
-function cached<K, V>(map: Map<K, V>, key: K, make: () => V): V {
+function cached<K, V>(map: Map<K, V>, key: K, make: () => V, limit = CACHE_LIMIT): V {
 	let v = map.get(key);
 	if (v === undefined) {
-		if (map.size >= CACHE_LIMIT) map.delete(map.keys().next().value as K);
+		if (map.size >= limit) map.delete(map.keys().next().value as K);
 		v = make();
 		map.set(key, v);
 	}
@@ -79,7 +80,7 @@ const V_NU = 1; // fundamental frequency, bins
 const V_DC = 2; // DC, sample units
 const V_T = 3; // total in-band power
 const V_TA = 4; // total in-band power, A-weighted
-const V_R = 5; // residual (all but fundamental) in band
+const V_R = 5; // residual in band (all but the fundamental): in-band harmonics + noise
 const V_RA = 6; // residual, A-weighted
 const V_N = 7; // noise (all but fundamental, harmonics, DC) in band
 const V_NA = 8; // noise, A-weighted
@@ -136,6 +137,7 @@ export class Analyzer {
 	private readonly frame: Float64Array;
 	private readonly spec: Float64Array;
 	private readonly resid: Float64Array;
+	private readonly pw: Float64Array; // |X_k|² of the analysis spectrum
 	private readonly dspec: Float64Array | null;
 	private readonly fitter: ToneFitter;
 	private readonly aw2: Float64Array;
@@ -159,6 +161,7 @@ export class Analyzer {
 	private lastFullScale = 1;
 	private readonly result: ChannelResult;
 	private sumP = 0;
+	private readonly kv = new Float64Array(2);
 	private sumPA = 0;
 	private readonly ivStart: Int32Array;
 	private readonly ivEnd: Int32Array;
@@ -192,6 +195,7 @@ export class Analyzer {
 		this.frame = new Float64Array(fftSize);
 		this.spec = new Float64Array(2 * fftSize);
 		this.resid = new Float64Array(2 * this.bins);
+		this.pw = new Float64Array(this.bins);
 		this.dspec = this.dwin ? new Float64Array(2 * fftSize) : null;
 		this.fitter = new ToneFitter(fftSize, ANALYSIS_WINDOW, this.conditions.maxHarmonic);
 		this.aw2 = sharedAWeights(this.bins, this.binHz);
@@ -318,7 +322,7 @@ export class Analyzer {
 	/**
 	 * Σ|X_k|²·(½ at DC and Nyquist) over bins k0…k1, and the same A-weighted, into sumP/sumPA.
 	 * The fits only change bins inside a few short intervals, so the long stretches between them are
-	 * summed once and shared by the total, residual and noise figures.
+	 * summed straight from the spectrum, without copying it.
 	 */
 	private bandSum(x: Float64Array, k0: number, k1: number): void {
 		const aw2 = this.aw2;
@@ -340,6 +344,29 @@ export class Analyzer {
 			const v = (x[2 * half] * x[2 * half] + x[2 * half + 1] * x[2 * half + 1]) / 2;
 			p -= v;
 			pa -= v * aw2[half];
+		}
+		this.sumP = p;
+		this.sumPA = pa;
+	}
+
+	/** As bandSum, from the bin powers stored in `pw` by the peak search. */
+	private powerSum(k0: number, k1: number): void {
+		const aw2 = this.aw2;
+		const pw = this.pw;
+		const half = this.fftSize >>> 1;
+		let p = 0;
+		let pa = 0;
+		for (let k = k0; k <= k1; k++) {
+			p += pw[k];
+			pa += pw[k] * aw2[k];
+		}
+		if (k0 === 0 && k1 >= 0) {
+			p -= pw[0] / 2;
+			pa -= (pw[0] / 2) * aw2[0];
+		}
+		if (k1 === half && k0 <= half) {
+			p -= pw[half] / 2;
+			pa -= (pw[half] / 2) * aw2[half];
 		}
 		this.sumP = p;
 		this.sumPA = pa;
@@ -414,7 +441,36 @@ export class Analyzer {
 		const c = this.conditions;
 
 		// Fundamental: largest in-band bin, refined by the 4-parameter fit.
-		const kPeak = peakBin(spec, Math.max(kLo, 1), Math.min(kHi, half - 1));
+		// A large DC offset spills into the first few bins; judge those with the DC taken out.
+		const reach = fit.subtractHalfWidth;
+		const kFirst = Math.max(kLo, 1);
+		const kLast = Math.min(kHi, half - 1);
+		// One pass stores every in-band bin's power (reused for the noise sums) and finds the peak.
+		const pw = this.pw;
+		let kPeak = Math.max(kFirst, reach + 1);
+		let pPeak = -1;
+		for (let k = kLo; k <= kHi; k++) {
+			const p = spec[2 * k] * spec[2 * k] + spec[2 * k + 1] * spec[2 * k + 1];
+			pw[k] = p;
+			if (p > pPeak && k > reach && k >= kFirst && k <= kLast) {
+				pPeak = p;
+				kPeak = k;
+			}
+		}
+		if (kFirst <= reach) {
+			let best = spec[2 * kPeak] ** 2 + spec[2 * kPeak + 1] ** 2;
+			const dc0 = fit.fitDc(spec);
+			const kv = this.kv;
+			for (let k = kFirst; k <= Math.min(reach, kLast); k++) {
+				fit.kernelAt(k, kv);
+				const re = spec[2 * k] - dc0 * kv[0];
+				const im = spec[2 * k + 1] - dc0 * kv[1];
+				if (re * re + im * im > best) {
+					best = re * re + im * im;
+					kPeak = k;
+				}
+			}
+		}
 		const nu0 = interpolatePeak(spec, kPeak, half);
 		const nearDc = nu0 < 2 * fit.fitHalfWidth + 2;
 		// Harmonics closer together than their own support: fit fundamental, harmonics and DC jointly. Below
@@ -451,14 +507,14 @@ export class Analyzer {
 			if (fHz >= loHz && fHz <= hiHz && nuH <= half) this.addInterval(Math.round(nuH));
 		}
 
-		// Everything between the intervals is the same in the spectrum, the residual and the noise.
+		// Everything between the intervals is the same in the spectrum and in the residual.
 		let outP = 0;
 		let outPA = 0;
 		let k = kLo;
 		for (let i = 0; i <= this.ivCount; i++) {
 			const end = i < this.ivCount ? this.ivStart[i] - 1 : kHi;
 			if (end >= k) {
-				this.bandSum(spec, k, end);
+				this.powerSum(k, end);
 				outP += this.sumP;
 				outPA += this.sumPA;
 			}
@@ -466,24 +522,17 @@ export class Analyzer {
 		}
 
 		const resid = this.resid;
-		const reach = fit.subtractHalfWidth;
 		if (crowded) {
 			// Everything the joint fit touched lies low in the spectrum: copy that stretch whole.
 			const top = Math.min(half, Math.round(tones[toneCount - 1]) + reach);
 			for (let j = 0; j < 2 * (top + 1); j++) resid[j] = spec[j];
 		}
-		// Only the interval bins change from here on; copy just those.
-		for (let i = 0; i < this.ivCount; i++) {
-			const s0 = 2 * this.ivStart[i];
-			const s1 = 2 * this.ivEnd[i] + 2;
-			for (let j = s0; j < s1; j++) resid[j] = spec[j];
-		}
-		// The subtraction windows may reach outside the band: copy their reach as well.
+		// Only bins within reach of DC and of the tones change from here on (the intervals lie inside
+		// them); copy just those, band or not, before anything is subtracted.
 		for (let j = 0; j <= Math.min(half, reach); j++) {
 			resid[2 * j] = spec[2 * j];
 			resid[2 * j + 1] = spec[2 * j + 1];
 		}
-		// Every tone's subtraction reach, band or not, before anything is subtracted (they may overlap).
 		for (let h = 1; h <= c.maxHarmonic; h++) {
 			const kh = Math.round(h * nu);
 			if (kh - reach > half) break;
@@ -708,7 +757,7 @@ function analyzeOne(
 	};
 	// One-shot calls (server, CLI) reuse a few analysers rather than allocate megabytes of buffers each time.
 	const key = `${channel}|${fftSize}|${sampleRateHz}|${JSON.stringify(analyzerOptions)}`;
-	const analyzer = cached(oneShotCache, key, () => new Analyzer(fftSize, sampleRateHz, analyzerOptions));
+	const analyzer = cached(oneShotCache, key, () => new Analyzer(fftSize, sampleRateHz, analyzerOptions), 4);
 	analyzer.reset();
 	let r: ChannelResult | undefined;
 	for (let i = 0; i < frames; i++)

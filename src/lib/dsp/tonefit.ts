@@ -221,6 +221,13 @@ export class ToneFitter {
 		return withDc ? atb[iDc] : 0;
 	}
 
+	/** The analysis window's kernel K(u) (bins) into out[0], out[1]; zero beyond the subtraction reach. */
+	kernelAt(u: number, out: Float64Array): void {
+		this.k(u);
+		out[0] = this.kv[0];
+		out[1] = this.kv[1];
+	}
+
 	/** Kernel K(u) into kv, skipping far side lobes (the analysis window's are below −170 dB). */
 	private k(u: number): void {
 		const n = this.n;

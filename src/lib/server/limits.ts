@@ -156,7 +156,7 @@ export const SEED_LIMIT_PROFILES: ProfileInput[] = [
 			'Integrated or power amplifier at a few watts into a resistive 8 Ω dummy load rated well above the drive. Common practice for a checkout after recapping and bias setting.',
 		conditions: {
 			generatorFrequencyHz: 1000,
-			generatorLevelVrms: 0.3,
+			generatorLevelVrms: 0.32,
 			loadOhms: 8,
 			bandLowHz: 20,
 			bandHighHz: 20_000,

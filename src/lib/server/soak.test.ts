@@ -16,6 +16,9 @@ import {
 	SoakError
 } from './soak';
 import { DEFAULT_SOAK_LIMITS } from '$lib/schemas/settings';
+import { copyFileSync, existsSync, mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
 
 let db: Db;
 let ratedJob: number;
@@ -225,5 +228,39 @@ describe('ending a run', () => {
 		expect(d.events.map((e) => e.kind)).toEqual(['breach', 'abort']);
 		const row = db.select().from(table.soakRuns).where(eq(table.soakRuns.id, id)).get();
 		expect(row?.summary).not.toBeNull();
+	});
+});
+
+describe('a server restart', () => {
+	it('loses nothing that was acknowledged', () => {
+		const dir = mkdtempSync(join(tmpdir(), 'soak-restart-'));
+		try {
+			const file = join(dir, 'bench.db');
+			const live = openDb(file);
+			live.insert(table.users).values({ id: 'u1', email: 't@example.com', name: 'T', role: 'technician', passwordHash: 'x' }).run();
+			const c = live.insert(table.customers).values({ name: 'C' }).returning().get();
+			const job = live
+				.insert(table.jobs)
+				.values({ customerId: c.id, category: 'receiver', make: 'Vellum', model: 'R-2', complaint: 'hot', ratedPowerW: 50, ratedLoadOhms: 8 })
+				.returning()
+				.get().id;
+			const { id } = createRun(live, job, 'u1', { preset: 'eighth-power-60' }, T0);
+			let acknowledged = 0;
+			for (let b = 0; b < 5; b++) {
+				const batch = Array.from({ length: 100 }, (_, i) => reading('heatsink-left', 10_000 + b * 100 + i, 30 + i / 100));
+				acknowledged += addReadings(live, id, batch, 'boot-a').stored;
+			}
+			// The process dies here: no close, no checkpoint. Copy the files exactly as they are on disk.
+			const copy = join(dir, 'after-crash.db');
+			copyFileSync(file, copy);
+			if (existsSync(`${file}-wal`)) copyFileSync(`${file}-wal`, `${copy}-wal`);
+			const reopened = openDb(copy);
+			expect(acknowledged).toBe(500);
+			expect(getRunDetail(reopened, id).readingCount).toBe(500);
+			reopened.$client.close();
+			live.$client.close();
+		} finally {
+			rmSync(dir, { recursive: true, force: true });
+		}
 	});
 });

@@ -334,7 +334,11 @@ export function listRuns(db: Db, jobId: number, thumbPoints = 48): SoakRunListIt
 			.groupBy(sql`1, 2`)
 			.orderBy(sql`2`)
 			.all();
-		const buckets = [...new Set(agg.map((a) => a.bucket))].sort((a, b) => a - b);
+		// Every bucket from the first to the last, so a stretch without readings breaks the line.
+		const present = agg.map((a) => a.bucket);
+		const first = present.length ? Math.min(...present) : 0;
+		const last = present.length ? Math.max(...present) : -1;
+		const buckets = Array.from({ length: Math.max(0, last - first + 1) }, (_, i) => first + i);
 		const index = new Map(buckets.map((b, i) => [b, i]));
 		const probes: Record<string, (number | null)[]> = {};
 		const maxC: Record<string, number> = {};

@@ -193,6 +193,20 @@ describe('steady state', () => {
 	});
 });
 
+describe('steady state across a gap', () => {
+	it('does not count a window that has a hole in it', () => {
+		// Minutes 0..4 rise 30, 35, 38, 39.5, 40; then nothing until minute 12 (a bridge restart);
+		// then 41 flat from minute 12 to 20. Readings are a minute apart, so a hole is > 3 minutes.
+		const mins = [0, 1, 2, 3, 4, 12, 13, 14, 15, 16, 17, 18, 19, 20];
+		const temps = [30, 35, 38, 39.5, 40, 41, 41, 41, 41, 41, 41, 41, 41, 41];
+		const readings = mins.map((m, i) => ({ probe: 'heatsink-left', seq: i + 1, t: T0 + m * 60_000, celsius: temps[i] }));
+		// Window from minute 3 (39.5..40 before the hole, 41 after) would look steady to a band of
+		// 1.5 °C if the hole were ignored; it reaches minute 8 with its last reading at minute 4.
+		// The first window without a hole is from minute 12 (41..41): 720 s.
+		expect(steadyStateS(readings, clock, { bandC: 1.5, windowS: 300 })).toBe(720);
+	});
+});
+
 describe('gaps, summary and verdict', () => {
 	it('marks a bridge restart and a long silence', () => {
 		const readings: SoakReadingIn[] = [1, 2, 3, 4, 5, 6].map((seq) => ({

@@ -217,15 +217,19 @@ function nearestByT(list: readonly Pt[], t: number): Pt | undefined {
 /**
  * Seconds of soak time from the start until thermal steady state: the start of the first
  * window of `windowS` in which every unit probe (ambient excluded) stays within `bandC`.
- * The window must be covered by data for every probe; null when no such window exists yet.
+ * The window must be covered by data for every probe, without a gap (no two readings, nor a
+ * reading and the window's edge, further apart than `maxSpacingS`); null when there is none.
  */
 export function steadyStateS(
 	readings: readonly SoakReadingIn[],
 	clock: SoakClock,
 	criterion: SteadyCriterion = STEADY_CRITERION
 ): number | null {
-	const byProbe = [...seriesByProbe(readings, clock)].filter(([p]) => !isAmbientProbe(p)).map(([, l]) => l);
+	const series = new Map([...seriesByProbe(readings, clock)].filter(([p]) => !isAmbientProbe(p)));
+	const byProbe = [...series.values()];
 	if (!byProbe.length || byProbe.some((l) => !l.length)) return null;
+	// A stretch without readings (a bridge restart, a silence) is not evidence of anything.
+	const maxSpacingS = Math.max(3 * medianIntervalS(series), criterion.windowS / 10);
 	const lastCommon = Math.min(...byProbe.map((l) => l[l.length - 1].s));
 	const candidates = [...new Set(byProbe.flatMap((l) => l.map((p) => p.s)))].sort((a, b) => a - b);
 	for (const start of candidates) {
@@ -235,13 +239,14 @@ export function steadyStateS(
 		for (const list of byProbe) {
 			let lo = Infinity;
 			let hi = -Infinity;
-			let any = false;
+			let prevS = start;
 			for (let i = Math.max(0, lastAtOrBefore(list, start - 1e-9) + 1); i < list.length && list[i].s <= end; i++) {
-				any = true;
+				if (list[i].s - prevS > maxSpacingS) break;
+				prevS = list[i].s;
 				lo = Math.min(lo, list[i].c);
 				hi = Math.max(hi, list[i].c);
 			}
-			if (!any || hi - lo > criterion.bandC) {
+			if (end - prevS > maxSpacingS || hi - lo > criterion.bandC) {
 				steady = false;
 				break;
 			}

@@ -32,6 +32,9 @@ let analysed: number[] = [];
 let scratch: Float32Array[] = [];
 let trackers: SteadinessTracker[] = [];
 let lastAnalysisAt = -Infinity;
+/** Samples per incoming frame (the update rate cannot exceed rate / frame size). */
+let frameSamples = 0;
+let trackerCapacity = 0;
 let resultCount = 0;
 
 // Display axis: bucket edges in bins and the x value of each point.
@@ -88,8 +91,8 @@ function rebuild(): void {
 			})
 	);
 	scratch = analysed.map(() => new Float32Array(fft));
-	// The tracker counts results, not seconds: the window holds as many results as arrive in it at full rate.
-	trackers = analysed.map(() => new SteadinessTracker(Math.max(2, Math.round(s.steadinessWindowS * s.maxUpdatesPerS))));
+	trackers = [];
+	trackerCapacity = 0;
 
 	// Log-spaced display buckets: one point per bin where bins are sparser than the spacing,
 	// the loudest bin of each bucket above that (peaks survive the reduction).
@@ -155,6 +158,7 @@ function ingest(m: Extract<ToWorker, { type: 'frame' }>): void {
 	}
 	pos = (pos + count) % cap;
 	written += count;
+	frameSamples = count;
 	lastReceivedAtMs = receivedAtMs;
 	framesIngested++;
 }
@@ -184,6 +188,15 @@ function maybeAnalyse(): void {
 	if (written < s.fftSize) return;
 	lastAnalysisAt = now;
 	const t0 = performance.now();
+
+	// The steadiness tracker counts results, not seconds: size it for the results that arrive in the
+	// window at the actual update rate (frames may come slower than maxUpdatesPerS).
+	const perS = Math.min(s.maxUpdatesPerS, frameSamples > 0 ? sampleRateHz / frameSamples : s.maxUpdatesPerS);
+	const capacity = Math.max(3, Math.round(s.steadinessWindowS * perS));
+	if (capacity !== trackerCapacity || trackers.length !== analysed.length) {
+		trackerCapacity = capacity;
+		trackers = analysed.map(() => new SteadinessTracker(capacity));
+	}
 
 	const results = [];
 	const spectra: Float32Array[] = [];

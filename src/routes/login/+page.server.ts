@@ -9,7 +9,8 @@ import type { Actions, PageServerLoad } from './$types';
 /** Only same-site paths may follow sign-in ("//host" and "/\host" would leave the site). */
 function safeNext(value: FormDataEntryValue | string | null): string {
 	const s = typeof value === 'string' ? value : '';
-	if (!s.startsWith('/') || s.startsWith('//') || s.startsWith('/\\') || s.startsWith('/login')) return '/jobs';
+	if (!s.startsWith('/') || s.startsWith('//') || s.startsWith('/\\') || s.startsWith('/login'))
+		return '/jobs';
 	return s;
 }
 

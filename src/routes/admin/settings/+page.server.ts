@@ -16,7 +16,15 @@ export const actions: Actions = {
 	default: async (event) => {
 		requireAdmin(event);
 		const form = await event.request.formData();
-		const names = ['shopName', 'bridgeUrl', 'mainsHz', 'maxHeatsinkC', 'maxRiseCPerMin', 'maxDiffC', 'thdnCeilingDb'];
+		const names = [
+			'shopName',
+			'bridgeUrl',
+			'mainsHz',
+			'maxHeatsinkC',
+			'maxRiseCPerMin',
+			'maxDiffC',
+			'thdnCeilingDb'
+		];
 		const values = Object.fromEntries(names.map((n) => [n, text(form, n)]));
 		const thdn = number(form, 'thdnCeilingDb');
 		const parsed = shopSettingsSchema.safeParse({

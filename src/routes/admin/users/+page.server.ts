@@ -47,7 +47,13 @@ export const actions: Actions = {
 		if (!id) return fail(404, { action: 'role', message: 'No such user' });
 		const parsed = userPatchSchema.safeParse({ role: text(form, 'role') });
 		if (!parsed.success) return fail(400, { action: 'role', message: 'Choose a role' });
-		return (await serviceCall('role', () => updateUser(db, id, parsed.data))) ?? { action: 'role', ok: true, message: 'Role changed.' };
+		return (
+			(await serviceCall('role', () => updateUser(db, id, parsed.data))) ?? {
+				action: 'role',
+				ok: true,
+				message: 'Role changed.'
+			}
+		);
 	},
 
 	active: async (event) => {
@@ -56,7 +62,8 @@ export const actions: Actions = {
 		const id = targetId(form);
 		if (!id) return fail(404, { action: 'active', message: 'No such user' });
 		const active = text(form, 'active') === 'true';
-		if (!active && id === me.id) return fail(409, { action: 'active', message: 'You cannot deactivate your own account' });
+		if (!active && id === me.id)
+			return fail(409, { action: 'active', message: 'You cannot deactivate your own account' });
 		return (
 			(await serviceCall('active', () => updateUser(db, id, { active }))) ?? {
 				action: 'active',

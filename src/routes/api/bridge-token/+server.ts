@@ -1,21 +1,12 @@
-// Mints a short-lived bridge token for a signed-in bench user, with the URL of the
-// shop's bridge (the `bridgeUrl` shop setting, else BRIDGE_URL).
+// Mints a short-lived bridge token for a signed-in bench user, with the URL of the shop's
+// bridge (the `bridgeUrl` shop setting, which falls back to BRIDGE_URL).
 import { json } from '@sveltejs/kit';
-import { eq } from 'drizzle-orm';
-import { z } from 'zod';
 import type { RequestHandler } from './$types';
 import { requireRole } from '$lib/server/guards';
-import { env, requireBridgeSecret } from '$lib/server/env';
-import { db, table } from '$lib/server/db';
+import { requireBridgeSecret } from '$lib/server/env';
+import { db } from '$lib/server/db';
+import { getSetting } from '$lib/server/settings';
 import { mintBridgeToken, BRIDGE_TOKEN_DEFAULT_TTL_S } from '$lib/bridge/token';
-
-const BridgeUrlSetting = z.string().regex(/^wss?:\/\/[^\s]+$/);
-
-function bridgeUrl(): string {
-	const row = db.select().from(table.settings).where(eq(table.settings.key, 'bridgeUrl')).get();
-	const parsed = BridgeUrlSetting.safeParse(row?.value);
-	return parsed.success ? parsed.data : env.BRIDGE_URL;
-}
 
 export const GET: RequestHandler = async (event) => {
 	const user = requireRole(event, 'technician', 'supervisor', 'admin');
@@ -24,5 +15,8 @@ export const GET: RequestHandler = async (event) => {
 		{ userId: user.id, role: user.role },
 		BRIDGE_TOKEN_DEFAULT_TTL_S
 	);
-	return json({ token, expiresAt, bridgeUrl: bridgeUrl() }, { headers: { 'cache-control': 'no-store' } });
+	return json(
+		{ token, expiresAt, bridgeUrl: getSetting(db, 'bridgeUrl') },
+		{ headers: { 'cache-control': 'no-store' } }
+	);
 };

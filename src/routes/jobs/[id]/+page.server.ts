@@ -4,9 +4,23 @@ import { error, fail, isHttpError } from '@sveltejs/kit';
 import { db } from '$lib/server/db';
 import { requireUser } from '$lib/server/guards';
 import { idParam } from '$lib/server/api';
-import { addLogEntry, addPart, changeStatus, deletePart, getJob, updateJob, updatePart } from '$lib/server/jobs';
+import {
+	addLogEntry,
+	addPart,
+	changeStatus,
+	deletePart,
+	getJob,
+	updateJob,
+	updatePart
+} from '$lib/server/jobs';
 import { listAssignableUsers } from '$lib/server/users';
-import { allowedNextStatuses, logEntrySchema, partSchema, PART_STATES, statusChangeSchema } from '$lib/schemas/jobs';
+import {
+	allowedNextStatuses,
+	logEntrySchema,
+	partSchema,
+	PART_STATES,
+	statusChangeSchema
+} from '$lib/schemas/jobs';
 import { fieldErrors, number, optionalText, text } from '$lib/forms';
 import { parseMoneyToCents } from '$lib/format';
 import type { Actions, PageServerLoad } from './$types';
@@ -45,8 +59,12 @@ export const actions: Actions = {
 		const user = requireUser(event);
 		const id = idParam(event.params.id, 'job');
 		const form = await event.request.formData();
-		const parsed = statusChangeSchema.safeParse({ status: text(form, 'status'), note: optionalText(form, 'note') });
-		if (!parsed.success) return fail(400, { action: 'status', message: 'Choose a status', errors: fieldErrors(parsed.error) });
+		const parsed = statusChangeSchema.safeParse({
+			status: text(form, 'status'),
+			note: optionalText(form, 'note')
+		});
+		if (!parsed.success)
+			return fail(400, { action: 'status', message: 'Choose a status', errors: fieldErrors(parsed.error) });
 		try {
 			changeStatus(db, id, parsed.data, user);
 		} catch (e) {
@@ -86,7 +104,16 @@ export const actions: Actions = {
 		requireUser(event);
 		const id = idParam(event.params.id, 'job');
 		const form = await event.request.formData();
-		const names = ['refDes', 'description', 'value', 'quantity', 'unitCost', 'supplier', 'state', 'verificationNote'];
+		const names = [
+			'refDes',
+			'description',
+			'value',
+			'quantity',
+			'unitCost',
+			'supplier',
+			'state',
+			'verificationNote'
+		];
 		const values = Object.fromEntries(names.map((n) => [n, text(form, n)]));
 		// The cost is typed in the currency (12.50) and stored in integer cents.
 		const costText = values.unitCost.trim();
@@ -120,7 +147,8 @@ export const actions: Actions = {
 		const partId = partIdFrom(form);
 		const state = text(form, 'state');
 		if (!partId) return fail(404, { action: 'partState', message: 'No such part on this job' });
-		if (!(PART_STATES as readonly string[]).includes(state)) return fail(400, { action: 'partState', message: 'Choose ordered, received or fitted' });
+		if (!(PART_STATES as readonly string[]).includes(state))
+			return fail(400, { action: 'partState', message: 'Choose ordered, received or fitted' });
 		try {
 			updatePart(db, id, partId, { state: state as (typeof PART_STATES)[number] });
 		} catch (e) {

@@ -15,7 +15,12 @@ import type { Actions, PageServerLoad } from './$types';
 /** Existing customers for the picker, by name (a shop's customer list, not the job queue). */
 function customerChoices() {
 	return db
-		.select({ id: table.customers.id, name: table.customers.name, email: table.customers.email, phone: table.customers.phone })
+		.select({
+			id: table.customers.id,
+			name: table.customers.name,
+			email: table.customers.email,
+			phone: table.customers.phone
+		})
 		.from(table.customers)
 		.orderBy(asc(table.customers.name))
 		.limit(2000)

@@ -1,0 +1,117 @@
+// Benchmark: a real-time 60-minute soak (four probes, one reading a second each = 14,400
+// readings) through the soak service on a file database with synchronous=FULL: uploads in the
+// page's 500-reading batches, the same batches again (all duplicates), the page's live limit
+// check over the whole record, and the server's finish (summary + verdict). Modules load through
+// Vite's SSR loader so `$lib` resolves as in the app.
+import { mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { openDb, type Db } from '../../src/lib/server/db/open';
+import * as table from '../../src/lib/server/db/schema';
+
+type SoakModule = typeof import('../../src/lib/server/soak');
+type VerdictModule = typeof import('../../src/lib/soak/verdict');
+type LimitsModule = typeof import('../../src/lib/soak/limits');
+
+const PROBES = ['heatsink-left', 'heatsink-right', 'transformer', 'ambient'];
+const SECONDS = 3600;
+const BATCH = 500;
+
+/** First-order warm-up per probe with a little noise, one reading per probe per second. */
+function syntheticHour(t0: number, seq0: number) {
+	const steady = { 'heatsink-left': 62, 'heatsink-right': 61, transformer: 38, ambient: 23 } as Record<string, number>;
+	const tau = { 'heatsink-left': 480, 'heatsink-right': 480, transformer: 1500, ambient: 1 } as Record<string, number>;
+	const out: { probe: string; seq: number; t: number; celsius: number }[] = [];
+	let seq = seq0;
+	for (let s = 1; s <= SECONDS; s++) {
+		for (const p of PROBES) {
+			const c = steady[p] + (23 - steady[p]) * Math.exp(-s / tau[p]) + (Math.random() - 0.5) * 0.06;
+			out.push({ probe: p, seq: ++seq, t: t0 + s * 1000, celsius: Math.round(c * 100) / 100 });
+		}
+	}
+	return out;
+}
+
+function median(xs: number[]): number {
+	const s = [...xs].sort((a, b) => a - b);
+	return s[Math.floor(s.length / 2)];
+}
+
+export async function run(): Promise<void> {
+	const dir = mkdtempSync(join(tmpdir(), 'benchlight-soak-bench-'));
+	const { createServer } = await import('vite');
+	const server = await createServer({ logLevel: 'error', appType: 'custom', server: { middlewareMode: true, hmr: false, watch: null } });
+	try {
+		const soak = (await server.ssrLoadModule('/src/lib/server/soak.ts')) as SoakModule;
+		const verdict = (await server.ssrLoadModule('/src/lib/soak/verdict.ts')) as VerdictModule;
+		const limits = (await server.ssrLoadModule('/src/lib/soak/limits.ts')) as LimitsModule;
+
+		const db: Db = openDb(join(dir, 'bench.db'));
+		db.insert(table.users).values({ id: 'u1', email: 'b@example.com', name: 'Bench', role: 'technician', passwordHash: 'x' }).run();
+		const c = db.insert(table.customers).values({ name: 'Bench' }).returning().get();
+		const jobId = db
+			.insert(table.jobs)
+			.values({ customerId: c.id, category: 'receiver', make: 'Vellum', model: 'B-1', complaint: 'bench', ratedPowerW: 100, ratedLoadOhms: 8 })
+			.returning()
+			.get().id;
+		const t0 = Date.now() - (SECONDS + 5) * 1000;
+		const { id } = soak.createRun(
+			db,
+			jobId,
+			'u1',
+			{ preset: 'eighth-power-60', limits: { maxRiseCPerMin: 10 }, bridge: { lastSeq: 1000, timeScale: 1 } },
+			t0
+		);
+		const readings = syntheticHour(t0, 1000);
+
+		const newMs: number[] = [];
+		for (let i = 0; i < readings.length; i += BATCH) {
+			const start = performance.now();
+			soak.addReadings(db, id, readings.slice(i, i + BATCH), 'boot-bench');
+			newMs.push(performance.now() - start);
+		}
+		const dupMs: number[] = [];
+		for (let i = 0; i < readings.length; i += BATCH) {
+			const start = performance.now();
+			soak.addReadings(db, id, readings.slice(i, i + BATCH), 'boot-bench');
+			dupMs.push(performance.now() - start);
+		}
+		const totalNew = newMs.reduce((a, b) => a + b, 0);
+		console.log(
+			`soak: ${readings.length} readings in ${newMs.length} batches of ${BATCH} (file db, synchronous=FULL): ` +
+				`${totalNew.toFixed(0)} ms, median ${median(newMs).toFixed(2)} ms/batch, ${((readings.length / totalNew) * 1000).toFixed(0)} readings/s`
+		);
+		console.log(
+			`soak: the same batches again (all duplicates, INSERT OR IGNORE): median ${median(dupMs).toFixed(2)} ms/batch ` +
+				`(${(median(dupMs) / median(newMs)).toFixed(2)}× a new batch)`
+		);
+
+		// The page runs this on every temps message (once a second) over the whole record so far.
+		const clock = { startedAtMs: t0, timeScale: 1 };
+		const runLimits = limits.runLimits(undefined, { maxRiseCPerMin: 10 });
+		const checkMs: number[] = [];
+		for (let k = 0; k < 10; k++) {
+			const start = performance.now();
+			verdict.findBreaches(readings, runLimits, clock);
+			checkMs.push(performance.now() - start);
+		}
+		const steadyStart = performance.now();
+		const steady = verdict.steadyStateS(readings, clock);
+		const steadyMs = performance.now() - steadyStart;
+		console.log(
+			`soak: live limit check over the full hour (${readings.length} readings): median ${median(checkMs).toFixed(1)} ms; ` +
+				`steady-state search ${steadyMs.toFixed(1)} ms (steady after ${steady === null ? 'never' : `${(steady / 60).toFixed(1)} min`})`
+		);
+
+		const finishStart = performance.now();
+		const d = soak.finishRun(db, id);
+		const finishMs = performance.now() - finishStart;
+		console.log(
+			`soak: finish (read ${d.readingCount} readings, summary, verdict ${d.verdict}, one transaction): ${finishMs.toFixed(0)} ms`
+		);
+		db.$client.close();
+	} finally {
+		await server.close();
+		rmSync(dir, { recursive: true, force: true });
+	}
+}
