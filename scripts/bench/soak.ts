@@ -19,8 +19,14 @@ const BATCH = 500;
 
 /** First-order warm-up per probe with a little noise, one reading per probe per second. */
 function syntheticHour(t0: number, seq0: number) {
-	const steady = { 'heatsink-left': 62, 'heatsink-right': 61, transformer: 38, ambient: 23 } as Record<string, number>;
-	const tau = { 'heatsink-left': 480, 'heatsink-right': 480, transformer: 1500, ambient: 1 } as Record<string, number>;
+	const steady = { 'heatsink-left': 62, 'heatsink-right': 61, transformer: 38, ambient: 23 } as Record<
+		string,
+		number
+	>;
+	const tau = { 'heatsink-left': 480, 'heatsink-right': 480, transformer: 1500, ambient: 1 } as Record<
+		string,
+		number
+	>;
 	const out: { probe: string; seq: number; t: number; celsius: number }[] = [];
 	let seq = seq0;
 	for (let s = 1; s <= SECONDS; s++) {
@@ -40,18 +46,32 @@ function median(xs: number[]): number {
 export async function run(): Promise<void> {
 	const dir = mkdtempSync(join(tmpdir(), 'benchlight-soak-bench-'));
 	const { createServer } = await import('vite');
-	const server = await createServer({ logLevel: 'error', appType: 'custom', server: { middlewareMode: true, hmr: false, watch: null } });
+	const server = await createServer({
+		logLevel: 'error',
+		appType: 'custom',
+		server: { middlewareMode: true, hmr: false, watch: null }
+	});
 	try {
 		const soak = (await server.ssrLoadModule('/src/lib/server/soak.ts')) as SoakModule;
 		const verdict = (await server.ssrLoadModule('/src/lib/soak/verdict.ts')) as VerdictModule;
 		const limits = (await server.ssrLoadModule('/src/lib/soak/limits.ts')) as LimitsModule;
 
 		const db: Db = openDb(join(dir, 'bench.db'));
-		db.insert(table.users).values({ id: 'u1', email: 'b@example.com', name: 'Bench', role: 'technician', passwordHash: 'x' }).run();
+		db.insert(table.users)
+			.values({ id: 'u1', email: 'b@example.com', name: 'Bench', role: 'technician', passwordHash: 'x' })
+			.run();
 		const c = db.insert(table.customers).values({ name: 'Bench' }).returning().get();
 		const jobId = db
 			.insert(table.jobs)
-			.values({ customerId: c.id, category: 'receiver', make: 'Vellum', model: 'B-1', complaint: 'bench', ratedPowerW: 100, ratedLoadOhms: 8 })
+			.values({
+				customerId: c.id,
+				category: 'receiver',
+				make: 'Vellum',
+				model: 'B-1',
+				complaint: 'bench',
+				ratedPowerW: 100,
+				ratedLoadOhms: 8
+			})
 			.returning()
 			.get().id;
 		const t0 = Date.now() - (SECONDS + 5) * 1000;

@@ -40,11 +40,15 @@ async function waitForPort(port: number, open: boolean, timeoutMs = 30_000): Pro
 
 async function startBridge(): Promise<void> {
 	// Its own process group, so stopping it stops tsx and node beneath it.
-	bridge = spawn('npx', ['tsx', 'bridge/main.ts', '--host', '127.0.0.1', '--port', String(BRIDGE_PORT), '--time-scale', '60'], {
-		env: { ...process.env, BRIDGE_SECRET: process.env.BRIDGE_SECRET, BRIDGE_ALLOWED_ORIGINS: APP_ORIGIN },
-		detached: true,
-		stdio: 'ignore'
-	});
+	bridge = spawn(
+		'npx',
+		['tsx', 'bridge/main.ts', '--host', '127.0.0.1', '--port', String(BRIDGE_PORT), '--time-scale', '60'],
+		{
+			env: { ...process.env, BRIDGE_SECRET: process.env.BRIDGE_SECRET, BRIDGE_ALLOWED_ORIGINS: APP_ORIGIN },
+			detached: true,
+			stdio: 'ignore'
+		}
+	);
 	await waitForPort(BRIDGE_PORT, true);
 }
 
@@ -68,7 +72,11 @@ interface BridgeView {
 
 /** Ask the bridge (as a token-holding client) for its state and every reading after `afterSeq`. */
 async function askBridge(afterSeq: number): Promise<BridgeView> {
-	const { token } = await mintBridgeToken(process.env.BRIDGE_SECRET as string, { userId: 'e2e-soak', role: 'technician' }, 60);
+	const { token } = await mintBridgeToken(
+		process.env.BRIDGE_SECRET as string,
+		{ userId: 'e2e-soak', role: 'technician' },
+		60
+	);
 	const ws = new WebSocket(`${BRIDGE_URL}/stream?token=${encodeURIComponent(token)}`, { origin: APP_ORIGIN });
 	return new Promise<BridgeView>((resolve, reject) => {
 		const view: BridgeView = { bootId: '', generatorKind: '', readings: [] };
@@ -127,7 +135,15 @@ async function newRatedJob(request: APIRequestContext, model: string, ratedPower
 }
 
 interface RunDetail {
-	run: { id: number; status: string; startSeq: number | null; startedAt: number; durationS: number; timeScale: number; abortReason: string | null };
+	run: {
+		id: number;
+		status: string;
+		startSeq: number | null;
+		startedAt: number;
+		durationS: number;
+		timeScale: number;
+		abortReason: string | null;
+	};
 	readingCount: number;
 	lastSeq: number | null;
 	verdict: string | null;
@@ -146,11 +162,15 @@ async function openSoak(page: Page, jobId: number): Promise<void> {
 	await expect(page.getByTestId('soak-bridge')).toHaveAttribute('data-status', 'connected');
 }
 
-async function startRun(page: Page, limits: { maxHeatsinkC?: number; maxRiseCPerMin?: number } = {}): Promise<number> {
+async function startRun(
+	page: Page,
+	limits: { maxHeatsinkC?: number; maxRiseCPerMin?: number } = {}
+): Promise<number> {
 	// The simulator's heatsinks warm about 4.6 °C per soak-minute at first at ⅛ power (a 1 K/W,
 	// 8-minute model): above the shop's 3 °C/min default, so the cases that must not breach allow 10.
 	await page.getByTestId('limit-max-rise').fill(String(limits.maxRiseCPerMin ?? 10));
-	if (limits.maxHeatsinkC !== undefined) await page.getByTestId('limit-max-heatsink').fill(String(limits.maxHeatsinkC));
+	if (limits.maxHeatsinkC !== undefined)
+		await page.getByTestId('limit-max-heatsink').fill(String(limits.maxHeatsinkC));
 	await page.getByTestId('soak-start').click();
 	const run = page.getByTestId('soak-run');
 	await expect(run).toHaveAttribute('data-phase', 'running');
@@ -170,7 +190,9 @@ test.afterAll(async () => {
 	await stopBridge();
 });
 
-test('a one-eighth-power soak survives a reload, finishes, and stores every reading the bridge logged', async ({ page }) => {
+test('a one-eighth-power soak survives a reload, finishes, and stores every reading the bridge logged', async ({
+	page
+}) => {
 	test.setTimeout(150_000);
 	await signIn(page, 'tech2@example.com');
 	const jobId = await newRatedJob(page.request, `SK-RELOAD-${Date.now().toString(36)}`);
@@ -262,7 +284,9 @@ test('a breach sounds the alarm, turns the generator off and aborts the run', as
 	const jobId = await newRatedJob(page.request, `SK-BREACH-${Date.now().toString(36)}`);
 	await openSoak(page, jobId);
 	// A heatsink limit just above idle: driven at ⅛ power the simulator crosses it within minutes.
-	const idleC = Number((await askBridge(0)).readings.filter((r) => r.probe === 'heatsink-left').at(-1)?.celsius ?? 25);
+	const idleC = Number(
+		(await askBridge(0)).readings.filter((r) => r.probe === 'heatsink-left').at(-1)?.celsius ?? 25
+	);
 	const runId = await startRun(page, { maxHeatsinkC: Math.ceil(idleC + 4) });
 
 	const alarm = page.getByTestId('soak-alarm');

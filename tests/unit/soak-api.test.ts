@@ -21,17 +21,36 @@ let ratedJob = 0;
 let unratedJob = 0;
 
 beforeAll(() => {
-	db.insert(table.users).values({ ...tech, passwordHash: 'x' }).run();
+	db.insert(table.users)
+		.values({ ...tech, passwordHash: 'x' })
+		.run();
 	const c = db.insert(table.customers).values({ name: 'B. Customer' }).returning().get();
-	const base = { customerId: c.id, category: 'power-amplifier' as const, make: 'Orrin', model: 'PA-2', complaint: 'runs hot' };
-	ratedJob = db.insert(table.jobs).values({ ...base, ratedPowerW: 80, ratedLoadOhms: 8 }).returning().get().id;
+	const base = {
+		customerId: c.id,
+		category: 'power-amplifier' as const,
+		make: 'Orrin',
+		model: 'PA-2',
+		complaint: 'runs hot'
+	};
+	ratedJob = db
+		.insert(table.jobs)
+		.values({ ...base, ratedPowerW: 80, ratedLoadOhms: 8 })
+		.returning()
+		.get().id;
 	unratedJob = db.insert(table.jobs).values(base).returning().get().id;
 });
 
 /** Call a route handler the way SvelteKit would, answering thrown HttpErrors like the server does. */
 async function call(
 	handler: (event: never) => Response | Promise<Response>,
-	opts: { method?: string; path: string; params: Record<string, string>; body?: unknown; user?: User | null; origin?: string }
+	opts: {
+		method?: string;
+		path: string;
+		params: Record<string, string>;
+		body?: unknown;
+		user?: User | null;
+		origin?: string;
+	}
 ): Promise<{ status: number; body: Record<string, unknown> }> {
 	const url = new URL(opts.path, ORIGIN);
 	const headers: Record<string, string> = {};
@@ -42,7 +61,12 @@ async function call(
 		headers,
 		body: opts.body === undefined ? undefined : JSON.stringify(opts.body)
 	});
-	const event = { request, url, params: opts.params, locals: { user: opts.user === undefined ? tech : opts.user, session: null } };
+	const event = {
+		request,
+		url,
+		params: opts.params,
+		locals: { user: opts.user === undefined ? tech : opts.user, session: null }
+	};
 	try {
 		const res = await handler(event as never);
 		return { status: res.status, body: (await res.json()) as Record<string, unknown> };
@@ -68,7 +92,10 @@ describe('soak API', () => {
 		});
 		expect(res.status).toBe(201);
 		runId = res.body.id as number;
-		const detail = await call(runRoute.GET, { path: `/api/soak-runs/${runId}`, params: { id: String(runId) } });
+		const detail = await call(runRoute.GET, {
+			path: `/api/soak-runs/${runId}`,
+			params: { id: String(runId) }
+		});
 		expect(detail.status).toBe(200);
 		const run = detail.body.run as Record<string, number>;
 		expect(run.drivePowerW).toBeCloseTo(10, 9); // 80 W / 8
@@ -88,20 +115,39 @@ describe('soak API', () => {
 	it('guards: signed out 401, cross-origin 403, bad body 400, unknown run 404', async () => {
 		const path = `/api/soak-runs/${runId}/readings`;
 		const params = { id: String(runId) };
-		expect((await call(readingsRoute.POST, { method: 'POST', path, params, body: { readings: [] }, user: null })).status).toBe(401);
 		expect(
-			(await call(readingsRoute.POST, { method: 'POST', path, params, body: { readings: [r('ambient', 1, 20)] }, origin: 'http://evil.test' }))
+			(await call(readingsRoute.POST, { method: 'POST', path, params, body: { readings: [] }, user: null }))
 				.status
+		).toBe(401);
+		expect(
+			(
+				await call(readingsRoute.POST, {
+					method: 'POST',
+					path,
+					params,
+					body: { readings: [r('ambient', 1, 20)] },
+					origin: 'http://evil.test'
+				})
+			).status
 		).toBe(403);
-		expect((await call(readingsRoute.POST, { method: 'POST', path, params, body: { readings: 'many' } })).status).toBe(400);
-		expect((await call(runRoute.GET, { path: '/api/soak-runs/9999', params: { id: '9999' } })).status).toBe(404);
-		expect((await call(runsRoute.GET, { path: '/api/jobs/9999/soak-runs', params: { id: '9999' } })).status).toBe(404);
+		expect(
+			(await call(readingsRoute.POST, { method: 'POST', path, params, body: { readings: 'many' } })).status
+		).toBe(400);
+		expect((await call(runRoute.GET, { path: '/api/soak-runs/9999', params: { id: '9999' } })).status).toBe(
+			404
+		);
+		expect(
+			(await call(runsRoute.GET, { path: '/api/jobs/9999/soak-runs', params: { id: '9999' } })).status
+		).toBe(404);
 	});
 
 	it('stores the same batch once when it is posted twice', async () => {
 		const path = `/api/soak-runs/${runId}/readings`;
 		const params = { id: String(runId) };
-		const body = { bootId: 'boot-1', readings: [r('heatsink-left', 101, 30.5), r('heatsink-right', 102, 30.9), r('transformer', 103, 27)] };
+		const body = {
+			bootId: 'boot-1',
+			readings: [r('heatsink-left', 101, 30.5), r('heatsink-right', 102, 30.9), r('transformer', 103, 27)]
+		};
 		const first = await call(readingsRoute.POST, { method: 'POST', path, params, body });
 		expect(first).toMatchObject({ status: 200, body: { stored: 3, duplicates: 0, readingCount: 3 } });
 		const second = await call(readingsRoute.POST, { method: 'POST', path, params, body });
@@ -139,7 +185,11 @@ describe('soak API', () => {
 
 	it('finish is refused before the duration; abort ends the run and later readings are refused', async () => {
 		const params = { id: String(runId) };
-		const early = await call(finishRoute.POST, { method: 'POST', path: `/api/soak-runs/${runId}/finish`, params });
+		const early = await call(finishRoute.POST, {
+			method: 'POST',
+			path: `/api/soak-runs/${runId}/finish`,
+			params
+		});
 		expect(early.status).toBe(409);
 		const aborted = await call(abortRoute.POST, {
 			method: 'POST',
@@ -155,7 +205,10 @@ describe('soak API', () => {
 			body: { readings: [r('ambient', 301, 22)] }
 		});
 		expect(late.status).toBe(409);
-		const list = await call(runsRoute.GET, { path: `/api/jobs/${ratedJob}/soak-runs`, params: { id: String(ratedJob) } });
+		const list = await call(runsRoute.GET, {
+			path: `/api/jobs/${ratedJob}/soak-runs`,
+			params: { id: String(ratedJob) }
+		});
 		const runs = list.body.runs as { verdict: string; maxC: Record<string, number> }[];
 		expect(runs[0].verdict).toBe('aborted');
 		expect(runs[0].maxC['heatsink-left']).toBe(31);

@@ -27,10 +27,22 @@ const T0 = 1_800_000_000_000;
 
 beforeEach(() => {
 	db = openDb(':memory:');
-	db.insert(table.users).values({ id: 'u1', email: 't@example.com', name: 'Tess Tech', role: 'technician', passwordHash: 'x' }).run();
+	db.insert(table.users)
+		.values({ id: 'u1', email: 't@example.com', name: 'Tess Tech', role: 'technician', passwordHash: 'x' })
+		.run();
 	const c = db.insert(table.customers).values({ name: 'A. Customer' }).returning().get();
-	const base = { customerId: c.id, category: 'integrated-amplifier' as const, make: 'Vellum', model: 'IA-1', complaint: 'hum' };
-	ratedJob = db.insert(table.jobs).values({ ...base, ratedPowerW: 100, ratedLoadOhms: 8 }).returning().get().id;
+	const base = {
+		customerId: c.id,
+		category: 'integrated-amplifier' as const,
+		make: 'Vellum',
+		model: 'IA-1',
+		complaint: 'hum'
+	};
+	ratedJob = db
+		.insert(table.jobs)
+		.values({ ...base, ratedPowerW: 100, ratedLoadOhms: 8 })
+		.returning()
+		.get().id;
 	unratedJob = db.insert(table.jobs).values(base).returning().get().id;
 });
 
@@ -40,7 +52,12 @@ function reading(probe: string, seq: number, celsius: number, tOffsetMs = (seq -
 
 describe('creating a run', () => {
 	it('takes the rating and the shop default limits from { preset } alone', () => {
-		db.insert(table.settings).values({ key: 'soakDefaultLimits', value: { ...DEFAULT_SOAK_LIMITS, maxHeatsinkC: 65, maxDiffC: 6, thdnCeilingDb: -50 } }).run();
+		db.insert(table.settings)
+			.values({
+				key: 'soakDefaultLimits',
+				value: { ...DEFAULT_SOAK_LIMITS, maxHeatsinkC: 65, maxDiffC: 6, thdnCeilingDb: -50 }
+			})
+			.run();
 		const { id } = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
 		const d = getRunDetail(db, id);
 		expect(d.run.drivePowerW).toBeCloseTo(12.5, 9); // 100 W / 8
@@ -48,7 +65,13 @@ describe('creating a run', () => {
 		expect(d.run.durationS).toBe(3600);
 		expect(d.run.status).toBe('running');
 		expect(d.run.createdByName).toBe('Tess Tech');
-		expect(d.limits).toEqual({ ...DEFAULT_SOAK_LIMITS, maxHeatsinkC: 65, maxDiffC: 6, thdnCeilingDb: -50, riseWindowS: 60 });
+		expect(d.limits).toEqual({
+			...DEFAULT_SOAK_LIMITS,
+			maxHeatsinkC: 65,
+			maxDiffC: 6,
+			thdnCeilingDb: -50,
+			riseWindowS: 60
+		});
 		// A run may change one limit and keep the shop's others.
 		const other = createRun(db, unratedJob, 'u1', {
 			preset: 'custom',
@@ -84,7 +107,11 @@ describe('creating a run', () => {
 describe('readings', () => {
 	it('stores the same batch once when it is posted twice', () => {
 		const { id } = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
-		const batch = [reading('heatsink-left', 1001, 30), reading('heatsink-right', 1002, 31), reading('transformer', 1003, 28)];
+		const batch = [
+			reading('heatsink-left', 1001, 30),
+			reading('heatsink-right', 1002, 31),
+			reading('transformer', 1003, 28)
+		];
 		const first = addReadings(db, id, batch, 'boot-a');
 		expect(first).toMatchObject({ stored: 3, duplicates: 0, rejected: [], lastSeq: 1003, readingCount: 3 });
 		const again = addReadings(db, id, batch, 'boot-a');
@@ -134,8 +161,12 @@ describe('readings', () => {
 		const { id } = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
 		abortRun(db, id, { reason: 'operator stopped' }, T0 + 5000);
 		expect(() => addReadings(db, id, [reading('ambient', 5, 20)])).toThrow(/has ended/);
-		expect(() => addEvents(db, id, [{ kind: 'thdn', at: T0, detail: { thdnPercent: 0.1 } }])).toThrow(/has ended/);
-		expect(addEvents(db, id, [{ kind: 'note', at: T0 + 6000, detail: { text: 'let it cool' } }]).stored).toBe(1);
+		expect(() => addEvents(db, id, [{ kind: 'thdn', at: T0, detail: { thdnPercent: 0.1 } }])).toThrow(
+			/has ended/
+		);
+		expect(addEvents(db, id, [{ kind: 'note', at: T0 + 6000, detail: { text: 'let it cool' } }]).stored).toBe(
+			1
+		);
 	});
 
 	it('stores a keyed event once', () => {
@@ -155,7 +186,13 @@ describe('readings', () => {
 describe('ending a run', () => {
 	// Time scale 60: one wall second is a soak minute, so the 60-minute preset ends after 60 s.
 	function fastRun() {
-		return createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60', bridge: { timeScale: 60, lastSeq: 999 } }, T0).id;
+		return createRun(
+			db,
+			ratedJob,
+			'u1',
+			{ preset: 'eighth-power-60', bridge: { timeScale: 60, lastSeq: 999 } },
+			T0
+		).id;
 	}
 	function heatUp(id: number, peakLeftC: number) {
 		// Per wall second s = 0..60 (soak minute s): left and right rise 0.5 °C/min to 55, left ends at peakLeftC.
@@ -182,7 +219,10 @@ describe('ending a run', () => {
 		expect(d.summary.probes['heatsink-left']).toMatchObject({ maxC: 55, finalC: 55, finalAtS: 3600 });
 		expect(d.summary.steadyStateS).toBeNull(); // still rising 2.5 °C per 5 min at the end
 		expect(() => finishRun(db, id, T0 + 61_000)).toThrow(/already ended/);
-		expect(listRuns(db, ratedJob)[0]).toMatchObject({ verdict: 'passed', maxC: { 'heatsink-left': 55, 'heatsink-right': 55 } });
+		expect(listRuns(db, ratedJob)[0]).toMatchObject({
+			verdict: 'passed',
+			maxC: { 'heatsink-left': 55, 'heatsink-right': 55 }
+		});
 	});
 
 	it('fails a run when the stored readings show a breach the page did not report', () => {
@@ -210,7 +250,10 @@ describe('ending a run', () => {
 		const id = fastRun();
 		heatUp(id, 55);
 		// The page came back late: the unit ran on and reached 90 °C at wall second 70 (soak minute 70).
-		addReadings(db, id, [reading('heatsink-left', 2000, 90, 70_000), reading('heatsink-right', 2001, 90, 70_000)]);
+		addReadings(db, id, [
+			reading('heatsink-left', 2000, 90, 70_000),
+			reading('heatsink-right', 2001, 90, 70_000)
+		]);
 		const d = finishRun(db, id, T0 + 75_000);
 		expect(d.verdict).toBe('passed');
 		expect(d.summary.probes['heatsink-left'].maxC).toBe(55);
@@ -220,7 +263,14 @@ describe('ending a run', () => {
 	it('aborts with the reason, the moment and the breach', () => {
 		const id = fastRun();
 		heatUp(id, 55);
-		const breach = { kind: 'max-heatsink' as const, probe: 'heatsink-left', t: T0 + 42_000, value: 76, limit: 75, message: 'too hot' };
+		const breach = {
+			kind: 'max-heatsink' as const,
+			probe: 'heatsink-left',
+			t: T0 + 42_000,
+			value: 76,
+			limit: 75,
+			message: 'too hot'
+		};
 		const d = abortRun(db, id, { reason: 'Limit breached: too hot', at: T0 + 42_000, breach }, T0 + 43_000);
 		expect(d.verdict).toBe('aborted');
 		expect(d.run.endedAt).toBe(T0 + 42_000);
@@ -237,17 +287,30 @@ describe('a server restart', () => {
 		try {
 			const file = join(dir, 'bench.db');
 			const live = openDb(file);
-			live.insert(table.users).values({ id: 'u1', email: 't@example.com', name: 'T', role: 'technician', passwordHash: 'x' }).run();
+			live
+				.insert(table.users)
+				.values({ id: 'u1', email: 't@example.com', name: 'T', role: 'technician', passwordHash: 'x' })
+				.run();
 			const c = live.insert(table.customers).values({ name: 'C' }).returning().get();
 			const job = live
 				.insert(table.jobs)
-				.values({ customerId: c.id, category: 'receiver', make: 'Vellum', model: 'R-2', complaint: 'hot', ratedPowerW: 50, ratedLoadOhms: 8 })
+				.values({
+					customerId: c.id,
+					category: 'receiver',
+					make: 'Vellum',
+					model: 'R-2',
+					complaint: 'hot',
+					ratedPowerW: 50,
+					ratedLoadOhms: 8
+				})
 				.returning()
 				.get().id;
 			const { id } = createRun(live, job, 'u1', { preset: 'eighth-power-60' }, T0);
 			let acknowledged = 0;
 			for (let b = 0; b < 5; b++) {
-				const batch = Array.from({ length: 100 }, (_, i) => reading('heatsink-left', 10_000 + b * 100 + i, 30 + i / 100));
+				const batch = Array.from({ length: 100 }, (_, i) =>
+					reading('heatsink-left', 10_000 + b * 100 + i, 30 + i / 100)
+				);
 				acknowledged += addReadings(live, id, batch, 'boot-a').stored;
 			}
 			// The process dies here: no close, no checkpoint. Copy the files exactly as they are on disk.

@@ -26,7 +26,13 @@ import {
 	type SoakSummary,
 	type ThdnSample
 } from '$lib/soak/verdict';
-import type { SoakEventView, SoakRunDetail, SoakRunListItem, SoakRunView, SoakVerdict } from '$lib/soak/types';
+import type {
+	SoakEventView,
+	SoakRunDetail,
+	SoakRunListItem,
+	SoakRunView,
+	SoakVerdict
+} from '$lib/soak/types';
 export type { SoakEventView, SoakRunDetail, SoakRunListItem, SoakRunView, SoakVerdict };
 
 export type SoakErrorCode = 'not-found' | 'no-rating' | 'not-running' | 'already-running' | 'too-early';
@@ -136,7 +142,12 @@ export const eventSchema = z.discriminatedUnion('kind', [
 		})
 		.strict(),
 	z
-		.object({ kind: z.literal('note'), at, key, detail: z.object({ text: z.string().min(1).max(1000) }).strict() })
+		.object({
+			kind: z.literal('note'),
+			at,
+			key,
+			detail: z.object({ text: z.string().min(1).max(1000) }).strict()
+		})
 		.strict()
 ]);
 export type SoakEventInput = z.infer<typeof eventSchema>;
@@ -235,7 +246,11 @@ function thdnSamples(db: Tx, runId: number): ThdnSample[] {
 	for (const r of rows) {
 		const d = r.detail as { thdnPercent?: unknown; channel?: unknown } | null;
 		if (d && typeof d.thdnPercent === 'number')
-			out.push({ t: r.at.getTime(), thdnPercent: d.thdnPercent, channel: typeof d.channel === 'string' ? d.channel : undefined });
+			out.push({
+				t: r.at.getTime(),
+				thdnPercent: d.thdnPercent,
+				channel: typeof d.channel === 'string' ? d.channel : undefined
+			});
 	}
 	return out;
 }
@@ -270,11 +285,21 @@ function readingStats(db: Tx, runId: number): { count: number; lastSeq: number |
 // ── service ──────────────────────────────────────────────────────────────────
 
 /** Start a run on a job. One running soak per job at a time. */
-export function createRun(db: Db, jobId: number, userId: string, input: CreateRunInput, nowMs = Date.now()): { id: number } {
+export function createRun(
+	db: Db,
+	jobId: number,
+	userId: string,
+	input: CreateRunInput,
+	nowMs = Date.now()
+): { id: number } {
 	const data = createRunSchema.parse(input);
 	const job = getJob(db, jobId);
 	if (!job) throw new SoakError('No such job', 'not-found');
-	const drive = computeDrive(data.preset, { ratedPowerW: job.ratedPowerW, ratedLoadOhms: job.ratedLoadOhms }, data.custom);
+	const drive = computeDrive(
+		data.preset,
+		{ ratedPowerW: job.ratedPowerW, ratedLoadOhms: job.ratedLoadOhms },
+		data.custom
+	);
 	if (!drive.ok) throw new SoakError(drive.message, 'no-rating');
 	const limits = runLimits(getSetting(db, 'soakDefaultLimits'), data.limits ?? {});
 	return db.transaction((tx) => {
@@ -283,7 +308,8 @@ export function createRun(db: Db, jobId: number, userId: string, input: CreateRu
 			.from(table.soakRuns)
 			.where(and(eq(table.soakRuns.jobId, jobId), eq(table.soakRuns.status, 'running')))
 			.get();
-		if (running) throw new SoakError(`Soak run ${running.id} is still running on this job`, 'already-running');
+		if (running)
+			throw new SoakError(`Soak run ${running.id} is still running on this job`, 'already-running');
 		const row = tx
 			.insert(table.soakRuns)
 			.values({
@@ -346,8 +372,15 @@ export function listRuns(db: Db, jobId: number, thumbPoints = 48): SoakRunListIt
 			(probes[a.probe] ??= buckets.map(() => null))[index.get(a.bucket) as number] = a.meanC;
 			maxC[a.probe] = Math.max(maxC[a.probe] ?? -Infinity, a.maxC);
 		}
-		const minutes = buckets.map((b) => soakSeconds(startedAtMs + (b + 0.5) * bucketMs, { startedAtMs, timeScale: view.timeScale }) / 60);
-		return { run: view, verdict: view.status === 'running' ? null : view.status, maxC, thumb: { minutes, probes } };
+		const minutes = buckets.map(
+			(b) => soakSeconds(startedAtMs + (b + 0.5) * bucketMs, { startedAtMs, timeScale: view.timeScale }) / 60
+		);
+		return {
+			run: view,
+			verdict: view.status === 'running' ? null : view.status,
+			maxC,
+			thumb: { minutes, probes }
+		};
 	});
 }
 
@@ -363,7 +396,12 @@ export function getRunDetail(db: Db, runId: number): SoakRunDetail {
 	const stats = readingStats(db, runId);
 	const stored = row.summary as SoakSummary | null;
 	const events = db
-		.select({ id: table.soakEvents.id, kind: table.soakEvents.kind, at: table.soakEvents.at, detail: table.soakEvents.detail })
+		.select({
+			id: table.soakEvents.id,
+			kind: table.soakEvents.kind,
+			at: table.soakEvents.at,
+			detail: table.soakEvents.detail
+		})
 		.from(table.soakEvents)
 		.where(eq(table.soakEvents.runId, runId))
 		.orderBy(asc(table.soakEvents.at), asc(table.soakEvents.id))
@@ -411,14 +449,21 @@ export interface AddReadingsResult {
 	readingCount: number;
 }
 
-function checkReading(raw: unknown, probes: ReadonlySet<string>): { ok: true } | { ok: false; reason: string } {
-	if (typeof raw !== 'object' || raw === null || Array.isArray(raw)) return { ok: false, reason: 'not an object' };
+function checkReading(
+	raw: unknown,
+	probes: ReadonlySet<string>
+): { ok: true } | { ok: false; reason: string } {
+	if (typeof raw !== 'object' || raw === null || Array.isArray(raw))
+		return { ok: false, reason: 'not an object' };
 	const r = raw as Record<string, unknown>;
-	if (typeof r.probe !== 'string' || !probes.has(r.probe)) return { ok: false, reason: `unknown probe ${JSON.stringify(r.probe)}` };
+	if (typeof r.probe !== 'string' || !probes.has(r.probe))
+		return { ok: false, reason: `unknown probe ${JSON.stringify(r.probe)}` };
 	if (typeof r.seq !== 'number' || !Number.isSafeInteger(r.seq) || r.seq < 0)
 		return { ok: false, reason: 'seq must be a non-negative integer' };
-	if (typeof r.t !== 'number' || !Number.isFinite(r.t) || r.t < 0) return { ok: false, reason: 't must be ms since the epoch' };
-	if (typeof r.celsius !== 'number' || !Number.isFinite(r.celsius)) return { ok: false, reason: 'celsius is not a number' };
+	if (typeof r.t !== 'number' || !Number.isFinite(r.t) || r.t < 0)
+		return { ok: false, reason: 't must be ms since the epoch' };
+	if (typeof r.celsius !== 'number' || !Number.isFinite(r.celsius))
+		return { ok: false, reason: 'celsius is not a number' };
 	if (r.celsius < CELSIUS_MIN || r.celsius > CELSIUS_MAX)
 		return { ok: false, reason: `celsius ${r.celsius} out of range (${CELSIUS_MIN} to ${CELSIUS_MAX} °C)` };
 	if (r.bootId !== undefined && r.bootId !== null && (typeof r.bootId !== 'string' || r.bootId.length > 64))
@@ -431,10 +476,16 @@ function checkReading(raw: unknown, probes: ReadonlySet<string>): { ok: true } |
  * so a repeated upload is harmless) even when others in the batch are rejected; the rejected
  * ones are named in the answer. A run that has ended takes no more readings.
  */
-export function addReadings(db: Db, runId: number, readings: readonly unknown[], batchBootId?: string): AddReadingsResult {
+export function addReadings(
+	db: Db,
+	runId: number,
+	readings: readonly unknown[],
+	batchBootId?: string
+): AddReadingsResult {
 	return db.transaction((tx) => {
 		const row = getRow(tx, runId);
-		if (row.status !== 'running') throw new SoakError(`The run has ended (${row.status}); it takes no more readings`, 'not-running');
+		if (row.status !== 'running')
+			throw new SoakError(`The run has ended (${row.status}); it takes no more readings`, 'not-running');
 		const probes = new Set(row.probes as string[]);
 		const rejected: RejectedReading[] = [];
 		const valid: (typeof table.soakReadings.$inferInsert)[] = [];
@@ -464,7 +515,13 @@ export function addReadings(db: Db, runId: number, readings: readonly unknown[],
 			stored += res.changes;
 		}
 		const stats = readingStats(tx, runId);
-		return { stored, duplicates: valid.length - stored, rejected, lastSeq: stats.lastSeq, readingCount: stats.count };
+		return {
+			stored,
+			duplicates: valid.length - stored,
+			rejected,
+			lastSeq: stats.lastSeq,
+			readingCount: stats.count
+		};
 	});
 }
 
@@ -497,7 +554,11 @@ export function readingsAfter(
  * Record events. A `key` makes a retried upload harmless (same run, kind and key is stored
  * once). THD+N samples count toward the verdict, so they are refused once the run has ended.
  */
-export function addEvents(db: Db, runId: number, events: readonly SoakEventInput[]): { stored: number; duplicates: number } {
+export function addEvents(
+	db: Db,
+	runId: number,
+	events: readonly SoakEventInput[]
+): { stored: number; duplicates: number } {
 	return db.transaction((tx) => {
 		const row = getRow(tx, runId);
 		if (row.status !== 'running' && events.some((e) => e.kind === 'thdn' || e.kind === 'gap'))
@@ -519,7 +580,12 @@ export function addEvents(db: Db, runId: number, events: readonly SoakEventInput
 				if (dup) continue;
 			}
 			tx.insert(table.soakEvents)
-				.values({ runId, kind: e.kind, at: new Date(e.at), detail: e.key ? { ...e.detail, key: e.key } : e.detail })
+				.values({
+					runId,
+					kind: e.kind,
+					at: new Date(e.at),
+					detail: e.key ? { ...e.detail, key: e.key } : e.detail
+				})
 				.run();
 			stored++;
 		}
@@ -528,7 +594,10 @@ export function addEvents(db: Db, runId: number, events: readonly SoakEventInput
 }
 
 /** Seconds of soak time the run still needs, by the server's clock. */
-export function remainingS(run: Pick<SoakRunView, 'startedAt' | 'timeScale' | 'durationS'>, nowMs = Date.now()): number {
+export function remainingS(
+	run: Pick<SoakRunView, 'startedAt' | 'timeScale' | 'durationS'>,
+	nowMs = Date.now()
+): number {
 	return run.durationS - soakSeconds(nowMs, { startedAtMs: run.startedAt, timeScale: run.timeScale });
 }
 
@@ -539,11 +608,18 @@ export function remainingS(run: Pick<SoakRunView, 'startedAt' | 'timeScale' | 'd
 export function finishRun(db: Db, runId: number, nowMs = Date.now()): SoakRunDetail {
 	db.transaction((tx) => {
 		const row = getRow(tx, runId);
-		if (row.status !== 'running') throw new SoakError(`The run has already ended (${row.status})`, 'not-running');
+		if (row.status !== 'running')
+			throw new SoakError(`The run has already ended (${row.status})`, 'not-running');
 		// Two wall-clock seconds of slack for the page's and the server's clocks.
-		const left = remainingS({ startedAt: row.startedAt.getTime(), timeScale: row.timeScale, durationS: row.durationS }, nowMs);
+		const left = remainingS(
+			{ startedAt: row.startedAt.getTime(), timeScale: row.timeScale, durationS: row.durationS },
+			nowMs
+		);
 		if (left > 2 * row.timeScale)
-			throw new SoakError(`The run has ${Math.ceil(left / 60)} min of soak time left; abort it to stop early`, 'too-early');
+			throw new SoakError(
+				`The run has ${Math.ceil(left / 60)} min of soak time left; abort it to stop early`,
+				'too-early'
+			);
 		const summary = computeSummary(tx, row, { untilMs: plannedEndMs(row), complete: true });
 		tx.update(table.soakRuns)
 			.set({ status: verdictOf(summary), endedAt: new Date(nowMs), summary })
@@ -558,7 +634,8 @@ export function abortRun(db: Db, runId: number, input: AbortInput, nowMs = Date.
 	const data = abortSchema.parse(input);
 	db.transaction((tx) => {
 		const row = getRow(tx, runId);
-		if (row.status !== 'running') throw new SoakError(`The run has already ended (${row.status})`, 'not-running');
+		if (row.status !== 'running')
+			throw new SoakError(`The run has already ended (${row.status})`, 'not-running');
 		// The moment may not precede the start nor lie in the future.
 		const endedAtMs = Math.min(nowMs, Math.max(row.startedAt.getTime(), data.at ?? nowMs));
 		const summary = computeSummary(tx, row, { untilMs: endedAtMs, complete: false });

@@ -18,12 +18,18 @@ export const soakLimitsSchema = shopSoakLimitsSchema.extend({
 	riseWindowS: riseWindowS.default(60)
 });
 /** What a run may change from the shop defaults; no defaults here, so an absent field keeps the shop's value. */
-export const soakLimitsPatchSchema = shopSoakLimitsSchema.extend({ thdnCeilingDb, riseWindowS }).partial().strict();
+export const soakLimitsPatchSchema = shopSoakLimitsSchema
+	.extend({ thdnCeilingDb, riseWindowS })
+	.partial()
+	.strict();
 export type SoakLimits = z.infer<typeof soakLimitsSchema>;
 export type { ShopSoakLimits };
 
 /** A run's limits: the shop's defaults with whatever the technician changed for this run. */
-export function runLimits(shop: ShopSoakLimits = DEFAULT_SOAK_LIMITS, overrides: z.infer<typeof soakLimitsPatchSchema> = {}): SoakLimits {
+export function runLimits(
+	shop: ShopSoakLimits = DEFAULT_SOAK_LIMITS,
+	overrides: z.infer<typeof soakLimitsPatchSchema> = {}
+): SoakLimits {
 	const defined = Object.fromEntries(Object.entries(overrides).filter(([, v]) => v !== undefined));
 	return soakLimitsSchema.parse({ ...shop, ...defined });
 }

@@ -97,9 +97,14 @@ function hasRating(x: number | null | undefined): x is number {
  */
 export function computeDrive(preset: SoakPresetId, rating: JobRating, custom?: CustomDrive): DriveResult {
 	if (preset === 'custom') {
-		if (!custom) return { ok: false, message: 'A custom soak needs its drive (watts or volts, load, frequency, duration)' };
+		if (!custom)
+			return {
+				ok: false,
+				message: 'A custom soak needs its drive (watts or volts, load, frequency, duration)'
+			};
 		const loadOhms = custom.loadOhms ?? rating.ratedLoadOhms;
-		if (!hasRating(loadOhms)) return { ok: false, message: 'Give the load in ohms: the job has no rated load' };
+		if (!hasRating(loadOhms))
+			return { ok: false, message: 'Give the load in ohms: the job has no rated load' };
 		const drivePowerW = custom.watts ?? wattsIntoLoad(custom.volts as number, loadOhms);
 		const driveVrms = custom.volts ?? vrmsForWatts(custom.watts as number, loadOhms);
 		return {

@@ -11,7 +11,11 @@ const T0 = 1_700_000_000_000;
 const clock = { startedAtMs: T0, timeScale: 1 };
 
 /** One reading per minute of soak time (timeScale 1: 60 000 ms apart), seq shared per minute. */
-function perMinute(probe: string, temps: number[], opts: { seqBase?: number; msPerStep?: number } = {}): SoakReadingIn[] {
+function perMinute(
+	probe: string,
+	temps: number[],
+	opts: { seqBase?: number; msPerStep?: number } = {}
+): SoakReadingIn[] {
 	const step = opts.msPerStep ?? 60_000;
 	return temps.map((celsius, i) => ({ probe, seq: (opts.seqBase ?? 0) + i + 1, t: T0 + i * step, celsius }));
 }
@@ -84,7 +88,11 @@ describe('temperature units', () => {
 
 describe('run limits from the shop setting', () => {
 	it('takes the shop defaults and the changes made for this run', () => {
-		expect(runLimits(DEFAULT_SOAK_LIMITS)).toEqual({ ...DEFAULT_SOAK_LIMITS, thdnCeilingDb: null, riseWindowS: 60 });
+		expect(runLimits(DEFAULT_SOAK_LIMITS)).toEqual({
+			...DEFAULT_SOAK_LIMITS,
+			thdnCeilingDb: null,
+			riseWindowS: 60
+		});
 		const l = runLimits(DEFAULT_SOAK_LIMITS, { maxHeatsinkC: 80, thdnCeilingDb: -40, maxDiffC: undefined });
 		expect(l).toMatchObject({ maxHeatsinkC: 80, thdnCeilingDb: -40, maxDiffC: DEFAULT_SOAK_LIMITS.maxDiffC });
 		expect(() => runLimits(DEFAULT_SOAK_LIMITS, { maxHeatsinkC: -5 })).toThrow();
@@ -108,11 +116,21 @@ describe('breaches', () => {
 
 	it('rise rate over a two-minute window averages', () => {
 		// window 120 s: minute 2 (29−25)/2 = 2, minute 3 (33−27)/2 = 3, minute 4 (40−29)/2 = 5.5 > 5.
-		const b = findBreaches(perMinute('heatsink-left', [25, 27, 29, 33, 40]), { ...limits, riseWindowS: 120 }, clock);
+		const b = findBreaches(
+			perMinute('heatsink-left', [25, 27, 29, 33, 40]),
+			{ ...limits, riseWindowS: 120 },
+			clock
+		);
 		expect(b.map((x) => [x.kind, x.atS])).toEqual([['rise-rate', 240]]);
 		expect(b[0].value).toBeCloseTo(5.5, 9);
 		// A 6 °C/min limit is not crossed by 5.5.
-		expect(findBreaches(perMinute('heatsink-left', [25, 27, 29, 33, 40]), { ...limits, riseWindowS: 120, maxRiseCPerMin: 6 }, clock)).toEqual([]);
+		expect(
+			findBreaches(
+				perMinute('heatsink-left', [25, 27, 29, 33, 40]),
+				{ ...limits, riseWindowS: 120, maxRiseCPerMin: 6 },
+				clock
+			)
+		).toEqual([]);
 	});
 
 	it('judges rise rate in soak time when the simulator runs 60× faster', () => {
@@ -141,12 +159,17 @@ describe('breaches', () => {
 			...perMinute('transformer', [88, 89, 90, 90])
 		];
 		const b = findBreaches(readings, { ...limits, maxRiseCPerMin: 50 }, clock);
-		expect(b.map((x) => [x.kind, x.probe, x.atS, x.value])).toEqual([['max-heatsink', 'heatsink-right', 120, 76]]);
+		expect(b.map((x) => [x.kind, x.probe, x.atS, x.value])).toEqual([
+			['max-heatsink', 'heatsink-right', 120, 76]
+		]);
 	});
 
 	it('left/right difference', () => {
 		// diffs per minute: |40−40| = 0, |45−41| = 4, |50−39.5| = 10.5 > 10 at minute 2.
-		const readings = [...perMinute('heatsink-left', [40, 45, 50]), ...perMinute('heatsink-right', [40, 41, 39.5])];
+		const readings = [
+			...perMinute('heatsink-left', [40, 45, 50]),
+			...perMinute('heatsink-right', [40, 41, 39.5])
+		];
 		const b = findBreaches(readings, { ...limits, maxRiseCPerMin: 50 }, clock);
 		expect(b).toHaveLength(1);
 		expect(b[0].kind).toBe('left-right');
@@ -179,13 +202,20 @@ describe('steady state', () => {
 		// left: window from minute 5 spans 40.5..41.2 = 0.7 (ok), from minute 4 spans 40..41.2 = 1.2 (no).
 		// transformer: from minute 5 spans 30..31.2 = 1.2 (no), from minute 6 spans 30.5..31.2 = 0.7 (ok).
 		// Both hold first from minute 6 → 360 s.
-		const readings = [...perMinute('heatsink-left', left), ...perMinute('transformer', trafo), ...perMinute('ambient', ambient)];
+		const readings = [
+			...perMinute('heatsink-left', left),
+			...perMinute('transformer', trafo),
+			...perMinute('ambient', ambient)
+		];
 		expect(steadyStateS(readings, clock)).toBe(360);
 	});
 
 	it('needs the whole window covered by data', () => {
 		// Data to minute 10 only: the window from minute 6 would end at minute 11, so not yet.
-		const readings = [...perMinute('heatsink-left', left.slice(0, 11)), ...perMinute('transformer', trafo.slice(0, 11))];
+		const readings = [
+			...perMinute('heatsink-left', left.slice(0, 11)),
+			...perMinute('transformer', trafo.slice(0, 11))
+		];
 		expect(steadyStateS(readings, clock)).toBeNull();
 		// With a 2 °C band the left probe settles from minute 3 (39..41.1 = 2.1 no) → minute 4 (40..41.2 = 1.2)
 		// and the transformer from minute 4 (29..31.1 = 2.1 no) → minute 5 (30..31.2 = 1.2): 300 s.
@@ -199,7 +229,12 @@ describe('steady state across a gap', () => {
 		// then 41 flat from minute 12 to 20. Readings are a minute apart, so a hole is > 3 minutes.
 		const mins = [0, 1, 2, 3, 4, 12, 13, 14, 15, 16, 17, 18, 19, 20];
 		const temps = [30, 35, 38, 39.5, 40, 41, 41, 41, 41, 41, 41, 41, 41, 41];
-		const readings = mins.map((m, i) => ({ probe: 'heatsink-left', seq: i + 1, t: T0 + m * 60_000, celsius: temps[i] }));
+		const readings = mins.map((m, i) => ({
+			probe: 'heatsink-left',
+			seq: i + 1,
+			t: T0 + m * 60_000,
+			celsius: temps[i]
+		}));
 		// Window from minute 3 (39.5..40 before the hole, 41 after) would look steady to a band of
 		// 1.5 °C if the hole were ignored; it reaches minute 8 with its last reading at minute 4.
 		// The first window without a hole is from minute 12 (41..41): 720 s.
@@ -225,11 +260,29 @@ describe('gaps, summary and verdict', () => {
 	});
 
 	it('summarises max and final per probe and decides the verdict', () => {
-		const readings = [...perMinute('heatsink-left', [30, 45, 52, 50]), ...perMinute('heatsink-right', [30, 44, 49, 51])];
-		const thdn = [{ t: T0 + 60_000, thdnPercent: 0.02 }, { t: T0 + 180_000, thdnPercent: 0.03 }];
+		const readings = [
+			...perMinute('heatsink-left', [30, 45, 52, 50]),
+			...perMinute('heatsink-right', [30, 44, 49, 51])
+		];
+		const thdn = [
+			{ t: T0 + 60_000, thdnPercent: 0.02 },
+			{ t: T0 + 180_000, thdnPercent: 0.03 }
+		];
 		const s = summarize(readings, { ...limits, maxRiseCPerMin: 20 }, clock, thdn);
-		expect(s.probes['heatsink-left']).toEqual({ maxC: 52, maxAtS: 120, finalC: 50, finalAtS: 180, readings: 4 });
-		expect(s.probes['heatsink-right']).toEqual({ maxC: 51, maxAtS: 180, finalC: 51, finalAtS: 180, readings: 4 });
+		expect(s.probes['heatsink-left']).toEqual({
+			maxC: 52,
+			maxAtS: 120,
+			finalC: 50,
+			finalAtS: 180,
+			readings: 4
+		});
+		expect(s.probes['heatsink-right']).toEqual({
+			maxC: 51,
+			maxAtS: 180,
+			finalC: 51,
+			finalAtS: 180,
+			readings: 4
+		});
 		expect(s.thdnEndPercent).toBe(0.03); // the last sample, at minute 3
 		expect(s.coveredS).toBe(180);
 		expect(verdictOf(s)).toBe('passed');
@@ -245,6 +298,8 @@ describe('gaps, summary and verdict', () => {
 		expect(short.incomplete).toBe(true);
 		expect(verdictOf(short)).toBe('failed');
 		// Planned 5 minutes: 180 ≥ 300 − 180, within three readings of the end → complete.
-		expect(summarize(readings, { ...limits, maxRiseCPerMin: 20 }, clock, thdn, { durationS: 300 }).incomplete).toBe(false);
+		expect(
+			summarize(readings, { ...limits, maxRiseCPerMin: 20 }, clock, thdn, { durationS: 300 }).incomplete
+		).toBe(false);
 	});
 });

@@ -54,4 +54,3 @@ export interface SoakRunListItem {
 	/** A small chart: soak minutes and mean °C per probe in up to `thumbPoints` buckets. */
 	thumb: { minutes: number[]; probes: Record<string, (number | null)[]> };
 }
-

@@ -240,7 +240,11 @@ export function steadyStateS(
 			let lo = Infinity;
 			let hi = -Infinity;
 			let prevS = start;
-			for (let i = Math.max(0, lastAtOrBefore(list, start - 1e-9) + 1); i < list.length && list[i].s <= end; i++) {
+			for (
+				let i = Math.max(0, lastAtOrBefore(list, start - 1e-9) + 1);
+				i < list.length && list[i].s <= end;
+				i++
+			) {
 				if (list[i].s - prevS > maxSpacingS) break;
 				prevS = list[i].s;
 				lo = Math.min(lo, list[i].c);
@@ -273,7 +277,8 @@ export interface Gap {
  */
 export function findGaps(readings: readonly SoakReadingIn[], silenceMs = 10_000): Gap[] {
 	const ticks = new Map<number, SoakReadingIn>();
-	for (const r of readings) if (!ticks.has(r.seq) || r.t > (ticks.get(r.seq) as SoakReadingIn).t) ticks.set(r.seq, r);
+	for (const r of readings)
+		if (!ticks.has(r.seq) || r.t > (ticks.get(r.seq) as SoakReadingIn).t) ticks.set(r.seq, r);
 	const seq = [...ticks.values()].sort((a, b) => a.seq - b.seq);
 	const gaps: Gap[] = [];
 	for (let i = 1; i < seq.length; i++) {
@@ -328,7 +333,10 @@ export interface SummaryOptions {
 /** Median spacing between one probe's readings, soak seconds (0 with fewer than two). */
 function medianIntervalS(byProbe: Map<string, Pt[]>): number {
 	const list = [...byProbe.values()].sort((a, b) => b.length - a.length)[0] ?? [];
-	const d = list.slice(1).map((p, i) => p.s - list[i].s).sort((a, b) => a - b);
+	const d = list
+		.slice(1)
+		.map((p, i) => p.s - list[i].s)
+		.sort((a, b) => a - b);
 	return d.length ? d[Math.floor(d.length / 2)] : 0;
 }
 
@@ -353,7 +361,8 @@ export function summarize(
 	const lastThdn = [...thdn].sort((a, b) => a.t - b.t).at(-1);
 	// A few readings' worth of slack (at least a minute) for where the last reading falls.
 	const slackS = Math.max(60, 3 * medianIntervalS(byProbe));
-	const incomplete = options.durationS !== undefined && (readings.length === 0 || coveredS < options.durationS - slackS);
+	const incomplete =
+		options.durationS !== undefined && (readings.length === 0 || coveredS < options.durationS - slackS);
 	return {
 		probes,
 		steadyStateS: steadyStateS(readings, clock, criterion),

@@ -5,7 +5,15 @@
 import type { BridgeLink, RestartEvent, TempsEvent } from './bridge-link.svelte';
 import { SoakAlarmSound } from './soak-alarm';
 import { GENERATOR_MAX_VRMS, type HelloMessage } from '$lib/bridge/protocol';
-import { findBreaches, findGaps, soakSeconds, type Breach, type Gap, type SoakReadingIn, type ThdnSample } from '$lib/soak/verdict';
+import {
+	findBreaches,
+	findGaps,
+	soakSeconds,
+	type Breach,
+	type Gap,
+	type SoakReadingIn,
+	type ThdnSample
+} from '$lib/soak/verdict';
 import type { SoakRunDetail, SoakRunView } from '$lib/soak/types';
 import type { CustomDrive, SoakPresetId } from '$lib/soak/presets';
 import type { SoakLimits } from '$lib/soak/limits';
@@ -281,7 +289,11 @@ export class SoakSession {
 			preset: params.preset,
 			...(params.preset === 'custom' ? { custom: params.custom } : {}),
 			limits: params.limits,
-			bridge: { bootId: hello.bootId, lastSeq: this.#link.lastTempSeq ?? hello.lastTempSeq, timeScale: hello.timeScale }
+			bridge: {
+				bootId: hello.bootId,
+				lastSeq: this.#link.lastTempSeq ?? hello.lastTempSeq,
+				timeScale: hello.timeScale
+			}
 		}).catch(() => null);
 		if (!res || !res.ok) {
 			this.#error = res ? await messageOf(res) : 'The server did not answer; nothing was started';
@@ -353,7 +365,12 @@ export class SoakSession {
 		const run = this.run;
 		if (this.#analysis || !run || typeof Worker === 'undefined') return;
 		// A soak needs level, power and THD+N a couple of times a second, not a fast spectrum.
-		const a = new LiveAnalysis(this.#link, { fftSize: 16384, maxUpdatesPerS: 2, loadOhms: run.loadOhms, channels: 'both' });
+		const a = new LiveAnalysis(this.#link, {
+			fftSize: 16384,
+			maxUpdatesPerS: 2,
+			loadOhms: run.loadOhms,
+			channels: 'both'
+		});
 		this.#unsubs.push(a.onResult((r) => this.#onAnalysis(r)));
 		a.start();
 		this.#analysis = a;
@@ -381,7 +398,12 @@ export class SoakSession {
 		const last = known.at(-1);
 		// After a reload the link has no history: a different boot than our last reading is a restart we slept through.
 		if (!this.#helloSeen && last && last.bootId && last.bootId !== h.bootId) {
-			this.#onRestart({ kind: 'restart', previousBootId: last.bootId, bootId: h.bootId, lastTempSeq: last.seq });
+			this.#onRestart({
+				kind: 'restart',
+				previousBootId: last.bootId,
+				bootId: h.bootId,
+				lastTempSeq: last.seq
+			});
 		}
 		this.#helloSeen = true;
 		const run = this.run;
@@ -420,7 +442,13 @@ export class SoakSession {
 			if (run.startSeq !== null ? r.seq <= run.startSeq : r.t < run.startedAt) continue;
 			const k = key(r);
 			if (this.#all.has(k)) continue;
-			const stored: StoredReading = { probe: r.probe, seq: r.seq, t: r.t, celsius: r.celsius, bootId: e.bootId };
+			const stored: StoredReading = {
+				probe: r.probe,
+				seq: r.seq,
+				t: r.t,
+				celsius: r.celsius,
+				bootId: e.bootId
+			};
 			this.#all.set(k, stored);
 			if (!this.#endedOnServer()) this.#pending.set(k, stored);
 			added++;
@@ -501,7 +529,12 @@ export class SoakSession {
 		this.#lastOffSentAt = Date.now();
 		const sent = this.#link.send({ type: 'generator', generator: { kind: 'off' } });
 		if (sent.ok && this.run) {
-			this.#queueEvent({ kind: 'generator', at: Date.now(), key: `off:${this.#lastOffSentAt}`, detail: { state: 'off' } });
+			this.#queueEvent({
+				kind: 'generator',
+				at: Date.now(),
+				key: `off:${this.#lastOffSentAt}`,
+				detail: { state: 'off' }
+			});
 		}
 	}
 
@@ -516,7 +549,9 @@ export class SoakSession {
 		const m = this.#measured;
 		if (!run || !m || !this.#wantDrive || this.#link.generator?.kind !== 'sine') return;
 		if (Date.now() - this.#lastServoAt < 1500 || Date.now() - this.#lastDriveSentAt < 1500) return;
-		const driven = run.channels.map((c) => m.levelVrms[c === 'left' ? 0 : 1]).filter((v): v is number => v !== null);
+		const driven = run.channels
+			.map((c) => m.levelVrms[c === 'left' ? 0 : 1])
+			.filter((v): v is number => v !== null);
 		if (!driven.length) return;
 		const measured = driven.reduce((a, b) => a + b, 0) / driven.length;
 		if (measured < 1e-3) return;
@@ -539,7 +574,12 @@ export class SoakSession {
 		if (!run || !m || !this.#wantDrive || this.#phase !== 'running') return;
 		if (!this.onTarget) return;
 		const values = run.channels
-			.map((c) => ({ channel: c, thdn: m.thdnPercent[c === 'left' ? 0 : 1], powerW: m.powerW[c === 'left' ? 0 : 1], vrms: m.levelVrms[c === 'left' ? 0 : 1] }))
+			.map((c) => ({
+				channel: c,
+				thdn: m.thdnPercent[c === 'left' ? 0 : 1],
+				powerW: m.powerW[c === 'left' ? 0 : 1],
+				vrms: m.levelVrms[c === 'left' ? 0 : 1]
+			}))
 			.filter((v) => v.thdn !== null);
 		if (!values.length) return;
 		const worst = values.reduce((a, b) => ((b.thdn as number) > (a.thdn as number) ? b : a));
@@ -552,7 +592,13 @@ export class SoakSession {
 		if (over) this.#checkLimits();
 	}
 
-	#recordThdn(t: number, channel: string, thdnPercent: number, outputW: number | null, outputVrms: number | null): void {
+	#recordThdn(
+		t: number,
+		channel: string,
+		thdnPercent: number,
+		outputW: number | null,
+		outputVrms: number | null
+	): void {
 		this.#thdn.push({ t, thdnPercent, channel });
 		this.#queueEvent({
 			kind: 'thdn',
@@ -567,7 +613,9 @@ export class SoakSession {
 		const run = this.run;
 		const m = this.#measured;
 		if (!run || !m) return false;
-		const driven = run.channels.map((c) => m.levelVrms[c === 'left' ? 0 : 1]).filter((v): v is number => v !== null);
+		const driven = run.channels
+			.map((c) => m.levelVrms[c === 'left' ? 0 : 1])
+			.filter((v): v is number => v !== null);
 		if (!driven.length) return false;
 		const measured = driven.reduce((a, b) => a + b, 0) / driven.length;
 		return Math.abs(measured / run.driveVrms - 1) <= LEVEL_TOLERANCE * 2;
@@ -579,7 +627,12 @@ export class SoakSession {
 		const run = this.run;
 		const limits = this.limits;
 		if (!run || !limits || this.#phase !== 'running' || this.#ending || this.#breach) return;
-		const breaches = findBreaches(this.readings(), limits, { startedAtMs: run.startedAt, timeScale: run.timeScale }, this.#thdn);
+		const breaches = findBreaches(
+			this.readings(),
+			limits,
+			{ startedAtMs: run.startedAt, timeScale: run.timeScale },
+			this.#thdn
+		);
 		if (breaches.length) this.#onBreach(breaches[0]);
 	}
 
@@ -614,7 +667,8 @@ export class SoakSession {
 		await this.#awaitBridgeHandover();
 		await this.#flush();
 		const url = `/api/soak-runs/${run.id}/${action.kind}`;
-		const body = action.kind === 'abort' ? { reason: action.reason, at: action.at, breach: action.breach } : {};
+		const body =
+			action.kind === 'abort' ? { reason: action.reason, at: action.at, breach: action.breach } : {};
 		for (;;) {
 			if (this.#disposed) return;
 			const res = await postJson(url, body).catch(() => null);
@@ -681,7 +735,9 @@ export class SoakSession {
 		try {
 			if (this.#pending.size) {
 				const batch = [...this.#pending.values()].sort((a, b) => a.seq - b.seq).slice(0, UPLOAD_BATCH);
-				const res = await postJson(`/api/soak-runs/${run.id}/readings`, { readings: batch }).catch(() => null);
+				const res = await postJson(`/api/soak-runs/${run.id}/readings`, { readings: batch }).catch(
+					() => null
+				);
 				if (res && (res.ok || res.status === 400 || res.status === 409)) {
 					// 200: stored or already there. 400: the valid ones are stored, the rest never can be.
 					// 409: the run has ended, nothing more can be stored. Either way this batch is settled.
@@ -746,7 +802,10 @@ export class SoakSession {
 	// ── server reads ─────────────────────────────────────────────────────────
 
 	async #fetchDetail(runId: number, fatal = true): Promise<SoakRunDetail | null> {
-		const res = await fetch(`/api/soak-runs/${runId}`, { headers: { accept: 'application/json' }, cache: 'no-store' }).catch(() => null);
+		const res = await fetch(`/api/soak-runs/${runId}`, {
+			headers: { accept: 'application/json' },
+			cache: 'no-store'
+		}).catch(() => null);
 		if (!res || !res.ok) {
 			if (fatal) {
 				this.#error = res ? await messageOf(res) : 'The server did not answer';
@@ -761,7 +820,9 @@ export class SoakSession {
 		let after = -1;
 		const latest: Record<string, StoredReading> = {};
 		for (;;) {
-			const res = await fetch(`/api/soak-runs/${runId}/readings?after=${after}&limit=20000`, { cache: 'no-store' }).catch(() => null);
+			const res = await fetch(`/api/soak-runs/${runId}/readings?after=${after}&limit=20000`, {
+				cache: 'no-store'
+			}).catch(() => null);
 			if (!res || !res.ok) break;
 			const page = (await res.json()) as { readings: StoredReading[]; lastSeq: number | null; more: boolean };
 			for (const r of page.readings) {
