@@ -118,7 +118,10 @@ export class SoakSession {
 	readonly #link: BridgeLink;
 	readonly #jobId: number;
 	readonly #alarm = new SoakAlarmSound();
+	// Deliberately not reactive: thousands of readings; views follow the `version` counter instead.
+	// eslint-disable-next-line svelte/prefer-svelte-reactivity
 	#all = new Map<string, StoredReading>();
+	// eslint-disable-next-line svelte/prefer-svelte-reactivity
 	#pending = new Map<string, StoredReading>();
 	#events: PendingEvent[] = [];
 	#thdn: ThdnSample[] = [];
@@ -433,6 +436,8 @@ export class SoakSession {
 		if (e.backfill && e.complete !== false) this.#backfillOutstanding = false;
 		const run = this.run;
 		if (!run || (this.#phase !== 'running' && this.#phase !== 'ending')) return;
+		// A lookup local to this call, not state.
+		// eslint-disable-next-line svelte/prefer-svelte-reactivity
 		const probes = new Set(run.probes);
 		let added = 0;
 		const latest = { ...this.#latest };

@@ -31,7 +31,8 @@ let analyzers: Analyzer[] = [];
 let analysed: number[] = [];
 let scratch: Float32Array[] = [];
 let trackers: SteadinessTracker[] = [];
-let lastAnalysisAt = -Infinity;
+let lastAnalysisAt = 0;
+let updateBudget = 1;
 /** Samples per incoming frame (the update rate cannot exceed rate / frame size). */
 let frameSamples = 0;
 let trackerCapacity = 0;
@@ -124,7 +125,7 @@ function rebuild(): void {
 	for (let i = 0; i < scopeLen; i++) scopeMs[i] = (i * 1000) / sampleRateHz;
 	axisVersion++;
 	pool.clear();
-	lastAnalysisAt = -Infinity;
+	updateBudget = 1;
 	post({ type: 'axis', version: axisVersion, displayHz: Float64Array.from(xs), scopeMs });
 }
 
@@ -184,9 +185,12 @@ function maybeAnalyse(): void {
 	const s = settings;
 	if (!s || analyzers.length === 0) return;
 	const now = performance.now();
-	if (now - lastAnalysisAt < 1000 / s.maxUpdatesPerS) return;
-	if (written < s.fftSize) return;
+	// A token bucket rather than a minimum gap: frames arriving every 43 ms against a 50 ms gap would
+	// halve the rate; the bucket gives maxUpdatesPerS on average, one result per frame at most.
+	updateBudget = Math.min(1, updateBudget + ((now - lastAnalysisAt) * s.maxUpdatesPerS) / 1000);
 	lastAnalysisAt = now;
+	if (updateBudget < 1 || written < s.fftSize) return;
+	updateBudget -= 1;
 	const t0 = performance.now();
 
 	// The steadiness tracker counts results, not seconds: size it for the results that arrive in the
