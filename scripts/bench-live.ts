@@ -188,7 +188,13 @@ async function main(): Promise<void> {
 		await page.waitForURL(/\/jobs$/);
 
 		await page.goto(`${origin}/jobs/1/bench?fft=${fftSize}`);
-		await page.getByTestId('link-state').filter({ hasText: 'Connected' }).waitFor({ timeout: 30_000 });
+		try {
+			await page.getByTestId('link-state').filter({ hasText: 'Connected' }).waitFor({ timeout: 30_000 });
+		} catch (e) {
+			await page.screenshot({ path: join(tmpdir(), 'bench-live-failure.png') }).catch(() => {});
+			const why = (await page.getByTestId('link-status').textContent({ timeout: 2000 }).catch(() => null)) ?? `page ${page.url()} (screenshot in ${join(tmpdir(), 'bench-live-failure.png')})`;
+			throw new Error(`the page did not connect to the bridge at ${bridgeUrl}: ${why?.replace(/\s+/g, ' ').trim()}`, { cause: e });
+		}
 		await page.getByTestId('gen-kind').selectOption('sine');
 		await page.getByTestId('gen-frequency').fill('1000');
 		await page.getByTestId('gen-level').fill('0.5');

@@ -198,6 +198,8 @@ export const profileInputSchema = z.object({
 	limits: z.array(limitSchema).min(1, 'Add at least one limit').max(64)
 });
 export type ProfileInput = z.infer<typeof profileInputSchema>;
+/** What callers may pass before defaults are filled in (the API body). */
+export type ProfileInputRaw = z.input<typeof profileInputSchema>;
 
 export const profilePatchSchema = z
 	.object({

@@ -12,6 +12,7 @@ import { createSession, type SessionInfo, type SessionUser } from '$lib/server/a
 import { seedDemo, DEMO_PASSWORD } from '../../scripts/seed';
 import { createRun } from '$lib/server/soak';
 import { createLimitProfile } from '$lib/server/limits';
+import type { ProfileInputRaw } from '$lib/limits';
 import { createSnapshot } from '$lib/server/snapshots';
 import { encodeWav } from '$lib/dsp';
 
@@ -28,7 +29,7 @@ function soakRun(fx: Fixtures, startedAtMs = Date.now()): string {
 }
 
 /** A valid limit profile body. */
-function matrixProfile(name: string) {
+function matrixProfile(name: string): ProfileInputRaw {
 	return {
 		name,
 		conditions: { generatorFrequencyHz: 1000 },
@@ -278,6 +279,9 @@ const MATRIX: Row[] = [
 		expect: [401, 403, 403, 200],
 		request: (fx) => ({ params: { id: fx.users.tech2 }, body: { role: 'supervisor' } })
 	},
+
+	// bridge tokens: every signed-in role works the bench
+	{ route: '/api/bridge-token', method: 'GET', expect: [401, 200, 200, 200] },
 
 	// settings: everyone reads, admins change
 	{ route: '/api/settings', method: 'GET', expect: [401, 200, 200, 200] },

@@ -9,6 +9,7 @@ import {
 	profileInputSchema,
 	type LimitProfileView,
 	type ProfileInput,
+	type ProfileInputRaw,
 	type ProfilePatch
 } from '../limits';
 import { z } from 'zod';
@@ -60,7 +61,7 @@ function nameTaken(db: Pick<Db, 'select'>, name: string, exceptId?: number): boo
 	return !!row && row.id !== exceptId;
 }
 
-export function createLimitProfile(db: Db, input: ProfileInput, userId: string | null): LimitProfileView {
+export function createLimitProfile(db: Db, input: ProfileInputRaw, userId: string | null): LimitProfileView {
 	const data = profileInputSchema.parse(input);
 	if (nameTaken(db, data.name)) throw new LimitProfileError(`A profile named “${data.name}” already exists`, 'name-taken');
 	const row = db

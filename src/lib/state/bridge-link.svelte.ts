@@ -127,10 +127,13 @@ export class BridgeLink {
 	#lastTempSeq: number | null = null;
 	#everConnected = false;
 
+	// Listener registries, not UI state: plain Sets on purpose.
+	/* eslint-disable svelte/prefer-svelte-reactivity */
 	#frameListeners = new Set<FrameListener>();
 	#tempsListeners = new Set<(e: TempsEvent) => void>();
 	#restartListeners = new Set<(e: RestartEvent) => void>();
 	#helloListeners = new Set<(h: HelloMessage) => void>();
+	/* eslint-enable svelte/prefer-svelte-reactivity */
 
 	readonly #tokenUrl: string;
 	readonly #autoBackfill: boolean;

@@ -59,10 +59,13 @@ export class LiveAnalysis {
 	#worker: Worker | null = null;
 	#offFrame: (() => void) | null = null;
 	#offHello: (() => void) | null = null;
+	// Pending requests and listeners, not UI state: plain collections on purpose.
+	/* eslint-disable svelte/prefer-svelte-reactivity */
 	#captures = new Map<number, { resolve: (c: CaptureResult) => void; reject: (e: Error) => void }>();
 	#nextCapture = 1;
 	#channels = 2;
 	#resultListeners = new Set<(r: LiveReadouts, frameReceivedAtMs: number) => void>();
+	/* eslint-enable svelte/prefer-svelte-reactivity */
 
 	/** Plain (non-reactive) typed arrays; read them when `tick` changes. */
 	readonly plot: PlotBuffers = {
