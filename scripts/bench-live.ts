@@ -139,7 +139,10 @@ async function readStats(page: Page): Promise<PageStats> {
 }
 
 async function main(): Promise<void> {
-	const secret = process.env.BRIDGE_SECRET && process.env.BRIDGE_SECRET.length >= 32 ? process.env.BRIDGE_SECRET : randomBytes(24).toString('hex');
+	const secret =
+		process.env.BRIDGE_SECRET && process.env.BRIDGE_SECRET.length >= 32
+			? process.env.BRIDGE_SECRET
+			: randomBytes(24).toString('hex');
 	const appPort = await freePort();
 	const bridgePort = await freePort();
 	const origin = `http://127.0.0.1:${appPort}`;
@@ -150,7 +153,9 @@ async function main(): Promise<void> {
 		const r = spawnSync('npx', ['vite', 'build', '--logLevel', 'warn'], { cwd: root, stdio: 'inherit' });
 		if (r.status !== 0) throw new Error('vite build failed');
 	} else {
-		console.log(`Using the existing build/ (${statSync(join(root, 'build/index.js')).mtime.toISOString()}); --rebuild to refresh it`);
+		console.log(
+			`Using the existing build/ (${statSync(join(root, 'build/index.js')).mtime.toISOString()}); --rebuild to refresh it`
+		);
 	}
 
 	tmp = mkdtempSync(join(tmpdir(), 'benchlight-live-'));
@@ -165,13 +170,37 @@ async function main(): Promise<void> {
 		PORT: String(appPort),
 		SMTP_PORT: String(await freePort())
 	};
-	const seeded = spawnSync('npx', ['tsx', 'scripts/seed.ts'], { cwd: root, env, stdio: ['ignore', 'ignore', 'inherit'] });
+	const seeded = spawnSync('npx', ['tsx', 'scripts/seed.ts'], {
+		cwd: root,
+		env,
+		stdio: ['ignore', 'ignore', 'inherit']
+	});
 	if (seeded.status !== 0) throw new Error('seeding the benchmark database failed');
 
-	start('bridge', process.execPath, ['--import', 'tsx', 'bridge/main.ts', '--host', '127.0.0.1', '--port', String(bridgePort), '--rate', opts.rate!, '--channels', '2'], env);
+	start(
+		'bridge',
+		process.execPath,
+		[
+			'--import',
+			'tsx',
+			'bridge/main.ts',
+			'--host',
+			'127.0.0.1',
+			'--port',
+			String(bridgePort),
+			'--rate',
+			opts.rate!,
+			'--channels',
+			'2'
+		],
+		env
+	);
 	start('app', process.execPath, ['build'], env);
 	await waitFor('the app', async () => (await fetch(`${origin}/safety`)).ok);
-	await waitFor('the bridge', async () => (await fetch(`http://127.0.0.1:${bridgePort}/`).catch(() => null)) !== null);
+	await waitFor(
+		'the bridge',
+		async () => (await fetch(`http://127.0.0.1:${bridgePort}/`).catch(() => null)) !== null
+	);
 
 	const browser = await chromium.launch({ executablePath: '/usr/bin/chromium', args: CHROMIUM_ARGS });
 	try {
@@ -192,14 +221,25 @@ async function main(): Promise<void> {
 			await page.getByTestId('link-state').filter({ hasText: 'Connected' }).waitFor({ timeout: 30_000 });
 		} catch (e) {
 			await page.screenshot({ path: join(tmpdir(), 'bench-live-failure.png') }).catch(() => {});
-			const why = (await page.getByTestId('link-status').textContent({ timeout: 2000 }).catch(() => null)) ?? `page ${page.url()} (screenshot in ${join(tmpdir(), 'bench-live-failure.png')})`;
-			throw new Error(`the page did not connect to the bridge at ${bridgeUrl}: ${why?.replace(/\s+/g, ' ').trim()}`, { cause: e });
+			const why =
+				(await page
+					.getByTestId('link-status')
+					.textContent({ timeout: 2000 })
+					.catch(() => null)) ??
+				`page ${page.url()} (screenshot in ${join(tmpdir(), 'bench-live-failure.png')})`;
+			throw new Error(
+				`the page did not connect to the bridge at ${bridgeUrl}: ${why?.replace(/\s+/g, ' ').trim()}`,
+				{ cause: e }
+			);
 		}
 		await page.getByTestId('gen-kind').selectOption('sine');
 		await page.getByTestId('gen-frequency').fill('1000');
 		await page.getByTestId('gen-level').fill('0.5');
 		await page.getByTestId('gen-apply').click();
-		await page.getByTestId('set-fft').locator(`option[value="${fftSize}"]:checked`).waitFor({ state: 'attached' });
+		await page
+			.getByTestId('set-fft')
+			.locator(`option[value="${fftSize}"]:checked`)
+			.waitFor({ state: 'attached' });
 		await page.waitForFunction(() => {
 			const s = (window as unknown as { __benchlightStats?: { spectrumPaints: number } }).__benchlightStats;
 			return !!s && s.spectrumPaints > 20;
@@ -211,14 +251,20 @@ async function main(): Promise<void> {
 		await cdp.send('HeapProfiler.collectGarbage');
 		const heapStart = (await cdp.send('Runtime.getHeapUsage')).usedSize;
 		const before = await readStats(page);
-		await page.evaluate(() => (window as unknown as { __benchlightStats: { reset(): void } }).__benchlightStats.reset());
+		await page.evaluate(() =>
+			(window as unknown as { __benchlightStats: { reset(): void } }).__benchlightStats.reset()
+		);
 		const t0 = Date.now();
-		console.log(`Measuring for ${durationS} s: ${Number(opts.rate) / 1000} kHz stereo, ${fftSize}-point FFT, 1 kHz sine…`);
+		console.log(
+			`Measuring for ${durationS} s: ${Number(opts.rate) / 1000} kHz stereo, ${fftSize}-point FFT, 1 kHz sine…`
+		);
 		while (Date.now() - t0 < durationS * 1000) {
 			await page.waitForTimeout(Math.min(15_000, durationS * 1000 - (Date.now() - t0)));
 			const s = await readStats(page);
 			const el = (Date.now() - t0) / 1000;
-			console.log(`  ${el.toFixed(0).padStart(4)} s  ${(s.spectrumPaints / el).toFixed(1)} updates/s, dropped ${s.droppedFrames - before.droppedFrames}`);
+			console.log(
+				`  ${el.toFixed(0).padStart(4)} s  ${(s.spectrumPaints / el).toFixed(1)} updates/s, dropped ${s.droppedFrames - before.droppedFrames}`
+			);
 		}
 		const elapsedS = (Date.now() - t0) / 1000;
 		const after = await readStats(page);

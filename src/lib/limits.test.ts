@@ -19,11 +19,14 @@ describe('evaluateLimits', () => {
 			{ thdnPercent: 0.02, levelVrms: 6.4, noiseVrms: 120e-6, powerW: 6.4 ** 2 / 8 },
 			{ thdnPercent: 0.3, levelVrms: 6.1, noiseVrms: 800e-6, powerW: 6.1 ** 2 / 8 }
 		],
-		stereo: stereoFigures({ levelDbv: 16.12 }, { levelDbv: 15.70 })
+		stereo: stereoFigures({ levelDbv: 16.12 }, { levelDbv: 15.7 })
 	};
 
 	it('expands "each" into one check per channel and fails only the bad one', () => {
-		const checks = evaluateLimits([lim({ metric: 'thdnPercent', op: 'le', value: 0.1, unit: '%' })], measured);
+		const checks = evaluateLimits(
+			[lim({ metric: 'thdnPercent', op: 'le', value: 0.1, unit: '%' })],
+			measured
+		);
 		expect(checks.map((c) => [c.channel, c.pass])).toEqual([
 			['left', true],
 			['right', false]
@@ -68,7 +71,10 @@ describe('evaluateLimits', () => {
 		expect(checks[0].channel).toBeNull();
 		expect(checks[0].measured).toBeCloseTo(0.42, 9);
 		expect(checks[0].pass).toBe(true);
-		const tighter = evaluateLimits([lim({ metric: 'balanceDb', op: 'le', value: 0.4, unit: 'dB' })], measured);
+		const tighter = evaluateLimits(
+			[lim({ metric: 'balanceDb', op: 'le', value: 0.4, unit: 'dB' })],
+			measured
+		);
 		expect(tighter[0].pass).toBe(false);
 	});
 

@@ -31,10 +31,13 @@ async function reading(page: Page, testId: string): Promise<number> {
 /** Wait until a readout satisfies `ok` (the analysis runs several times a second). */
 async function waitForReading(page: Page, testId: string, ok: (v: number) => boolean, what: string) {
 	await expect
-		.poll(async () => {
-			const v = await reading(page, testId);
-			return ok(v) ? 'ok' : `${testId} = ${v}`;
-		}, { message: what, timeout: 30_000, intervals: [250] })
+		.poll(
+			async () => {
+				const v = await reading(page, testId);
+				return ok(v) ? 'ok' : `${testId} = ${v}`;
+			},
+			{ message: what, timeout: 30_000, intervals: [250] }
+		)
 		.toBe('ok');
 }
 
@@ -55,7 +58,8 @@ test('bench: live gain, a fault and its repair, before/after snapshots with verd
 	await expect(page).toHaveURL(/\/jobs\/\d+$/);
 	const jobId = Number(/\/jobs\/(\d+)$/.exec(page.url())![1]);
 
-	if (BRIDGE_OVERRIDE) await page.evaluate((url) => localStorage.setItem('benchlight-bridge-url', url), BRIDGE_OVERRIDE);
+	if (BRIDGE_OVERRIDE)
+		await page.evaluate((url) => localStorage.setItem('benchlight-bridge-url', url), BRIDGE_OVERRIDE);
 	await page.getByTestId('link-bench').click();
 	await expect(page).toHaveURL(new RegExp(`/jobs/${jobId}/bench$`));
 	await ready(page);
@@ -82,11 +86,26 @@ test('bench: live gain, a fault and its repair, before/after snapshots with verd
 	await page.getByTestId('sim-volume').fill('20');
 	await expect(page.getByTestId('sim-volume-value')).toHaveText('+20.0 dB');
 
-	await waitForReading(page, 'frequency-left', (v) => Math.abs(v - 1000) < 0.5, 'the fundamental reads 1 kHz');
+	await waitForReading(
+		page,
+		'frequency-left',
+		(v) => Math.abs(v - 1000) < 0.5,
+		'the fundamental reads 1 kHz'
+	);
 	// The simulator's volume is its gain at 1 kHz: the readout must agree within 0.1 dB.
 	await waitForReading(page, 'gain-left', (v) => Math.abs(v - 20) <= 0.1, 'left gain within 0.1 dB of 20 dB');
-	await waitForReading(page, 'gain-right', (v) => Math.abs(v - 20) <= 0.1, 'right gain within 0.1 dB of 20 dB');
-	await waitForReading(page, 'thdn-left', (v) => v > 0 && v < 0.02, 'a healthy unit reads well under 0.02 % THD+N');
+	await waitForReading(
+		page,
+		'gain-right',
+		(v) => Math.abs(v - 20) <= 0.1,
+		'right gain within 0.1 dB of 20 dB'
+	);
+	await waitForReading(
+		page,
+		'thdn-left',
+		(v) => v > 0 && v < 0.02,
+		'a healthy unit reads well under 0.02 % THD+N'
+	);
 	const cleanThdn = await reading(page, 'thdn-left');
 
 	// A profile with a 0.05 % THD+N limit, judged live and again by the server.
@@ -95,14 +114,24 @@ test('bench: live gain, a fault and its repair, before/after snapshots with verd
 
 	// ── a fault: crossover distortion from an under-biased output stage ─────
 	await page.getByTestId('fault-under-bias').check();
-	await waitForReading(page, 'thdn-left', (v) => v > 5 * cleanThdn && v > 0.05, 'THD+N rises well past the limit with the fault on');
+	await waitForReading(
+		page,
+		'thdn-left',
+		(v) => v > 5 * cleanThdn && v > 0.05,
+		'THD+N rises well past the limit with the fault on'
+	);
 	await expect(page.getByTestId('live-verdict')).toHaveText(/FAIL/);
 	await capture(page, 'Under-biased output stage', 'before');
 	await expect(page.getByTestId('capture-verdict')).toHaveText('FAIL');
 
 	// ── the repair ──────────────────────────────────────────────────────────
 	await page.getByTestId('fault-under-bias').uncheck();
-	await waitForReading(page, 'thdn-left', (v) => v > 0 && v < 2 * cleanThdn, 'THD+N falls back once the bias is right');
+	await waitForReading(
+		page,
+		'thdn-left',
+		(v) => v > 0 && v < 2 * cleanThdn,
+		'THD+N falls back once the bias is right'
+	);
 	// Let the steadiness window refill with clean results before the "after" capture.
 	await page.waitForTimeout(4000);
 	await expect(page.getByTestId('live-verdict')).toHaveText(/PASS/);
@@ -126,7 +155,10 @@ test('bench: live gain, a fault and its repair, before/after snapshots with verd
 	const detail = await page.request.get(`/api/snapshots/${id}`);
 	expect(detail.status()).toBe(200);
 	const body = (await detail.json()) as {
-		results: { channels: { frequencyHz: number; gainDb: number; thdnPercent: number }[]; conditions: { bandHz: number[] } };
+		results: {
+			channels: { frequencyHz: number; gainDb: number; thdnPercent: number }[];
+			conditions: { bandHz: number[] };
+		};
 	};
 	expect(body.results.channels[0].frequencyHz).toBeCloseTo(1000, 0);
 	expect(Math.abs(body.results.channels[0].gainDb - 20)).toBeLessThanOrEqual(0.1);

@@ -20,7 +20,9 @@ const tech: User = { id: 'u-snap', email: 'snap@example.com', name: 'Sam Snap', 
 let jobId = 0;
 
 beforeAll(() => {
-	db.insert(table.users).values({ ...tech, passwordHash: 'x' }).run();
+	db.insert(table.users)
+		.values({ ...tech, passwordHash: 'x' })
+		.run();
 	const c = db.insert(table.customers).values({ name: 'D. Customer' }).returning().get();
 	jobId = db
 		.insert(table.jobs)
@@ -37,18 +39,36 @@ function sine(n: number, amp = 0.4, f = 1000, rate = 48000): Float32Array {
 
 async function call(
 	handler: (event: never) => Response | Promise<Response>,
-	opts: { method?: string; path: string; params: Record<string, string>; body?: BodyInit; contentType?: string; user?: User | null; origin?: string | null }
+	opts: {
+		method?: string;
+		path: string;
+		params: Record<string, string>;
+		body?: BodyInit;
+		contentType?: string;
+		user?: User | null;
+		origin?: string | null;
+	}
 ): Promise<{ status: number; body: Record<string, unknown>; res?: Response }> {
 	const url = new URL(opts.path, ORIGIN);
 	const headers = new Headers();
 	if (opts.contentType) headers.set('content-type', opts.contentType);
-	if (opts.method && opts.method !== 'GET' && opts.origin !== null) headers.set('origin', opts.origin ?? ORIGIN);
+	if (opts.method && opts.method !== 'GET' && opts.origin !== null)
+		headers.set('origin', opts.origin ?? ORIGIN);
 	let request = new Request(url, { method: opts.method ?? 'GET', headers, body: opts.body });
 	if (opts.body instanceof FormData) {
 		// Let Request pick the multipart boundary, then keep its content type.
-		request = new Request(url, { method: 'POST', body: opts.body, headers: opts.origin === null ? {} : { origin: opts.origin ?? ORIGIN } });
+		request = new Request(url, {
+			method: 'POST',
+			body: opts.body,
+			headers: opts.origin === null ? {} : { origin: opts.origin ?? ORIGIN }
+		});
 	}
-	const event = { request, url, params: opts.params, locals: { user: opts.user === undefined ? tech : opts.user, session: null } };
+	const event = {
+		request,
+		url,
+		params: opts.params,
+		locals: { user: opts.user === undefined ? tech : opts.user, session: null }
+	};
 	try {
 		const res = await handler(event as never);
 		const isJson = (res.headers.get('content-type') ?? '').includes('json');
@@ -69,13 +89,29 @@ function form(wav: BlobPart | null, meta: string | null): FormData {
 
 const count = () => (db.get(sql`select count(*) as n from snapshots`) as { n: number }).n;
 const post = (body: FormData, extra: Partial<Parameters<typeof call>[1]> = {}) =>
-	call(listRoute.POST, { method: 'POST', path: `/api/jobs/${jobId}/snapshots`, params: { id: String(jobId) }, body, ...extra });
+	call(listRoute.POST, {
+		method: 'POST',
+		path: `/api/jobs/${jobId}/snapshots`,
+		params: { id: String(jobId) },
+		body,
+		...extra
+	});
 
 describe('snapshot API', () => {
 	const wav = encodeWav([sine(16384), sine(16384, 0.2)], 48000);
 
 	it('captures: 201 with the server’s results, then lists, reads and serves the audio', async () => {
-		const res = await post(form(wav as BlobPart, JSON.stringify({ label: 'first light', stage: 'before', fullScaleVolts: 2, analysis: { fftSize: 16384 } })));
+		const res = await post(
+			form(
+				wav as BlobPart,
+				JSON.stringify({
+					label: 'first light',
+					stage: 'before',
+					fullScaleVolts: 2,
+					analysis: { fftSize: 16384 }
+				})
+			)
+		);
 		expect(res.status).toBe(201);
 		const id = res.body.id as number;
 		expect(res.body.verdict).toBe('none');
@@ -84,15 +120,23 @@ describe('snapshot API', () => {
 		expect(channels[0].levelVrms).toBeCloseTo(0.8 / Math.SQRT2, 4);
 		expect(channels[1].levelVrms).toBeCloseTo(0.4 / Math.SQRT2, 4);
 
-		const list = await call(listRoute.GET, { path: `/api/jobs/${jobId}/snapshots`, params: { id: String(jobId) } });
+		const list = await call(listRoute.GET, {
+			path: `/api/jobs/${jobId}/snapshots`,
+			params: { id: String(jobId) }
+		});
 		expect(list.status).toBe(200);
-		expect((list.body.snapshots as { id: number; label: string }[]).map((s) => [s.id, s.label])).toContainEqual([id, 'first light']);
+		expect(
+			(list.body.snapshots as { id: number; label: string }[]).map((s) => [s.id, s.label])
+		).toContainEqual([id, 'first light']);
 
 		const one = await call(oneRoute.GET, { path: `/api/snapshots/${id}`, params: { id: String(id) } });
 		expect(one.status).toBe(200);
 		expect(one.body.createdByName).toBe('Sam Snap');
 
-		const audio = await call(audioRoute.GET, { path: `/api/snapshots/${id}/audio`, params: { id: String(id) } });
+		const audio = await call(audioRoute.GET, {
+			path: `/api/snapshots/${id}/audio`,
+			params: { id: String(id) }
+		});
 		expect(audio.status).toBe(200);
 		expect(audio.res?.headers.get('content-type')).toBe('audio/wav');
 		const bytes = new Uint8Array(await audio.res!.arrayBuffer());
@@ -109,7 +153,9 @@ describe('snapshot API', () => {
 		expect(badMeta.status).toBe(400);
 		expect(badMeta.body.message).toMatch(/^meta/);
 		expect(badMeta.body.issues).toEqual([{ path: 'meta.label', message: 'Give the snapshot a label' }]);
-		const noProfile = await post(form(wav as BlobPart, JSON.stringify({ label: 'x', stage: 'after', profileId: 4242 })));
+		const noProfile = await post(
+			form(wav as BlobPart, JSON.stringify({ label: 'x', stage: 'after', profileId: 4242 }))
+		);
 		expect(noProfile.status).toBe(400);
 		expect(noProfile.body.message).toMatch(/meta.profileId: no limit profile/);
 		const missing = await post(form(null, meta));
@@ -133,9 +179,18 @@ describe('snapshot API', () => {
 			contentType: 'application/json'
 		});
 		expect(json.status).toBe(415);
-		const nojob = await call(listRoute.POST, { method: 'POST', path: '/api/jobs/999999/snapshots', params: { id: '999999' }, body: form(wav as BlobPart, meta) });
+		const nojob = await call(listRoute.POST, {
+			method: 'POST',
+			path: '/api/jobs/999999/snapshots',
+			params: { id: '999999' },
+			body: form(wav as BlobPart, meta)
+		});
 		expect(nojob.status).toBe(404);
-		expect((await call(oneRoute.GET, { path: '/api/snapshots/999999', params: { id: '999999' } })).status).toBe(404);
-		expect((await call(oneRoute.GET, { path: '/api/snapshots/1', params: { id: '1' }, user: null })).status).toBe(401);
+		expect(
+			(await call(oneRoute.GET, { path: '/api/snapshots/999999', params: { id: '999999' } })).status
+		).toBe(404);
+		expect(
+			(await call(oneRoute.GET, { path: '/api/snapshots/1', params: { id: '1' }, user: null })).status
+		).toBe(401);
 	});
 });

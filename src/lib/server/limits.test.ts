@@ -48,7 +48,10 @@ describe('limit profile service', () => {
 
 	it('updates part of a profile and leaves the rest', () => {
 		const p = createLimitProfile(db, input, 'u1');
-		const u = updateLimitProfile(db, p.id, { description: 'tighter', limits: [{ ...input.limits[0], value: 0.05 }] });
+		const u = updateLimitProfile(db, p.id, {
+			description: 'tighter',
+			limits: [{ ...input.limits[0], value: 0.05 }]
+		});
 		expect(u.description).toBe('tighter');
 		expect(u.limits[0].value).toBe(0.05);
 		expect(u.conditions.generatorFrequencyHz).toBe(1000);

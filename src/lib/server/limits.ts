@@ -63,7 +63,8 @@ function nameTaken(db: Pick<Db, 'select'>, name: string, exceptId?: number): boo
 
 export function createLimitProfile(db: Db, input: ProfileInputRaw, userId: string | null): LimitProfileView {
 	const data = profileInputSchema.parse(input);
-	if (nameTaken(db, data.name)) throw new LimitProfileError(`A profile named “${data.name}” already exists`, 'name-taken');
+	if (nameTaken(db, data.name))
+		throw new LimitProfileError(`A profile named “${data.name}” already exists`, 'name-taken');
 	const row = db
 		.insert(table.limitProfiles)
 		.values({
@@ -180,7 +181,8 @@ export const SEED_LIMIT_PROFILES: ProfileInput[] = [
 	},
 	{
 		name: 'Crosstalk, one channel driven',
-		description: 'Drive one channel only (generator drive left or right); the other is measured at the same frequency.',
+		description:
+			'Drive one channel only (generator drive left or right); the other is measured at the same frequency.',
 		conditions: { generatorFrequencyHz: 1000, bandLowHz: 20, bandHighHz: 20_000, weighting: 'none' },
 		limits: [{ metric: 'crosstalkDb', channel: 'each', op: 'le', value: -50, unit: 'dB' }]
 	},

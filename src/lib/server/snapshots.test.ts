@@ -44,7 +44,13 @@ const RATE = 48_000;
 const N = 72_000; // 1.5 s
 
 /** Fundamental of peak amplitude `a` at `f` Hz plus harmonics given as [order, amplitude relative to the fundamental]. */
-function tone(a: number, f: number, harmonics: [number, number][] = [], n = N, levelAt?: (i: number) => number): Float64Array {
+function tone(
+	a: number,
+	f: number,
+	harmonics: [number, number][] = [],
+	n = N,
+	levelAt?: (i: number) => number
+): Float64Array {
 	const out = new Float64Array(n);
 	for (let i = 0; i < n; i++) {
 		const t = i / RATE;
@@ -59,11 +65,19 @@ let db: Db;
 let jobId: number;
 beforeEach(() => {
 	db = openDb(':memory:');
-	db.insert(table.users).values({ id: 'u1', email: 't@example.com', name: 'Tess Bench', role: 'technician', passwordHash: 'x' }).run();
+	db.insert(table.users)
+		.values({ id: 'u1', email: 't@example.com', name: 'Tess Bench', role: 'technician', passwordHash: 'x' })
+		.run();
 	const c = db.insert(table.customers).values({ name: 'C' }).returning().get();
 	jobId = db
 		.insert(table.jobs)
-		.values({ customerId: c.id, category: 'integrated-amplifier', make: 'Corvane', model: 'IA-1', complaint: 'distorts' })
+		.values({
+			customerId: c.id,
+			category: 'integrated-amplifier',
+			make: 'Corvane',
+			model: 'IA-1',
+			complaint: 'distorts'
+		})
 		.returning()
 		.get().id;
 });
@@ -142,7 +156,9 @@ describe('createSnapshot', () => {
 		const audio = getSnapshotAudio(db, res.id)!;
 		expect(audio.wav.byteLength).toBe(44 + N * 2 * 3);
 		expect(audio.sha256).toMatch(/^[0-9a-f]{64}$/);
-		expect(listSnapshots(db, jobId).map((x) => [x.id, x.verdict, x.stage])).toEqual([[res.id, 'none', 'before']]);
+		expect(listSnapshots(db, jobId).map((x) => [x.id, x.verdict, x.stage])).toEqual([
+			[res.id, 'none', 'before']
+		]);
 	});
 
 	it('evaluates the chosen profile with the profile’s conditions, per channel', () => {
@@ -161,7 +177,16 @@ describe('createSnapshot', () => {
 		const res = createSnapshot(db, {
 			jobId,
 			userId: 'u1',
-			wav: wav24([tone(0.5, 1000, [[2, h2], [3, h3]]), tone(0.25, 1000)], RATE),
+			wav: wav24(
+				[
+					tone(0.5, 1000, [
+						[2, h2],
+						[3, h3]
+					]),
+					tone(0.25, 1000)
+				],
+				RATE
+			),
 			meta: { label: 'x', stage: 'after', profileId: p.id, analysis: { fftSize: 16384, bandHz: [400, 500] } }
 		});
 		// The profile's 20 Hz–20 kHz band won over the bench's 400–500 Hz (which would hold no harmonics).
@@ -198,13 +223,55 @@ describe('createSnapshot', () => {
 		const good = wav24([tone(0.5, 1000)], RATE);
 		const meta = { label: 'x', stage: 'before' };
 		const cases: [string, () => unknown, string, RegExp][] = [
-			['not a WAV', () => createSnapshot(db, { jobId, userId: 'u1', wav: new TextEncoder().encode('hello, not audio'), meta }), 'samples', /not a WAV/],
-			['truncated', () => createSnapshot(db, { jobId, userId: 'u1', wav: good.subarray(0, 30), meta }), 'samples', /WAV/],
-			['too short', () => createSnapshot(db, { jobId, userId: 'u1', wav: wav24([tone(0.5, 1000, [], 1000)], RATE), meta }), 'samples', /at least 4096/],
-			['meta not JSON', () => createSnapshot(db, { jobId, userId: 'u1', wav: good, meta: '{label' }), 'meta', /not valid JSON/],
-			['bad stage', () => createSnapshot(db, { jobId, userId: 'u1', wav: good, meta: { label: 'x', stage: 'middle' } }), 'meta', /invalid/],
-			['unknown key', () => createSnapshot(db, { jobId, userId: 'u1', wav: good, meta: { ...meta, verdict: 'pass' } }), 'meta', /invalid/],
-			['unknown profile', () => createSnapshot(db, { jobId, userId: 'u1', wav: good, meta: { ...meta, profileId: 999 } }), 'profile', /no limit profile with id 999/]
+			[
+				'not a WAV',
+				() =>
+					createSnapshot(db, {
+						jobId,
+						userId: 'u1',
+						wav: new TextEncoder().encode('hello, not audio'),
+						meta
+					}),
+				'samples',
+				/not a WAV/
+			],
+			[
+				'truncated',
+				() => createSnapshot(db, { jobId, userId: 'u1', wav: good.subarray(0, 30), meta }),
+				'samples',
+				/WAV/
+			],
+			[
+				'too short',
+				() =>
+					createSnapshot(db, { jobId, userId: 'u1', wav: wav24([tone(0.5, 1000, [], 1000)], RATE), meta }),
+				'samples',
+				/at least 4096/
+			],
+			[
+				'meta not JSON',
+				() => createSnapshot(db, { jobId, userId: 'u1', wav: good, meta: '{label' }),
+				'meta',
+				/not valid JSON/
+			],
+			[
+				'bad stage',
+				() => createSnapshot(db, { jobId, userId: 'u1', wav: good, meta: { label: 'x', stage: 'middle' } }),
+				'meta',
+				/invalid/
+			],
+			[
+				'unknown key',
+				() => createSnapshot(db, { jobId, userId: 'u1', wav: good, meta: { ...meta, verdict: 'pass' } }),
+				'meta',
+				/invalid/
+			],
+			[
+				'unknown profile',
+				() => createSnapshot(db, { jobId, userId: 'u1', wav: good, meta: { ...meta, profileId: 999 } }),
+				'profile',
+				/no limit profile with id 999/
+			]
 		];
 		for (const [name, run, field, msg] of cases) {
 			let err: unknown;
@@ -222,13 +289,26 @@ describe('createSnapshot', () => {
 	});
 
 	it('is immutable: the database refuses UPDATE and DELETE of results and audio', () => {
-		const res = createSnapshot(db, { jobId, userId: 'u1', wav: wav24([tone(0.5, 1000)], RATE), meta: { label: 'x', stage: 'before' } });
+		const res = createSnapshot(db, {
+			jobId,
+			userId: 'u1',
+			wav: wav24([tone(0.5, 1000)], RATE),
+			meta: { label: 'x', stage: 'before' }
+		});
 		const c = db.$client;
-		expect(() => c.prepare(`update snapshots set verdict = 'pass' where id = ?`).run(res.id)).toThrow(/immutable/);
-		expect(() => c.prepare(`update snapshots set results = '{}' where id = ?`).run(res.id)).toThrow(/immutable/);
+		expect(() => c.prepare(`update snapshots set verdict = 'pass' where id = ?`).run(res.id)).toThrow(
+			/immutable/
+		);
+		expect(() => c.prepare(`update snapshots set results = '{}' where id = ?`).run(res.id)).toThrow(
+			/immutable/
+		);
 		expect(() => c.prepare(`delete from snapshots where id = ?`).run(res.id)).toThrow(/immutable/);
-		expect(() => c.prepare(`update snapshot_audio set wav = x'00' where snapshot_id = ?`).run(res.id)).toThrow(/immutable/);
-		expect(() => c.prepare(`delete from snapshot_audio where snapshot_id = ?`).run(res.id)).toThrow(/immutable/);
+		expect(() =>
+			c.prepare(`update snapshot_audio set wav = x'00' where snapshot_id = ?`).run(res.id)
+		).toThrow(/immutable/);
+		expect(() => c.prepare(`delete from snapshot_audio where snapshot_id = ?`).run(res.id)).toThrow(
+			/immutable/
+		);
 		expect(getSnapshot(db, res.id)?.verdict).toBe('none');
 		expect(count('snapshot_audio')).toBe(1);
 	});

@@ -221,7 +221,10 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 	const meta = parseSnapshotMeta(input.meta);
 
 	if (input.wav.byteLength > SNAPSHOT_MAX_WAV_BYTES)
-		throw new SnapshotError('samples', `samples: the WAV file is larger than ${SNAPSHOT_MAX_WAV_BYTES} bytes`);
+		throw new SnapshotError(
+			'samples',
+			`samples: the WAV file is larger than ${SNAPSHOT_MAX_WAV_BYTES} bytes`
+		);
 	let decoded;
 	try {
 		decoded = decodeWav(input.wav);
@@ -240,20 +243,24 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 		throw new SnapshotError('samples', `samples: ${channels.length} channels; the bench captures one or two`);
 	for (const c of channels) {
 		for (let i = 0; i < c.length; i++) {
-			if (!Number.isFinite(c[i])) throw new SnapshotError('samples', 'samples: the WAV file contains NaN or infinite samples');
+			if (!Number.isFinite(c[i]))
+				throw new SnapshotError('samples', 'samples: the WAV file contains NaN or infinite samples');
 		}
 	}
 
 	let profile: LimitProfileView | null = null;
 	if (meta.profileId != null) {
 		profile = getLimitProfile(db, meta.profileId);
-		if (!profile) throw new SnapshotError('profile', `meta.profileId: no limit profile with id ${meta.profileId}`);
+		if (!profile)
+			throw new SnapshotError('profile', `meta.profileId: no limit profile with id ${meta.profileId}`);
 		if (profile.archived)
 			throw new SnapshotError('profile', `meta.profileId: the limit profile “${profile.name}” is archived`);
 	}
 
 	const fsv = channels.map((_, i) =>
-		Array.isArray(meta.fullScaleVolts) ? (meta.fullScaleVolts[i] ?? meta.fullScaleVolts[0]) : meta.fullScaleVolts
+		Array.isArray(meta.fullScaleVolts)
+			? (meta.fullScaleVolts[i] ?? meta.fullScaleVolts[0])
+			: meta.fullScaleVolts
 	);
 
 	// The profile's conditions win (its limits assume them); otherwise the bench's analysis settings.
@@ -269,7 +276,10 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 	const window = a.window && isWindowName(a.window) ? a.window : undefined;
 	const nyquist = sampleRateHz / 2;
 	if (bandHz[0] >= nyquist)
-		throw new SnapshotError('meta', `meta: the band starts at ${bandHz[0]} Hz, above Nyquist (${nyquist} Hz)`);
+		throw new SnapshotError(
+			'meta',
+			`meta: the band starts at ${bandHz[0]} Hz, above Nyquist (${nyquist} Hz)`
+		);
 	const options: AnalysisOptions = {
 		fftSize,
 		window,
@@ -345,7 +355,11 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 			.returning({ id: table.snapshots.id })
 			.get();
 		tx.insert(table.snapshotAudio)
-			.values({ snapshotId: row.id, sha256, wav: Buffer.from(input.wav.buffer, input.wav.byteOffset, input.wav.byteLength) })
+			.values({
+				snapshotId: row.id,
+				sha256,
+				wav: Buffer.from(input.wav.buffer, input.wav.byteOffset, input.wav.byteLength)
+			})
 			.run();
 		return row.id;
 	});
@@ -366,7 +380,13 @@ export interface SnapshotListItem {
 	sampleRateHz: number;
 	channelCount: number;
 	/** Headline figures per channel. */
-	summary: { channel: number; frequencyHz: number; levelVrms: number; thdnPercent: number; weighting: string }[];
+	summary: {
+		channel: number;
+		frequencyHz: number;
+		levelVrms: number;
+		thdnPercent: number;
+		weighting: string;
+	}[];
 	checksPassed: number;
 	checksTotal: number;
 	/** A small spectrum for thumbnails (≤ 240 points per channel, peaks kept). */
@@ -451,7 +471,10 @@ export function listSnapshots(db: Db, jobId: number): SnapshotListItem[] {
 }
 
 export function getSnapshot(db: Db, id: number, jobId?: number): SnapshotDetail | null {
-	const where = jobId === undefined ? eq(table.snapshots.id, id) : and(eq(table.snapshots.id, id), eq(table.snapshots.jobId, jobId));
+	const where =
+		jobId === undefined
+			? eq(table.snapshots.id, id)
+			: and(eq(table.snapshots.id, id), eq(table.snapshots.jobId, jobId));
 	const found = db
 		.select({ s: table.snapshots, name: table.users.name, sha: table.snapshotAudio.sha256 })
 		.from(table.snapshots)
@@ -488,9 +511,17 @@ export function getSnapshot(db: Db, id: number, jobId?: number): SnapshotDetail 
 }
 
 /** The stored WAV bytes of a snapshot, or null. */
-export function getSnapshotAudio(db: Db, id: number): { wav: Buffer; sha256: string; label: string; jobId: number } | null {
+export function getSnapshotAudio(
+	db: Db,
+	id: number
+): { wav: Buffer; sha256: string; label: string; jobId: number } | null {
 	const row = db
-		.select({ wav: table.snapshotAudio.wav, sha256: table.snapshotAudio.sha256, label: table.snapshots.label, jobId: table.snapshots.jobId })
+		.select({
+			wav: table.snapshotAudio.wav,
+			sha256: table.snapshotAudio.sha256,
+			label: table.snapshots.label,
+			jobId: table.snapshots.jobId
+		})
 		.from(table.snapshotAudio)
 		.innerJoin(table.snapshots, eq(table.snapshots.id, table.snapshotAudio.snapshotId))
 		.where(eq(table.snapshotAudio.snapshotId, id))

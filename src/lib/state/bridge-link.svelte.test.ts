@@ -3,7 +3,13 @@
 // temps-after backfill after a reconnect, and control messages validated before sending.
 import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
 import { encodeFrame, DEFAULT_SIMULATOR_STATE, type HelloMessage } from '$lib/bridge/protocol';
-import { BridgeLink, BRIDGE_URL_OVERRIDE_KEY, type FrameInfo, type RestartEvent, type TempsEvent } from './bridge-link.svelte';
+import {
+	BridgeLink,
+	BRIDGE_URL_OVERRIDE_KEY,
+	type FrameInfo,
+	type RestartEvent,
+	type TempsEvent
+} from './bridge-link.svelte';
 
 class FakeSocket {
 	static OPEN = 1;
@@ -64,7 +70,10 @@ function hello(bootId: string): HelloMessage {
 }
 
 const frame = (seq: number, flags = 0) =>
-	encodeFrame({ seq, firstSampleIndex: seq * 4, sampleRateHz: 48000, channels: 2, sampleCount: 4, flags }, new Float32Array(8).fill(0.25));
+	encodeFrame(
+		{ seq, firstSampleIndex: seq * 4, sampleRateHz: 48000, channels: 2, sampleCount: 4, flags },
+		new Float32Array(8).fill(0.25)
+	);
 
 const store = new Map<string, string>();
 
@@ -80,7 +89,10 @@ beforeEach(() => {
 	});
 	vi.stubGlobal(
 		'fetch',
-		vi.fn(async () => new Response(JSON.stringify({ token: 'tok-1', expiresAt: 0, bridgeUrl: 'ws://127.0.0.1:8787' })))
+		vi.fn(
+			async () =>
+				new Response(JSON.stringify({ token: 'tok-1', expiresAt: 0, bridgeUrl: 'ws://127.0.0.1:8787' }))
+		)
 	);
 });
 afterEach(() => {
@@ -148,7 +160,11 @@ describe('BridgeLink', () => {
 		link.onRestart((e) => restarts.push(e));
 		link.onTemps((e) => temps.push(e));
 		const ws = await connected(link, 'boot-a');
-		ws.text({ type: 'temps', bootId: 'boot-a', readings: [{ probe: 'ambient', seq: 500, t: 1, celsius: 24.5 }] });
+		ws.text({
+			type: 'temps',
+			bootId: 'boot-a',
+			readings: [{ probe: 'ambient', seq: 500, t: 1, celsius: 24.5 }]
+		});
 		expect(link.lastTempSeq).toBe(500);
 		expect(link.latestTemps.ambient.celsius).toBe(24.5);
 
@@ -162,10 +178,20 @@ describe('BridgeLink', () => {
 		ws2.text(hello('boot-b'));
 		expect(link.status).toBe('connected');
 		expect(link.attempt).toBe(0);
-		expect(restarts).toEqual([{ kind: 'restart', previousBootId: 'boot-a', bootId: 'boot-b', lastTempSeq: 500 }]);
+		expect(restarts).toEqual([
+			{ kind: 'restart', previousBootId: 'boot-a', bootId: 'boot-b', lastTempSeq: 500 }
+		]);
 		// Backfill from the last reading seen before the gap.
-		expect(ws2.sent.map((s) => JSON.parse(s))).toEqual([{ v: 1, id: expect.any(Number), type: 'temps-after', seq: 500 }]);
-		ws2.text({ type: 'temps', bootId: 'boot-b', backfill: true, complete: true, readings: [{ probe: 'ambient', seq: 501, t: 2, celsius: 25 }] });
+		expect(ws2.sent.map((s) => JSON.parse(s))).toEqual([
+			{ v: 1, id: expect.any(Number), type: 'temps-after', seq: 500 }
+		]);
+		ws2.text({
+			type: 'temps',
+			bootId: 'boot-b',
+			backfill: true,
+			complete: true,
+			readings: [{ probe: 'ambient', seq: 501, t: 2, celsius: 25 }]
+		});
 		expect(temps.at(-1)).toMatchObject({ bootId: 'boot-b', backfill: true });
 		expect(link.lastTempSeq).toBe(501);
 		link.disconnect();
@@ -173,12 +199,21 @@ describe('BridgeLink', () => {
 
 	it('validates control messages with the protocol schema before sending', async () => {
 		const link = new BridgeLink();
-		expect(link.send({ type: 'generator', generator: { kind: 'off' } })).toEqual({ ok: false, error: 'not connected to the bridge' });
+		expect(link.send({ type: 'generator', generator: { kind: 'off' } })).toEqual({
+			ok: false,
+			error: 'not connected to the bridge'
+		});
 		const ws = await connected(link);
-		const bad = link.send({ type: 'generator', generator: { kind: 'sine', frequencyHz: 1000, levelVrms: 50 } });
+		const bad = link.send({
+			type: 'generator',
+			generator: { kind: 'sine', frequencyHz: 1000, levelVrms: 50 }
+		});
 		expect(bad.ok).toBe(false);
 		expect(ws.sent).toHaveLength(0);
-		const good = link.send({ type: 'generator', generator: { kind: 'sine', frequencyHz: 1000, levelVrms: 0.5 } });
+		const good = link.send({
+			type: 'generator',
+			generator: { kind: 'sine', frequencyHz: 1000, levelVrms: 0.5 }
+		});
 		expect(good.ok).toBe(true);
 		expect(JSON.parse(ws.sent[0])).toEqual({
 			v: 1,

@@ -104,7 +104,14 @@ export class BridgeLink {
 	#bridgeUrl = $state<string | null>(null);
 	#attempt = $state(0);
 	#nextRetryAtMs = $state<number | null>(null);
-	#published = $state.raw({ framesReceived: 0, droppedFrames: 0, discontinuities: 0, badFrames: 0, frameAgeMs: null as number | null, framesPerSecond: 0 });
+	#published = $state.raw({
+		framesReceived: 0,
+		droppedFrames: 0,
+		discontinuities: 0,
+		badFrames: 0,
+		frameAgeMs: null as number | null,
+		framesPerSecond: 0
+	});
 	#latestTemps = $state.raw<Record<string, TempReading>>({});
 	#lastControlError = $state<string | null>(null);
 
@@ -212,7 +219,11 @@ export class BridgeLink {
 	}
 	/** Unpublished counters, read synchronously (benchmarks). */
 	counters(): { framesReceived: number; droppedFrames: number; lastFrameAtMs: number | null } {
-		return { framesReceived: this.#framesReceived, droppedFrames: this.#droppedFrames, lastFrameAtMs: this.#lastFrameAtMs };
+		return {
+			framesReceived: this.#framesReceived,
+			droppedFrames: this.#droppedFrames,
+			lastFrameAtMs: this.#lastFrameAtMs
+		};
 	}
 
 	onFrame(fn: FrameListener): () => void {
@@ -278,7 +289,10 @@ export class BridgeLink {
 		const parsed = ControlMessageSchema.safeParse({ ...control, v: CONTROL_VERSION, id });
 		if (!parsed.success) {
 			const first = parsed.error.issues[0];
-			return { ok: false, error: `invalid ${control.type} message: ${first?.path.join('.')} ${first?.message}` };
+			return {
+				ok: false,
+				error: `invalid ${control.type} message: ${first?.path.join('.')} ${first?.message}`
+			};
 		}
 		const ws = this.#ws;
 		if (!ws || ws.readyState !== WebSocket.OPEN) return { ok: false, error: 'not connected to the bridge' };
@@ -304,7 +318,8 @@ export class BridgeLink {
 			throw new Error(msg);
 		}
 		const j = (await res.json()) as Partial<TokenAnswer>;
-		if (typeof j.token !== 'string' || typeof j.bridgeUrl !== 'string') throw new Error('token answer is malformed');
+		if (typeof j.token !== 'string' || typeof j.bridgeUrl !== 'string')
+			throw new Error('token answer is malformed');
 		return j as TokenAnswer;
 	}
 
@@ -340,7 +355,9 @@ export class BridgeLink {
 			if (this.#ws !== ws) return;
 			this.#ws = null;
 			if (ev.code !== 1000 || this.#wanted) {
-				this.#error = ev.reason ? `bridge closed the link: ${ev.reason} (${ev.code})` : `link closed (${ev.code})`;
+				this.#error = ev.reason
+					? `bridge closed the link: ${ev.reason} (${ev.code})`
+					: `link closed (${ev.code})`;
 			}
 			this.#scheduleRetry();
 		};

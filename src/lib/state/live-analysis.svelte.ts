@@ -157,7 +157,8 @@ export class LiveAnalysis {
 		if (!w) return Promise.reject(new Error('analysis is not running'));
 		const id = this.#nextCapture++;
 		const rate = this.link.hello?.sampleRateHz ?? 48000;
-		const s = seconds ?? Math.min(CAPTURE_SECONDS, this.#settings.steadinessWindowS + this.#settings.fftSize / rate);
+		const s =
+			seconds ?? Math.min(CAPTURE_SECONDS, this.#settings.steadinessWindowS + this.#settings.fftSize / rate);
 		return new Promise((resolve, reject) => {
 			this.#captures.set(id, { resolve, reject });
 			this.#post({ type: 'capture', id, seconds: s });
@@ -189,7 +190,9 @@ export class LiveAnalysis {
 				this.plot.displayHz = m.displayHz;
 				this.plot.scopeMs = m.scopeMs;
 				const nch = Math.min(2, this.#channels);
-				this.plot.spectrum = Array.from({ length: nch }, () => new Float64Array(m.displayHz.length).fill(NaN));
+				this.plot.spectrum = Array.from({ length: nch }, () =>
+					new Float64Array(m.displayHz.length).fill(NaN)
+				);
 				this.plot.scope = Array.from({ length: nch }, () => new Float64Array(m.scopeMs.length).fill(NaN));
 				break;
 			}
@@ -199,7 +202,12 @@ export class LiveAnalysis {
 			case 'capture': {
 				const c = this.#captures.get(m.id);
 				this.#captures.delete(m.id);
-				c?.resolve({ wav: m.wav, sampleCount: m.sampleCount, sampleRateHz: m.sampleRateHz, channels: m.channels });
+				c?.resolve({
+					wav: m.wav,
+					sampleCount: m.sampleCount,
+					sampleRateHz: m.sampleRateHz,
+					channels: m.channels
+				});
 				break;
 			}
 			case 'capture-error': {

@@ -121,6 +121,13 @@ export interface WorkerResult {
 export type FromWorker =
 	| WorkerResult
 	| { type: 'axis'; version: number; displayHz: Float64Array; scopeMs: Float64Array }
-	| { type: 'capture'; id: number; wav: ArrayBuffer; sampleCount: number; sampleRateHz: number; channels: number }
+	| {
+			type: 'capture';
+			id: number;
+			wav: ArrayBuffer;
+			sampleCount: number;
+			sampleRateHz: number;
+			channels: number;
+	  }
 	| { type: 'capture-error'; id: number; message: string }
 	| { type: 'error'; message: string };

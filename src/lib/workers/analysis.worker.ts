@@ -4,7 +4,13 @@
 // Steady state allocates no sample-sized arrays: rings, FFT buffers and result buffers are reused.
 /// <reference lib="webworker" />
 import { Analyzer, encodeWav, SteadinessTracker } from '$lib/dsp';
-import type { AnalysisSettings, FromWorker, SteadinessFigures, ToWorker, WorkerResult } from './analysis-messages';
+import type {
+	AnalysisSettings,
+	FromWorker,
+	SteadinessFigures,
+	ToWorker,
+	WorkerResult
+} from './analysis-messages';
 import { CAPTURE_SECONDS } from './analysis-messages';
 
 const ctx = self as unknown as DedicatedWorkerGlobalScope;
@@ -74,7 +80,11 @@ function rebuild(): void {
 		written = 0;
 	}
 	analysed =
-		s.channels === 'left' ? [0] : s.channels === 'right' && channelCount > 1 ? [1] : Array.from({ length: Math.min(2, channelCount) }, (_, i) => i);
+		s.channels === 'left'
+			? [0]
+			: s.channels === 'right' && channelCount > 1
+				? [1]
+				: Array.from({ length: Math.min(2, channelCount) }, (_, i) => i);
 	const nyquist = sampleRateHz / 2;
 	const band: [number, number] = [Math.max(0, s.bandHz[0]), Math.min(nyquist, s.bandHz[1])];
 	analyzers = analysed.map(
@@ -137,7 +147,10 @@ function ingest(m: Extract<ToWorker, { type: 'frame' }>): void {
 	const { channels: ch, sampleRateHz: rate, sampleCount: count, flags } = m;
 	const all = new Float32Array(buffer);
 	if (ch !== channelCount || rate !== sampleRateHz) {
-		post({ type: 'error', message: `frame has ${ch} channels at ${rate} Hz; expected ${channelCount} at ${sampleRateHz} Hz` });
+		post({
+			type: 'error',
+			message: `frame has ${ch} channels at ${rate} Hz; expected ${channelCount} at ${sampleRateHz} Hz`
+		});
 		return;
 	}
 	if (buffer.byteLength !== HEADER_BYTES + ch * count * 4) return;
@@ -241,7 +254,8 @@ function maybeAnalyse(): void {
 		const binHz = sampleRateHz / s.fftSize;
 		const k0 = Math.round(results[loud].frequencyHz / binHz);
 		let m = -Infinity;
-		for (let k = Math.max(1, k0 - 3); k <= Math.min(spec.length - 1, k0 + 3); k++) if (spec[k] > m) m = spec[k];
+		for (let k = Math.max(1, k0 - 3); k <= Math.min(spec.length - 1, k0 + 3); k++)
+			if (spec[k] > m) m = spec[k];
 		crosstalkDb = m - results[loud].levelDbv;
 	}
 
@@ -294,10 +308,12 @@ function maybeAnalyse(): void {
 
 function capture(id: number, seconds: number): void {
 	const s = settings;
-	if (!s || rings.length === 0) return post({ type: 'capture-error', id, message: 'the analysis is not running' });
+	if (!s || rings.length === 0)
+		return post({ type: 'capture-error', id, message: 'the analysis is not running' });
 	const wanted = Math.max(s.fftSize, Math.round(seconds * sampleRateHz));
 	const n = Math.min(wanted, written, ringCap - 1);
-	if (n < s.fftSize) return post({ type: 'capture-error', id, message: 'not enough audio yet for one FFT frame' });
+	if (n < s.fftSize)
+		return post({ type: 'capture-error', id, message: 'not enough audio yet for one FFT frame' });
 	const chans = rings.map((ring) => {
 		const out = new Float32Array(n);
 		latest(ring, out, n);
@@ -305,7 +321,9 @@ function capture(id: number, seconds: number): void {
 	});
 	const bytes = encodeWav(chans, sampleRateHz);
 	const wav =
-		bytes.byteOffset === 0 && bytes.byteLength === bytes.buffer.byteLength && bytes.buffer instanceof ArrayBuffer
+		bytes.byteOffset === 0 &&
+		bytes.byteLength === bytes.buffer.byteLength &&
+		bytes.buffer instanceof ArrayBuffer
 			? bytes.buffer
 			: (bytes.slice().buffer as ArrayBuffer);
 	post({ type: 'capture', id, wav, sampleCount: n, sampleRateHz, channels: chans.length }, [wav]);

@@ -24,18 +24,22 @@ export const POST: RequestHandler = async (event) => {
 	const jobId = idParam(event.params.id, 'job');
 	if (!jobExists(db, jobId)) error(404, 'No such job');
 	const type = event.request.headers.get('content-type') ?? '';
-	if (!/^multipart\/form-data\b/i.test(type)) error(415, 'Send the snapshot as multipart/form-data with `samples` and `meta`');
+	if (!/^multipart\/form-data\b/i.test(type))
+		error(415, 'Send the snapshot as multipart/form-data with `samples` and `meta`');
 
 	const bytes = await readBodyCapped(event.request, SNAPSHOT_MAX_WAV_BYTES + MULTIPART_OVERHEAD_BYTES);
 	let form: FormData;
 	try {
-		form = await new Response(bytes as Uint8Array<ArrayBuffer>, { headers: { 'content-type': type } }).formData();
+		form = await new Response(bytes as Uint8Array<ArrayBuffer>, {
+			headers: { 'content-type': type }
+		}).formData();
 	} catch {
 		badRequest('The body is not valid multipart/form-data');
 	}
 	const samples = form.get('samples');
 	if (!(samples instanceof Blob)) badRequest('samples: attach the WAV file as the `samples` part');
-	if (samples.size > SNAPSHOT_MAX_WAV_BYTES) error(413, `samples: the WAV file is larger than ${SNAPSHOT_MAX_WAV_BYTES} bytes`);
+	if (samples.size > SNAPSHOT_MAX_WAV_BYTES)
+		error(413, `samples: the WAV file is larger than ${SNAPSHOT_MAX_WAV_BYTES} bytes`);
 	const meta = form.get('meta');
 	if (typeof meta !== 'string') badRequest('meta: send the snapshot details as the `meta` part (JSON text)');
 
