@@ -109,6 +109,7 @@ interface PageStats {
 	results: number;
 	spectrumPaints: number;
 	frameToPaintMs: number[];
+	frameGapsMs: number[];
 	longestTaskMs: number;
 	analysisMs: number;
 	droppedFrames: number;
@@ -121,6 +122,7 @@ async function readStats(page: Page): Promise<PageStats> {
 			results: number;
 			spectrumPaints: number;
 			frameToPaintMs: number[];
+			frameGapsMs: number[];
 			longestTaskMs: number;
 			analysisMs: number;
 			droppedFrames: () => number;
@@ -130,6 +132,7 @@ async function readStats(page: Page): Promise<PageStats> {
 			results: s.results,
 			spectrumPaints: s.spectrumPaints,
 			frameToPaintMs: [...s.frameToPaintMs],
+			frameGapsMs: [...s.frameGapsMs],
 			longestTaskMs: s.longestTaskMs,
 			analysisMs: s.analysisMs,
 			droppedFrames: s.droppedFrames(),
@@ -286,6 +289,7 @@ Bench page, live (${elapsedS.toFixed(0)} s, ${Number(opts.rate) / 1000} kHz ster
   longest main-thread task  ${after.longestTaskMs.toFixed(0)} ms (PerformanceObserver longtask; 0 = none over 50 ms)
   JS heap (main, after GC)  start ${mb(heapStart)}, end ${mb(heapEnd)}, change ${mb(heapEnd - heapStart)}  (goal no growth: ${verdict(heapEnd - heapStart < 1024 * 1024)})
   worker analysis time      ${after.analysisMs.toFixed(1)} ms for the last update (both channels)
+  frame arrival gaps        p5 ${percentile(after.frameGapsMs, 5).toFixed(1)} ms, p50 ${percentile(after.frameGapsMs, 50).toFixed(1)} ms, p95 ${percentile(after.frameGapsMs, 95).toFixed(1)} ms (block ${(4096 / Number(opts.rate) * 1000).toFixed(1)} ms)
   ratio paints/results      ${(after.spectrumPaints / Math.max(1, after.results)).toFixed(3)}`);
 	} finally {
 		await browser.close();
