@@ -81,7 +81,15 @@ process.on('SIGINT', () => shutdown(0));
 process.on('SIGTERM', () => shutdown(0));
 
 run('mail', process.execPath, ['--import', 'tsx', 'scripts/mail-catcher.ts']);
-run('bridge', process.execPath, ['--import', 'tsx', 'bridge/main.ts', '--host', '127.0.0.1', '--port', env.BRIDGE_PORT]);
+run('bridge', process.execPath, [
+	'--import',
+	'tsx',
+	'bridge/main.ts',
+	'--host',
+	'127.0.0.1',
+	'--port',
+	env.BRIDGE_PORT
+]);
 run('app', 'node', ['build']);
 
 console.log(`

@@ -51,6 +51,10 @@ async function capture(page: Page, label: string, stage: 'before' | 'after') {
 }
 
 test('bench: live gain, a fault and its repair, before/after snapshots with verdicts', async ({ page }) => {
+	// Unique per run, so the job page shows exactly this run's pair in a reused database.
+	const run = Date.now().toString(36).toUpperCase();
+	const beforeLabel = `Under-biased output stage ${run}`;
+	const afterLabel = `Bias reset to spec ${run}`;
 	await signIn(page, 'tech1@example.com');
 
 	// A job to work on: the first one in the queue.
@@ -121,7 +125,7 @@ test('bench: live gain, a fault and its repair, before/after snapshots with verd
 		'THD+N rises well past the limit with the fault on'
 	);
 	await expect(page.getByTestId('live-verdict')).toHaveText(/FAIL/);
-	await capture(page, 'Under-biased output stage', 'before');
+	await capture(page, beforeLabel, 'before');
 	await expect(page.getByTestId('capture-verdict')).toHaveText('FAIL');
 
 	// ── the repair ──────────────────────────────────────────────────────────
@@ -135,15 +139,15 @@ test('bench: live gain, a fault and its repair, before/after snapshots with verd
 	// Let the steadiness window refill with clean results before the "after" capture.
 	await page.waitForTimeout(4000);
 	await expect(page.getByTestId('live-verdict')).toHaveText(/PASS/);
-	await capture(page, 'Bias reset to spec', 'after');
+	await capture(page, afterLabel, 'after');
 	await expect(page.getByTestId('capture-verdict')).toHaveText('PASS');
 
 	// ── both on the job page, with the server's verdicts ───────────────────
 	await page.goto(`/jobs/${jobId}`);
 	await ready(page);
 	const rows = page.getByTestId('snapshot-row');
-	const before = rows.filter({ hasText: 'Under-biased output stage' });
-	const after = rows.filter({ hasText: 'Bias reset to spec' });
+	const before = rows.filter({ hasText: beforeLabel });
+	const after = rows.filter({ hasText: afterLabel });
 	await expect(before.getByTestId('snapshot-verdict')).toHaveText(/fail/i);
 	await expect(before.getByTestId('snapshot-stage')).toHaveText('Before');
 	await expect(after.getByTestId('snapshot-verdict')).toHaveText(/pass/i);

@@ -41,10 +41,14 @@ export const settingsPatchSchema = shopSettingsSchema
 	.refine((v) => Object.keys(v).length > 0, 'Nothing to change');
 export type SettingsPatch = z.infer<typeof settingsPatchSchema>;
 
-/** Soak limits a shop starts with (common practice for consumer amplifier heat soaks). */
+/**
+ * Soak limits a shop starts with; admins adjust them in Settings. The heatsink ceiling is a
+ * common-practice figure for audio amplifiers (70–80 °C, from memory); the rise-rate limit is
+ * set above a cold heatsink's first-minute climb at ⅛ power so it catches runaway, not warm-up.
+ */
 export const DEFAULT_SOAK_LIMITS: SoakLimits = {
 	maxHeatsinkC: 70,
-	maxRiseCPerMin: 3,
+	maxRiseCPerMin: 8,
 	maxDiffC: 10,
 	thdnCeilingDb: null
 };

@@ -11,13 +11,15 @@ export const DEFAULT_JSON_LIMIT_BYTES = 64 * 1024;
  */
 export function requireSameOrigin(event: Pick<RequestEvent, 'request' | 'url'>): void {
 	const origin = event.request.headers.get('origin');
-	if (!origin || origin !== event.url.origin) error(403, 'Cross-origin request refused: Origin must be this site');
+	if (!origin || origin !== event.url.origin)
+		error(403, 'Cross-origin request refused: Origin must be this site');
 }
 
 /** Read the raw body with a byte cap: 413 when it is larger. */
 export async function readBodyCapped(request: Request, maxBytes: number): Promise<Uint8Array> {
 	const declared = Number(request.headers.get('content-length') ?? NaN);
-	if (Number.isFinite(declared) && declared > maxBytes) error(413, `Body too large: limit is ${maxBytes} bytes`);
+	if (Number.isFinite(declared) && declared > maxBytes)
+		error(413, `Body too large: limit is ${maxBytes} bytes`);
 	if (!request.body) return new Uint8Array(0);
 	const reader = request.body.getReader();
 	const chunks: Uint8Array[] = [];

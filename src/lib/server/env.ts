@@ -11,8 +11,16 @@ const schema = z.object({
 	SMTP_HOST: z.string().default('127.0.0.1'),
 	SMTP_PORT: z.coerce.number().int().default(2525),
 	MAIL_FROM: z.string().default('Benchlight <bench@example.com>'),
-	SESSION_IDLE_MINUTES: z.coerce.number().int().min(1).default(60 * 8),
-	SESSION_ABSOLUTE_HOURS: z.coerce.number().int().min(1).default(24 * 7)
+	SESSION_IDLE_MINUTES: z.coerce
+		.number()
+		.int()
+		.min(1)
+		.default(60 * 8),
+	SESSION_ABSOLUTE_HOURS: z.coerce
+		.number()
+		.int()
+		.min(1)
+		.default(24 * 7)
 });
 
 const parsed = schema.safeParse(process.env);
@@ -26,7 +34,9 @@ export const env = parsed.data;
 /** The bridge secret is required wherever tokens are minted; fail loudly when it is missing. */
 export function requireBridgeSecret(): string {
 	if (!env.BRIDGE_SECRET) {
-		throw new Error('BRIDGE_SECRET is not set (npm start writes one into .env); the bridge token cannot be signed');
+		throw new Error(
+			'BRIDGE_SECRET is not set (npm start writes one into .env); the bridge token cannot be signed'
+		);
 	}
 	return env.BRIDGE_SECRET;
 }

@@ -28,7 +28,11 @@ afterAll(() => {
 describe('sendMail', () => {
 	it('delivers to the SMTP catcher with subject, recipient and body intact', async () => {
 		const { sendMail } = await import('./mail');
-		await sendMail({ to: 'owner@example.com', subject: 'Your unit is ready', text: 'Measured report attached.' });
+		await sendMail({
+			to: 'owner@example.com',
+			subject: 'Your unit is ready',
+			text: 'Measured report attached.'
+		});
 		let files: string[] = [];
 		for (let i = 0; i < 50 && files.length === 0; i++) {
 			await new Promise((r) => setTimeout(r, 100));

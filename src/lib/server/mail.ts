@@ -1,11 +1,11 @@
 // Outgoing e-mail through nodemailer over SMTP; in development and tests the SMTP server is
 // the local mail catcher (scripts/mail-catcher.ts), in a shop it is their mail service.
-import nodemailer from 'nodemailer';
+import nodemailer, { type Transporter } from 'nodemailer';
 import { env } from './env';
 
-let transport: nodemailer.Transporter | null = null;
+let transport: Transporter | null = null;
 
-function getTransport(): nodemailer.Transporter {
+function getTransport(): Transporter {
 	transport ??= nodemailer.createTransport({
 		host: env.SMTP_HOST,
 		port: env.SMTP_PORT,

@@ -199,8 +199,9 @@ function maybeAnalyse(): void {
 	if (!s || analyzers.length === 0) return;
 	const now = performance.now();
 	// A token bucket rather than a minimum gap: frames arriving every 43 ms against a 50 ms gap would
-	// halve the rate; the bucket gives maxUpdatesPerS on average, one result per frame at most.
-	updateBudget = Math.min(1, updateBudget + ((now - lastAnalysisAt) * s.maxUpdatesPerS) / 1000);
+	// halve the rate. The bucket holds up to two updates so credit is not lost between frames; on
+	// average it gives maxUpdatesPerS, and never more than one result per frame.
+	updateBudget = Math.min(2, updateBudget + ((now - lastAnalysisAt) * s.maxUpdatesPerS) / 1000);
 	lastAnalysisAt = now;
 	if (updateBudget < 1 || written < s.fftSize) return;
 	updateBudget -= 1;

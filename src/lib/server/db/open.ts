@@ -19,7 +19,6 @@ export function migrationsFolder(): string {
 	return candidates.find((c) => existsSync(c)) ?? candidates[1];
 }
 
-
 /**
  * Open (creating if needed) and migrate. `:memory:` gives a private database for tests.
  * WAL + synchronous=FULL: an acknowledged commit survives a power cut.

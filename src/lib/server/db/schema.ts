@@ -1,15 +1,7 @@
 // Benchlight's SQLite schema. camelCase keys map to snake_case columns; timestamps are
 // integer milliseconds (Drizzle `timestamp_ms` → Date); money is integer cents.
 import { sql } from 'drizzle-orm';
-import {
-	sqliteTable,
-	text,
-	integer,
-	real,
-	blob,
-	index,
-	primaryKey
-} from 'drizzle-orm/sqlite-core';
+import { sqliteTable, text, integer, real, blob, index, primaryKey } from 'drizzle-orm/sqlite-core';
 
 // Roles, unit categories, job statuses and part states live in $lib/schemas/enums so the
 // browser can use them too (a relative import: drizzle-kit and scripts do not know `$lib`).
@@ -288,7 +280,10 @@ export const soakReadings = sqliteTable(
 		bootId: text('boot_id'),
 		receivedAt: createdAt()
 	},
-	(t) => [primaryKey({ columns: [t.runId, t.probe, t.seq] }), index('soak_readings_run_seq_idx').on(t.runId, t.seq)]
+	(t) => [
+		primaryKey({ columns: [t.runId, t.probe, t.seq] }),
+		index('soak_readings_run_seq_idx').on(t.runId, t.seq)
+	]
 );
 
 /** Things that happened during a run: gaps, breaches, alarms, THD+N samples, notes. */
