@@ -258,6 +258,31 @@ describe('bridge server', () => {
 		c.ws.close();
 	});
 
+	it('turns the generator off by itself when the deadman runs out, and a new message disarms it', async () => {
+		const c = await client(bridge.port);
+		await c.waitFor(() => c.messages[0], 'hello');
+		const sine = { kind: 'sine', frequencyHz: 1000, levelVrms: 0.1 } as const;
+		c.send({ v: 1, id: 'd1', type: 'generator', generator: sine, offAfterS: 0.3 });
+		await c.waitFor(() => ofType(c, 'state').find((m) => m.replyTo === 'd1'), 'armed');
+		const off = await c.waitFor(
+			() => ofType(c, 'state').find((m) => m.replyTo === undefined && m.generator.kind === 'off'),
+			'deadman off'
+		);
+		expect(off.generator).toEqual({ kind: 'off' });
+		// A later message without offAfterS replaces the deadman: the drive stays on.
+		c.send({ v: 1, id: 'd2', type: 'generator', generator: sine, offAfterS: 0.3 });
+		c.send({ v: 1, id: 'd3', type: 'generator', generator: sine });
+		await c.waitFor(() => ofType(c, 'state').find((m) => m.replyTo === 'd3'), 'replaced');
+		const countOff = () =>
+			ofType(c, 'state').filter((m) => m.replyTo === undefined && m.generator.kind === 'off').length;
+		const before = countOff();
+		await new Promise((r) => setTimeout(r, 600));
+		expect(countOff()).toBe(before);
+		c.send({ v: 1, id: 'd4', type: 'generator', generator: { kind: 'off' } });
+		await c.waitFor(() => ofType(c, 'state').find((m) => m.replyTo === 'd4'), 'reset');
+		c.ws.close();
+	});
+
 	it('answers thousands of garbage messages with errors, changes nothing, and keeps serving', async () => {
 		const c = await client(bridge.port);
 		const hello = await c.waitFor(() => c.messages[0] as HelloMessage | undefined, 'hello');

@@ -265,6 +265,21 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 
 	const unsubscribeTemps = tempLog.onReadings((readings) => broadcast({ type: 'temps', bootId, readings }));
 
+	// The generator's deadman: a soak asks for the drive to stop on its own at the planned end.
+	let deadman: NodeJS.Timeout | null = null;
+	const armDeadman = (offAfterS: number | undefined) => {
+		if (deadman) clearTimeout(deadman);
+		deadman = null;
+		if (!offAfterS || !sim) return;
+		deadman = setTimeout(() => {
+			deadman = null;
+			sim.setGenerator({ kind: 'off' });
+			generator = sim.generator;
+			log(`generator off: deadman after ${offAfterS} s`);
+			broadcast(stateMessage());
+		}, offAfterS * 1000);
+	};
+
 	const handleControl = (c: Client, msg: ControlMessage) => {
 		const replyTo = msg.id;
 		switch (msg.type) {
@@ -280,6 +295,7 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 					);
 				sim.setGenerator(msg.generator);
 				generator = sim.generator;
+				armDeadman(msg.generator.kind === 'off' ? undefined : msg.offAfterS);
 				log(`generator ${JSON.stringify(generator)} (user ${c.claims.userId})`);
 				return broadcast(stateMessage(replyTo));
 			}
@@ -528,6 +544,7 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 			if (closed) return;
 			closed = true;
 			clearInterval(heartbeat);
+			if (deadman) clearTimeout(deadman);
 			unsubscribeTemps();
 			await source.stop();
 			await temps.stop();

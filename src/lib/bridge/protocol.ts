@@ -56,6 +56,8 @@ export const PROBES: readonly ProbeInfo[] = [
 
 export const GENERATOR_MAX_VRMS = 10;
 export const GENERATOR_MAX_HZ = 96_000;
+/** The longest deadman a generator message may ask for (a day). */
+export const GENERATOR_MAX_OFF_AFTER_S = 24 * 3600;
 const level = z.number().min(0).max(GENERATOR_MAX_VRMS);
 const freq = z.number().min(1).max(GENERATOR_MAX_HZ);
 /** Which simulator input channels the generator drives (one-sided drive measures crosstalk). */
@@ -213,7 +215,12 @@ export const GeneratorMessageSchema = z.strictObject({
 	v,
 	id,
 	type: z.literal('generator'),
-	generator: GeneratorSchema
+	generator: GeneratorSchema,
+	/**
+	 * Deadman: the bridge turns the generator off by itself after this many seconds of wall
+	 * time unless a later generator message replaces it, so a closed page cannot leave a unit driven.
+	 */
+	offAfterS: z.number().positive().max(GENERATOR_MAX_OFF_AFTER_S).optional()
 });
 export const InputMessageSchema = z.strictObject({ v, id, type: z.literal('input'), input: InputSchema });
 export const LoadMessageSchema = z.strictObject({

@@ -79,6 +79,8 @@ const MAX_BACKOFF_MS = 15_000;
 /** Output level within this fraction of the target counts as on target. */
 const LEVEL_TOLERANCE = 0.03;
 const THDN_SAMPLE_EVERY_MS = 10_000;
+/** Wall seconds past the planned end before the bridge's deadman stops the drive on its own. */
+const DEADMAN_MARGIN_S = 30;
 
 async function postJson(url: string, body: unknown): Promise<Response> {
 	return fetch(url, {
@@ -516,9 +518,12 @@ export class SoakSession {
 		this.#lastDriveSentAt = Date.now();
 		const drive = run.channels.length === 2 ? 'both' : run.channels[0];
 		this.#link.send({ type: 'load', loadOhms: run.loadOhms });
+		// The bridge stops the drive by itself shortly after the planned end, even if this page is gone.
+		const offAfterS = Math.max(1, this.remainingS / run.timeScale + DEADMAN_MARGIN_S);
 		const sent = this.#link.send({
 			type: 'generator',
-			generator: { kind: 'sine', frequencyHz: run.frequencyHz, levelVrms: level, drive }
+			generator: { kind: 'sine', frequencyHz: run.frequencyHz, levelVrms: level, drive },
+			offAfterS
 		});
 		if (sent.ok) {
 			this.#queueEvent({
