@@ -221,7 +221,10 @@ async function main(): Promise<void> {
 
 		await page.goto(`${origin}/jobs/1/bench?fft=${fftSize}`);
 		try {
-			await page.getByTestId('link-state').filter({ hasText: 'Connected' }).waitFor({ timeout: 30_000 });
+			await page
+				.getByTestId('link-state')
+				.filter({ hasText: /^\s*Connected\s*$/ })
+				.waitFor({ timeout: 30_000 });
 		} catch (e) {
 			await page.screenshot({ path: join(tmpdir(), 'bench-live-failure.png') }).catch(() => {});
 			const why =
@@ -289,7 +292,7 @@ Bench page, live (${elapsedS.toFixed(0)} s, ${Number(opts.rate) / 1000} kHz ster
   longest main-thread task  ${after.longestTaskMs.toFixed(0)} ms (PerformanceObserver longtask; 0 = none over 50 ms)
   JS heap (main, after GC)  start ${mb(heapStart)}, end ${mb(heapEnd)}, change ${mb(heapEnd - heapStart)}  (goal no growth: ${verdict(heapEnd - heapStart < 1024 * 1024)})
   worker analysis time      ${after.analysisMs.toFixed(1)} ms for the last update (both channels)
-  frame arrival gaps        p5 ${percentile(after.frameGapsMs, 5).toFixed(1)} ms, p50 ${percentile(after.frameGapsMs, 50).toFixed(1)} ms, p95 ${percentile(after.frameGapsMs, 95).toFixed(1)} ms (block ${(4096 / Number(opts.rate) * 1000).toFixed(1)} ms)
+  frame arrival gaps        p5 ${percentile(after.frameGapsMs, 5).toFixed(1)} ms, p50 ${percentile(after.frameGapsMs, 50).toFixed(1)} ms, p95 ${percentile(after.frameGapsMs, 95).toFixed(1)} ms (block ${((4096 / Number(opts.rate)) * 1000).toFixed(1)} ms)
   ratio paints/results      ${(after.spectrumPaints / Math.max(1, after.results)).toFixed(3)}`);
 	} finally {
 		await browser.close();

@@ -30,6 +30,10 @@ describe('demo seed', () => {
 			expect((await signIn(db, { email, password: DEMO_PASSWORD, ip: '127.0.0.1' })).ok).toBe(true);
 		}
 		expect(getSettings(db).shopName).toBe(DEMO_SHOP_NAME);
+		// The bench needs limit profiles to pick from, owned by the demo supervisor.
+		const profiles = db.select().from(table.limitProfiles).all();
+		expect(profiles.length).toBeGreaterThanOrEqual(4);
+		expect(new Set(profiles.map((p) => p.createdBy))).toEqual(new Set(['demosupervisor']));
 	});
 
 	it('covers every status and unit category, with customers, parts and log entries', async () => {

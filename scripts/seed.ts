@@ -7,6 +7,7 @@ import * as table from '../src/lib/server/db/schema';
 import type { JobStatus, PartState, Role, UnitCategory } from '../src/lib/server/db/schema';
 import { hashPassword } from '../src/lib/server/auth';
 import { defaultSettings, updateSettings } from '../src/lib/server/settings';
+import { seedLimitProfiles } from '../src/lib/server/limits';
 import { env } from '../src/lib/server/env';
 import { UNIT_CATEGORIES } from '../src/lib/schemas/enums';
 
@@ -635,6 +636,7 @@ export async function seedDemo(db: Db, options: { now?: Date } = {}): Promise<bo
 	});
 
 	updateSettings(db, { ...defaultSettings(), shopName: DEMO_SHOP_NAME });
+	seedLimitProfiles(db, userIds.supervisor);
 	return true;
 }
 

@@ -69,7 +69,7 @@ test('bench: live gain, a fault and its repair, before/after snapshots with verd
 	await ready(page);
 
 	// ── connect ─────────────────────────────────────────────────────────────
-	await expect(page.getByTestId('link-state')).toHaveText(/Connected/, { timeout: 30_000 });
+	await expect(page.getByTestId('link-state')).toHaveText(/^Connected$/, { timeout: 30_000 });
 	await expect(page.getByTestId('link-source')).toHaveText('Simulator');
 	await expect(page.getByTestId('caution')).toContainText('dummy load');
 	await expect(page.getByTestId('caution')).toContainText('open output or a shorted one');
@@ -172,7 +172,7 @@ test('bench: live gain, a fault and its repair, before/after snapshots with verd
 
 	// Leave the shared simulator as the other specs expect it.
 	await page.goto(`/jobs/${jobId}/bench`);
-	await expect(page.getByTestId('link-state')).toHaveText(/Connected/, { timeout: 30_000 });
+	await expect(page.getByTestId('link-state')).toHaveText(/^Connected$/, { timeout: 30_000 });
 	await page.getByTestId('sim-volume').fill('26');
 	await expect(page.getByTestId('sim-volume-value')).toHaveText('+26.0 dB');
 	await page.getByTestId('gen-kind').selectOption('off');

@@ -209,7 +209,7 @@ export const snapshots = sqliteTable(
 		results: text('results', { mode: 'json' }).notNull(),
 		verdict: text('verdict', { enum: ['pass', 'fail', 'none'] }).notNull(),
 		checks: text('checks', { mode: 'json' }).notNull(),
-		/** Log-spaced compact spectrum for plots: { frequencyHz: number[], channels: number[][] } in dBV. */
+		/** Log-spaced compact spectrum for plots (SnapshotSpectrum in $lib/server/snapshots): { fftSize, window, channels: [{ frequencyHz[], levelDbv[] }] }. */
 		spectrum: text('spectrum', { mode: 'json' }).notNull(),
 		/** Generator, simulator and analysis settings the browser reported (informational). */
 		settings: text('settings', { mode: 'json' }),
