@@ -15,7 +15,8 @@ const e2eEnv = {
 	ORIGIN: appOrigin,
 	HOST: '127.0.0.1',
 	PORT: String(APP_PORT),
-	SMTP_PORT: '2626'
+	SMTP_PORT: '2626',
+	BODY_SIZE_LIMIT: '34M'
 };
 Object.assign(process.env, e2eEnv);
 

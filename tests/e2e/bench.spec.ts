@@ -3,24 +3,10 @@
 // THD+N rise, captures a "before" snapshot, clears the fault, captures an "after" one, and finds
 // both with their server-computed verdicts on the job page.
 import { expect, test, type Page } from '@playwright/test';
+import { ready, signIn } from './helpers';
 
-const PASSWORD = 'bench-demo-2026';
 /** Lets the spec run against a bridge other than the shop setting (a developer's own port). */
 const BRIDGE_OVERRIDE = process.env.BENCH_E2E_BRIDGE_URL;
-
-async function ready(page: Page) {
-	await page.locator('html[data-hydrated="true"]').waitFor({ state: 'attached' });
-}
-
-async function signIn(page: Page, email: string) {
-	await page.goto('/login');
-	await ready(page);
-	await page.getByLabel('Email').fill(email);
-	await page.getByLabel('Password').fill(PASSWORD);
-	await page.getByRole('button', { name: 'Sign in' }).click();
-	await expect(page).toHaveURL(/\/jobs$/);
-	await ready(page);
-}
 
 /** A readout as a number ("+20.00" → 20, "0.0857" → 0.0857; "—" → NaN). */
 async function reading(page: Page, testId: string): Promise<number> {

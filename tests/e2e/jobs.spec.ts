@@ -2,23 +2,7 @@
 // finds it through the filtered table, logs work and a part, moves it to review and cannot
 // approve it; a supervisor then approves it.
 import { expect, test, type Page } from '@playwright/test';
-
-const PASSWORD = 'bench-demo-2026';
-
-/** After a full page load, wait until the app has hydrated (inputs wired to their handlers). */
-async function ready(page: Page) {
-	await page.locator('html[data-hydrated="true"]').waitFor({ state: 'attached' });
-}
-
-async function signIn(page: Page, email: string) {
-	await page.goto('/login');
-	await ready(page);
-	await page.getByLabel('Email').fill(email);
-	await page.getByLabel('Password').fill(PASSWORD);
-	await page.getByRole('button', { name: 'Sign in' }).click();
-	await expect(page).toHaveURL(/\/jobs$/);
-	await ready(page);
-}
+import { ready, signIn } from './helpers';
 
 async function moveTo(page: Page, status: string, label: string) {
 	await page.getByTestId(`status-to-${status}`).click();

@@ -4,15 +4,8 @@ import { fail, redirect } from '@sveltejs/kit';
 import { db } from '$lib/server/db';
 import { cookieSecureFor, setSessionCookie, signIn, SIGN_IN_FAILED_MESSAGE } from '$lib/server/auth';
 import { signInSchema } from '$lib/schemas/users';
+import { safeNext } from '$lib/safe-next';
 import type { Actions, PageServerLoad } from './$types';
-
-/** Only same-site paths may follow sign-in ("//host" and "/\host" would leave the site). */
-function safeNext(value: FormDataEntryValue | string | null): string {
-	const s = typeof value === 'string' ? value : '';
-	if (!s.startsWith('/') || s.startsWith('//') || s.startsWith('/\\') || s.startsWith('/login'))
-		return '/jobs';
-	return s;
-}
 
 export const load: PageServerLoad = ({ locals, url }) => {
 	const next = safeNext(url.searchParams.get('next'));
