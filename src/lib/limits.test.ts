@@ -1,7 +1,10 @@
 import { describe, expect, it } from 'vitest';
 import {
+	conditionMismatches,
 	conditionsSchema,
+	describeConditions,
 	describeLimit,
+	describeMismatch,
 	evaluateLimits,
 	limitSchema,
 	profileInputSchema,
@@ -139,5 +142,31 @@ describe('schemas', () => {
 		expect(describeLimit(lim({ metric: 'thdnPercent', op: 'le', value: 0.05, unit: '%' }))).toBe(
 			'THD+N (each channel) ≤ 0.05 %'
 		);
+	});
+	it('names what differs from the profile in one sentence, verb agreeing', () => {
+		const c = conditionsSchema.parse({ generatorLevelVrms: 0.32, loadOhms: 8, weighting: 'none' });
+		const live = {
+			bandHz: [20, 20_000] as const,
+			weighting: 'none' as const,
+			loadOhms: 8,
+			referenceVrms: 0.32
+		};
+		expect(conditionMismatches(live, c, 24_000)).toEqual([]);
+		expect(describeMismatch([])).toBeNull();
+		expect(describeMismatch(conditionMismatches({ ...live, loadOhms: 4 }, c, 24_000))).toBe(
+			'Live load (4 Ω, profile 8 Ω) differs from the profile; captures use the profile’s.'
+		);
+		expect(
+			describeMismatch(
+				conditionMismatches({ ...live, bandHz: [400, 2000], weighting: 'a', referenceVrms: null }, c, 24_000)
+			)
+		).toBe(
+			'Live band (400 Hz–2 kHz, profile 20 Hz–20 kHz), weighting (A-weighted, profile unweighted) and gain reference (not set, profile 0.32 V rms) differ from the profile; captures use the profile’s.'
+		);
+		// A band top above Nyquist is the same band once both are clipped.
+		expect(
+			conditionMismatches({ ...live, bandHz: [20, 30_000] }, { ...c, bandHighHz: 40_000 }, 24_000)
+		).toEqual([]);
+		expect(describeConditions(c)).toBe('0.32 V rms, 8 Ω load, 20 Hz–20 kHz, unweighted');
 	});
 });

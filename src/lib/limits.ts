@@ -2,6 +2,7 @@
 // pure evaluation of those limits against measured figures. Shared by the server (verdicts on
 // stored snapshots) and the bench page (live pass/fail), so both judge the same way.
 import { z } from 'zod';
+import { hzLabel } from './measure-format';
 
 // ── metrics and units ───────────────────────────────────────────────────────
 
@@ -344,20 +345,58 @@ export function describeLimit(limit: Limit): string {
 /** Conditions as one line: "1 kHz, 0.5 V, 8 Ω, 20 Hz–20 kHz, unweighted". */
 export function describeConditions(c: LimitConditions): string {
 	const parts: string[] = [];
-	if (c.generatorFrequencyHz !== undefined) parts.push(`generator ${formatHz(c.generatorFrequencyHz)}`);
+	if (c.generatorFrequencyHz !== undefined) parts.push(`generator ${hzLabel(c.generatorFrequencyHz)}`);
 	if (c.generatorLevelVrms !== undefined) parts.push(`${formatLimitValue(c.generatorLevelVrms)} V rms`);
 	if (c.loadOhms !== undefined) parts.push(`${formatLimitValue(c.loadOhms)} Ω load`);
-	parts.push(`${formatHz(c.bandLowHz)}–${formatHz(c.bandHighHz)}`);
+	parts.push(`${hzLabel(c.bandLowHz)}–${hzLabel(c.bandHighHz)}`);
 	parts.push(weightingLabel(c.weighting));
 	return parts.join(', ');
 }
 
-export function weightingLabel(w: Weighting): string {
-	return w === 'a' ? 'A-weighted' : 'unweighted';
+/** The live bench's measuring conditions, as far as a profile governs them. */
+export interface LiveConditions {
+	bandHz: readonly [number, number];
+	weighting: Weighting;
+	loadOhms: number | null;
+	referenceVrms: number | null;
 }
 
-export function formatHz(hz: number): string {
-	return hz >= 1000 ? `${formatLimitValue(hz / 1000)} kHz` : `${formatLimitValue(hz)} Hz`;
+/**
+ * The profile conditions the live bench does not match, each as "what (live, profile …)", in a
+ * fixed order; [] when all match. The band's top is compared after clipping both to Nyquist.
+ */
+export function conditionMismatches(live: LiveConditions, c: LimitConditions, nyquistHz: number): string[] {
+	const out: string[] = [];
+	const band = (lo: number, hi: number) => `${hzLabel(lo)}–${hzLabel(Math.min(hi, nyquistHz))}`;
+	if (
+		Math.abs(live.bandHz[0] - c.bandLowHz) > 0.5 ||
+		Math.abs(Math.min(live.bandHz[1], nyquistHz) - Math.min(c.bandHighHz, nyquistHz)) > 0.5
+	)
+		out.push(`band (${band(live.bandHz[0], live.bandHz[1])}, profile ${band(c.bandLowHz, c.bandHighHz)})`);
+	if (live.weighting !== c.weighting)
+		out.push(`weighting (${weightingLabel(live.weighting)}, profile ${weightingLabel(c.weighting)})`);
+	const same = (a: number | null, b: number) => a !== null && Math.abs(a - b) <= 1e-9 * Math.max(1, b);
+	if (c.loadOhms !== undefined && !same(live.loadOhms, c.loadOhms))
+		out.push(
+			`load (${live.loadOhms === null ? 'not set' : `${formatLimitValue(live.loadOhms)} Ω`}, profile ${formatLimitValue(c.loadOhms)} Ω)`
+		);
+	if (c.generatorLevelVrms !== undefined && !same(live.referenceVrms, c.generatorLevelVrms))
+		out.push(
+			`gain reference (${live.referenceVrms === null ? 'not set' : `${formatLimitValue(live.referenceVrms)} V rms`}, profile ${formatLimitValue(c.generatorLevelVrms)} V rms)`
+		);
+	return out;
+}
+
+/** One sentence naming what differs, with the verb agreeing: "Live load (4 Ω, profile 8 Ω) differs from the profile." */
+export function describeMismatch(diffs: readonly string[]): string | null {
+	if (diffs.length === 0) return null;
+	const list =
+		diffs.length === 1 ? diffs[0] : `${diffs.slice(0, -1).join(', ')} and ${diffs[diffs.length - 1]}`;
+	return `Live ${list} ${diffs.length === 1 ? 'differs' : 'differ'} from the profile; captures use the profile’s.`;
+}
+
+export function weightingLabel(w: Weighting): string {
+	return w === 'a' ? 'A-weighted' : 'unweighted';
 }
 
 /** Up to 4 significant digits without trailing zeros. */

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { db, dbSigned, hz, percent, sig, volts, watts } from './measure-format';
+import { db, dbSigned, hz, hzLabel, percent, sig, volts, watts, wattsLabel } from './measure-format';
 
 describe('measure-format', () => {
 	it('keeps significant digits and scales units', () => {
@@ -17,5 +17,26 @@ describe('measure-format', () => {
 		expect(db(-300)).toBe('−∞');
 		expect(percent(0.012345)).toBe('0.0123');
 		expect(percent(Number.NaN)).toBe('—');
+	});
+	it('scales power to W, mW, µW or nW with 4 significant digits (SI prefixes, BIPM SI Brochure §3)', () => {
+		expect(watts(5e-9)).toEqual({ value: '5.000', unit: 'nW' });
+		expect(wattsLabel(5e-9)).toBe('5.000 nW');
+		expect(watts(2.3456e-6)).toEqual({ value: '2.346', unit: 'µW' });
+		expect(watts(0.0123)).toEqual({ value: '12.30', unit: 'mW' });
+		expect(watts(3.125)).toEqual({ value: '3.125', unit: 'W' });
+		expect(watts(125)).toEqual({ value: '125.0', unit: 'W' });
+		// 999.96 µW rounds to 1000 at 4 digits: read it as 1.000 mW instead.
+		expect(watts(999.96e-6)).toEqual({ value: '1.000', unit: 'mW' });
+		expect(sig(0.99996, 4)).toBe('1.000');
+		expect(watts(0)).toEqual({ value: '0', unit: 'W' });
+		expect(watts(undefined)).toEqual({ value: '—', unit: 'W' });
+	});
+	it('labels frequencies one way everywhere', () => {
+		expect(hzLabel(20)).toBe('20 Hz');
+		expect(hzLabel(1000)).toBe('1 kHz');
+		expect(hzLabel(19_950)).toBe('19.95 kHz');
+		expect(hzLabel(22_050)).toBe('22.05 kHz');
+		expect(hzLabel(2000, { digits: 3, compact: true })).toBe('2k');
+		expect(hzLabel(200, { compact: true })).toBe('200');
 	});
 });

@@ -1,5 +1,6 @@
 // Number formatting for measurement readouts: a fixed number of significant digits so readouts
-// do not jump in width, units scaled to the value (V, mV, µV), and a dash for figures not measured.
+// do not jump in width, units scaled to the value (V, mV, µV; W, mW, µW, nW), and a dash for figures
+// not measured.
 
 const DASH = '—';
 
@@ -10,7 +11,9 @@ function ok(v: number | null | undefined): v is number {
 /** "12.34" with `digits` significant digits, no exponent for the ranges readouts see. */
 export function sig(v: number, digits = 4): string {
 	if (v === 0) return '0';
-	const mag = Math.floor(Math.log10(Math.abs(v)));
+	let mag = Math.floor(Math.log10(Math.abs(v)));
+	// 0.99996 rounds up to 1.000 at 4 digits: count the decimals from the rounded magnitude.
+	if (Math.abs(Number(v.toPrecision(digits))) >= 10 ** (mag + 1)) mag++;
 	const decimals = Math.max(0, Math.min(9, digits - 1 - mag));
 	return v.toFixed(decimals);
 }
@@ -24,10 +27,32 @@ export function volts(v: number | null | undefined, digits = 4): { value: string
 	return { value: sig(v * 1e6, digits), unit: 'µV' };
 }
 
+/** SI prefixes for power readouts, largest first; below the last the figure reads in pW. */
+const POWER_UNITS: readonly [number, string][] = [
+	[1, 'W'],
+	[1e-3, 'mW'],
+	[1e-6, 'µW'],
+	[1e-9, 'nW'],
+	[1e-12, 'pW']
+];
+
+/** Power with a scaled SI unit and `digits` significant digits: 5e-9 W → { value: "5.000", unit: "nW" }. */
 export function watts(w: number | null | undefined, digits = 4): { value: string; unit: string } {
 	if (!ok(w)) return { value: DASH, unit: 'W' };
-	if (Math.abs(w) >= 1 || w === 0) return { value: sig(w, digits), unit: 'W' };
-	return { value: sig(w * 1e3, digits), unit: 'mW' };
+	if (w === 0) return { value: '0', unit: 'W' };
+	const a = Math.abs(w);
+	let i = POWER_UNITS.findIndex(([scale]) => a >= scale);
+	if (i < 0) i = POWER_UNITS.length - 1;
+	// Rounding to `digits` can carry 999.96 µW up to "1000": that reads in the next unit up.
+	if (i > 0 && Math.abs(Number(sig(w / POWER_UNITS[i][0], digits))) >= 1000) i--;
+	const [scale, unit] = POWER_UNITS[i];
+	return { value: sig(w / scale, digits), unit };
+}
+
+/** Power as one string, "5.000 nW": for text that shows a power outside a readout grid. */
+export function wattsLabel(w: number | null | undefined, digits = 4): string {
+	const p = watts(w, digits);
+	return `${p.value} ${p.unit}`;
 }
 
 /** dB figures with fixed decimals (default 2). */
@@ -62,10 +87,18 @@ export function hz(v: number | null | undefined): { value: string; unit: string 
 	return { value: sig(v, 5), unit: 'Hz' };
 }
 
-/** A frequency as a short label: "1 kHz", "20 Hz", "19.5 kHz". */
-export function hzLabel(v: number): string {
-	if (v >= 1000) return `${+(v / 1000).toPrecision(3)} kHz`;
-	return `${+v.toPrecision(3)} Hz`;
+/**
+ * A frequency as a short label with up to `digits` significant digits and no trailing zeros:
+ * "1 kHz", "20 Hz", "19.95 kHz". `compact` gives the axis form without a unit: "20", "2k".
+ * The one frequency label of the app (limits, chart axes and the bench all use it).
+ */
+export function hzLabel(v: number, options: { digits?: number; compact?: boolean } = {}): string {
+	if (!ok(v)) return DASH;
+	const digits = options.digits ?? 4;
+	const kilo = Math.abs(v) >= 1000;
+	const n = +(kilo ? v / 1000 : v).toPrecision(digits);
+	if (options.compact) return kilo ? `${n}k` : `${n}`;
+	return kilo ? `${n} kHz` : `${n} Hz`;
 }
 
 export function fftLabel(n: number): string {

@@ -139,6 +139,8 @@ describe('snapshot API', () => {
 		});
 		expect(audio.status).toBe(200);
 		expect(audio.res?.headers.get('content-type')).toBe('audio/wav');
+		// A shared bench PC must not keep job audio in its cache after sign-out.
+		expect(audio.res?.headers.get('cache-control')).toBe('private, no-store');
 		const bytes = new Uint8Array(await audio.res!.arrayBuffer());
 		expect(bytes).toEqual(wav);
 	});

@@ -816,6 +816,40 @@ export function channelBalanceDb(
 /** Channels 0 and 1 must differ by at least this much for crosstalk to be reported. */
 export const CROSSTALK_MIN_BALANCE_DB = 10;
 
+export interface StereoFigures {
+	/** Level of the first channel relative to the second, dB. */
+	balanceDb: number;
+	/**
+	 * Level at the louder channel's frequency in the quieter channel, relative to the louder (dB);
+	 * only when the channels differ by CROSSTALK_MIN_BALANCE_DB or more (one driven, one not).
+	 */
+	crosstalkDb?: number;
+	crosstalkFromChannel?: number;
+	crosstalkToChannel?: number;
+}
+
+/**
+ * Balance and crosstalk of two analysed channels: the one rule the live worker and the server
+ * (analyzeFrames) share, so a live verdict and a stored verdict read the same figure. Each
+ * analyser must just have produced its result (crosstalk fits the louder channel's frequency in
+ * the quieter channel's newest frame).
+ */
+export function stereoFigures(
+	a: { result: ChannelResult; analyzer: Analyzer },
+	b: { result: ChannelResult; analyzer: Analyzer }
+): StereoFigures {
+	const out: StereoFigures = { balanceDb: channelBalanceDb(a.result, b.result) };
+	// With both channels driven the "quieter" one is just the other signal, not leakage.
+	if (Math.abs(out.balanceDb) >= CROSSTALK_MIN_BALANCE_DB) {
+		const [from, to] = a.result.levelVrms >= b.result.levelVrms ? [a, b] : [b, a];
+		const otherVrms = to.analyzer.toneVrmsAt(from.result.frequencyHz);
+		out.crosstalkDb = db20(otherVrms / from.result.levelVrms);
+		out.crosstalkFromChannel = from.result.channel;
+		out.crosstalkToChannel = to.result.channel;
+	}
+	return out;
+}
+
 /** Analysis of every channel of a frame set, with balance and crosstalk for two or more channels. */
 export function analyzeFrames(
 	channels: Float32Array[],
@@ -853,17 +887,6 @@ export function analyzeFrames(
 		},
 		channels: results
 	};
-	if (results.length >= 2) {
-		out.balanceDb = channelBalanceDb(results[0], results[1]);
-		// Crosstalk only means something when one channel is driven and the other is not.
-		if (Math.abs(out.balanceDb) >= CROSSTALK_MIN_BALANCE_DB) {
-			const from = results[0].levelVrms >= results[1].levelVrms ? 0 : 1;
-			const to = 1 - from;
-			const otherVrms = runs[to].analyzer.toneVrmsAt(results[from].frequencyHz);
-			out.crosstalkDb = db20(otherVrms / results[from].levelVrms);
-			out.crosstalkFromChannel = from;
-			out.crosstalkToChannel = to;
-		}
-	}
+	if (results.length >= 2) Object.assign(out, stereoFigures(runs[0], runs[1]));
 	return out;
 }

@@ -23,6 +23,8 @@ export {
 	toneLevelAt,
 	crosstalkDb,
 	CROSSTALK_MIN_BALANCE_DB,
+	stereoFigures,
+	type StereoFigures,
 	sharedFft,
 	sharedWindow,
 	defaultFftSize,

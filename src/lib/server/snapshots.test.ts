@@ -4,8 +4,15 @@ import { beforeEach, describe, expect, it } from 'vitest';
 import { sql } from 'drizzle-orm';
 import { openDb, type Db } from './db/open';
 import * as table from './db/schema';
-import { createSnapshot, getSnapshot, getSnapshotAudio, listSnapshots, SnapshotError } from './snapshots';
-import { createLimitProfile } from './limits';
+import {
+	createSnapshot,
+	getSnapshot,
+	getSnapshotAudio,
+	listSnapshots,
+	SnapshotError,
+	STEADINESS_MAX_SECONDS
+} from './snapshots';
+import { createLimitProfile, listLimitProfiles, seedLimitProfiles } from './limits';
 
 /** A 24-bit integer PCM WAV, little-endian, written by hand (independent of src/lib/dsp/wav.ts). */
 function wav24(channels: Float64Array[], rate: number): Uint8Array {
@@ -201,6 +208,122 @@ describe('createSnapshot', () => {
 		const stored = getSnapshot(db, res.id)!;
 		expect(stored.verdict).toBe('fail');
 		expect((stored.profile as { name: string }).name).toBe('THD 0.1 %');
+	});
+
+	it('judges with the profile’s load, not the load the browser states (seeded 5 W into 8 Ω profile)', () => {
+		seedLimitProfiles(db);
+		const p = listLimitProfiles(db).find(
+			(x) => x.conditions.loadOhms === 8 && x.limits.some((l) => l.metric === 'powerW')
+		)!;
+		expect(p.conditions.generatorLevelVrms).toBe(0.32);
+		// 2.3 W into 8 Ω: V rms = √(2.3 × 8) (P = V²/R, REFERENCES.md §5); into 4 Ω it would read 4.6 W ≥ 4.5 W.
+		const vrms = Math.sqrt(2.3 * 8);
+		const peak = (vrms * Math.SQRT2) / 10; // 10 V full scale
+		const ch = () => tone(peak, 1000, [], N);
+		const res = createSnapshot(db, {
+			jobId,
+			userId: 'u1',
+			wav: wav24([ch(), ch()], RATE),
+			meta: {
+				label: 'power',
+				stage: 'after',
+				profileId: p.id,
+				fullScaleVolts: 10,
+				loadOhms: 4,
+				referenceVrms: 1,
+				analysis: { fftSize: 16384, bandHz: [400, 2000], weighting: 'a' }
+			}
+		});
+		const c = res.results.conditions;
+		expect(c.loadOhms).toBe(8);
+		expect(c.referenceVrms).toBe(0.32);
+		expect(c.bandHz).toEqual([20, 20000]);
+		expect(c.weighting).toBe('none');
+		expect(c.sources).toEqual({
+			bandHz: 'profile',
+			weighting: 'profile',
+			loadOhms: 'profile',
+			referenceVrms: 'profile'
+		});
+		expect(res.results.channels[0].powerW).toBeCloseTo(2.3, 3); // V²/R with R = 8 Ω
+		// Gain re the profile's 0.32 V rms generator level: 20·lg(V/0.32).
+		expect(res.results.channels[0].gainDb).toBeCloseTo(20 * Math.log10(vrms / 0.32), 3);
+		const power = res.checks.filter((x) => x.metric === 'powerW');
+		expect(power.map((x) => [x.channel, x.pass])).toEqual([
+			['left', false],
+			['right', false]
+		]);
+		expect(res.verdict).toBe('fail');
+		expect(getSnapshot(db, res.id)!.loadOhms).toBe(8);
+	});
+
+	it('uses the bench’s conditions where the profile is silent, and says so', () => {
+		const p = createLimitProfile(
+			db,
+			{
+				name: 'THD only',
+				conditions: { bandLowHz: 20, bandHighHz: 20_000, weighting: 'none' },
+				limits: [{ metric: 'powerW', channel: 'each', op: 'ge', value: 1, unit: 'W' }]
+			},
+			'u1'
+		);
+		const res = createSnapshot(db, {
+			jobId,
+			userId: 'u1',
+			wav: wav24([tone(0.5, 1000)], RATE),
+			meta: {
+				label: 'x',
+				stage: 'after',
+				profileId: p.id,
+				fullScaleVolts: 10,
+				loadOhms: 4,
+				analysis: { fftSize: 16384 }
+			}
+		});
+		expect(res.results.conditions.loadOhms).toBe(4);
+		expect(res.results.conditions.sources).toEqual({
+			bandHz: 'profile',
+			weighting: 'profile',
+			loadOhms: 'bench',
+			referenceVrms: 'none'
+		});
+		// (5/√2)² / 4 = 3.125 W (P = V²/R, REFERENCES.md §5)
+		expect(res.results.channels[0].powerW).toBeCloseTo(3.125, 3);
+		expect(res.verdict).toBe('pass');
+		const free = createSnapshot(db, {
+			jobId,
+			userId: 'u1',
+			wav: wav24([tone(0.5, 1000)], RATE),
+			meta: { label: 'y', stage: 'after', analysis: { fftSize: 16384 } }
+		});
+		expect(free.results.conditions.sources).toEqual({
+			bandHz: 'default',
+			weighting: 'default',
+			loadOhms: 'none',
+			referenceVrms: 'none'
+		});
+	});
+
+	it('reads steadiness from the newest 6 s only: a step 8 s before the end is outside the window', () => {
+		const n = 12 * RATE;
+		const step = 10 ** (1 / 20);
+		// +1 dB from 4 s on; the last 6 s (6 s … 12 s) are steady.
+		const left = tone(0.3, 1000, [], n, (i) => (i < 4 * RATE ? 1 : step));
+		const res = createSnapshot(db, {
+			jobId,
+			userId: 'u1',
+			wav: wav24([left], RATE),
+			meta: { label: 'long', stage: 'other', analysis: { fftSize: 16384 } }
+		});
+		const st = res.results.steadiness[0];
+		expect(STEADINESS_MAX_SECONDS).toBe(6);
+		expect(st.durationS).toBeCloseTo(6, 6);
+		// 6 s = 288 000 samples; frames of 16 384 every 4 096: ⌊(288 000 − 16 384)/4 096⌋ + 1 = 67.
+		expect(st.frames).toBe(67);
+		expect(st.levelSpreadDb).toBeLessThan(0.01);
+		// The stored capture and its final-frame analysis are untouched by the cap.
+		expect(res.results.capturedSamples).toBe(n);
+		expect(res.results.channels[0].levelDbv).toBeCloseTo(20 * Math.log10((0.3 * step) / Math.SQRT2), 3);
 	});
 
 	it('measures steadiness across the capture: a 1 dB level step shows as ≈ 1 dB spread', () => {

@@ -27,9 +27,13 @@ import {
 	type Verdict,
 	type Weighting
 } from '$lib/limits';
+import { CAPTURE_SECONDS } from '$lib/workers/analysis-messages';
+import type { AnalysisConditions } from '$lib/dsp/types';
+import type { SnapshotListItem } from '$lib/snapshots/types';
+import { formatIssues } from './api';
 import type { Db } from './db/open';
 import * as table from './db/schema';
-import { SNAPSHOT_STAGES, type SnapshotStage } from './db/schema';
+import { SNAPSHOT_STAGES } from './db/schema';
 import { getLimitProfile } from './limits';
 
 export const SNAPSHOT_MAX_WAV_BYTES = 32 * 1024 * 1024;
@@ -38,6 +42,12 @@ export const SNAPSHOT_MIN_SAMPLES = 4096;
 export const SNAPSHOT_SPECTRUM_POINTS = 2000;
 /** Steadiness needs at least this many analysis frames across the capture, else it is "not measured". */
 export const STEADINESS_MIN_FRAMES = 3;
+/**
+ * Steadiness reads at most the newest this-many seconds of a capture (or one FFT frame, if longer):
+ * the history the bench keeps and sends (CAPTURE_SECONDS). It bounds the server's work per upload to
+ * about 4 × 6 s of audio through the FFT, whatever the WAV's length; older audio is stored, not analysed.
+ */
+export const STEADINESS_MAX_SECONDS = CAPTURE_SECONDS;
 
 const finite = z.number().refine(Number.isFinite, 'must be a finite number');
 
@@ -95,17 +105,30 @@ export class SnapshotError extends Error {
 
 export interface SteadinessResult {
 	channel: number;
-	/** Analysis frames across the capture (hop = fftSize/4). */
+	/** Analysis frames across the newest STEADINESS_MAX_SECONDS of the capture (hop = fftSize/4). */
 	frames: number;
 	levelSpreadDb: number | null;
 	thdnSpreadDb: number | null;
 	levelStdDb: number | null;
 	thdnStdDb: number | null;
+	/** Audio the steadiness frames span, s (at most STEADINESS_MAX_SECONDS, or one frame). */
 	durationS: number;
+}
+
+/** Where a measuring condition came from: the chosen profile, the bench's meta, or neither. */
+export type ConditionSource = 'profile' | 'bench' | 'default' | 'none';
+
+export interface ConditionSources {
+	bandHz: ConditionSource;
+	weighting: ConditionSource;
+	loadOhms: ConditionSource;
+	referenceVrms: ConditionSource;
 }
 
 /** What is stored in `snapshots.results`: the analysis (CLI JSON shape) plus steadiness. */
 export interface SnapshotResults extends AnalysisResult {
+	/** The analysis conditions plus where each profile-governed one came from. */
+	conditions: AnalysisConditions & { sources: ConditionSources };
 	steadiness: SteadinessResult[];
 	/** Samples per channel in the uploaded WAV, and how many of the newest were analysed. */
 	capturedSamples: number;
@@ -126,10 +149,6 @@ export interface CreatedSnapshot {
 	checks: Check[];
 }
 
-function formatZod(err: z.ZodError, prefix: string) {
-	return err.issues.map((i) => ({ path: [prefix, ...i.path.map(String)].join('.'), message: i.message }));
-}
-
 /** Parse the `meta` part: JSON text → validated meta, or a SnapshotError('meta'). */
 export function parseSnapshotMeta(raw: unknown): z.output<typeof snapshotMetaSchema> {
 	let value = raw;
@@ -141,7 +160,12 @@ export function parseSnapshotMeta(raw: unknown): z.output<typeof snapshotMetaSch
 		}
 	}
 	const parsed = snapshotMetaSchema.safeParse(value);
-	if (!parsed.success) throw new SnapshotError('meta', 'meta is invalid', formatZod(parsed.error, 'meta'));
+	if (!parsed.success)
+		throw new SnapshotError(
+			'meta',
+			'meta is invalid',
+			formatIssues(parsed.error).map((i) => ({ ...i, path: i.path ? `meta.${i.path}` : 'meta' }))
+		);
 	return parsed.data;
 }
 
@@ -151,15 +175,20 @@ function largestPow2AtMost(n: number): number {
 	return p;
 }
 
-/** Steadiness across the whole capture: frames of fftSize every fftSize/4 samples. */
+/**
+ * Steadiness over the newest STEADINESS_MAX_SECONDS (at least one frame): frames of fftSize, the
+ * bench's frame size, every fftSize/4 samples.
+ */
 function steadinessOf(
-	channel: Float32Array,
+	capture: Float32Array,
 	index: number,
 	sampleRateHz: number,
 	fullScaleVolts: number,
 	fftSize: number,
 	options: AnalysisOptions
 ): SteadinessResult {
+	const span = Math.min(capture.length, Math.max(fftSize, Math.ceil(STEADINESS_MAX_SECONDS * sampleRateHz)));
+	const channel = capture.subarray(capture.length - span);
 	const hop = fftSize / 4;
 	const frames = channel.length >= fftSize ? Math.floor((channel.length - fftSize) / hop) + 1 : 0;
 	const base = { channel: index, frames, durationS: channel.length / sampleRateHz };
@@ -263,14 +292,30 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 			: meta.fullScaleVolts
 	);
 
-	// The profile's conditions win (its limits assume them); otherwise the bench's analysis settings.
+	// The profile's conditions win (its limits assume them: "5 W into 8 Ω" is judged into 8 Ω whatever
+	// load the browser states); the bench's values apply only where the profile is silent.
 	const a = meta.analysis ?? {};
-	const bandHz: [number, number] = profile
-		? [profile.conditions.bandLowHz, profile.conditions.bandHighHz]
-		: (a.bandHz ?? [20, 20_000]);
-	const weighting: Weighting = profile ? profile.conditions.weighting : (a.weighting ?? 'none');
-	const loadOhms = meta.loadOhms ?? profile?.conditions.loadOhms ?? undefined;
-	const referenceVrms = meta.referenceVrms ?? profile?.conditions.generatorLevelVrms ?? undefined;
+	const pc = profile?.conditions;
+	const pick = <T>(fromProfile: T | undefined, fromBench: T | null | undefined, fallback: T | undefined) =>
+		fromProfile !== undefined
+			? { value: fromProfile, source: 'profile' as const }
+			: fromBench != null
+				? { value: fromBench, source: 'bench' as const }
+				: { value: fallback, source: fallback === undefined ? ('none' as const) : ('default' as const) };
+	const band = pick<[number, number]>(pc && [pc.bandLowHz, pc.bandHighHz], a.bandHz, [20, 20_000]);
+	const weight = pick<Weighting>(pc?.weighting, a.weighting, 'none');
+	const load = pick(pc?.loadOhms, meta.loadOhms, undefined);
+	const reference = pick(pc?.generatorLevelVrms, meta.referenceVrms, undefined);
+	const bandHz = band.value as [number, number];
+	const weighting = weight.value as Weighting;
+	const loadOhms = load.value;
+	const referenceVrms = reference.value;
+	const sources: ConditionSources = {
+		bandHz: band.source,
+		weighting: weight.source,
+		loadOhms: load.source,
+		referenceVrms: reference.source
+	};
 	const fftSize = Math.min(a.fftSize ?? 65_536, largestPow2AtMost(length));
 	const averages = Math.max(1, Math.min(a.averages ?? 1, Math.floor(length / fftSize)));
 	const window = a.window && isWindowName(a.window) ? a.window : undefined;
@@ -311,6 +356,7 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 
 	const results: SnapshotResults = {
 		...analysis,
+		conditions: { ...analysis.conditions, sources },
 		steadiness: steadinessResults,
 		capturedSamples: length,
 		analysedSamples
@@ -368,30 +414,7 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 
 // ── reading ─────────────────────────────────────────────────────────────────
 
-export interface SnapshotListItem {
-	id: number;
-	jobId: number;
-	label: string;
-	stage: SnapshotStage;
-	verdict: Verdict;
-	profileName: string | null;
-	createdAt: string;
-	createdByName: string;
-	sampleRateHz: number;
-	channelCount: number;
-	/** Headline figures per channel. */
-	summary: {
-		channel: number;
-		frequencyHz: number;
-		levelVrms: number;
-		thdnPercent: number;
-		weighting: string;
-	}[];
-	checksPassed: number;
-	checksTotal: number;
-	/** A small spectrum for thumbnails (≤ 240 points per channel, peaks kept). */
-	thumbnail: CompactSpectrum[];
-}
+export type { SnapshotListItem };
 
 export interface SnapshotDetail extends Omit<SnapshotListItem, 'thumbnail'> {
 	createdBy: string;
@@ -425,10 +448,22 @@ function thumbnailOf(s: CompactSpectrum, points = 240): CompactSpectrum {
 
 type SnapshotRow = typeof table.snapshots.$inferSelect;
 
-function summaryOf(row: SnapshotRow) {
-	const r = row.results as SnapshotResults;
-	const checks = (row.checks as Check[]) ?? [];
+/** The fields a list item and the detail share, from one row and its author's name. */
+function itemOf(s: SnapshotRow, createdByName: string): Omit<SnapshotListItem, 'thumbnail'> {
+	const r = s.results as SnapshotResults;
+	const checks = (s.checks as Check[]) ?? [];
+	const p = s.profile as { name?: unknown } | null;
 	return {
+		id: s.id,
+		jobId: s.jobId,
+		label: s.label,
+		stage: s.stage,
+		verdict: s.verdict,
+		profileName: p && typeof p.name === 'string' ? p.name : null,
+		createdAt: s.createdAt.toISOString(),
+		createdByName,
+		sampleRateHz: s.sampleRateHz,
+		channelCount: s.channelCount,
 		summary: (r.channels ?? []).map((c) => ({
 			channel: c.channel,
 			frequencyHz: c.frequencyHz,
@@ -441,11 +476,6 @@ function summaryOf(row: SnapshotRow) {
 	};
 }
 
-function profileName(row: SnapshotRow): string | null {
-	const p = row.profile as { name?: unknown } | null;
-	return p && typeof p.name === 'string' ? p.name : null;
-}
-
 export function listSnapshots(db: Db, jobId: number): SnapshotListItem[] {
 	const rows = db
 		.select({ s: table.snapshots, name: table.users.name })
@@ -455,17 +485,7 @@ export function listSnapshots(db: Db, jobId: number): SnapshotListItem[] {
 		.orderBy(desc(table.snapshots.createdAt), desc(table.snapshots.id))
 		.all();
 	return rows.map(({ s, name }) => ({
-		id: s.id,
-		jobId: s.jobId,
-		label: s.label,
-		stage: s.stage,
-		verdict: s.verdict,
-		profileName: profileName(s),
-		createdAt: s.createdAt.toISOString(),
-		createdByName: name,
-		sampleRateHz: s.sampleRateHz,
-		channelCount: s.channelCount,
-		...summaryOf(s),
+		...itemOf(s, name),
 		thumbnail: ((s.spectrum as SnapshotSpectrum).channels ?? []).map((c) => thumbnailOf(c))
 	}));
 }
@@ -485,18 +505,8 @@ export function getSnapshot(db: Db, id: number, jobId?: number): SnapshotDetail 
 	if (!found) return null;
 	const { s, name, sha } = found;
 	return {
-		id: s.id,
-		jobId: s.jobId,
-		label: s.label,
-		stage: s.stage,
-		verdict: s.verdict,
-		profileName: profileName(s),
-		createdAt: s.createdAt.toISOString(),
-		createdByName: name,
+		...itemOf(s, name),
 		createdBy: s.createdBy,
-		sampleRateHz: s.sampleRateHz,
-		channelCount: s.channelCount,
-		...summaryOf(s),
 		profileId: s.profileId,
 		profile: s.profile,
 		fullScaleVolts: s.fullScaleVolts,

@@ -103,6 +103,7 @@ export interface WorkerResult {
 	channelIndex: number[];
 	results: ChannelResult[];
 	balanceDb: number | null;
+	/** From `stereoFigures`: null unless one channel is driven (channels ≥ CROSSTALK_MIN_BALANCE_DB apart). */
 	crosstalkDb: number | null;
 	steadiness: SteadinessFigures[];
 	/** Display spectrum (dBV) per analysed channel on the shared log-spaced `displayHz` axis. */

@@ -3,7 +3,7 @@
 // readouts, a log-spaced display spectrum and a triggered scope trace back as transferables.
 // Steady state allocates no sample-sized arrays: rings, FFT buffers and result buffers are reused.
 /// <reference lib="webworker" />
-import { Analyzer, encodeWav, SteadinessTracker } from '$lib/dsp';
+import { Analyzer, encodeWav, SteadinessTracker, stereoFigures } from '$lib/dsp';
 import type {
 	AnalysisSettings,
 	FromWorker,
@@ -244,20 +244,16 @@ function maybeAnalyse(): void {
 		spectra.push(out);
 	}
 
+	// Balance and crosstalk by the same rule the server applies to a snapshot (stereoFigures).
 	let balanceDb: number | null = null;
 	let crosstalkDb: number | null = null;
 	if (results.length === 2) {
-		balanceDb = results[0].levelDbv - results[1].levelDbv;
-		// Crosstalk from the quieter channel's spectrum at the louder channel's fundamental.
-		const loud = results[0].levelVrms >= results[1].levelVrms ? 0 : 1;
-		const quiet = 1 - loud;
-		const spec = analyzers[quiet].spectrumDbv;
-		const binHz = sampleRateHz / s.fftSize;
-		const k0 = Math.round(results[loud].frequencyHz / binHz);
-		let m = -Infinity;
-		for (let k = Math.max(1, k0 - 3); k <= Math.min(spec.length - 1, k0 + 3); k++)
-			if (spec[k] > m) m = spec[k];
-		crosstalkDb = m - results[loud].levelDbv;
+		const st = stereoFigures(
+			{ result: results[0], analyzer: analyzers[0] },
+			{ result: results[1], analyzer: analyzers[1] }
+		);
+		balanceDb = st.balanceDb;
+		crosstalkDb = st.crosstalkDb ?? null;
 	}
 
 	// Scope: the newest span that starts on a rising crossing of the trigger level.

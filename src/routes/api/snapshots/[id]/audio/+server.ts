@@ -17,7 +17,8 @@ export const GET: RequestHandler = (event) => {
 			'content-length': String(audio.wav.byteLength),
 			'content-disposition': `attachment; filename="job-${audio.jobId}-snapshot-${id}.wav"`,
 			etag: `"${audio.sha256}"`,
-			'cache-control': 'private, max-age=31536000, immutable'
+			// Never kept in the browser cache: on a shared bench PC it would outlive the sign-out.
+			'cache-control': 'private, no-store'
 		}
 	});
 };
