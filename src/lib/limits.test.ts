@@ -8,7 +8,7 @@ import {
 	evaluateLimits,
 	limitSchema,
 	profileInputSchema,
-	stereoFigures,
+	stereoMeasurements,
 	verdictOf,
 	type Limit
 } from './limits';
@@ -22,7 +22,7 @@ describe('evaluateLimits', () => {
 			{ thdnPercent: 0.02, levelVrms: 6.4, noiseVrms: 120e-6, powerW: 6.4 ** 2 / 8 },
 			{ thdnPercent: 0.3, levelVrms: 6.1, noiseVrms: 800e-6, powerW: 6.1 ** 2 / 8 }
 		],
-		stereo: stereoFigures({ levelDbv: 16.12 }, { levelDbv: 15.7 })
+		stereo: stereoMeasurements({ levelDbv: 16.12 }, { levelDbv: 15.7 })
 	};
 
 	it('expands "each" into one check per channel and fails only the bad one', () => {
@@ -82,7 +82,7 @@ describe('evaluateLimits', () => {
 	});
 
 	it('a figure that was not measured fails, with a reason', () => {
-		const mono = { channels: [{ thdnPercent: 0.01 }], stereo: stereoFigures({ levelDbv: 0 }, undefined) };
+		const mono = { channels: [{ thdnPercent: 0.01 }], stereo: stereoMeasurements({ levelDbv: 0 }, undefined) };
 		const checks = evaluateLimits(
 			[
 				lim({ metric: 'thdnPercent', channel: 'right', op: 'le', value: 1, unit: '%' }),

@@ -319,8 +319,8 @@ export function verdictOf(checks: readonly Check[]): Verdict {
 	return checks.every((c) => c.pass) ? 'pass' : 'fail';
 }
 
-/** The stereo figures from two channels' levels (balance) and, when one channel is driven, crosstalk. */
-export function stereoFigures(
+/** Stereo measurements for limit checks: balance as |L − R| in dB, and crosstalk when reported. */
+export function stereoMeasurements(
 	left: { levelDbv?: number | null } | undefined,
 	right: { levelDbv?: number | null } | undefined,
 	crosstalkDb?: number | null
