@@ -27,7 +27,7 @@ import { SimSource } from './sources/sim';
 import { WavSource } from './sources/wav';
 import { CmdSource, type PcmFormat } from './sources/cmd';
 import { generatorMaxHz } from './sim/simulator';
-import { AmplifierThermal, NOMINAL_IDLE_CURRENT_A, blockSums } from './sim/thermal';
+import { AmplifierThermal, NOMINAL_IDLE_CURRENT_A, blockSums, type ChannelSums } from './sim/thermal';
 import { TempLog } from './temps/ring';
 import { SimTemps, NoTemps } from './temps/sim';
 import { SerialTemps, type PortFactory } from './temps/serial';
@@ -239,6 +239,8 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 		...(replyTo !== undefined ? { replyTo } : {})
 	});
 
+	// One array reused for every frame's channel sums: this runs once per audio frame.
+	const sums: ChannelSums[] = [];
 	const onFrame = (frame: FrameOut) => {
 		if (thermal) {
 			const params = sim
@@ -246,7 +248,7 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 				: { railVolts: DEFAULT_RAIL_VOLTS, loadOhms, idleCurrentA: NOMINAL_IDLE_CURRENT_A };
 			thermal.advance(
 				frame.sampleCount / source.sampleRateHz,
-				blockSums(frame.samples, source.channels, frame.sampleCount, source.fullScaleVolts),
+				blockSums(frame.samples, source.channels, frame.sampleCount, source.fullScaleVolts, sums),
 				params
 			);
 		}

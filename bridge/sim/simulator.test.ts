@@ -197,7 +197,7 @@ describe('simulator phono input', () => {
 		for (const [f, riaaDb] of table) {
 			const out = vrmsAt(capture(st, sine(f, 0.001)).left, f);
 			// Allowance: the input coupling (1.5 Hz) and amplifier bandwidth (150 kHz) poles add < 0.08 dB.
-			expect(Math.abs(db(out / ref) - riaaDb), `${f} Hz`).toBeLessThan(0.1);
+			expect(Math.abs(db(out / ref) - riaaDb), `${f} Hz`).toBeLessThan(0.1); // IEC 60098 RIAA playback table (REFERENCES.md §2)
 		}
 	});
 
@@ -205,7 +205,7 @@ describe('simulator phono input', () => {
 		const st = state({ input: 'phono', inverseRiaaNetwork: true, volumeDb: 0 });
 		for (const [f] of table) {
 			const out = vrmsAt(capture(st, sine(f, 0.5)).left, f);
-			expect(Math.abs(db(out / 0.5)), `${f} Hz`).toBeLessThan(0.1);
+			expect(Math.abs(db(out / 0.5)), `${f} Hz`).toBeLessThan(0.1); // IEC 60098 RIAA table: record EQ × playback EQ = flat
 		}
 	});
 });
@@ -294,13 +294,13 @@ describe('thermal model', () => {
 		const node = new ThermalNode(1.2, 300, 25);
 		node.step(300, 20, 25);
 		// First-order step response: 1 − e^(−1) = 0.632 of the final rise at t = τ.
-		expect((node.tempC - 25) / (20 * 1.2)).toBeCloseTo(1 - Math.exp(-1), 9);
+		expect((node.tempC - 25) / (20 * 1.2)).toBeCloseTo(1 - Math.exp(-1), 9); // first-order system step response, 1 − e^(−t/τ) (textbook)
 		for (let i = 0; i < 300; i++) node.step(30, 20, 25);
-		expect(node.tempC).toBeCloseTo(25 + 20 * 1.2, 6);
+		expect(node.tempC).toBeCloseTo(25 + 20 * 1.2, 6); // first-order system final value T_amb + P·Rth (textbook)
 		// Step size does not change the answer for constant power.
 		const fine = new ThermalNode(1.2, 300, 25);
 		for (let i = 0; i < 3000; i++) fine.step(0.1, 20, 25);
-		expect(fine.tempC).toBeCloseTo(25 + 20 * 1.2 * (1 - Math.exp(-1)), 9);
+		expect(fine.tempC).toBeCloseTo(25 + 20 * 1.2 * (1 - Math.exp(-1)), 9); // first-order system step response (textbook)
 	});
 
 	it('heatsink dissipation from the simulated output matches the class-B formula plus idle, and the heatsink settles at ambient + P·Rth', () => {
@@ -319,6 +319,16 @@ describe('thermal model', () => {
 		const block = new Float32Array(4800 * 2); // 100 ms = 100 whole periods
 		sim.render(block, 4800);
 		const sums = blockSums(block, 2, 4800, [SIM_FULL_SCALE_VOLTS, SIM_FULL_SCALE_VOLTS]);
+		// The reusable-output form fills the caller's objects with the same sums.
+		const reused = [
+			{ sumAbsV: -1, sumSqV: -1, count: -1 },
+			{ sumAbsV: -1, sumSqV: -1, count: -1 },
+			{ sumAbsV: -1, sumSqV: -1, count: -1 }
+		];
+		const first = reused[0];
+		expect(blockSums(block, 2, 4800, [SIM_FULL_SCALE_VOLTS, SIM_FULL_SCALE_VOLTS], reused)).toBe(reused);
+		expect(reused).toEqual(sums);
+		expect(reused[0]).toBe(first);
 		// Class B, both devices, sine: P_D = 2·Vcc·V̂/(π·R) − V̂²/(2R) (REFERENCES.md §9, Boylestad & Nashelsky).
 		const classB = (2 * 42 * vPeak) / (Math.PI * 8) - (vPeak * vPeak) / 16;
 		const idle = 2 * 42 * NOMINAL_IDLE_CURRENT_A;

@@ -89,11 +89,7 @@ export class AmplifierThermal {
 	 * Advance by a block of `wallS` real seconds (× timeScale simulated) with the given
 	 * per-channel running sums of load voltage.
 	 */
-	advance(
-		wallS: number,
-		sums: { sumAbsV: number; sumSqV: number; count: number }[],
-		p: AmplifierParams
-	): void {
+	advance(wallS: number, sums: readonly ChannelSums[], p: AmplifierParams): void {
 		const dtS = wallS * this.timeScale;
 		let supplyTotal = 0;
 		for (let side = 0; side < 2; side++) {
@@ -109,15 +105,25 @@ export class AmplifierThermal {
 	}
 }
 
-/** Per-channel running sums of |v| and v² (volts at the load) over a block of interleaved samples. */
+export interface ChannelSums {
+	sumAbsV: number;
+	sumSqV: number;
+	count: number;
+}
+
+/**
+ * Per-channel running sums of |v| and v² (volts at the load) over a block of interleaved samples.
+ * Pass `out` to reuse its objects: the bridge calls this once per frame.
+ */
 export function blockSums(
 	samples: Float32Array,
 	channels: number,
 	sampleCount: number,
-	fullScaleVolts: readonly number[]
-): { sumAbsV: number; sumSqV: number; count: number }[] {
-	const out = [];
-	for (let c = 0; c < Math.min(2, channels); c++) {
+	fullScaleVolts: readonly number[],
+	out: ChannelSums[] = []
+): ChannelSums[] {
+	const n = Math.min(2, channels);
+	for (let c = 0; c < n; c++) {
 		const fsV = fullScaleVolts[c] ?? fullScaleVolts[0] ?? 1;
 		let sa = 0;
 		let sq = 0;
@@ -126,7 +132,11 @@ export function blockSums(
 			sa += v < 0 ? -v : v;
 			sq += v * v;
 		}
-		out.push({ sumAbsV: sa * fsV, sumSqV: sq * fsV * fsV, count: sampleCount });
+		const o = (out[c] ??= { sumAbsV: 0, sumSqV: 0, count: 0 });
+		o.sumAbsV = sa * fsV;
+		o.sumSqV = sq * fsV * fsV;
+		o.count = sampleCount;
 	}
+	out.length = n;
 	return out;
 }

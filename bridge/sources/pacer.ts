@@ -1,6 +1,7 @@
 // Real-time pacing for sources that are not clocked by hardware (simulator, WAV file): a
 // block becomes due when its last sample's time has passed, as from a capture device.
 import { performance } from 'node:perf_hooks';
+import type { FrameOut, FrameSink } from './types';
 
 export class Pacer {
 	private startMs = 0;
@@ -52,4 +53,34 @@ export class Pacer {
 		for (let i = 0; i < toRender && this.running; i++) this.onBlock(i === 0 ? skipped : 0);
 		this.schedule();
 	};
+}
+
+/**
+ * A source that renders blocks on demand and is paced by the wall clock: the simulator and a
+ * replayed WAV file share this start/stop, rendering one block per due block.
+ */
+export abstract class PacedSource {
+	abstract readonly sampleRateHz: number;
+	abstract readonly blockSize: number;
+	private pacer: Pacer | null = null;
+
+	/** Render the next block now (the pacer calls this; benchmarks and tests call it directly). */
+	abstract renderBlock(skippedBlocks?: number): FrameOut;
+
+	get running(): boolean {
+		return this.pacer !== null;
+	}
+
+	async start(sink: FrameSink): Promise<void> {
+		this.pacer?.stop();
+		this.pacer = new Pacer((this.blockSize / this.sampleRateHz) * 1000, (skipped) =>
+			sink(this.renderBlock(skipped))
+		);
+		this.pacer.start();
+	}
+
+	async stop(): Promise<void> {
+		this.pacer?.stop();
+		this.pacer = null;
+	}
 }

@@ -1,7 +1,7 @@
 // The simulator as a real-time audio source.
 import { Simulator } from '../sim/simulator';
-import { Pacer } from './pacer';
-import { FrameWriter, type AudioSource, type FrameSink } from './types';
+import { PacedSource } from './pacer';
+import { FrameWriter, type AudioSource, type FrameOut } from './types';
 import type { GeneratorState, SimulatorState } from '../../src/lib/bridge/protocol';
 
 export interface SimSourceOptions {
@@ -13,7 +13,7 @@ export interface SimSourceOptions {
 	generator?: GeneratorState;
 }
 
-export class SimSource implements AudioSource {
+export class SimSource extends PacedSource implements AudioSource {
 	readonly kind = 'sim' as const;
 	readonly label: string;
 	readonly sampleRateHz: number;
@@ -23,9 +23,9 @@ export class SimSource implements AudioSource {
 	readonly simulator: Simulator;
 	overruns = 0;
 	private readonly writer: FrameWriter;
-	private pacer: Pacer | null = null;
 
 	constructor(opts: SimSourceOptions) {
+		super();
 		this.sampleRateHz = opts.sampleRateHz;
 		this.channels = opts.channels;
 		this.blockSize = opts.blockSize;
@@ -36,7 +36,7 @@ export class SimSource implements AudioSource {
 	}
 
 	/** Render the next block now (the pacer calls this; benchmarks call it directly). */
-	renderBlock(skippedBlocks = 0) {
+	renderBlock(skippedBlocks = 0): FrameOut {
 		if (skippedBlocks > 0) {
 			this.overruns += skippedBlocks;
 			this.writer.discontinuity(skippedBlocks * this.blockSize);
@@ -44,17 +44,5 @@ export class SimSource implements AudioSource {
 		const f = this.writer.alloc(this.blockSize);
 		this.simulator.render(f.samples, this.blockSize);
 		return f.finish();
-	}
-
-	async start(sink: FrameSink): Promise<void> {
-		this.pacer = new Pacer((this.blockSize / this.sampleRateHz) * 1000, (skipped) =>
-			sink(this.renderBlock(skipped))
-		);
-		this.pacer.start();
-	}
-
-	async stop(): Promise<void> {
-		this.pacer?.stop();
-		this.pacer = null;
 	}
 }

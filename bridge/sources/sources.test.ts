@@ -7,6 +7,8 @@ import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { CmdSource, decodePcm, type PcmFormat } from './cmd';
 import { WavSource, loadWav } from './wav';
+import { SimSource } from './sim';
+import type { PacedSource } from './pacer';
 import type { FrameOut } from './types';
 import { channelVolts, db, toneAmplitude } from '../testing';
 
@@ -140,4 +142,52 @@ describe('wav: source', () => {
 		expect(Math.abs(db(toneAmplitude(left, 500, 48000) / 0.5))).toBeLessThan(0.01);
 		expect(all[4800 * 2]).toBe(all[0]);
 	});
+});
+
+describe('paced sources (simulator and WAV share one start/stop)', () => {
+	const sources: [string, () => PacedSource][] = [
+		['sim', () => new SimSource({ sampleRateHz: 48000, channels: 2, blockSize: 480, seed: 3 })],
+		[
+			'wav',
+			() =>
+				new WavSource(
+					{ samples: new Float32Array(4800 * 2), sampleRateHz: 48000, channels: 2 },
+					'quiet.wav',
+					480,
+					[10, 10]
+				)
+		]
+	];
+	it.each(sources)(
+		'%s: numbered frames while started, none after stop, even when started twice',
+		async (_, make) => {
+			const src = make();
+			const seqs: number[] = [];
+			let afterStop = 0;
+			let stopped = false;
+			const sink = (f: FrameOut) => {
+				if (stopped) afterStop++;
+				else seqs.push(f.seq);
+			};
+			await src.start(sink);
+			// A second start (a reconnecting client) must replace the first pacer, not add a second one.
+			await src.start(sink);
+			await new Promise<void>((resolve) => {
+				const poll = setInterval(() => {
+					if (seqs.length >= 4) {
+						clearInterval(poll);
+						resolve();
+					}
+				}, 5);
+			});
+			await src.stop();
+			stopped = true;
+			expect(src.running).toBe(false);
+			// One stream: consecutive frame numbers, each frame once.
+			expect(seqs).toEqual(seqs.map((_, i) => seqs[0] + i));
+			// Several block lengths (10 ms each) later, nothing more has arrived.
+			await new Promise((r) => setTimeout(r, 60));
+			expect(afterStop).toBe(0);
+		}
+	);
 });

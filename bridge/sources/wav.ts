@@ -2,8 +2,8 @@
 import { readFile } from 'node:fs/promises';
 import { basename } from 'node:path';
 import * as wavefile from 'wavefile';
-import { Pacer } from './pacer';
-import { FrameWriter, type AudioSource, type FrameSink } from './types';
+import { PacedSource } from './pacer';
+import { FrameWriter, type AudioSource, type FrameOut } from './types';
 import { FRAME_MAX_CHANNELS, FRAME_MIN_RATE_HZ, FRAME_MAX_RATE_HZ } from '../../src/lib/bridge/protocol';
 
 // wavefile ships CommonJS for Node and an ES module for bundlers; take the class from either shape.
@@ -34,12 +34,11 @@ export async function loadWav(
 	return { samples: raw.subarray(0, frames * channels), sampleRateHz, channels };
 }
 
-export class WavSource implements AudioSource {
+export class WavSource extends PacedSource implements AudioSource {
 	readonly kind = 'wav' as const;
 	readonly label: string;
 	overruns = 0;
 	private readonly writer: FrameWriter;
-	private pacer: Pacer | null = null;
 	private pos = 0; // frame position in the file
 
 	constructor(
@@ -48,6 +47,7 @@ export class WavSource implements AudioSource {
 		readonly blockSize: number,
 		readonly fullScaleVolts: number[]
 	) {
+		super();
 		this.label = `file ${basename(path)}`;
 		this.writer = new FrameWriter(data.sampleRateHz, data.channels);
 	}
@@ -68,7 +68,7 @@ export class WavSource implements AudioSource {
 		return this.data.channels;
 	}
 
-	renderBlock(skippedBlocks = 0) {
+	renderBlock(skippedBlocks = 0): FrameOut {
 		const ch = this.channels;
 		const total = this.data.samples.length / ch;
 		if (skippedBlocks > 0) {
@@ -86,17 +86,5 @@ export class WavSource implements AudioSource {
 			if (this.pos >= total) this.pos = 0;
 		}
 		return f.finish();
-	}
-
-	async start(sink: FrameSink): Promise<void> {
-		this.pacer = new Pacer((this.blockSize / this.sampleRateHz) * 1000, (skipped) =>
-			sink(this.renderBlock(skipped))
-		);
-		this.pacer.start();
-	}
-
-	async stop(): Promise<void> {
-		this.pacer?.stop();
-		this.pacer = null;
 	}
 }

@@ -28,15 +28,20 @@ export class TempRing {
 
 	private grow(): void {
 		const len = Math.min(this.capacity, this.seq.length * 2);
-		const copy = <T extends Float64Array | Float32Array | Uint8Array>(a: T, make: (n: number) => T): T => {
-			const b = make(len);
-			b.set(a);
+		// Copy oldest-first into the start of the new arrays so slot k holds the k-th oldest
+		// reading; the next write then goes right after them.
+		const start = (this.head - this.count + this.seq.length) % this.seq.length;
+		const copy = <T extends Float64Array | Float32Array | Uint8Array>(a: T, b: T): T => {
+			const firstRun = Math.min(this.count, a.length - start);
+			b.set(a.subarray(start, start + firstRun), 0);
+			b.set(a.subarray(0, this.count - firstRun), firstRun);
 			return b;
 		};
-		this.seq = copy(this.seq, (n) => new Float64Array(n));
-		this.t = copy(this.t, (n) => new Float64Array(n));
-		this.celsius = copy(this.celsius, (n) => new Float32Array(n));
-		this.probe = copy(this.probe, (n) => new Uint8Array(n));
+		this.seq = copy(this.seq, new Float64Array(len));
+		this.t = copy(this.t, new Float64Array(len));
+		this.celsius = copy(this.celsius, new Float32Array(len));
+		this.probe = copy(this.probe, new Uint8Array(len));
+		this.head = this.count % len;
 	}
 
 	push(r: TempReading): void {

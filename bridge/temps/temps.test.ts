@@ -5,7 +5,10 @@ import { SerialPortMock } from 'serialport';
 import { typeKCelsiusToMillivolts, typeKMillivoltsToCelsius, typeKCompensated } from './typek';
 import { parseLoggerLine } from './parse';
 import { SerialTemps, type SerialLike } from './serial';
-import { TempLog, TempRing, TEMP_RING_CAPACITY } from './ring';
+import { TempLog, TempRing } from './ring';
+import { SimTemps } from './sim';
+import { AmplifierThermal, AMBIENT_C } from '../sim/thermal';
+import { PROBE_IDS, type TempReading } from '../../src/lib/bridge/protocol';
 
 describe('type K thermocouple (NIST ITS-90, Monograph 175)', () => {
 	// NIST Monograph 175 table values (REFERENCES.md §4): EMF in mV at the given °C, reference junction 0 °C.
@@ -140,7 +143,50 @@ describe('temperature history', () => {
 		expect(ring.latest()).toEqual([{ probe: 'ambient', seq: 124, t: 24, celsius: 6 }]);
 	});
 
-	it('holds at least 24 hours of four probes at one reading a second', () => {
-		expect(TEMP_RING_CAPACITY).toBeGreaterThanOrEqual(24 * 3600 * 4);
+	it('keeps every reading in order across several grows and then across wrap-around', () => {
+		// 12 000 readings: the ring starts at 4096 slots and grows twice (8192, then its capacity
+		// of 10 000), then wraps and drops the oldest 2000.
+		const ring = new TempRing(10_000);
+		const pushed: TempReading[] = [];
+		for (let i = 0; i < 12_000; i++) {
+			const r: TempReading = { probe: PROBE_IDS[i % 4], seq: 5000 + i, t: 1000 * i, celsius: (i % 1000) / 4 };
+			pushed.push(r);
+			ring.push(r);
+			// Mid-run, right after each grow: nothing lost, nothing invented.
+			if (i === 4096 || i === 8192) {
+				expect(ring.oldestSeq()).toBe(5000);
+				expect(ring.after(-1, 20_000)).toEqual(pushed);
+				expect(ring.after(5000 + 4000, 200)).toEqual(pushed.slice(4001, 4201));
+			}
+		}
+		expect(ring.size).toBe(10_000);
+		expect(ring.oldestSeq()).toBe(7000);
+		expect(ring.lastSeq()).toBe(16_999);
+		const kept = pushed.slice(2000);
+		expect(ring.after(-1, 20_000)).toEqual(kept);
+		for (const x of [6999, 7000, 9095, 9096, 12_191, 13_193, 16_998]) {
+			expect(ring.after(x, 20_000)).toEqual(kept.filter((r) => r.seq > x));
+		}
+		expect(ring.after(16_999, 10)).toEqual([]);
+		expect(ring.latest()).toEqual(pushed.slice(-4));
+	});
+
+	it("holds 24 hours of the simulator's four probes at one reading a second without dropping any", () => {
+		const thermal = new AmplifierThermal(1);
+		const bootMs = 1_700_000_000_000;
+		const log = new TempLog(bootMs);
+		const sim = new SimTemps(thermal, log, 7); // the simulator's default interval is 1000 ms
+		const seconds = 24 * 3600;
+		for (let s = 0; s < seconds; s++) sim.sample(bootMs + 1000 * s);
+		expect(log.ring.size).toBe(seconds * PROBE_IDS.length);
+		expect(log.ring.oldestSeq()).toBe(bootMs);
+		expect(log.ring.lastSeq()).toBe(bootMs + seconds * PROBE_IDS.length - 1);
+		const first = log.ring.after(-1, 4);
+		expect(first.map((r) => [r.probe, r.t])).toEqual(PROBE_IDS.map((p) => [p, bootMs]));
+		const tail = log.ring.after(bootMs + seconds * PROBE_IDS.length - 5, 10);
+		expect(tail.map((r) => r.t)).toEqual([1, 2, 3, 4].map(() => bootMs + 1000 * (seconds - 1)));
+		// Idle amplifier: every probe stays near ambient (no zero-filled slots).
+		for (const r of log.ring.after(bootMs + 100_000, 1000))
+			expect(Math.abs(r.celsius - AMBIENT_C)).toBeLessThan(0.5);
 	});
 });

@@ -112,6 +112,30 @@ describe('soak API', () => {
 		expect(String(noRating.body.message)).toMatch(/no rated power/);
 	});
 
+	it('400s an accelerated clock not from the simulator or faster than ×120, storing nothing', async () => {
+		const post = (bridge: Record<string, unknown>) =>
+			call(runsRoute.POST, {
+				method: 'POST',
+				path: `/api/jobs/${unratedJob}/soak-runs`,
+				params: { id: String(unratedJob) },
+				body: {
+					preset: 'custom',
+					custom: { watts: 5, loadOhms: 8, frequencyHz: 1000, durationS: 600, channels: ['left'] },
+					bridge
+				}
+			});
+		const claimed = await post({ timeScale: 3600, source: 'sim', temps: 'sim' });
+		expect(claimed.status).toBe(400);
+		const hardware = await post({ timeScale: 60, source: 'cmd', temps: 'serial' });
+		expect(hardware.status).toBe(400);
+		expect(String(hardware.body.message)).toMatch(/only accepted from the bridge simulator/);
+		const list = await call(runsRoute.GET, {
+			path: `/api/jobs/${unratedJob}/soak-runs`,
+			params: { id: String(unratedJob) }
+		});
+		expect(list.body.runs).toEqual([]);
+	});
+
 	it('guards: signed out 401, cross-origin 403, bad body 400, unknown run 404', async () => {
 		const path = `/api/soak-runs/${runId}/readings`;
 		const params = { id: String(runId) };

@@ -12,9 +12,12 @@ import {
 	finishRun,
 	getRunDetail,
 	listRuns,
+	OVERDUE_GRACE_MS,
 	readingsAfter,
+	runningRunId,
 	SoakError
 } from './soak';
+import { acceleratedLabel } from '$lib/soak/verdict';
 import { DEFAULT_SOAK_LIMITS } from '$lib/schemas/settings';
 import { copyFileSync, existsSync, mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -179,7 +182,7 @@ describe('readings', () => {
 		};
 		expect(addEvents(db, id, [gap])).toEqual({ stored: 1, duplicates: 0 });
 		expect(addEvents(db, id, [gap])).toEqual({ stored: 0, duplicates: 1 });
-		expect(getRunDetail(db, id).events.map((e) => e.kind)).toEqual(['gap']);
+		expect(getRunDetail(db, id).events.map((e) => e.kind)).toEqual(['start', 'gap']);
 	});
 });
 
@@ -190,7 +193,7 @@ describe('ending a run', () => {
 			db,
 			ratedJob,
 			'u1',
-			{ preset: 'eighth-power-60', bridge: { timeScale: 60, lastSeq: 999 } },
+			{ preset: 'eighth-power-60', bridge: { timeScale: 60, lastSeq: 999, source: 'sim', temps: 'sim' } },
 			T0
 		).id;
 	}
@@ -275,9 +278,134 @@ describe('ending a run', () => {
 		expect(d.verdict).toBe('aborted');
 		expect(d.run.endedAt).toBe(T0 + 42_000);
 		expect(d.run.abortReason).toBe('Limit breached: too hot');
-		expect(d.events.map((e) => e.kind)).toEqual(['breach', 'abort']);
+		expect(d.events.map((e) => e.kind)).toEqual(['start', 'breach', 'abort']);
 		const row = db.select().from(table.soakRuns).where(eq(table.soakRuns.id, id)).get();
 		expect(row?.summary).not.toBeNull();
+	});
+});
+
+describe('an accelerated clock', () => {
+	const sim = { source: 'sim', temps: 'sim' } as const;
+
+	it('is accepted only from the bridge simulator, and only up to ×120', () => {
+		const bad = [
+			{ timeScale: 60 }, // no source named
+			{ timeScale: 60, source: 'wav', temps: 'sim' },
+			{ timeScale: 60, source: 'cmd', temps: 'serial' },
+			{ timeScale: 60, source: 'sim', temps: 'serial' }, // real probes heat in real time
+			{ timeScale: 0.5, source: 'cmd' }
+		] as const;
+		for (const bridge of bad) {
+			expect(
+				() => createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60', bridge }, T0),
+				JSON.stringify(bridge)
+			).toThrow(expect.objectContaining({ code: 'bad-time-scale' }));
+		}
+		expect(() =>
+			createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60', bridge: { ...sim, timeScale: 3600 } }, T0)
+		).toThrow(/120/);
+		expect(listRuns(db, ratedJob, T0)).toEqual([]);
+		// Real hardware at time scale 1 needs no source.
+		const real = createRun(
+			db,
+			unratedJob,
+			'u1',
+			{
+				preset: 'custom',
+				custom: { watts: 5, loadOhms: 8, frequencyHz: 1000, durationS: 600, channels: ['left'] },
+				bridge: { timeScale: 1, source: 'cmd', temps: 'serial' }
+			},
+			T0
+		).id;
+		expect(getRunDetail(db, real, T0).run.timeScale).toBe(1);
+	});
+
+	it('is stored with the source it came from and labelled wherever the run shows', () => {
+		const { id } = createRun(
+			db,
+			ratedJob,
+			'u1',
+			{ preset: 'eighth-power-60', bridge: { ...sim, timeScale: 120, bootId: 'b1' } },
+			T0
+		);
+		const d = getRunDetail(db, id, T0);
+		expect(d.run.timeScale).toBe(120);
+		expect(d.events).toEqual([
+			expect.objectContaining({
+				kind: 'start',
+				at: T0,
+				detail: { source: 'sim', temps: 'sim', bootId: 'b1', timeScale: 120 }
+			})
+		]);
+		expect(acceleratedLabel(listRuns(db, ratedJob, T0)[0].run.timeScale)).toBe(
+			'accelerated ×120 (simulator)'
+		);
+		expect(acceleratedLabel(1)).toBeNull();
+	});
+});
+
+describe('an abandoned run', () => {
+	// Time scale 60: the 60-minute preset's planned end is one wall minute after T0.
+	const plannedEnd = T0 + 60_000;
+	function abandoned(minutesOfReadings: number) {
+		const { id } = createRun(
+			db,
+			ratedJob,
+			'u1',
+			{ preset: 'eighth-power-60', bridge: { timeScale: 60, lastSeq: 999, source: 'sim', temps: 'sim' } },
+			T0
+		);
+		const readings = [];
+		for (let s = 0; s <= minutesOfReadings; s++) {
+			readings.push(reading('heatsink-left', 1000 + 2 * s, 30 + s / 10, s * 1000));
+			readings.push(reading('heatsink-right', 1001 + 2 * s, 30 + s / 10, s * 1000));
+		}
+		addReadings(db, id, readings, 'boot-a');
+		return id;
+	}
+
+	it('stays running through the grace period, then the server finishes it from what is stored', () => {
+		const id = abandoned(60);
+		expect(getRunDetail(db, id, plannedEnd + OVERDUE_GRACE_MS).verdict).toBeNull();
+		expect(() =>
+			createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, plannedEnd + OVERDUE_GRACE_MS)
+		).toThrow(/still running/);
+		const d = getRunDetail(db, id, plannedEnd + OVERDUE_GRACE_MS + 1);
+		expect(d.verdict).toBe('passed');
+		expect(d.run.endedAt).toBe(plannedEnd);
+		expect(d.summary.incomplete).toBe(false);
+		expect(d.summary.probes['heatsink-left']).toMatchObject({ maxC: 36, finalAtS: 3600 });
+		const closed = d.events.filter((e) => e.kind === 'server-closed');
+		expect(closed).toHaveLength(1);
+		expect(closed[0].at).toBe(plannedEnd + OVERDUE_GRACE_MS + 1);
+		expect(String((closed[0].detail as { text: string }).text)).toMatch(
+			/Closed by the server 10 min after the planned end/
+		);
+		// Asking again changes nothing.
+		expect(
+			getRunDetail(db, id, plannedEnd + 2 * OVERDUE_GRACE_MS).events.filter((e) => e.kind === 'server-closed')
+		).toHaveLength(1);
+	});
+
+	it('fails when the stored record stops short, and no longer blocks a new run', () => {
+		const id = abandoned(20); // the page went away after 20 soak minutes
+		const late = plannedEnd + OVERDUE_GRACE_MS + 60_000;
+		const next = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, late);
+		expect(next.id).not.toBe(id);
+		const d = getRunDetail(db, id, late);
+		expect(d.verdict).toBe('failed');
+		expect(d.summary.incomplete).toBe(true);
+		expect(d.events.map((e) => e.kind)).toEqual(['start', 'server-closed']);
+	});
+
+	it('is closed when the job list or the soak page asks, judged on the real-time clock too', () => {
+		const { id } = createRun(db, ratedJob, 'u1', { preset: 'third-power-60' }, T0); // time scale 1: one wall hour
+		expect(runningRunId(db, ratedJob, T0 + 3_600_000 + OVERDUE_GRACE_MS)).toBe(id);
+		expect(listRuns(db, ratedJob, T0 + 3_600_000 + OVERDUE_GRACE_MS)[0].verdict).toBeNull();
+		expect(listRuns(db, ratedJob, T0 + 3_600_000 + OVERDUE_GRACE_MS + 1)[0]).toMatchObject({
+			verdict: 'failed'
+		});
+		expect(runningRunId(db, ratedJob, T0 + 3_600_000 + OVERDUE_GRACE_MS + 1)).toBeNull();
 	});
 });
 

@@ -7,7 +7,7 @@ import { z } from 'zod';
 import type { Db } from './db/open';
 import * as table from './db/schema';
 import { getJob } from './jobs';
-import { PROBE_IDS } from '$lib/bridge/protocol';
+import { PROBE_IDS, SOURCE_KINDS, TEMPS_KINDS } from '$lib/bridge/protocol';
 import {
 	computeDrive,
 	customDriveSchema,
@@ -35,7 +35,8 @@ import type {
 } from '$lib/soak/types';
 export type { SoakEventView, SoakRunDetail, SoakRunListItem, SoakRunView, SoakVerdict };
 
-export type SoakErrorCode = 'not-found' | 'no-rating' | 'not-running' | 'already-running' | 'too-early';
+export type SoakErrorCode =
+	'not-found' | 'no-rating' | 'bad-time-scale' | 'not-running' | 'already-running' | 'too-early';
 
 export class SoakError extends Error {
 	constructor(
@@ -50,6 +51,7 @@ export class SoakError extends Error {
 export const SOAK_ERROR_STATUS: Record<SoakErrorCode, number> = {
 	'not-found': 404,
 	'no-rating': 400,
+	'bad-time-scale': 400,
 	'not-running': 409,
 	'already-running': 409,
 	'too-early': 409
@@ -59,6 +61,16 @@ export const CELSIUS_MIN = -50;
 export const CELSIUS_MAX = 400;
 export const READINGS_MAX_PER_BATCH = 5000;
 export const READINGS_BODY_MAX_BYTES = 1024 * 1024;
+/**
+ * The fastest simulator thermal time the server accepts: at ×120 the hour-long preset takes
+ * 30 s, enough for a demo, while a faster clock would turn the record into a handful of readings.
+ */
+export const MAX_ACCELERATED_TIME_SCALE = 120;
+/**
+ * Wall time past a run's planned end after which the server closes it itself (the page that
+ * should have finished it is gone), so an abandoned run cannot block the job's next soak.
+ */
+export const OVERDUE_GRACE_MS = 10 * 60 * 1000;
 
 // ── inputs ───────────────────────────────────────────────────────────────────
 
@@ -75,8 +87,12 @@ export const createRunSchema = z
 			.object({
 				bootId: z.string().max(64).optional(),
 				lastSeq: z.number().int().min(-1).nullable().optional(),
-				timeScale: z.number().positive().max(3600).optional()
+				/** The hello's audio source and temperature source: only the simulator may run accelerated. */
+				source: z.enum(SOURCE_KINDS).optional(),
+				temps: z.enum(TEMPS_KINDS).optional(),
+				timeScale: z.number().positive().max(MAX_ACCELERATED_TIME_SCALE).optional()
 			})
+			.strict()
 			.optional()
 	})
 	.strict();
@@ -221,15 +237,18 @@ function getRow(db: Tx, runId: number): RunRow {
 	return row;
 }
 
+/** The columns a reading is read back with (verdict input and backfill alike). */
+const readingColumns = {
+	probe: table.soakReadings.probe,
+	seq: table.soakReadings.seq,
+	t: table.soakReadings.t,
+	celsius: table.soakReadings.celsius,
+	bootId: table.soakReadings.bootId
+};
+
 function storedReadings(db: Tx, runId: number): SoakReadingIn[] {
 	return db
-		.select({
-			probe: table.soakReadings.probe,
-			seq: table.soakReadings.seq,
-			t: table.soakReadings.t,
-			celsius: table.soakReadings.celsius,
-			bootId: table.soakReadings.bootId
-		})
+		.select(readingColumns)
 		.from(table.soakReadings)
 		.where(eq(table.soakReadings.runId, runId))
 		.orderBy(asc(table.soakReadings.seq))
@@ -282,6 +301,50 @@ function readingStats(db: Tx, runId: number): { count: number; lastSeq: number |
 	return { count: r?.count ?? 0, lastSeq: r?.lastSeq ?? null };
 }
 
+/**
+ * Finish every run (of one job, or one run) still `running` more than the grace period past its
+ * planned end by the wall clock: the verdict comes from what is stored, judged to the planned
+ * end (a record that stops short fails as incomplete), and an event says the server closed it.
+ */
+function closeOverdueRuns(db: Db, where: { jobId: number } | { runId: number }, nowMs: number): void {
+	const rows = db
+		.select()
+		.from(table.soakRuns)
+		.where(
+			and(
+				'jobId' in where ? eq(table.soakRuns.jobId, where.jobId) : eq(table.soakRuns.id, where.runId),
+				eq(table.soakRuns.status, 'running')
+			)
+		)
+		.all();
+	for (const stale of rows) {
+		if (nowMs <= plannedEndMs(stale) + OVERDUE_GRACE_MS) continue;
+		db.transaction((tx) => {
+			// Read again inside the transaction: the page may have finished it meanwhile.
+			const row = getRow(tx, stale.id);
+			if (row.status !== 'running') return;
+			const endMs = plannedEndMs(row);
+			const summary = computeSummary(tx, row, { untilMs: endMs, complete: true });
+			const verdict = verdictOf(summary);
+			tx.insert(table.soakEvents)
+				.values({
+					runId: row.id,
+					kind: 'server-closed',
+					at: new Date(nowMs),
+					detail: {
+						text: `Closed by the server ${Math.round((nowMs - endMs) / 60_000)} min after the planned end: no page finished the run. Verdict from the stored readings: ${verdict}.`,
+						plannedEndMs: endMs
+					}
+				})
+				.run();
+			tx.update(table.soakRuns)
+				.set({ status: verdict, endedAt: new Date(Math.round(endMs)), summary })
+				.where(eq(table.soakRuns.id, row.id))
+				.run();
+		});
+	}
+}
+
 // ── service ──────────────────────────────────────────────────────────────────
 
 /** Start a run on a job. One running soak per job at a time. */
@@ -301,6 +364,17 @@ export function createRun(
 		data.custom
 	);
 	if (!drive.ok) throw new SoakError(drive.message, 'no-rating');
+	const timeScale = data.bridge?.timeScale ?? 1;
+	const simulated =
+		data.bridge?.source === 'sim' && (data.bridge.temps === undefined || data.bridge.temps === 'sim');
+	// Real hardware heats in real time: only the simulator's thermal model may run faster, so a
+	// browser cannot pass an hour's soak in a minute by claiming a time scale.
+	if (timeScale !== 1 && !simulated)
+		throw new SoakError(
+			'A time scale other than 1 is only accepted from the bridge simulator (source and temperatures "sim")',
+			'bad-time-scale'
+		);
+	closeOverdueRuns(db, { jobId }, nowMs);
 	const limits = runLimits(getSetting(db, 'soakDefaultLimits'), data.limits ?? {});
 	return db.transaction((tx) => {
 		const running = tx
@@ -324,18 +398,33 @@ export function createRun(
 				channels: drive.drive.channels,
 				limits,
 				probes: data.probes ? [...new Set(data.probes)] : [...PROBE_IDS],
-				timeScale: data.bridge?.timeScale ?? 1,
+				timeScale,
 				startSeq: data.bridge?.lastSeq ?? null,
 				status: 'running',
 				startedAt: new Date(nowMs)
 			})
 			.returning({ id: table.soakRuns.id })
 			.get();
+		// What the page said of the bridge, kept with the run: the source behind the time scale.
+		tx.insert(table.soakEvents)
+			.values({
+				runId: row.id,
+				kind: 'start',
+				at: new Date(nowMs),
+				detail: {
+					source: data.bridge?.source ?? null,
+					temps: data.bridge?.temps ?? null,
+					bootId: data.bridge?.bootId ?? null,
+					timeScale
+				}
+			})
+			.run();
 		return { id: row.id };
 	});
 }
 
-export function listRuns(db: Db, jobId: number, thumbPoints = 48): SoakRunListItem[] {
+export function listRuns(db: Db, jobId: number, nowMs = Date.now(), thumbPoints = 48): SoakRunListItem[] {
+	closeOverdueRuns(db, { jobId }, nowMs);
 	const rows = db
 		.select({ run: table.soakRuns, name: table.users.name })
 		.from(table.soakRuns)
@@ -384,7 +473,8 @@ export function listRuns(db: Db, jobId: number, thumbPoints = 48): SoakRunListIt
 	});
 }
 
-export function getRunDetail(db: Db, runId: number): SoakRunDetail {
+export function getRunDetail(db: Db, runId: number, nowMs = Date.now()): SoakRunDetail {
+	closeOverdueRuns(db, { runId }, nowMs);
 	const found = db
 		.select({ run: table.soakRuns, name: table.users.name })
 		.from(table.soakRuns)
@@ -423,7 +513,8 @@ export function jobIdOfRun(db: Db, runId: number): number {
 }
 
 /** The id of the job's running soak, if any: the page resumes it. */
-export function runningRunId(db: Db, jobId: number): number | null {
+export function runningRunId(db: Db, jobId: number, nowMs = Date.now()): number | null {
+	closeOverdueRuns(db, { jobId }, nowMs);
 	const r = db
 		.select({ id: table.soakRuns.id })
 		.from(table.soakRuns)
@@ -533,13 +624,7 @@ export function readingsAfter(
 ): { readings: (SoakReadingIn & { bootId: string | null })[]; lastSeq: number | null; more: boolean } {
 	getRow(db, runId);
 	const rows = db
-		.select({
-			probe: table.soakReadings.probe,
-			seq: table.soakReadings.seq,
-			t: table.soakReadings.t,
-			celsius: table.soakReadings.celsius,
-			bootId: table.soakReadings.bootId
-		})
+		.select(readingColumns)
 		.from(table.soakReadings)
 		.where(and(eq(table.soakReadings.runId, runId), gt(table.soakReadings.seq, afterSeq)))
 		.orderBy(asc(table.soakReadings.seq), asc(table.soakReadings.probe))
@@ -626,7 +711,7 @@ export function finishRun(db: Db, runId: number, nowMs = Date.now()): SoakRunDet
 			.where(eq(table.soakRuns.id, runId))
 			.run();
 	});
-	return getRunDetail(db, runId);
+	return getRunDetail(db, runId, nowMs);
 }
 
 /** End a run early: a breach seen by the page, or the technician stopping it. */
@@ -652,7 +737,7 @@ export function abortRun(db: Db, runId: number, input: AbortInput, nowMs = Date.
 			.where(eq(table.soakRuns.id, runId))
 			.run();
 	});
-	return getRunDetail(db, runId);
+	return getRunDetail(db, runId, nowMs);
 }
 
 /** For routes: a SoakError becomes its HTTP status with the message; anything else is rethrown. */

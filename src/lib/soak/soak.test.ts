@@ -4,7 +4,17 @@ import { describe, expect, it } from 'vitest';
 import { computeDrive, customDriveSchema } from './presets';
 import { runLimits, thdnDbToPercent, thdnPercentToDb, type SoakLimits } from './limits';
 import { DEFAULT_SOAK_LIMITS } from '$lib/schemas/settings';
-import { findBreaches, findGaps, steadyStateS, summarize, verdictOf, type SoakReadingIn } from './verdict';
+import {
+	acceleratedLabel,
+	findBreaches,
+	findGaps,
+	LiveBreachWatch,
+	steadyStateS,
+	summarize,
+	verdictOf,
+	type SoakReadingIn,
+	type ThdnSample
+} from './verdict';
 import { deltaToUnit, formatSoakTime, formatTemp, fromUnit, toUnit } from './temperature';
 
 const T0 = 1_700_000_000_000;
@@ -188,6 +198,113 @@ describe('breaches', () => {
 		expect(findBreaches([], { ...limits, thdnCeilingDb: -50 }, clock, thdn).map((x) => x.atS)).toEqual([180]);
 		// −52 dB is 0.251 %: now the 0.3 % sample at minute 2 is the first over.
 		expect(findBreaches([], { ...limits, thdnCeilingDb: -52 }, clock, thdn).map((x) => x.atS)).toEqual([120]);
+	});
+});
+
+describe('the live limit watch', () => {
+	it('finds a rise at an old reading when a late reading becomes the start of its window', () => {
+		const watch = new LiveBreachWatch(limits, clock);
+		// Minutes 0, 1, 3, 4 at 30 °C: at minute 3 the window reaches back to minute 1, no rise.
+		for (const r of perMinute('heatsink-left', [30, 30, 30, 30, 30]).filter((r) => r.seq !== 3)) watch.add(r);
+		expect(watch.check()).toEqual([]);
+		// Minute 2 arrives late at 20 °C: minute 3 now rises (30 − 20) °C in 1 min = 10 °C/min > 5.
+		watch.add({ probe: 'heatsink-left', seq: 3, t: T0 + 120_000, celsius: 20 });
+		const got = watch.check();
+		expect(got).toEqual([
+			expect.objectContaining({ kind: 'rise-rate', t: T0 + 180_000, atS: 180, value: 10, limit: 5 })
+		]);
+		const all = [...perMinute('heatsink-left', [30, 30, 30, 30, 30]).filter((r) => r.seq !== 3)];
+		all.push({ probe: 'heatsink-left', seq: 3, t: T0 + 120_000, celsius: 20 });
+		expect(got).toEqual(findBreaches(all, limits, clock));
+		// Checked once: nothing new, nothing reported again.
+		expect(watch.check()).toEqual([]);
+	});
+
+	it('compares an old left reading with a right reading that arrives late', () => {
+		const watch = new LiveBreachWatch(limits, clock);
+		watch.add({ probe: 'heatsink-left', seq: 10, t: T0 + 1000, celsius: 50 });
+		watch.add({ probe: 'heatsink-right', seq: 11, t: T0 + 1000, celsius: 49 });
+		watch.add({ probe: 'heatsink-left', seq: 20, t: T0 + 30_000, celsius: 50 });
+		expect(watch.check()).toEqual([]); // 1 °C apart; the second left is 29 s from any right (tolerance 5 s)
+		watch.add({ probe: 'heatsink-right', seq: 21, t: T0 + 30_000, celsius: 35 });
+		// |50 − 35| = 15 °C > 10 °C, at the later of the two readings.
+		expect(watch.check()).toEqual([
+			expect.objectContaining({ kind: 'left-right', t: T0 + 30_000, value: 15, limit: 10 })
+		]);
+	});
+
+	it('reports what the whole-record check reports, batch by batch, with readings out of order', () => {
+		// A small deterministic generator (LCG, Numerical Recipes constants) so every seed replays.
+		let state = 1;
+		const rand = () => (state = (Math.imul(state, 1664525) + 1013904223) >>> 0) / 2 ** 32;
+		const sim = { startedAtMs: T0, timeScale: 60 };
+		const watched: SoakLimits = {
+			...limits,
+			maxHeatsinkC: 70,
+			maxRiseCPerMin: 3,
+			maxDiffC: 6,
+			thdnCeilingDb: -40
+		};
+		let breached = 0;
+		let lateDeliveries = 0;
+		for (let seed = 1; seed <= 40; seed++) {
+			state = seed;
+			const watch = new LiveBreachWatch(watched, sim);
+			const probes = ['heatsink-left', 'heatsink-right', 'transformer', 'ambient'];
+			const temp = [30, 30, 30, 23];
+			const delivered: SoakReadingIn[] = [];
+			const thdn: ThdnSample[] = [];
+			let held: SoakReadingIn[] = [];
+			let tick = 0;
+			for (let round = 0; round < 400; round++) {
+				const batch: SoakReadingIn[] = [];
+				for (let n = 1 + Math.floor(rand() * 4); n > 0; n--, tick++) {
+					probes.forEach((probe, i) => {
+						temp[i] += (rand() - 0.45) * 0.6;
+						// Now and then one reading is lost for a while (a probe glitch) and delivered later.
+						if (rand() < 0.02) return;
+						batch.push({
+							probe,
+							seq: 1000 + 4 * tick + i,
+							t: T0 + 1000 * tick,
+							celsius: Math.round(temp[i] * 100) / 100
+						});
+					});
+					if (rand() < 0.01) thdn.push({ t: T0 + 1000 * tick, thdnPercent: rand() * 1.2 });
+				}
+				// Hold a whole batch back now and then and deliver it after a later one.
+				if (!held.length && rand() < 0.05) {
+					held = batch;
+					continue;
+				}
+				const now = rand() < 0.3 && held.length ? [...batch, ...held] : batch;
+				if (now !== batch) {
+					held = [];
+					lateDeliveries++;
+				}
+				for (const r of now) {
+					delivered.push(r);
+					watch.add(r);
+				}
+				const whole = findBreaches(delivered, watched, sim, thdn);
+				const live = watch.check(thdn);
+				expect(live, `seed ${seed} round ${round}`).toEqual(whole);
+				if (whole.length) {
+					breached++;
+					break;
+				}
+			}
+		}
+		// The comparison meant something: most seeds reached a breach, and late batches happened.
+		expect(breached).toBeGreaterThan(30);
+		expect(lateDeliveries).toBeGreaterThan(10);
+	});
+});
+
+describe('accelerated runs', () => {
+	it('are labelled with their time scale; real-time runs are not', () => {
+		expect(acceleratedLabel(60)).toBe('accelerated ×60 (simulator)');
+		expect(acceleratedLabel(1)).toBeNull();
 	});
 });
 

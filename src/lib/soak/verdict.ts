@@ -3,6 +3,7 @@
 // (the stored verdict) judge the same readings the same way.
 import type { SoakLimits, SteadyCriterion } from './limits';
 import { STEADY_CRITERION, thdnDbToPercent } from './limits';
+import { formatSoakTime } from './temperature';
 
 export interface SoakReadingIn {
 	probe: string;
@@ -34,6 +35,15 @@ export function soakSeconds(tMs: number, clock: SoakClock): number {
 	return ((tMs - clock.startedAtMs) / 1000) * clock.timeScale;
 }
 
+/**
+ * How a run on an accelerated clock is labelled wherever its verdict shows, so a demo soak is
+ * never mistaken for a real one; null for a real-time run. The server accepts a time scale other
+ * than 1 only from the bridge simulator.
+ */
+export function acceleratedLabel(timeScale: number): string | null {
+	return timeScale === 1 ? null : `accelerated ×${Number(timeScale.toFixed(2))} (simulator)`;
+}
+
 export const isHeatsinkProbe = (probe: string) => probe.startsWith('heatsink');
 /** Ambient drifts with the room, not with the unit: it is logged but not judged. */
 export const isAmbientProbe = (probe: string) => probe.startsWith('ambient');
@@ -58,6 +68,85 @@ interface Pt {
 	c: number;
 }
 
+// One breach of each kind, built the same way by the whole-record check and the live watch.
+
+function maxHeatsinkBreach(probe: string, p: Pt, limits: SoakLimits): Breach | null {
+	if (!isHeatsinkProbe(probe) || !(p.c > limits.maxHeatsinkC)) return null;
+	return {
+		kind: 'max-heatsink',
+		probe,
+		t: p.t,
+		atS: p.s,
+		value: p.c,
+		limit: limits.maxHeatsinkC,
+		message: `${probe} reached ${fmt(p.c)} °C (limit ${fmt(limits.maxHeatsinkC)} °C) at ${formatSoakTime(p.s)}`
+	};
+}
+
+/** The rise rate at list[i] against the latest reading at least one window earlier. */
+function riseRateBreach(probe: string, list: readonly Pt[], i: number, limits: SoakLimits): Breach | null {
+	const j = lastAtOrBefore(list, list[i].s - limits.riseWindowS);
+	if (j < 0) return null;
+	const minutes = (list[i].s - list[j].s) / 60;
+	if (minutes <= 0) return null;
+	const rate = (list[i].c - list[j].c) / minutes;
+	if (!(rate > limits.maxRiseCPerMin)) return null;
+	return {
+		kind: 'rise-rate',
+		probe,
+		t: list[i].t,
+		atS: list[i].s,
+		value: rate,
+		limit: limits.maxRiseCPerMin,
+		message: `${probe} rose ${fmt(rate, 2)} °C/min (limit ${fmt(limits.maxRiseCPerMin, 2)} °C/min) at ${formatSoakTime(list[i].s)}`
+	};
+}
+
+/** The left heatsink reading `l` against the nearest right reading in time. */
+function pairBreach(
+	l: Pt,
+	rightByT: readonly Pt[],
+	limits: SoakLimits,
+	clock: SoakClock,
+	tolMs: number
+): Breach | null {
+	const r = nearestByT(rightByT, l.t);
+	if (!r || Math.abs(r.t - l.t) > tolMs) return null;
+	const diff = Math.abs(l.c - r.c);
+	if (!(diff > limits.maxDiffC)) return null;
+	const at = Math.max(l.t, r.t);
+	const atS = soakSeconds(at, clock);
+	return {
+		kind: 'left-right',
+		probe: 'heatsink-left/heatsink-right',
+		t: at,
+		atS,
+		value: diff,
+		limit: limits.maxDiffC,
+		message: `Heatsinks differ by ${fmt(diff)} °C (limit ${fmt(limits.maxDiffC)} °C) at ${formatSoakTime(atS)}`
+	};
+}
+
+/** The earliest THD+N sample above the ceiling (no sort: the first of the earliest wins, as a stable sort would). */
+function thdnBreach(thdn: readonly ThdnSample[], limits: SoakLimits, clock: SoakClock): Breach | null {
+	if (limits.thdnCeilingDb === null || limits.thdnCeilingDb === undefined) return null;
+	const ceilingDb = limits.thdnCeilingDb;
+	const ceiling = thdnDbToPercent(ceilingDb);
+	let hit: ThdnSample | undefined;
+	for (const x of thdn) if (x.thdnPercent > ceiling && (!hit || x.t < hit.t)) hit = x;
+	if (!hit) return null;
+	const atS = soakSeconds(hit.t, clock);
+	return {
+		kind: 'thdn',
+		probe: hit.channel ?? 'output',
+		t: hit.t,
+		atS,
+		value: hit.thdnPercent,
+		limit: ceiling,
+		message: `THD+N ${fmt(hit.thdnPercent, 3)} % (ceiling ${fmt(ceiling, 3)} % = ${fmt(ceilingDb)} dB) at ${formatSoakTime(atS)}`
+	};
+}
+
 /** Readings per probe, ordered by seq (the bridge's order), in soak seconds. */
 export function seriesByProbe(readings: readonly SoakReadingIn[], clock: SoakClock): Map<string, Pt[]> {
 	const sorted = [...readings].sort((a, b) => a.seq - b.seq || a.probe.localeCompare(b.probe));
@@ -71,13 +160,6 @@ export function seriesByProbe(readings: readonly SoakReadingIn[], clock: SoakClo
 }
 
 const fmt = (x: number, digits = 1) => x.toFixed(digits);
-
-function fmtTime(s: number): string {
-	const total = Math.max(0, Math.round(s));
-	const m = Math.floor(total / 60);
-	const sec = total % 60;
-	return `${m}:${String(sec).padStart(2, '0')}`;
-}
 
 /** Largest index i with list[i].s <= s, or -1. */
 function lastAtOrBefore(list: readonly Pt[], s: number): number {
@@ -115,37 +197,18 @@ export function findBreaches(
 	const out: Breach[] = [];
 
 	for (const [probe, list] of byProbe) {
-		if (isHeatsinkProbe(probe)) {
-			const hit = list.find((p) => p.c > limits.maxHeatsinkC);
-			if (hit) {
-				out.push({
-					kind: 'max-heatsink',
-					probe,
-					t: hit.t,
-					atS: hit.s,
-					value: hit.c,
-					limit: limits.maxHeatsinkC,
-					message: `${probe} reached ${fmt(hit.c)} °C (limit ${fmt(limits.maxHeatsinkC)} °C) at ${fmtTime(hit.s)}`
-				});
+		for (const p of list) {
+			const b = maxHeatsinkBreach(probe, p, limits);
+			if (b) {
+				out.push(b);
+				break;
 			}
 		}
 		if (!isAmbientProbe(probe)) {
 			for (let i = 0; i < list.length; i++) {
-				const j = lastAtOrBefore(list, list[i].s - limits.riseWindowS);
-				if (j < 0) continue;
-				const minutes = (list[i].s - list[j].s) / 60;
-				if (minutes <= 0) continue;
-				const rate = (list[i].c - list[j].c) / minutes;
-				if (rate > limits.maxRiseCPerMin) {
-					out.push({
-						kind: 'rise-rate',
-						probe,
-						t: list[i].t,
-						atS: list[i].s,
-						value: rate,
-						limit: limits.maxRiseCPerMin,
-						message: `${probe} rose ${fmt(rate, 2)} °C/min (limit ${fmt(limits.maxRiseCPerMin, 2)} °C/min) at ${fmtTime(list[i].s)}`
-					});
+				const b = riseRateBreach(probe, list, i, limits);
+				if (b) {
+					out.push(b);
 					break;
 				}
 			}
@@ -158,45 +221,135 @@ export function findBreaches(
 		const tol = options.pairToleranceMs ?? 5000;
 		const rightByT = [...right].sort((a, b) => a.t - b.t);
 		for (const l of left) {
-			const r = nearestByT(rightByT, l.t);
-			if (!r || Math.abs(r.t - l.t) > tol) continue;
-			const diff = Math.abs(l.c - r.c);
-			if (diff > limits.maxDiffC) {
-				const at = Math.max(l.t, r.t);
-				const atS = soakSeconds(at, clock);
-				out.push({
-					kind: 'left-right',
-					probe: 'heatsink-left/heatsink-right',
-					t: at,
-					atS,
-					value: diff,
-					limit: limits.maxDiffC,
-					message: `Heatsinks differ by ${fmt(diff)} °C (limit ${fmt(limits.maxDiffC)} °C) at ${fmtTime(atS)}`
-				});
+			const b = pairBreach(l, rightByT, limits, clock, tol);
+			if (b) {
+				out.push(b);
 				break;
 			}
 		}
 	}
 
-	if (limits.thdnCeilingDb !== null && limits.thdnCeilingDb !== undefined) {
-		const ceilingDb = limits.thdnCeilingDb;
-		const ceiling = thdnDbToPercent(ceilingDb);
-		const hit = [...thdn].sort((a, b) => a.t - b.t).find((x) => x.thdnPercent > ceiling);
-		if (hit) {
-			const atS = soakSeconds(hit.t, clock);
-			out.push({
-				kind: 'thdn',
-				probe: hit.channel ?? 'output',
-				t: hit.t,
-				atS,
-				value: hit.thdnPercent,
-				limit: ceiling,
-				message: `THD+N ${fmt(hit.thdnPercent, 3)} % (ceiling ${fmt(ceiling, 3)} % = ${fmt(ceilingDb)} dB) at ${fmtTime(atS)}`
-			});
-		}
-	}
+	const thdnHit = thdnBreach(thdn, limits, clock);
+	if (thdnHit) out.push(thdnHit);
 
 	return out.sort((a, b) => a.t - b.t);
+}
+
+/**
+ * The live page's limit check: keeps each probe's series ordered by seq as readings arrive
+ * (appended in the usual case, inserted in place for a late backfill) and judges only what a
+ * new reading can change, so a check costs about the new readings, not the whole record. Given
+ * a record with no breach so far, `check` answers what `findBreaches` would for the whole record
+ * (readings of one bridge have times that do not decrease with seq).
+ */
+export class LiveBreachWatch {
+	readonly #series = new Map<string, (Pt & { seq: number })[]>();
+	#unchecked: { probe: string; seq: number }[] = [];
+
+	constructor(
+		readonly limits: SoakLimits,
+		readonly clock: SoakClock,
+		readonly options: BreachOptions = {}
+	) {}
+
+	add(r: SoakReadingIn): void {
+		let list = this.#series.get(r.probe);
+		if (!list) this.#series.set(r.probe, (list = []));
+		const p = { t: r.t, s: soakSeconds(r.t, this.clock), c: r.celsius, seq: r.seq };
+		const at = seqUpperBound(list, r.seq);
+		if (at > 0 && list[at - 1].seq === r.seq) return;
+		if (at === list.length) list.push(p);
+		else list.splice(at, 0, p);
+		this.#unchecked.push({ probe: r.probe, seq: r.seq });
+	}
+
+	/** Breaches the readings added since the last check bring (with THD+N over all `thdn`), earliest first. */
+	check(thdn: readonly ThdnSample[] = []): Breach[] {
+		const limits = this.limits;
+		const unchecked = this.#unchecked;
+		this.#unchecked = [];
+		// The first (in seq order) breach of each kind and probe, as the whole-record check reports.
+		const first = new Map<string, { index: number; breach: Breach }>();
+		const note = (index: number, b: Breach | null) => {
+			if (!b) return;
+			const k = `${b.kind}|${b.probe}`;
+			const prev = first.get(k);
+			if (!prev || index < prev.index) first.set(k, { index, breach: b });
+		};
+		const rightByT = this.#series.get('heatsink-right') ?? [];
+		const left = this.#series.get('heatsink-left') ?? [];
+		const tol = this.options.pairToleranceMs ?? 5000;
+		const pairAt = (i: number) => note(i, pairBreach(left[i], rightByT, limits, this.clock, tol));
+
+		for (const { probe, seq } of unchecked) {
+			const list = this.#series.get(probe) as (Pt & { seq: number })[];
+			const k = seqUpperBound(list, seq) - 1;
+			note(k, maxHeatsinkBreach(probe, list[k], limits));
+			if (!isAmbientProbe(probe)) {
+				note(k, riseRateBreach(probe, list, k, limits));
+				// Later readings whose window now starts at this one: S_i − window in [S_k, S_k+1).
+				const nextS = k + 1 < list.length ? list[k + 1].s : Infinity;
+				for (let i = firstWindowFrom(list, k, limits.riseWindowS); i < list.length; i++) {
+					if (list[i].s - limits.riseWindowS >= nextS) break;
+					note(i, riseRateBreach(probe, list, i, limits));
+				}
+			}
+			if (!left.length || !rightByT.length) continue;
+			if (probe === 'heatsink-left') pairAt(k);
+			else if (probe === 'heatsink-right') {
+				// Left readings whose nearest right reading may now be this one: between its neighbours in time.
+				const fromT = k > 0 ? rightByT[k - 1].t : -Infinity;
+				const toT = k + 1 < rightByT.length ? rightByT[k + 1].t : Infinity;
+				for (let i = Math.max(0, lastAtOrBeforeT(left, fromT)); i < left.length && left[i].t <= toT; i++)
+					if (left[i].t >= fromT) pairAt(i);
+			}
+		}
+		const out = [...first.values()].map((x) => x.breach);
+		const thdnHit = thdnBreach(thdn, limits, this.clock);
+		if (thdnHit) out.push(thdnHit);
+		return out.sort((a, b) => a.t - b.t);
+	}
+}
+
+/** Index just past the last element with seq ≤ `seq`. */
+function seqUpperBound(list: readonly { seq: number }[], seq: number): number {
+	let lo = 0;
+	let hi = list.length;
+	// Readings mostly arrive in order: the end is the usual answer.
+	if (!hi || list[hi - 1].seq <= seq) return hi;
+	while (lo < hi) {
+		const mid = (lo + hi) >>> 1;
+		if (list[mid].seq <= seq) lo = mid + 1;
+		else hi = mid;
+	}
+	return lo;
+}
+
+/** First index i > k with list[i].s − window ≥ list[k].s (its window can start at k). */
+function firstWindowFrom(list: readonly Pt[], k: number, windowS: number): number {
+	let lo = k + 1;
+	let hi = list.length;
+	while (lo < hi) {
+		const mid = (lo + hi) >>> 1;
+		if (list[mid].s - windowS >= list[k].s) hi = mid;
+		else lo = mid + 1;
+	}
+	return lo;
+}
+
+/** Largest index with t ≤ `t` (−1 when none). */
+function lastAtOrBeforeT(list: readonly Pt[], t: number): number {
+	let lo = 0;
+	let hi = list.length - 1;
+	let ans = -1;
+	while (lo <= hi) {
+		const mid = (lo + hi) >> 1;
+		if (list[mid].t <= t) {
+			ans = mid;
+			lo = mid + 1;
+		} else hi = mid - 1;
+	}
+	return ans;
 }
 
 function nearestByT(list: readonly Pt[], t: number): Pt | undefined {

@@ -6,7 +6,7 @@ import type { BridgeLink, RestartEvent, TempsEvent } from './bridge-link.svelte'
 import { SoakAlarmSound } from './soak-alarm';
 import { GENERATOR_MAX_VRMS, type HelloMessage } from '$lib/bridge/protocol';
 import {
-	findBreaches,
+	LiveBreachWatch,
 	findGaps,
 	soakSeconds,
 	type Breach,
@@ -125,6 +125,10 @@ export class SoakSession {
 	#all = new Map<string, StoredReading>();
 	// eslint-disable-next-line svelte/prefer-svelte-reactivity
 	#pending = new Map<string, StoredReading>();
+	/** The same readings ordered by seq, kept as they arrive (inserted in place when late). */
+	#sorted: StoredReading[] = [];
+	/** The live limit check over the run's readings; built on the first check. */
+	#watch: { runId: number; watch: LiveBreachWatch } | null = null;
 	#events: PendingEvent[] = [];
 	#thdn: ThdnSample[] = [];
 	#endAction: EndAction | null = null;
@@ -229,9 +233,35 @@ export class SoakSession {
 		return this.#restarts;
 	}
 
-	/** Every reading, ordered by seq. */
+	/** Every reading, ordered by seq (a fresh array, so derived views see a change). */
 	readings(): StoredReading[] {
-		return [...this.#all.values()].sort((a, b) => a.seq - b.seq);
+		return this.#sorted.slice();
+	}
+
+	/** Keep a reading (once per probe and seq); true when it is new. */
+	#store(r: StoredReading): boolean {
+		const k = key(r);
+		const known = this.#all.get(k);
+		if (known) {
+			// The same reading again (the server's copy): same values, keep the one object everyone holds.
+			Object.assign(known, r);
+			return false;
+		}
+		this.#all.set(k, r);
+		const list = this.#sorted;
+		if (!list.length || list[list.length - 1].seq <= r.seq) list.push(r);
+		else {
+			let lo = 0;
+			let hi = list.length;
+			while (lo < hi) {
+				const mid = (lo + hi) >>> 1;
+				if (list[mid].seq <= r.seq) lo = mid + 1;
+				else hi = mid;
+			}
+			list.splice(lo, 0, r);
+		}
+		this.#watch?.watch.add(r);
+		return true;
 	}
 
 	/** Breaks in the record (bridge restarts, long silences), from the readings themselves. */
@@ -260,10 +290,7 @@ export class SoakSession {
 			.map((e) => ({ t: e.at, thdnPercent: (e.detail as { thdnPercent: number }).thdnPercent }));
 		// Readings the last page had not yet got acknowledged.
 		for (const r of readStore<StoredReading[]>(store.pending(runId)) ?? []) {
-			if (!this.#all.has(key(r))) {
-				this.#all.set(key(r), r);
-				this.#pending.set(key(r), r);
-			}
+			if (this.#store(r)) this.#pending.set(key(r), r);
 		}
 		this.#events = readStore<PendingEvent[]>(store.events(runId)) ?? [];
 		this.#endAction = readStore<EndAction>(store.end(runId));
@@ -297,6 +324,9 @@ export class SoakSession {
 			bridge: {
 				bootId: hello.bootId,
 				lastSeq: this.#link.lastTempSeq ?? hello.lastTempSeq,
+				// The server accepts an accelerated clock only from the simulator, so it needs the sources.
+				source: hello.source,
+				temps: hello.temps,
 				timeScale: hello.timeScale
 			}
 		}).catch(() => null);
@@ -399,8 +429,7 @@ export class SoakSession {
 
 	#onHello(h: HelloMessage): void {
 		if (this.#phase !== 'running' && this.#phase !== 'ending') return;
-		const known = this.readings();
-		const last = known.at(-1);
+		const last = this.#sorted.at(-1);
 		// After a reload the link has no history: a different boot than our last reading is a restart we slept through.
 		if (!this.#helloSeen && last && last.bootId && last.bootId !== h.bootId) {
 			this.#onRestart({
@@ -456,7 +485,7 @@ export class SoakSession {
 				celsius: r.celsius,
 				bootId: e.bootId
 			};
-			this.#all.set(k, stored);
+			this.#store(stored);
 			if (!this.#endedOnServer()) this.#pending.set(k, stored);
 			added++;
 			const prev = latest[r.probe];
@@ -637,12 +666,13 @@ export class SoakSession {
 		const run = this.run;
 		const limits = this.limits;
 		if (!run || !limits || this.#phase !== 'running' || this.#ending || this.#breach) return;
-		const breaches = findBreaches(
-			this.readings(),
-			limits,
-			{ startedAtMs: run.startedAt, timeScale: run.timeScale },
-			this.#thdn
-		);
+		if (this.#watch?.runId !== run.id) {
+			// Built once per run from what is held; afterwards each reading is judged as it arrives.
+			const watch = new LiveBreachWatch(limits, { startedAtMs: run.startedAt, timeScale: run.timeScale });
+			for (const r of this.#sorted) watch.add(r);
+			this.#watch = { runId: run.id, watch };
+		}
+		const breaches = this.#watch.watch.check(this.#thdn);
 		if (breaches.length) this.#onBreach(breaches[0]);
 	}
 
@@ -836,7 +866,7 @@ export class SoakSession {
 			if (!res || !res.ok) break;
 			const page = (await res.json()) as { readings: StoredReading[]; lastSeq: number | null; more: boolean };
 			for (const r of page.readings) {
-				this.#all.set(key(r), r);
+				this.#store(r);
 				const prev = latest[r.probe];
 				if (!prev || r.seq > prev.seq) latest[r.probe] = r;
 			}
