@@ -8,8 +8,8 @@ import { spawn, type ChildProcess } from 'node:child_process';
 import { connect } from 'node:net';
 import WebSocket from 'ws';
 import { mintBridgeToken } from '../../src/lib/bridge/token';
+import { signIn as signInAs } from './helpers';
 
-const PASSWORD = 'bench-demo-2026';
 const APP_ORIGIN = 'http://127.0.0.1:4173';
 const BRIDGE_PORT = 8790;
 const BRIDGE_URL = `ws://127.0.0.1:${BRIDGE_PORT}`;
@@ -107,12 +107,7 @@ async function askBridge(afterSeq: number): Promise<BridgeView> {
 // ── app helpers ─────────────────────────────────────────────────────────────
 
 async function signIn(page: Page, email: string): Promise<void> {
-	await page.goto('/login');
-	await page.locator('html[data-hydrated="true"]').waitFor({ state: 'attached' });
-	await page.getByLabel('Email').fill(email);
-	await page.getByLabel('Password').fill(PASSWORD);
-	await page.getByRole('button', { name: 'Sign in' }).click();
-	await expect(page).toHaveURL(/\/jobs$/);
+	await signInAs(page, email);
 	await page.evaluate((url) => localStorage.setItem('benchlight-bridge-url', url), BRIDGE_URL);
 }
 
