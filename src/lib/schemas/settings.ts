@@ -14,9 +14,16 @@ export const soakLimitsSchema = z.object({
 });
 export type SoakLimits = z.infer<typeof soakLimitsSchema>;
 
+/** Host names that mean this machine, as URL.hostname writes them. */
+const LOOPBACK_HOSTS = ['127.0.0.1', 'localhost', '[::1]'];
+
 export const shopSettingsSchema = z.object({
 	shopName: z.string().trim().min(1, 'Enter the shop name').max(120),
-	/** Where the browser finds the bench bridge. */
+	/**
+	 * Where the browser finds the bench bridge. It runs on the bench PC itself and listens on
+	 * loopback, so only loopback addresses are accepted (the page's Content-Security-Policy
+	 * allows no other WebSocket destination either).
+	 */
 	bridgeUrl: z
 		.string()
 		.trim()
@@ -24,11 +31,11 @@ export const shopSettingsSchema = z.object({
 		.refine((s) => {
 			try {
 				const u = new URL(s);
-				return u.protocol === 'ws:' || u.protocol === 'wss:';
+				return u.protocol === 'ws:' && LOOPBACK_HOSTS.includes(u.hostname);
 			} catch {
 				return false;
 			}
-		}, 'Use a ws:// or wss:// address, like ws://127.0.0.1:8787'),
+		}, 'Use the bench PC’s own bridge address, like ws://127.0.0.1:8787 (loopback only)'),
 	/** Local mains frequency: where hum shows up in the spectrum. */
 	mainsHz: z.union([z.literal(50), z.literal(60)], 'Mains is 50 Hz or 60 Hz'),
 	soakDefaultLimits: soakLimitsSchema

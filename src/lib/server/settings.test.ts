@@ -50,10 +50,13 @@ describe('settings', () => {
 
 	it('refuses bad values (400) and stores none of a bad patch', () => {
 		expect(statusOf(() => updateSettings(db, { bridgeUrl: 'http://127.0.0.1:8787' }))).toBe(400);
+		// The bridge listens on loopback only; a LAN or public address is refused.
+		expect(statusOf(() => updateSettings(db, { bridgeUrl: 'ws://192.0.2.10:8787' }))).toBe(400);
 		expect(statusOf(() => updateSettings(db, { mainsHz: 55 as 50 }))).toBe(400);
 		expect(statusOf(() => updateSettings(db, { shopName: 'Fine', colour: 'red' } as never))).toBe(400);
 		expect(statusOf(() => updateSettings(db, {}))).toBe(400);
 		expect(getSettings(db)).toEqual(defaultSettings());
+		expect(statusOf(() => updateSettings(db, { bridgeUrl: 'ws://[::1]:8787' }))).toBe('ok');
 	});
 
 	it('falls back to the default for a stored value that no longer validates', () => {
