@@ -82,7 +82,10 @@ describe('evaluateLimits', () => {
 	});
 
 	it('a figure that was not measured fails, with a reason', () => {
-		const mono = { channels: [{ thdnPercent: 0.01 }], stereo: stereoMeasurements({ levelDbv: 0 }, undefined) };
+		const mono = {
+			channels: [{ thdnPercent: 0.01 }],
+			stereo: stereoMeasurements({ levelDbv: 0 }, undefined)
+		};
 		const checks = evaluateLimits(
 			[
 				lim({ metric: 'thdnPercent', channel: 'right', op: 'le', value: 1, unit: '%' }),
@@ -154,14 +157,14 @@ describe('schemas', () => {
 		expect(conditionMismatches(live, c, 24_000)).toEqual([]);
 		expect(describeMismatch([])).toBeNull();
 		expect(describeMismatch(conditionMismatches({ ...live, loadOhms: 4 }, c, 24_000))).toBe(
-			'Live load (4 Ω, profile 8 Ω) differs from the profile; captures use the profile’s.'
+			'Live load (4 Ω, profile 8 Ω) differs from the profile; a capture is judged in the profile’s band and weighting, and its power and gain limits fail under another load or level.'
 		);
 		expect(
 			describeMismatch(
 				conditionMismatches({ ...live, bandHz: [400, 2000], weighting: 'a', referenceVrms: null }, c, 24_000)
 			)
 		).toBe(
-			'Live band (400 Hz–2 kHz, profile 20 Hz–20 kHz), weighting (A-weighted, profile unweighted) and gain reference (not set, profile 0.32 V rms) differ from the profile; captures use the profile’s.'
+			'Live band (400 Hz–2 kHz, profile 20 Hz–20 kHz), weighting (A-weighted, profile unweighted) and gain reference (not set, profile 0.32 V rms) differ from the profile; a capture is judged in the profile’s band and weighting, and its power and gain limits fail under another load or level.'
 		);
 		// A band top above Nyquist is the same band once both are clipped.
 		expect(

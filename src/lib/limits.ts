@@ -392,7 +392,7 @@ export function describeMismatch(diffs: readonly string[]): string | null {
 	if (diffs.length === 0) return null;
 	const list =
 		diffs.length === 1 ? diffs[0] : `${diffs.slice(0, -1).join(', ')} and ${diffs[diffs.length - 1]}`;
-	return `Live ${list} ${diffs.length === 1 ? 'differs' : 'differ'} from the profile; captures use the profile’s.`;
+	return `Live ${list} ${diffs.length === 1 ? 'differs' : 'differ'} from the profile; a capture is judged in the profile’s band and weighting, and its power and gain limits fail under another load or level.`;
 }
 
 export function weightingLabel(w: Weighting): string {

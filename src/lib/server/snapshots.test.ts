@@ -210,7 +210,7 @@ describe('createSnapshot', () => {
 		expect((stored.profile as { name: string }).name).toBe('THD 0.1 %');
 	});
 
-	it('judges with the profile’s load, not the load the browser states (seeded 5 W into 8 Ω profile)', () => {
+	it('measures under the bench’s stated load and fails power limits whose assumed load differs (seeded 5 W into 8 Ω profile)', () => {
 		seedLimitProfiles(db);
 		const p = listLimitProfiles(db).find(
 			(x) => x.conditions.loadOhms === 8 && x.limits.some((l) => l.metric === 'powerW')
@@ -235,26 +235,56 @@ describe('createSnapshot', () => {
 			}
 		});
 		const c = res.results.conditions;
-		expect(c.loadOhms).toBe(8);
-		expect(c.referenceVrms).toBe(0.32);
+		// Band and weighting are the profile's; load and generator level are the bench's stated facts.
+		expect(c.loadOhms).toBe(4);
+		expect(c.referenceVrms).toBe(1);
 		expect(c.bandHz).toEqual([20, 20000]);
 		expect(c.weighting).toBe('none');
 		expect(c.sources).toEqual({
 			bandHz: 'profile',
 			weighting: 'profile',
-			loadOhms: 'profile',
-			referenceVrms: 'profile'
+			loadOhms: 'bench',
+			referenceVrms: 'bench'
 		});
-		expect(res.results.channels[0].powerW).toBeCloseTo(2.3, 3); // V²/R with R = 8 Ω
-		// Gain re the profile's 0.32 V rms generator level: 20·lg(V/0.32).
-		expect(res.results.channels[0].gainDb).toBeCloseTo(20 * Math.log10(vrms / 0.32), 3);
+		expect(res.results.channels[0].powerW).toBeCloseTo(4.6, 3); // V²/R with R = 4 Ω (REFERENCES.md §5)
+		// 4.6 W would clear the 4.5 W limit, but the profile assumes 8 Ω: the power checks fail, with the reason.
 		const power = res.checks.filter((x) => x.metric === 'powerW');
 		expect(power.map((x) => [x.channel, x.pass])).toEqual([
 			['left', false],
 			['right', false]
 		]);
+		expect(power[0].note).toBe('measured into 4 Ω; the profile assumes 8 Ω');
 		expect(res.verdict).toBe('fail');
-		expect(getSnapshot(db, res.id)!.loadOhms).toBe(8);
+		expect(getSnapshot(db, res.id)!.loadOhms).toBe(4);
+
+		// Stated honestly (8 Ω, the profile's 0.32 V), the same 2.3 W fails on its own figure.
+		const honest = createSnapshot(db, {
+			jobId,
+			userId: 'u1',
+			wav: wav24([ch(), ch()], RATE),
+			meta: {
+				label: 'power',
+				stage: 'after',
+				profileId: p.id,
+				fullScaleVolts: 10,
+				loadOhms: 8,
+				referenceVrms: 0.32
+			}
+		});
+		expect(honest.results.channels[0].powerW).toBeCloseTo(2.3, 3); // V²/R with R = 8 Ω
+		expect(honest.results.channels[0].gainDb).toBeCloseTo(20 * Math.log10(vrms / 0.32), 3);
+		const honestPower = honest.checks.filter((x) => x.metric === 'powerW');
+		expect(honestPower.every((x) => !x.pass && x.note === undefined)).toBe(true);
+		// Silent bench: the profile's conditions are used.
+		const silent = createSnapshot(db, {
+			jobId,
+			userId: 'u1',
+			wav: wav24([ch(), ch()], RATE),
+			meta: { label: 'power', stage: 'after', profileId: p.id, fullScaleVolts: 10 }
+		});
+		expect(silent.results.conditions.loadOhms).toBe(8);
+		expect(silent.results.conditions.sources.loadOhms).toBe('profile');
+		expect(silent.results.channels[0].powerW).toBeCloseTo(2.3, 3);
 	});
 
 	it('uses the bench’s conditions where the profile is silent, and says so', () => {

@@ -23,6 +23,7 @@ import {
 	measurementsFromResults,
 	verdictOf,
 	type Check,
+	type LimitConditions,
 	type LimitProfileView,
 	type Verdict,
 	type Weighting
@@ -292,8 +293,11 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 			: meta.fullScaleVolts
 	);
 
-	// The profile's conditions win (its limits assume them: "5 W into 8 Ω" is judged into 8 Ω whatever
-	// load the browser states); the bench's values apply only where the profile is silent.
+	// Band and weighting are analysis choices: the profile's win, so its limits are judged the way
+	// they were written. Load and generator level are facts of the bench (the resistor on the
+	// terminals, the level the generator put out): they are measured as the bench states them, and
+	// where they differ from what the profile assumes, the limits that depend on them fail
+	// (`conditionChecks`) instead of being computed under a condition that did not hold.
 	const a = meta.analysis ?? {};
 	const pc = profile?.conditions;
 	const pick = <T>(fromProfile: T | undefined, fromBench: T | null | undefined, fallback: T | undefined) =>
@@ -304,8 +308,10 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 				: { value: fallback, source: fallback === undefined ? ('none' as const) : ('default' as const) };
 	const band = pick<[number, number]>(pc && [pc.bandLowHz, pc.bandHighHz], a.bandHz, [20, 20_000]);
 	const weight = pick<Weighting>(pc?.weighting, a.weighting, 'none');
-	const load = pick(pc?.loadOhms, meta.loadOhms, undefined);
-	const reference = pick(pc?.generatorLevelVrms, meta.referenceVrms, undefined);
+	const load = pick(undefined, meta.loadOhms, pc?.loadOhms);
+	const reference = pick(undefined, meta.referenceVrms, pc?.generatorLevelVrms);
+	if (load.source === 'default') load.source = 'profile';
+	if (reference.source === 'default') reference.source = 'profile';
 	const bandHz = band.value as [number, number];
 	const weighting = weight.value as Weighting;
 	const loadOhms = load.value;
@@ -362,14 +368,18 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 		analysedSamples
 	};
 	const checks = profile
-		? evaluateLimits(
-				profile.limits,
-				measurementsFromResults(
-					analysis.channels,
-					{ balanceDb: analysis.balanceDb, crosstalkDb: analysis.crosstalkDb },
-					steadinessResults,
-					weighting
-				)
+		? conditionChecks(
+				evaluateLimits(
+					profile.limits,
+					measurementsFromResults(
+						analysis.channels,
+						{ balanceDb: analysis.balanceDb, crosstalkDb: analysis.crosstalkDb },
+						steadinessResults,
+						weighting
+					)
+				),
+				profile.conditions,
+				{ loadOhms: loadOhms ?? null, referenceVrms: referenceVrms ?? null }
 			)
 		: [];
 	const verdict: Verdict = profile ? verdictOf(checks) : 'none';
@@ -411,6 +421,41 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 	});
 	return { id, results, verdict, checks };
 }
+
+/**
+ * Fail the checks whose figure depends on a bench condition that differs from the profile's
+ * assumption: power needs the profile's load, gain its generator level. The measured value stays
+ * (it is true for the bench as stated); the note says why it cannot count.
+ */
+export function conditionChecks(
+	checks: Check[],
+	assumed: Pick<LimitConditions, 'loadOhms' | 'generatorLevelVrms'>,
+	bench: { loadOhms: number | null; referenceVrms: number | null }
+): Check[] {
+	const differs = (benchValue: number | null, profileValue: number | undefined) =>
+		profileValue !== undefined &&
+		(benchValue === null || Math.abs(benchValue - profileValue) > CONDITION_TOLERANCE * profileValue);
+	const loadOff = differs(bench.loadOhms, assumed.loadOhms);
+	const levelOff = differs(bench.referenceVrms, assumed.generatorLevelVrms);
+	return checks.map((c) => {
+		if (c.metric === 'powerW' && loadOff)
+			return {
+				...c,
+				pass: false,
+				note: `measured into ${bench.loadOhms ?? '?'} Ω; the profile assumes ${assumed.loadOhms} Ω`
+			};
+		if (c.metric === 'gainDb' && levelOff)
+			return {
+				...c,
+				pass: false,
+				note: `generator at ${bench.referenceVrms ?? '?'} V rms; the profile assumes ${assumed.generatorLevelVrms} V rms`
+			};
+		return c;
+	});
+}
+
+/** Bench and profile conditions closer than this fraction count as the same (0.1 % ≈ 0.009 dB). */
+const CONDITION_TOLERANCE = 1e-3;
 
 // ── reading ─────────────────────────────────────────────────────────────────
 
