@@ -314,6 +314,41 @@ export function evaluateLimits(limits: readonly Limit[], m: Measurements): Check
 	return checks;
 }
 
+/**
+ * Fail the checks whose figure depends on a bench condition that differs from the profile's
+ * assumption: power needs the profile's load, gain its generator level. The measured value stays
+ * (it is true for the bench as stated); the note says why it cannot count.
+ */
+export function conditionChecks(
+	checks: Check[],
+	assumed: Pick<LimitConditions, 'loadOhms' | 'generatorLevelVrms'>,
+	bench: { loadOhms: number | null; referenceVrms: number | null }
+): Check[] {
+	const differs = (benchValue: number | null, profileValue: number | undefined) =>
+		profileValue !== undefined &&
+		(benchValue === null || Math.abs(benchValue - profileValue) > CONDITION_TOLERANCE * profileValue);
+	const loadOff = differs(bench.loadOhms, assumed.loadOhms);
+	const levelOff = differs(bench.referenceVrms, assumed.generatorLevelVrms);
+	return checks.map((c) => {
+		if (c.metric === 'powerW' && loadOff)
+			return {
+				...c,
+				pass: false,
+				note: `measured into ${bench.loadOhms ?? '?'} Ω; the profile assumes ${assumed.loadOhms} Ω`
+			};
+		if (c.metric === 'gainDb' && levelOff)
+			return {
+				...c,
+				pass: false,
+				note: `generator at ${bench.referenceVrms ?? '?'} V rms; the profile assumes ${assumed.generatorLevelVrms} V rms`
+			};
+		return c;
+	});
+}
+
+/** Bench and profile conditions closer than this fraction count as the same (0.1 % ≈ 0.009 dB). */
+const CONDITION_TOLERANCE = 1e-3;
+
 export function verdictOf(checks: readonly Check[]): Verdict {
 	if (checks.length === 0) return 'none';
 	return checks.every((c) => c.pass) ? 'pass' : 'fail';

@@ -22,8 +22,8 @@ import {
 	evaluateLimits,
 	measurementsFromResults,
 	verdictOf,
+	conditionChecks,
 	type Check,
-	type LimitConditions,
 	type LimitProfileView,
 	type Verdict,
 	type Weighting
@@ -300,18 +300,25 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 	// (`conditionChecks`) instead of being computed under a condition that did not hold.
 	const a = meta.analysis ?? {};
 	const pc = profile?.conditions;
-	const pick = <T>(fromProfile: T | undefined, fromBench: T | null | undefined, fallback: T | undefined) =>
-		fromProfile !== undefined
-			? { value: fromProfile, source: 'profile' as const }
-			: fromBench != null
-				? { value: fromBench, source: 'bench' as const }
-				: { value: fallback, source: fallback === undefined ? ('none' as const) : ('default' as const) };
-	const band = pick<[number, number]>(pc && [pc.bandLowHz, pc.bandHighHz], a.bandHz, [20, 20_000]);
-	const weight = pick<Weighting>(pc?.weighting, a.weighting, 'none');
-	const load = pick(undefined, meta.loadOhms, pc?.loadOhms);
-	const reference = pick(undefined, meta.referenceVrms, pc?.generatorLevelVrms);
-	if (load.source === 'default') load.source = 'profile';
-	if (reference.source === 'default') reference.source = 'profile';
+	type Picked<T> = { value: T | undefined; source: ConditionSource };
+	const pick = <T>(
+		first: [T | null | undefined, ConditionSource],
+		second: [T | null | undefined, ConditionSource],
+		fallback?: T
+	): Picked<T> =>
+		first[0] != null
+			? { value: first[0], source: first[1] }
+			: second[0] != null
+				? { value: second[0], source: second[1] }
+				: { value: fallback, source: fallback === undefined ? 'none' : 'default' };
+	const band = pick<[number, number]>(
+		[pc && [pc.bandLowHz, pc.bandHighHz], 'profile'],
+		[a.bandHz, 'bench'],
+		[20, 20_000]
+	);
+	const weight = pick<Weighting>([pc?.weighting, 'profile'], [a.weighting, 'bench'], 'none');
+	const load = pick([meta.loadOhms, 'bench'], [pc?.loadOhms, 'profile']);
+	const reference = pick([meta.referenceVrms, 'bench'], [pc?.generatorLevelVrms, 'profile']);
 	const bandHz = band.value as [number, number];
 	const weighting = weight.value as Weighting;
 	const loadOhms = load.value;
@@ -421,41 +428,6 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 	});
 	return { id, results, verdict, checks };
 }
-
-/**
- * Fail the checks whose figure depends on a bench condition that differs from the profile's
- * assumption: power needs the profile's load, gain its generator level. The measured value stays
- * (it is true for the bench as stated); the note says why it cannot count.
- */
-export function conditionChecks(
-	checks: Check[],
-	assumed: Pick<LimitConditions, 'loadOhms' | 'generatorLevelVrms'>,
-	bench: { loadOhms: number | null; referenceVrms: number | null }
-): Check[] {
-	const differs = (benchValue: number | null, profileValue: number | undefined) =>
-		profileValue !== undefined &&
-		(benchValue === null || Math.abs(benchValue - profileValue) > CONDITION_TOLERANCE * profileValue);
-	const loadOff = differs(bench.loadOhms, assumed.loadOhms);
-	const levelOff = differs(bench.referenceVrms, assumed.generatorLevelVrms);
-	return checks.map((c) => {
-		if (c.metric === 'powerW' && loadOff)
-			return {
-				...c,
-				pass: false,
-				note: `measured into ${bench.loadOhms ?? '?'} Ω; the profile assumes ${assumed.loadOhms} Ω`
-			};
-		if (c.metric === 'gainDb' && levelOff)
-			return {
-				...c,
-				pass: false,
-				note: `generator at ${bench.referenceVrms ?? '?'} V rms; the profile assumes ${assumed.generatorLevelVrms} V rms`
-			};
-		return c;
-	});
-}
-
-/** Bench and profile conditions closer than this fraction count as the same (0.1 % ≈ 0.009 dB). */
-const CONDITION_TOLERANCE = 1e-3;
 
 // ── reading ─────────────────────────────────────────────────────────────────
 
