@@ -1,6 +1,7 @@
 // End-to-end tests in Debian's Chromium against the built app, a freshly seeded database
 // and the bridge simulator (thermal time ×60 so a 60-minute soak lasts a minute).
 import { defineConfig } from '@playwright/test';
+import { CHROMIUM_ARGS, CHROMIUM_EXECUTABLE } from './tests/chromium';
 
 const APP_PORT = 4173;
 const BRIDGE_PORT = 8787;
@@ -33,18 +34,8 @@ export default defineConfig({
 		trace: 'retain-on-failure',
 		screenshot: 'only-on-failure',
 		launchOptions: {
-			executablePath: '/usr/bin/chromium',
-			args: [
-				'--headless',
-				'--no-sandbox',
-				'--disable-gpu',
-				'--disable-quic',
-				'--no-first-run',
-				'--disable-background-networking',
-				'--disable-component-update',
-				'--disable-sync',
-				'--autoplay-policy=no-user-gesture-required'
-			]
+			executablePath: CHROMIUM_EXECUTABLE,
+			args: [...CHROMIUM_ARGS, '--autoplay-policy=no-user-gesture-required']
 		}
 	},
 	webServer: [

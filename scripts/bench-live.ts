@@ -13,7 +13,8 @@ import { createServer } from 'node:net';
 import { tmpdir } from 'node:os';
 import { join, resolve } from 'node:path';
 import { parseArgs } from 'node:util';
-import { chromium, type Page } from 'playwright-core';
+import { chromium, type Page } from '@playwright/test';
+import { CHROMIUM_ARGS, CHROMIUM_EXECUTABLE } from '../tests/chromium';
 
 const root = resolve(import.meta.dirname, '..');
 const { values: opts } = parseArgs({
@@ -30,17 +31,6 @@ if (!(durationS > 0) || ![4096, 8192, 16384, 32768, 65536, 131072, 262144].inclu
 	console.error('usage: npm run bench:live -- [--duration SECONDS] [--fft 4096…262144] [--rebuild]');
 	process.exit(2);
 }
-
-const CHROMIUM_ARGS = [
-	'--headless',
-	'--no-sandbox',
-	'--disable-gpu',
-	'--disable-quic',
-	'--no-first-run',
-	'--disable-background-networking',
-	'--disable-component-update',
-	'--disable-sync'
-];
 
 const children: ChildProcess[] = [];
 let tmp: string | null = null;
@@ -205,7 +195,7 @@ async function main(): Promise<void> {
 		async () => (await fetch(`http://127.0.0.1:${bridgePort}/`).catch(() => null)) !== null
 	);
 
-	const browser = await chromium.launch({ executablePath: '/usr/bin/chromium', args: CHROMIUM_ARGS });
+	const browser = await chromium.launch({ executablePath: CHROMIUM_EXECUTABLE, args: CHROMIUM_ARGS });
 	try {
 		const context = await browser.newContext({ viewport: { width: 1600, height: 1200 } });
 		await context.addInitScript((url) => localStorage.setItem('benchlight-bridge-url', url), bridgeUrl);
