@@ -1,5 +1,5 @@
 #!/usr/bin/env bash
-# `npm test`: type checks, unit tests and end-to-end tests in Debian's Chromium.
+# `npm test`: lint, type checks, unit tests and end-to-end tests in Debian's Chromium.
 set -euo pipefail
 cd "$(dirname "$0")/.."
 
@@ -20,6 +20,8 @@ fi
 
 [ -d node_modules ] || npm ci --no-audit --no-fund
 
+echo "== lint (Prettier, ESLint)"
+npm run --silent lint
 echo "== type check (svelte-check)"
 npm run --silent check
 echo "== unit tests (vitest)"
