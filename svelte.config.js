@@ -19,7 +19,7 @@ const config = {
 				'img-src': ['self', 'data:', 'blob:'],
 				'font-src': ['self', 'data:'],
 				// The bench bridge listens on loopback (ws://127.0.0.1:8787 by default).
-				'connect-src': ['self', 'ws://127.0.0.1:*', 'ws://localhost:*', 'ws://[::1]:*'],
+				'connect-src': ['self', 'ws://127.0.0.1:*', 'ws://localhost:*'],
 				// The analysis worker; blob: for workers built from inline code.
 				'worker-src': ['self', 'blob:'],
 				'object-src': ['none'],

@@ -14,8 +14,8 @@ export const soakLimitsSchema = z.object({
 });
 export type SoakLimits = z.infer<typeof soakLimitsSchema>;
 
-/** Host names that mean this machine, as URL.hostname writes them. */
-const LOOPBACK_HOSTS = ['127.0.0.1', 'localhost', '[::1]'];
+/** Host names that mean this machine and that a CSP source can name (CSP has no IPv6 literals). */
+const LOOPBACK_HOSTS = ['127.0.0.1', 'localhost'];
 
 export const shopSettingsSchema = z.object({
 	shopName: z.string().trim().min(1, 'Enter the shop name').max(120),
