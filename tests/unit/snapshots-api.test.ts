@@ -13,10 +13,9 @@ import { encodeWav } from '$lib/dsp';
 import * as listRoute from '../../src/routes/api/jobs/[id]/snapshots/+server';
 import * as oneRoute from '../../src/routes/api/snapshots/[id]/+server';
 import * as audioRoute from '../../src/routes/api/snapshots/[id]/audio/+server';
+import { callRoute, type RouteCall, type RouteUser } from './route-call';
 
-const ORIGIN = 'http://bench.test';
-type User = { id: string; email: string; name: string; role: 'technician' | 'supervisor' | 'admin' };
-const tech: User = { id: 'u-snap', email: 'snap@example.com', name: 'Sam Snap', role: 'technician' };
+const tech: RouteUser = { id: 'u-snap', email: 'snap@example.com', name: 'Sam Snap', role: 'technician' };
 let jobId = 0;
 
 beforeAll(() => {
@@ -37,48 +36,11 @@ function sine(n: number, amp = 0.4, f = 1000, rate = 48000): Float32Array {
 	return out;
 }
 
-async function call(
+/** A route call as the demo technician unless the case says otherwise. */
+const call = (
 	handler: (event: never) => Response | Promise<Response>,
-	opts: {
-		method?: string;
-		path: string;
-		params: Record<string, string>;
-		body?: BodyInit;
-		contentType?: string;
-		user?: User | null;
-		origin?: string | null;
-	}
-): Promise<{ status: number; body: Record<string, unknown>; res?: Response }> {
-	const url = new URL(opts.path, ORIGIN);
-	const headers = new Headers();
-	if (opts.contentType) headers.set('content-type', opts.contentType);
-	if (opts.method && opts.method !== 'GET' && opts.origin !== null)
-		headers.set('origin', opts.origin ?? ORIGIN);
-	let request = new Request(url, { method: opts.method ?? 'GET', headers, body: opts.body });
-	if (opts.body instanceof FormData) {
-		// Let Request pick the multipart boundary, then keep its content type.
-		request = new Request(url, {
-			method: 'POST',
-			body: opts.body,
-			headers: opts.origin === null ? {} : { origin: opts.origin ?? ORIGIN }
-		});
-	}
-	const event = {
-		request,
-		url,
-		params: opts.params,
-		locals: { user: opts.user === undefined ? tech : opts.user, session: null }
-	};
-	try {
-		const res = await handler(event as never);
-		const isJson = (res.headers.get('content-type') ?? '').includes('json');
-		return { status: res.status, body: isJson ? ((await res.json()) as Record<string, unknown>) : {}, res };
-	} catch (e) {
-		const err = e as { status?: number; body?: Record<string, unknown> };
-		if (typeof err.status === 'number' && err.body) return { status: err.status, body: err.body };
-		throw e;
-	}
-}
+	opts: Omit<RouteCall, 'user'> & { user?: RouteUser | null }
+) => callRoute(handler, { ...opts, user: opts.user === undefined ? tech : opts.user });
 
 function form(wav: BlobPart | null, meta: string | null): FormData {
 	const f = new FormData();

@@ -12,10 +12,9 @@ import * as runRoute from '../../src/routes/api/soak-runs/[id]/+server';
 import * as readingsRoute from '../../src/routes/api/soak-runs/[id]/readings/+server';
 import * as finishRoute from '../../src/routes/api/soak-runs/[id]/finish/+server';
 import * as abortRoute from '../../src/routes/api/soak-runs/[id]/abort/+server';
+import { callRoute, type RouteCall, type RouteUser } from './route-call';
 
-const ORIGIN = 'http://bench.test';
-type User = { id: string; email: string; name: string; role: 'technician' | 'supervisor' | 'admin' };
-const tech: User = { id: 'u-tech', email: 'tech@example.com', name: 'Tia Tech', role: 'technician' };
+const tech: RouteUser = { id: 'u-tech', email: 'tech@example.com', name: 'Tia Tech', role: 'technician' };
 
 let ratedJob = 0;
 let unratedJob = 0;
@@ -40,42 +39,14 @@ beforeAll(() => {
 	unratedJob = db.insert(table.jobs).values(base).returning().get().id;
 });
 
-/** Call a route handler the way SvelteKit would, answering thrown HttpErrors like the server does. */
-async function call(
+/** A route call with a JSON body, as the demo technician unless the case says otherwise. */
+const call = (
 	handler: (event: never) => Response | Promise<Response>,
-	opts: {
-		method?: string;
-		path: string;
-		params: Record<string, string>;
-		body?: unknown;
-		user?: User | null;
-		origin?: string;
-	}
-): Promise<{ status: number; body: Record<string, unknown> }> {
-	const url = new URL(opts.path, ORIGIN);
-	const headers: Record<string, string> = {};
-	if (opts.body !== undefined) headers['content-type'] = 'application/json';
-	if (opts.method && opts.method !== 'GET') headers.origin = opts.origin ?? ORIGIN;
-	const request = new Request(url, {
-		method: opts.method ?? 'GET',
-		headers,
-		body: opts.body === undefined ? undefined : JSON.stringify(opts.body)
-	});
-	const event = {
-		request,
-		url,
-		params: opts.params,
-		locals: { user: opts.user === undefined ? tech : opts.user, session: null }
-	};
-	try {
-		const res = await handler(event as never);
-		return { status: res.status, body: (await res.json()) as Record<string, unknown> };
-	} catch (e) {
-		const err = e as { status?: number; body?: Record<string, unknown> };
-		if (typeof err.status === 'number' && err.body) return { status: err.status, body: err.body };
-		throw e;
-	}
-}
+	opts: Omit<RouteCall, 'user' | 'json' | 'body'> & { user?: RouteUser | null; body?: unknown }
+) => {
+	const { body, user, ...rest } = opts;
+	return callRoute(handler, { ...rest, json: body, user: user === undefined ? tech : user });
+};
 
 const T0 = Date.now();
 const r = (probe: string, seq: number, celsius: unknown) => ({ probe, seq, t: T0 + seq, celsius });

@@ -37,46 +37,22 @@ const file = join(dir, 'two-tone-24bit.wav');
 beforeAll(() => {
 	const a = join(dir, 'a.wav');
 	const b = join(dir, 'b.wav');
-	sox([
-		'-n',
-		'-r',
-		'44100',
-		'-e',
-		'floating-point',
-		'-b',
-		'32',
-		'-c',
-		'2',
-		a,
-		'synth',
-		'3',
-		'sine',
-		'1234.5',
-		'sine',
-		'440',
-		'vol',
-		'0.25'
-	]);
-	sox([
-		'-n',
-		'-r',
-		'44100',
-		'-e',
-		'floating-point',
-		'-b',
-		'32',
-		'-c',
-		'2',
-		b,
-		'synth',
-		'3',
-		'sine',
-		'2469',
-		'sine',
-		'1320',
-		'vol',
-		'0.0025'
-	]);
+	// Two 3 s, 44.1 kHz float stereo tones (left, right) at a given peak level.
+	const synth = (out: string, leftHz: string, rightHz: string, peak: string) =>
+		sox([
+			...'-n -r 44100 -e floating-point -b 32 -c 2'.split(' '),
+			out,
+			'synth',
+			'3',
+			'sine',
+			leftHz,
+			'sine',
+			rightHz,
+			'vol',
+			peak
+		]);
+	synth(a, '1234.5', '440', '0.25');
+	synth(b, '2469', '1320', '0.0025');
 	sox(['-D', '-m', '-v', '1', a, '-v', '1', b, '-b', '24', '-e', 'signed-integer', file]);
 });
 
