@@ -1,10 +1,25 @@
 // End-to-end tests in Debian's Chromium against the built app, a freshly seeded database
 // and the bridge simulator (thermal time ×60 so a 60-minute soak lasts a minute).
 import { defineConfig } from '@playwright/test';
+import { spawnSync } from 'node:child_process';
 import { CHROMIUM_ARGS, CHROMIUM_EXECUTABLE } from './tests/chromium';
 
-const APP_PORT = 4173;
-const BRIDGE_PORT = 8787;
+/**
+ * Free loopback ports, picked once by the runner and handed to its worker processes through the
+ * environment (each worker evaluates this file again and must see the same ports). Picking them
+ * means `npm test` runs beside `npm start` or a second checkout without a clash.
+ */
+function freePorts(count: number): number[] {
+	const script = `const net=require('net');const s=[];let n=${count};
+for(let i=0;i<${count};i++){const v=net.createServer();s.push(v);v.listen(0,'127.0.0.1',()=>{if(--n===0){console.log(s.map(x=>x.address().port).join(','));s.forEach(x=>x.close());}});}`;
+	const r = spawnSync(process.execPath, ['-e', script], { encoding: 'utf8' });
+	const ports = r.stdout.trim().split(',').map(Number);
+	if (r.status !== 0 || ports.length !== count || !ports.every((p) => p > 0))
+		throw new Error(`could not pick free ports for the e2e servers: ${r.stderr}`);
+	return ports;
+}
+if (!process.env.E2E_PORTS) process.env.E2E_PORTS = freePorts(4).join(',');
+const [APP_PORT, BRIDGE_PORT, SMTP_PORT, SOAK_BRIDGE_PORT] = process.env.E2E_PORTS.split(',').map(Number);
 const appOrigin = `http://127.0.0.1:${APP_PORT}`;
 
 // Shared by the servers below and by specs that mint tokens or start their own bridge.
@@ -16,7 +31,9 @@ const e2eEnv = {
 	ORIGIN: appOrigin,
 	HOST: '127.0.0.1',
 	PORT: String(APP_PORT),
-	SMTP_PORT: '2626',
+	SMTP_PORT: String(SMTP_PORT),
+	/** A second bridge the soak spec starts and restarts itself. */
+	E2E_SOAK_BRIDGE_PORT: String(SOAK_BRIDGE_PORT),
 	BODY_SIZE_LIMIT: '34M'
 };
 Object.assign(process.env, e2eEnv);

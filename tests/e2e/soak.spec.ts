@@ -1,5 +1,5 @@
 // Heat soak end to end in Chromium against the simulator at time scale 60 (a 60-minute preset
-// lasts a minute). This spec runs its OWN bridge on 8790 so it can restart it mid-run; the page
+// lasts a minute). This spec runs its OWN bridge (on E2E_SOAK_BRIDGE_PORT) so it can restart it mid-run; the page
 // is pointed at it with the `benchlight-bridge-url` override. It proves the no-loss claims:
 // a reload mid-run loses nothing (stored count = what the bridge logged), a bridge restart is a
 // marked gap, and a breach sounds the alarm, turns the generator off and aborts the run.
@@ -10,8 +10,8 @@ import WebSocket from 'ws';
 import { mintBridgeToken } from '../../src/lib/bridge/token';
 import { signIn as signInAs } from './helpers';
 
-const APP_ORIGIN = 'http://127.0.0.1:4173';
-const BRIDGE_PORT = 8790;
+const APP_ORIGIN = process.env.ORIGIN as string;
+const BRIDGE_PORT = Number(process.env.E2E_SOAK_BRIDGE_PORT);
 const BRIDGE_URL = `ws://127.0.0.1:${BRIDGE_PORT}`;
 
 // ── our own bridge ──────────────────────────────────────────────────────────
@@ -39,6 +39,9 @@ async function waitForPort(port: number, open: boolean, timeoutMs = 30_000): Pro
 }
 
 async function startBridge(): Promise<void> {
+	// Something else on the port would answer in the bridge's place: refuse rather than talk to it.
+	if (await portOpen(BRIDGE_PORT))
+		throw new Error(`port ${BRIDGE_PORT} is already taken; the soak spec needs it for its own bridge`);
 	// Its own process group, so stopping it stops tsx and node beneath it.
 	bridge = spawn(
 		'npx',
@@ -49,7 +52,10 @@ async function startBridge(): Promise<void> {
 			stdio: 'ignore'
 		}
 	);
+	let exited: string | null = null;
+	bridge.once('exit', (code, signal) => (exited = `exit ${signal ?? code}`));
 	await waitForPort(BRIDGE_PORT, true);
+	if (exited) throw new Error(`the soak spec's bridge stopped at start (${exited})`);
 }
 
 async function stopBridge(): Promise<void> {
