@@ -7,7 +7,7 @@ import * as table from '../src/lib/server/db/schema';
 import type { JobStatus, PartState, Role, UnitCategory } from '../src/lib/server/db/schema';
 import { hashPassword } from '../src/lib/server/auth';
 import { defaultSettings, updateSettings } from '../src/lib/server/settings';
-import { seedLimitProfiles } from '../src/lib/server/limits';
+import { seedLimitProfiles } from '../src/lib/server/limit-profiles';
 import { env } from '../src/lib/server/env';
 import { UNIT_CATEGORIES } from '../src/lib/schemas/enums';
 

@@ -15,7 +15,13 @@ interface CookieCall {
 	opts: Record<string, unknown>;
 }
 
-function makeEvent(path: string, cookie?: string, headers: Record<string, string> = {}) {
+function makeEvent(
+	path: string,
+	cookie?: string,
+	headers: Record<string, string> = {},
+	routeId: string | null = null,
+	method = 'GET'
+) {
 	const calls: CookieCall[] = [];
 	const url = new URL(path, 'http://127.0.0.1:5173');
 	const cookies = {
@@ -26,10 +32,10 @@ function makeEvent(path: string, cookie?: string, headers: Record<string, string
 	} as unknown as Cookies;
 	const event = {
 		url,
-		request: new Request(url, { headers }),
+		request: new Request(url, { headers, method }),
 		cookies,
 		locals: {} as App.Locals,
-		route: { id: null },
+		route: { id: routeId },
 		params: {}
 	} as unknown as RequestEvent;
 	return { event, calls };
@@ -133,5 +139,54 @@ describe('hooks: headers and API errors', () => {
 		const { res } = await run(event, frozen);
 		expect(res.status).toBe(303);
 		expect(res.headers.get('x-content-type-options')).toBe('nosniff');
+	});
+});
+
+describe('hooks: private by default', () => {
+	const resolved = () => new Response('resolved');
+
+	it('sends a signed-out visitor of a private page to sign in, keeping where they were going', async () => {
+		const { event } = makeEvent('/jobs/3/bench?x=1', undefined, {}, '/jobs/[id]/bench');
+		const { res } = await run(event, resolved);
+		expect(res.status).toBe(303);
+		expect(res.headers.get('location')).toBe(`/login?next=${encodeURIComponent('/jobs/3/bench?x=1')}`);
+		expect(res.headers.get('x-frame-options')).toBe('DENY');
+	});
+
+	it('answers a signed-out API call with a 401 in JSON before the route runs', async () => {
+		const { event } = makeEvent('/api/jobs', undefined, {}, '/api/jobs');
+		let ran = false;
+		const { res } = await run(event, () => {
+			ran = true;
+			return resolved();
+		});
+		expect(ran).toBe(false);
+		expect(res.status).toBe(401);
+		expect(await res.json()).toEqual({ message: 'Sign in first' });
+	});
+
+	it('lets anyone reach the public pages, and a signed-in user reach the rest', async () => {
+		for (const id of ['/login', '/safety', '/']) {
+			const { event } = makeEvent(id, undefined, {}, id);
+			expect((await run(event, resolved)).res.status, id).toBe(200);
+		}
+		const { event } = makeEvent('/jobs', token, {}, '/jobs');
+		expect((await run(event, resolved)).res.status).toBe(200);
+	});
+});
+
+describe('hooks: 405 names the allowed methods', () => {
+	it('rewrites SvelteKit’s 405 as JSON that lists the Allow header', async () => {
+		const { event } = makeEvent('/api/jobs', token, {}, '/api/jobs', 'DELETE');
+		const { res } = await run(
+			event,
+			new Response('DELETE method not allowed', { status: 405, headers: { allow: 'GET, POST' } })
+		);
+		expect(res.status).toBe(405);
+		expect(res.headers.get('allow')).toBe('GET, POST');
+		expect(await res.json()).toEqual({
+			message: 'DELETE is not allowed on /api/jobs; allowed: GET, POST',
+			allowed: ['GET', 'POST']
+		});
 	});
 });

@@ -1,5 +1,6 @@
-// Every request: find the signed-in user from the session cookie (sliding its expiry),
-// add security headers, and make sure /api/ answers errors as JSON, never HTML pages.
+// Every request: find the signed-in user from the session cookie (sliding its expiry), refuse
+// any route that is not public to a signed-out visitor (each route still guards itself), add
+// security headers, and make sure /api/ answers errors as JSON, never HTML pages.
 import { json, type Handle, type HandleServerError, type RequestEvent } from '@sveltejs/kit';
 import { db } from '$lib/server/db';
 import {
@@ -41,10 +42,45 @@ async function authenticate(event: RequestEvent): Promise<void> {
 
 const isApi = (url: URL) => url.pathname === '/api' || url.pathname.startsWith('/api/');
 
+/**
+ * Routes (by SvelteKit route id) a signed-out visitor may reach. Everything else needs a session
+ * before its own guard even runs, so a new page is private unless it is added here.
+ */
+export const PUBLIC_ROUTES: ReadonlySet<string> = new Set(['/', '/login', '/logout', '/safety']);
+
+/** The signed-out refusal for a private route: 401 JSON for the API, the sign-in page otherwise. */
+function refuseSignedOut(event: RequestEvent): Response {
+	if (isApi(event.url)) return json({ message: 'Sign in first' }, { status: 401 });
+	const next = event.url.pathname + event.url.search;
+	return new Response(null, {
+		status: 303,
+		headers: { location: `/login?next=${encodeURIComponent(next)}` }
+	});
+}
+
+/** SvelteKit answers an unexported method with 405 and an Allow header; say it in words too. */
+function methodNotAllowed(event: RequestEvent, response: Response): Response {
+	const allow = response.headers.get('allow') ?? '';
+	const methods = allow
+		.split(',')
+		.map((m) => m.trim())
+		.filter(Boolean);
+	return json(
+		{
+			message: `${event.request.method} is not allowed on ${event.url.pathname}; allowed: ${methods.join(', ') || 'none'}`,
+			allowed: methods
+		},
+		{ status: 405, headers: allow ? { allow } : {} }
+	);
+}
+
 // One handle rather than `sequence(...)`: the same code runs in unit tests without
 // SvelteKit's request store.
 export const handle: Handle = async ({ event, resolve }) => {
 	await authenticate(event);
+
+	const routeId = event.route?.id ?? null;
+	const refused = !event.locals.user && routeId !== null && !PUBLIC_ROUTES.has(routeId);
 
 	if (isApi(event.url)) {
 		// SvelteKit renders an error as JSON only when the client prefers JSON; API callers
@@ -56,11 +92,12 @@ export const handle: Handle = async ({ event, resolve }) => {
 		}
 	}
 
-	let response = await resolve(event);
+	let response = refused ? refuseSignedOut(event) : await resolve(event);
 
 	if (isApi(event.url)) {
 		const type = response.headers.get('content-type') ?? '';
-		if (response.status >= 400 && !type.includes('application/json')) {
+		if (response.status === 405) response = methodNotAllowed(event, response);
+		else if (response.status >= 400 && !type.includes('application/json')) {
 			response = json({ message: response.statusText || 'Request failed' }, { status: response.status });
 		}
 		// Answers depend on who is signed in: no shared caches.

@@ -11,7 +11,7 @@ import * as table from '../../src/lib/server/db/schema';
 
 type SoakModule = typeof import('../../src/lib/server/soak');
 type VerdictModule = typeof import('../../src/lib/soak/verdict');
-type LimitsModule = typeof import('../../src/lib/soak/limits');
+type LimitsModule = typeof import('../../src/lib/soak/soak-limits');
 
 const PROBES = ['heatsink-left', 'heatsink-right', 'transformer', 'ambient'];
 const SECONDS = 3600;
@@ -54,7 +54,7 @@ export async function run(): Promise<void> {
 	try {
 		const soak = (await server.ssrLoadModule('/src/lib/server/soak.ts')) as SoakModule;
 		const verdict = (await server.ssrLoadModule('/src/lib/soak/verdict.ts')) as VerdictModule;
-		const limits = (await server.ssrLoadModule('/src/lib/soak/limits.ts')) as LimitsModule;
+		const limits = (await server.ssrLoadModule('/src/lib/soak/soak-limits.ts')) as LimitsModule;
 
 		const db: Db = openDb(join(dir, 'bench.db'));
 		db.insert(table.users)

@@ -11,10 +11,11 @@ import { db } from '$lib/server/db';
 import { createSession, type SessionInfo, type SessionUser } from '$lib/server/auth';
 import { seedDemo, DEMO_PASSWORD } from '../../scripts/seed';
 import { createRun } from '$lib/server/soak';
-import { createLimitProfile } from '$lib/server/limits';
-import type { ProfileInputRaw } from '$lib/limits';
+import { createLimitProfile } from '$lib/server/limit-profiles';
+import type { ProfileInputRaw } from '$lib/limit-profiles';
 import { createSnapshot } from '$lib/server/snapshots';
 import { encodeWav } from '$lib/dsp';
+import { isWrapped } from '$lib/server/handlers';
 
 /** A running one-hour soak on the fixture job (inside the case's savepoint), as a route param. */
 function soakRun(fx: Fixtures, startedAtMs = Date.now()): string {
@@ -358,12 +359,12 @@ const MATRIX: Row[] = [
 
 const ROUTES_DIR = resolve(process.cwd(), 'src/routes');
 
-function findServerFiles(dir: string): string[] {
+function findServerFiles(dir: string, names = ['+server.ts', '+server.js']): string[] {
 	const out: string[] = [];
 	for (const name of readdirSync(dir)) {
 		const path = join(dir, name);
-		if (statSync(path).isDirectory()) out.push(...findServerFiles(path));
-		else if (name === '+server.ts' || name === '+server.js') out.push(path);
+		if (statSync(path).isDirectory()) out.push(...findServerFiles(path, names));
+		else if (names.includes(name)) out.push(path);
 	}
 	return out;
 }
@@ -382,6 +383,15 @@ interface RouteModule {
 }
 
 const discovered: RouteModule[] = [];
+
+/** Loads and actions that call no service (they redirect, sign in or out): nothing to map. */
+const LOADS_WITHOUT_SERVICES = [
+	'+layout.server.ts',
+	'+page.server.ts',
+	'login/+page.server.ts',
+	'logout/+page.server.ts'
+];
+const ACTIONS_WITHOUT_SERVICES = ['login/+page.server.ts:default', 'logout/+page.server.ts:default'];
 
 // ── calling a handler like SvelteKit does ──────────────────────────────────
 
@@ -543,6 +553,26 @@ describe('authorization matrix', () => {
 		const stale = inTable.filter((k) => !onDisk.includes(k));
 		const duplicated = inTable.filter((k, i) => inTable.indexOf(k) !== i);
 		expect({ missing, stale, duplicated }).toEqual({ missing: [], stale: [], duplicated: [] });
+	});
+
+	it('wraps every API handler, page load and form action, so a service refusal is never a 500', async () => {
+		const bare: string[] = [];
+		for (const d of discovered)
+			for (const [m, h] of Object.entries(d.handlers)) if (!isWrapped(h)) bare.push(`${m} ${d.routeId}`);
+		for (const file of findServerFiles(ROUTES_DIR, ['+page.server.ts', '+layout.server.ts'])) {
+			const mod = (await import(/* @vite-ignore */ pathToFileURL(file).href)) as {
+				load?: unknown;
+				actions?: Record<string, unknown>;
+			};
+			const where = relative(ROUTES_DIR, file);
+			// A load that only redirects or hands over locals calls no service: it may stay bare.
+			if (mod.load && !isWrapped(mod.load) && !LOADS_WITHOUT_SERVICES.includes(where))
+				bare.push(`load ${where}`);
+			for (const [name, action] of Object.entries(mod.actions ?? {}))
+				if (!isWrapped(action) && !ACTIONS_WITHOUT_SERVICES.includes(`${where}:${name}`))
+					bare.push(`action ${name} ${where}`);
+		}
+		expect(bare).toEqual([]);
 	});
 
 	for (const row of MATRIX) {

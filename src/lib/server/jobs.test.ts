@@ -2,7 +2,7 @@
 // customer reuse, list search/filter/sort/pages, detail with totals, status transitions
 // (roles, history in the same transaction), work log and parts, and validation errors.
 import { beforeEach, describe, expect, it } from 'vitest';
-import { isHttpError } from '@sveltejs/kit';
+import { isDomainError } from './errors';
 import { eq } from 'drizzle-orm';
 import { openDb, type Db } from './db/open';
 import * as table from './db/schema';
@@ -27,13 +27,13 @@ import {
 } from '../schemas/jobs';
 import { JOB_STATUSES, type Role } from '../schemas/enums';
 
-/** The HTTP status a service call fails with (SvelteKit HttpError), or 'ok'. */
+/** The HTTP status a service call fails with (its DomainError), or 'ok'. */
 function statusOf(fn: () => unknown): number | 'ok' {
 	try {
 		fn();
 		return 'ok';
 	} catch (e) {
-		if (isHttpError(e)) return e.status;
+		if (isDomainError(e)) return e.status;
 		throw e;
 	}
 }
@@ -42,8 +42,7 @@ function issuesOf(fn: () => unknown): { path: string; message: string }[] {
 	try {
 		fn();
 	} catch (e) {
-		if (isHttpError(e) && e.status === 400)
-			return (e.body.issues ?? []) as { path: string; message: string }[];
+		if (isDomainError(e) && e.status === 400) return e.issues ?? [];
 		throw e;
 	}
 	throw new Error('expected a 400');

@@ -1,7 +1,6 @@
 // The job queue: list with search/filter/sort/pages, job detail, intake, edits, status
 // changes (with history in the same transaction), work log and parts. Results are plain
 // JSON-safe objects (dates as ISO strings), identical for page loads and the JSON API.
-import { error } from '@sveltejs/kit';
 import { aliasedTable, and, asc, count, desc, eq, inArray, isNull, or, sql, type SQL } from 'drizzle-orm';
 import type { BaseSQLiteDatabase } from 'drizzle-orm/sqlite-core';
 import type { RunResult } from 'better-sqlite3';
@@ -9,6 +8,7 @@ import type { Db } from './db/open';
 import * as table from './db/schema';
 import type { JobStatus, PartState, Role, UnitCategory } from './db/schema';
 import { badRequest } from './api';
+import { DomainError } from './errors';
 import { validate } from './validate';
 import {
 	JOB_STATUSES,
@@ -137,7 +137,7 @@ function escapeLike(s: string): string {
 
 function requireJob(db: Conn, id: number): table.Job {
 	const job = db.select().from(table.jobs).where(eq(table.jobs.id, id)).get();
-	if (!job) error(404, 'No such job');
+	if (!job) throw new DomainError('not-found', 'No such job');
 	return job;
 }
 
@@ -536,10 +536,11 @@ export function changeStatus(db: Db, id: number, input: StatusChange, actor: Act
 	const data = validate(statusChangeSchema, input);
 	db.transaction((tx) => {
 		const job = tx.select({ status: table.jobs.status }).from(table.jobs).where(eq(table.jobs.id, id)).get();
-		if (!job) error(404, 'No such job');
-		if (!roleMayEnter(data.status, actor.role)) error(403, 'Only a supervisor or admin may approve a job');
+		if (!job) throw new DomainError('not-found', 'No such job');
+		if (!roleMayEnter(data.status, actor.role))
+			throw new DomainError('forbidden', 'Only a supervisor or admin may approve a job');
 		if (!nextStatuses(job.status).includes(data.status)) {
-			error(409, `A job cannot move from ${job.status} to ${data.status}`);
+			throw new DomainError('conflict', `A job cannot move from ${job.status} to ${data.status}`);
 		}
 		const now = new Date();
 		tx.update(table.jobs).set({ status: data.status, updatedAt: now }).where(eq(table.jobs.id, id)).run();
@@ -563,7 +564,7 @@ export function addLogEntry(db: Db, jobId: number, input: LogEntryInput, authorI
 	const data = validate(logEntrySchema, input);
 	return db.transaction((tx) => {
 		if (!tx.select({ id: table.jobs.id }).from(table.jobs).where(eq(table.jobs.id, jobId)).get()) {
-			error(404, 'No such job');
+			throw new DomainError('not-found', 'No such job');
 		}
 		const now = new Date();
 		const entry = tx
@@ -624,7 +625,7 @@ function requirePart(db: Conn, jobId: number, partId: number): table.Part {
 		.from(table.parts)
 		.where(and(eq(table.parts.id, partId), eq(table.parts.jobId, jobId)))
 		.get();
-	if (!part) error(404, 'No such part on this job');
+	if (!part) throw new DomainError('not-found', 'No such part on this job');
 	return part;
 }
 

@@ -1,6 +1,6 @@
 // Shop settings: defaults, partial updates, validation, and tolerance of a bad stored row.
 import { beforeEach, describe, expect, it } from 'vitest';
-import { isHttpError } from '@sveltejs/kit';
+import { isDomainError } from './errors';
 import { openDb, type Db } from './db/open';
 import * as table from './db/schema';
 import { defaultSettings, getSetting, getSettings, updateSettings } from './settings';
@@ -16,7 +16,7 @@ function statusOf(fn: () => unknown): number | 'ok' {
 		fn();
 		return 'ok';
 	} catch (e) {
-		if (isHttpError(e)) return e.status;
+		if (isDomainError(e)) return e.status;
 		throw e;
 	}
 }

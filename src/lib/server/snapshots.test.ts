@@ -9,10 +9,10 @@ import {
 	getSnapshot,
 	getSnapshotAudio,
 	listSnapshots,
-	SnapshotError,
 	STEADINESS_MAX_SECONDS
 } from './snapshots';
-import { createLimitProfile, listLimitProfiles, seedLimitProfiles } from './limits';
+import { createLimitProfile, listLimitProfiles, seedLimitProfiles } from './limit-profiles';
+import { DomainError } from './errors';
 
 /** A 24-bit integer PCM WAV, little-endian, written by hand (independent of src/lib/dsp/wav.ts). */
 function wav24(channels: Float64Array[], rate: number): Uint8Array {
@@ -422,7 +422,7 @@ describe('createSnapshot', () => {
 			[
 				'unknown profile',
 				() => createSnapshot(db, { jobId, userId: 'u1', wav: good, meta: { ...meta, profileId: 999 } }),
-				'profile',
+				'meta.profileId',
 				/no limit profile with id 999/
 			]
 		];
@@ -433,9 +433,10 @@ describe('createSnapshot', () => {
 			} catch (e) {
 				err = e;
 			}
-			expect(err, name).toBeInstanceOf(SnapshotError);
-			expect((err as SnapshotError).field, name).toBe(field);
-			expect((err as SnapshotError).message, name).toMatch(msg);
+			expect(err, name).toBeInstanceOf(DomainError);
+			expect((err as DomainError).status, name).toBe(400);
+			expect((err as DomainError).issues?.[0].path, name).toMatch(new RegExp(`^${field}`));
+			expect((err as DomainError).message, name).toMatch(msg);
 		}
 		expect(count('snapshots')).toBe(0);
 		expect(count('snapshot_audio')).toBe(0);

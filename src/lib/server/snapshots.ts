@@ -27,15 +27,16 @@ import {
 	type LimitProfileView,
 	type Verdict,
 	type Weighting
-} from '$lib/limits';
+} from '$lib/limit-profiles';
 import { CAPTURE_SECONDS } from '$lib/workers/analysis-messages';
 import type { AnalysisConditions } from '$lib/dsp/types';
 import type { SnapshotListItem } from '$lib/snapshots/types';
-import { formatIssues } from './api';
+import { DomainError, type Issue } from './errors';
+import { formatIssues } from './validate';
 import type { Db } from './db/open';
 import * as table from './db/schema';
 import { SNAPSHOT_STAGES } from './db/schema';
-import { getLimitProfile } from './limits';
+import { getLimitProfile } from './limit-profiles';
 
 export const SNAPSHOT_MAX_WAV_BYTES = 32 * 1024 * 1024;
 /** Shortest capture the server analyses: one 4k FFT frame (the smallest size the bench offers). */
@@ -90,18 +91,9 @@ export const snapshotMetaSchema = z.strictObject({
 });
 export type SnapshotMeta = z.input<typeof snapshotMetaSchema>;
 
-export type SnapshotErrorField = 'samples' | 'meta' | 'profile';
-
-/** A bad upload: the route answers 400 naming `field`. Nothing has been stored when it is thrown. */
-export class SnapshotError extends Error {
-	constructor(
-		readonly field: SnapshotErrorField,
-		message: string,
-		readonly issues?: { path: string; message: string }[]
-	) {
-		super(message);
-		this.name = 'SnapshotError';
-	}
+/** A bad upload, named by where it is wrong (`samples`, `meta`, `meta.profileId` …): answered as a 400. */
+function invalid(path: string, message: string, issues?: Issue[]): DomainError {
+	return new DomainError('invalid', message, issues ?? [{ path, message }]);
 }
 
 export interface SteadinessResult {
@@ -150,19 +142,19 @@ export interface CreatedSnapshot {
 	checks: Check[];
 }
 
-/** Parse the `meta` part: JSON text → validated meta, or a SnapshotError('meta'). */
+/** Parse the `meta` part: JSON text → validated meta, or a 400 naming the problem. */
 export function parseSnapshotMeta(raw: unknown): z.output<typeof snapshotMetaSchema> {
 	let value = raw;
 	if (typeof raw === 'string') {
 		try {
 			value = JSON.parse(raw);
 		} catch {
-			throw new SnapshotError('meta', 'meta is not valid JSON');
+			throw invalid('meta', 'meta is not valid JSON');
 		}
 	}
 	const parsed = snapshotMetaSchema.safeParse(value);
 	if (!parsed.success)
-		throw new SnapshotError(
+		throw invalid(
 			'meta',
 			'meta is invalid',
 			formatIssues(parsed.error).map((i) => ({ ...i, path: i.path ? `meta.${i.path}` : 'meta' }))
@@ -244,37 +236,34 @@ export interface CreateSnapshotInput {
 }
 
 /**
- * Analyse, judge and store a snapshot. Throws SnapshotError for bad input (nothing stored) and
+ * Analyse, judge and store a snapshot. Throws DomainError('invalid') for bad input (nothing stored) and
  * returns what the API answers with.
  */
 export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnapshot {
 	const meta = parseSnapshotMeta(input.meta);
 
 	if (input.wav.byteLength > SNAPSHOT_MAX_WAV_BYTES)
-		throw new SnapshotError(
-			'samples',
-			`samples: the WAV file is larger than ${SNAPSHOT_MAX_WAV_BYTES} bytes`
-		);
+		throw invalid('samples', `samples: the WAV file is larger than ${SNAPSHOT_MAX_WAV_BYTES} bytes`);
 	let decoded;
 	try {
 		decoded = decodeWav(input.wav);
 	} catch (e) {
-		if (e instanceof WavError) throw new SnapshotError('samples', `samples: ${e.message}`);
-		throw new SnapshotError('samples', 'samples: unreadable WAV file');
+		if (e instanceof WavError) throw invalid('samples', `samples: ${e.message}`);
+		throw invalid('samples', 'samples: unreadable WAV file');
 	}
 	const { sampleRateHz, channels } = decoded;
 	const length = channels[0].length;
 	if (length < SNAPSHOT_MIN_SAMPLES)
-		throw new SnapshotError(
+		throw invalid(
 			'samples',
 			`samples: the WAV file holds ${length} samples per channel; at least ${SNAPSHOT_MIN_SAMPLES} are needed`
 		);
 	if (channels.length > 2)
-		throw new SnapshotError('samples', `samples: ${channels.length} channels; the bench captures one or two`);
+		throw invalid('samples', `samples: ${channels.length} channels; the bench captures one or two`);
 	for (const c of channels) {
 		for (let i = 0; i < c.length; i++) {
 			if (!Number.isFinite(c[i]))
-				throw new SnapshotError('samples', 'samples: the WAV file contains NaN or infinite samples');
+				throw invalid('samples', 'samples: the WAV file contains NaN or infinite samples');
 		}
 	}
 
@@ -282,9 +271,9 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 	if (meta.profileId != null) {
 		profile = getLimitProfile(db, meta.profileId);
 		if (!profile)
-			throw new SnapshotError('profile', `meta.profileId: no limit profile with id ${meta.profileId}`);
+			throw invalid('meta.profileId', `meta.profileId: no limit profile with id ${meta.profileId}`);
 		if (profile.archived)
-			throw new SnapshotError('profile', `meta.profileId: the limit profile “${profile.name}” is archived`);
+			throw invalid('meta.profileId', `meta.profileId: the limit profile “${profile.name}” is archived`);
 	}
 
 	const fsv = channels.map((_, i) =>
@@ -334,10 +323,7 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 	const window = a.window && isWindowName(a.window) ? a.window : undefined;
 	const nyquist = sampleRateHz / 2;
 	if (bandHz[0] >= nyquist)
-		throw new SnapshotError(
-			'meta',
-			`meta: the band starts at ${bandHz[0]} Hz, above Nyquist (${nyquist} Hz)`
-		);
+		throw invalid('meta', `meta: the band starts at ${bandHz[0]} Hz, above Nyquist (${nyquist} Hz)`);
 	const options: AnalysisOptions = {
 		fftSize,
 		window,
@@ -363,7 +349,7 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 		steadinessResults = channels.map((c, i) => steadinessOf(c, i, sampleRateHz, fsv[i], fftSize, options));
 		spectrum = spectrumOf(channels, sampleRateHz, fsv, fftSize, options);
 	} catch (e) {
-		if (e instanceof RangeError) throw new SnapshotError('meta', `meta.analysis: ${e.message}`);
+		if (e instanceof RangeError) throw invalid('meta', `meta.analysis: ${e.message}`);
 		throw e;
 	}
 

@@ -1,7 +1,6 @@
 // Heat-soak runs in the database: create a run from a preset and the job's rating, store
 // readings idempotently (run + probe + seq), record events, and end the run with a verdict the
 // server computes from what it stored. Every write is one transaction.
-import { error } from '@sveltejs/kit';
 import { and, asc, desc, eq, gt, sql } from 'drizzle-orm';
 import { z } from 'zod';
 import type { Db } from './db/open';
@@ -16,7 +15,8 @@ import {
 	type SoakChannel,
 	type SoakPresetId
 } from '$lib/soak/presets';
-import { runLimits, soakLimitsPatchSchema, soakLimitsSchema, type SoakLimits } from '$lib/soak/limits';
+import { runLimits, soakLimitsPatchSchema, soakLimitsSchema, type SoakLimits } from '$lib/soak/soak-limits';
+import { DomainError } from './errors';
 import { getSetting } from './settings';
 import {
 	summarize,
@@ -34,28 +34,6 @@ import type {
 	SoakVerdict
 } from '$lib/soak/types';
 export type { SoakEventView, SoakRunDetail, SoakRunListItem, SoakRunView, SoakVerdict };
-
-export type SoakErrorCode =
-	'not-found' | 'no-rating' | 'bad-time-scale' | 'not-running' | 'already-running' | 'too-early';
-
-export class SoakError extends Error {
-	constructor(
-		message: string,
-		readonly code: SoakErrorCode
-	) {
-		super(message);
-	}
-}
-
-/** HTTP status for each error code (routes map with this). */
-export const SOAK_ERROR_STATUS: Record<SoakErrorCode, number> = {
-	'not-found': 404,
-	'no-rating': 400,
-	'bad-time-scale': 400,
-	'not-running': 409,
-	'already-running': 409,
-	'too-early': 409
-};
 
 export const CELSIUS_MIN = -50;
 export const CELSIUS_MAX = 400;
@@ -233,7 +211,7 @@ type Tx = Pick<Db, 'select' | 'insert' | 'update'>;
 
 function getRow(db: Tx, runId: number): RunRow {
 	const row = db.select().from(table.soakRuns).where(eq(table.soakRuns.id, runId)).get();
-	if (!row) throw new SoakError('No such soak run', 'not-found');
+	if (!row) throw new DomainError('not-found', 'No such soak run');
 	return row;
 }
 
@@ -357,22 +335,22 @@ export function createRun(
 ): { id: number } {
 	const data = createRunSchema.parse(input);
 	const job = getJob(db, jobId);
-	if (!job) throw new SoakError('No such job', 'not-found');
+	if (!job) throw new DomainError('not-found', 'No such job');
 	const drive = computeDrive(
 		data.preset,
 		{ ratedPowerW: job.ratedPowerW, ratedLoadOhms: job.ratedLoadOhms },
 		data.custom
 	);
-	if (!drive.ok) throw new SoakError(drive.message, 'no-rating');
+	if (!drive.ok) throw new DomainError('invalid', drive.message);
 	const timeScale = data.bridge?.timeScale ?? 1;
 	const simulated =
 		data.bridge?.source === 'sim' && (data.bridge.temps === undefined || data.bridge.temps === 'sim');
 	// Real hardware heats in real time: only the simulator's thermal model may run faster, so a
 	// browser cannot pass an hour's soak in a minute by claiming a time scale.
 	if (timeScale !== 1 && !simulated)
-		throw new SoakError(
-			'A time scale other than 1 is only accepted from the bridge simulator (source and temperatures "sim")',
-			'bad-time-scale'
+		throw new DomainError(
+			'invalid',
+			'A time scale other than 1 is only accepted from the bridge simulator (source and temperatures "sim")'
 		);
 	closeOverdueRuns(db, { jobId }, nowMs);
 	const limits = runLimits(getSetting(db, 'soakDefaultLimits'), data.limits ?? {});
@@ -382,8 +360,7 @@ export function createRun(
 			.from(table.soakRuns)
 			.where(and(eq(table.soakRuns.jobId, jobId), eq(table.soakRuns.status, 'running')))
 			.get();
-		if (running)
-			throw new SoakError(`Soak run ${running.id} is still running on this job`, 'already-running');
+		if (running) throw new DomainError('conflict', `Soak run ${running.id} is still running on this job`);
 		const row = tx
 			.insert(table.soakRuns)
 			.values({
@@ -481,7 +458,7 @@ export function getRunDetail(db: Db, runId: number, nowMs = Date.now()): SoakRun
 		.leftJoin(table.users, eq(table.users.id, table.soakRuns.createdBy))
 		.where(eq(table.soakRuns.id, runId))
 		.get();
-	if (!found) throw new SoakError('No such soak run', 'not-found');
+	if (!found) throw new DomainError('not-found', 'No such soak run');
 	const row = found.run;
 	const stats = readingStats(db, runId);
 	const stored = row.summary as SoakSummary | null;
@@ -576,7 +553,7 @@ export function addReadings(
 	return db.transaction((tx) => {
 		const row = getRow(tx, runId);
 		if (row.status !== 'running')
-			throw new SoakError(`The run has ended (${row.status}); it takes no more readings`, 'not-running');
+			throw new DomainError('conflict', `The run has ended (${row.status}); it takes no more readings`);
 		const probes = new Set(row.probes as string[]);
 		const rejected: RejectedReading[] = [];
 		const valid: (typeof table.soakReadings.$inferInsert)[] = [];
@@ -647,7 +624,7 @@ export function addEvents(
 	return db.transaction((tx) => {
 		const row = getRow(tx, runId);
 		if (row.status !== 'running' && events.some((e) => e.kind === 'thdn' || e.kind === 'gap'))
-			throw new SoakError(`The run has ended (${row.status}); it takes no more measurements`, 'not-running');
+			throw new DomainError('conflict', `The run has ended (${row.status}); it takes no more measurements`);
 		let stored = 0;
 		for (const e of events) {
 			if (e.key) {
@@ -694,16 +671,16 @@ export function finishRun(db: Db, runId: number, nowMs = Date.now()): SoakRunDet
 	db.transaction((tx) => {
 		const row = getRow(tx, runId);
 		if (row.status !== 'running')
-			throw new SoakError(`The run has already ended (${row.status})`, 'not-running');
+			throw new DomainError('conflict', `The run has already ended (${row.status})`);
 		// Two wall-clock seconds of slack for the page's and the server's clocks.
 		const left = remainingS(
 			{ startedAt: row.startedAt.getTime(), timeScale: row.timeScale, durationS: row.durationS },
 			nowMs
 		);
 		if (left > 2 * row.timeScale)
-			throw new SoakError(
-				`The run has ${Math.ceil(left / 60)} min of soak time left; abort it to stop early`,
-				'too-early'
+			throw new DomainError(
+				'conflict',
+				`The run has ${Math.ceil(left / 60)} min of soak time left; abort it to stop early`
 			);
 		const summary = computeSummary(tx, row, { untilMs: plannedEndMs(row), complete: true });
 		tx.update(table.soakRuns)
@@ -720,7 +697,7 @@ export function abortRun(db: Db, runId: number, input: AbortInput, nowMs = Date.
 	db.transaction((tx) => {
 		const row = getRow(tx, runId);
 		if (row.status !== 'running')
-			throw new SoakError(`The run has already ended (${row.status})`, 'not-running');
+			throw new DomainError('conflict', `The run has already ended (${row.status})`);
 		// The moment may not precede the start nor lie in the future.
 		const endedAtMs = Math.min(nowMs, Math.max(row.startedAt.getTime(), data.at ?? nowMs));
 		const summary = computeSummary(tx, row, { untilMs: endedAtMs, complete: false });
@@ -738,10 +715,4 @@ export function abortRun(db: Db, runId: number, input: AbortInput, nowMs = Date.
 			.run();
 	});
 	return getRunDetail(db, runId, nowMs);
-}
-
-/** For routes: a SoakError becomes its HTTP status with the message; anything else is rethrown. */
-export function soakFail(e: unknown): never {
-	if (e instanceof SoakError) error(SOAK_ERROR_STATUS[e.code], e.message);
-	throw e;
 }

@@ -1,7 +1,7 @@
 // User management against an in-memory database: create (validation, duplicate e-mail),
 // list without hashes, role changes, the last-admin rule, deactivation.
 import { beforeEach, describe, expect, it } from 'vitest';
-import { isHttpError } from '@sveltejs/kit';
+import { isDomainError } from './errors';
 import { openDb, type Db } from './db/open';
 import { createUser, getUser, isUserId, listAssignableUsers, listUsers, updateUser } from './users';
 import { signIn } from './auth';
@@ -11,7 +11,7 @@ async function statusOf(fn: () => Promise<unknown>): Promise<number | 'ok'> {
 		await fn();
 		return 'ok';
 	} catch (e) {
-		if (isHttpError(e)) return e.status;
+		if (isDomainError(e)) return e.status;
 		throw e;
 	}
 }

@@ -1,6 +1,5 @@
 // User management for admins: list, create, rename, change role, deactivate/reactivate,
 // reset a password. Deactivation and password resets end the user's sessions.
-import { error } from '@sveltejs/kit';
 import { asc, eq, and, count } from 'drizzle-orm';
 import { generateIdFromEntropySize } from 'lucia';
 import type { Db } from './db/open';
@@ -8,6 +7,7 @@ import * as table from './db/schema';
 import type { Role } from './db/schema';
 import { endUserSessions, hashPassword, setPassword } from './auth';
 import { userCreateSchema, userPatchSchema, type UserCreate, type UserPatch } from '../schemas/users';
+import { DomainError } from './errors';
 import { validate } from './validate';
 
 /** A user as the admin pages and API see them (never the password hash). */
@@ -81,7 +81,8 @@ function emailTaken(db: Db, email: string): boolean {
 /** Create an account (409 when the e-mail is in use). */
 export async function createUser(db: Db, input: UserCreate): Promise<UserSummary> {
 	const data = validate(userCreateSchema, input);
-	if (emailTaken(db, data.email)) error(409, 'That e-mail address already has an account');
+	if (emailTaken(db, data.email))
+		throw new DomainError('conflict', 'That e-mail address already has an account');
 	const passwordHash = await hashPassword(data.password);
 	const id = generateIdFromEntropySize(10);
 	const now = new Date();
@@ -100,7 +101,7 @@ export async function createUser(db: Db, input: UserCreate): Promise<UserSummary
 	} catch (e) {
 		// Two admins racing for the same e-mail: the unique index decides.
 		if (e instanceof Error && /UNIQUE/.test(e.message))
-			error(409, 'That e-mail address already has an account');
+			throw new DomainError('conflict', 'That e-mail address already has an account');
 		throw e;
 	}
 	return getUser(db, id)!;
@@ -123,14 +124,14 @@ function activeAdminCount(db: Db): number {
 export async function updateUser(db: Db, id: string, patch: UserPatch): Promise<UserSummary> {
 	const data = validate(userPatchSchema, patch);
 	const current = db.select().from(table.users).where(eq(table.users.id, id)).get();
-	if (!current) error(404, 'No such user');
+	if (!current) throw new DomainError('not-found', 'No such user');
 
 	const losesAdmin =
 		current.role === 'admin' &&
 		current.active &&
 		((data.role !== undefined && data.role !== 'admin') || data.active === false);
 	if (losesAdmin && activeAdminCount(db) <= 1) {
-		error(409, 'This is the last active admin: make another admin first');
+		throw new DomainError('conflict', 'This is the last active admin: make another admin first');
 	}
 
 	const changes: Partial<typeof table.users.$inferInsert> = {};

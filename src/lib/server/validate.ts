@@ -1,7 +1,17 @@
-// Service-side validation: a service called with bad input answers 400 with the zod issues,
-// the same as a route would, instead of letting a ZodError become a 500.
+// Validation for services and routes alike: bad input becomes a DomainError('invalid') that
+// lists every zod issue at once (answered as a 400), never a ZodError that would be a 500.
 import type { z } from 'zod';
-import { badRequest, formatIssues } from './api';
+import { DomainError, type Issue } from './errors';
+
+/** Zod issues in a compact, stable form for 400 answers. */
+export function formatIssues(err: z.ZodError): Issue[] {
+	return err.issues.map((i) => ({ path: i.path.join('.'), message: i.message }));
+}
+
+/** A 400 naming what is wrong. */
+export function badRequest(message: string, issues?: Issue[]): never {
+	throw new DomainError('invalid', message, issues);
+}
 
 export function validate<S extends z.ZodType>(
 	schema: S,

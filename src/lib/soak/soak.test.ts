@@ -2,7 +2,7 @@
 // worked out by hand in the comments beside each check.
 import { describe, expect, it } from 'vitest';
 import { computeDrive, customDriveSchema } from './presets';
-import { runLimits, thdnDbToPercent, thdnPercentToDb, type SoakLimits } from './limits';
+import { runLimits, thdnDbToPercent, thdnPercentToDb, type SoakLimits } from './soak-limits';
 import { DEFAULT_SOAK_LIMITS } from '$lib/schemas/settings';
 import {
 	acceleratedLabel,

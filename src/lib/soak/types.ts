@@ -1,6 +1,6 @@
 // Shapes of the soak API's answers, shared by the server and the browser.
 import type { SoakChannel, SoakPresetId } from './presets';
-import type { SoakLimits } from './limits';
+import type { SoakLimits } from './soak-limits';
 import type { SoakSummary } from './verdict';
 
 export type SoakStatus = 'running' | 'passed' | 'failed' | 'aborted';

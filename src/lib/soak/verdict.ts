@@ -1,8 +1,8 @@
 // Judging a heat-soak run from its temperature readings: limit breaches, thermal steady state,
 // gaps, the per-probe summary and the verdict. Pure, so the page (live alarm) and the server
 // (the stored verdict) judge the same readings the same way.
-import type { SoakLimits, SteadyCriterion } from './limits';
-import { STEADY_CRITERION, thdnDbToPercent } from './limits';
+import type { SoakLimits, SteadyCriterion } from './soak-limits';
+import { STEADY_CRITERION, thdnDbToPercent } from './soak-limits';
 import { formatSoakTime } from './temperature';
 
 export interface SoakReadingIn {

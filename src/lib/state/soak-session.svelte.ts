@@ -16,7 +16,7 @@ import {
 } from '$lib/soak/verdict';
 import type { SoakRunDetail, SoakRunView } from '$lib/soak/types';
 import type { CustomDrive, SoakPresetId } from '$lib/soak/presets';
-import type { SoakLimits } from '$lib/soak/limits';
+import type { SoakLimits } from '$lib/soak/soak-limits';
 import { LiveAnalysis, type LiveReadouts } from './live-analysis.svelte';
 
 export type SoakPhase = 'idle' | 'loading' | 'starting' | 'running' | 'ending' | 'ended' | 'error';

@@ -4,16 +4,17 @@ import { db } from '$lib/server/db';
 import { changePassword } from '$lib/server/auth';
 import { requireUser } from '$lib/server/guards';
 import { passwordChangeSchema } from '$lib/schemas/users';
+import { pageLoad, formActions } from '$lib/server/handlers';
 import type { Actions, PageServerLoad } from './$types';
 
-export const load: PageServerLoad = (event) => {
+export const load: PageServerLoad = pageLoad((event) => {
 	const user = requireUser(event);
 	return { account: user };
-};
+});
 
 type FieldErrors = Partial<Record<'currentPassword' | 'newPassword' | 'confirmPassword', string[]>>;
 
-export const actions: Actions = {
+export const actions: Actions = formActions({
 	password: async (event) => {
 		const user = requireUser(event);
 		const form = await event.request.formData();
@@ -43,4 +44,4 @@ export const actions: Actions = {
 		}
 		return { errors: {} as FieldErrors, done: true };
 	}
-};
+});

@@ -5,9 +5,10 @@ import { requireUser } from '$lib/server/guards';
 import { listJobs } from '$lib/server/jobs';
 import { listAssignableUsers } from '$lib/server/users';
 import { jobListQuerySchema } from '$lib/schemas/jobs';
+import { pageLoad } from '$lib/server/handlers';
 import type { PageServerLoad } from './$types';
 
-export const load: PageServerLoad = (event) => {
+export const load: PageServerLoad = pageLoad((event) => {
 	const user = requireUser(event);
 	const raw = Object.fromEntries(event.url.searchParams);
 	// A hand-edited, invalid query string falls back to the plain queue rather than an error page.
@@ -28,4 +29,4 @@ export const load: PageServerLoad = (event) => {
 		},
 		technicians: listAssignableUsers(db)
 	};
-};
+});

@@ -166,7 +166,7 @@ export const parts = sqliteTable(
 
 /**
  * A named set of pass/fail limits and the conditions they assume.
- * `conditions` and `limits` are validated by the zod schemas in $lib/limits.
+ * `conditions` and `limits` are validated by the zod schemas in $lib/limit-profiles.
  */
 export const limitProfiles = sqliteTable('limit_profiles', {
 	id: integer('id').primaryKey({ autoIncrement: true }),

@@ -5,14 +5,15 @@ import { requireAdmin } from '$lib/server/guards';
 import { getSettings, updateSettings } from '$lib/server/settings';
 import { shopSettingsSchema } from '$lib/schemas/settings';
 import { number, text } from '$lib/forms';
+import { pageLoad, formActions } from '$lib/server/handlers';
 import type { Actions, PageServerLoad } from './$types';
 
-export const load: PageServerLoad = (event) => {
+export const load: PageServerLoad = pageLoad((event) => {
 	requireAdmin(event);
 	return { settings: getSettings(db) };
-};
+});
 
-export const actions: Actions = {
+export const actions: Actions = formActions({
 	default: async (event) => {
 		requireAdmin(event);
 		const form = await event.request.formData();
@@ -50,4 +51,4 @@ export const actions: Actions = {
 		updateSettings(db, parsed.data);
 		return { ok: true };
 	}
-};
+});

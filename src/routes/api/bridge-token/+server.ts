@@ -5,10 +5,11 @@ import type { RequestHandler } from './$types';
 import { requireRole } from '$lib/server/guards';
 import { requireBridgeSecret } from '$lib/server/env';
 import { db } from '$lib/server/db';
+import { endpoint } from '$lib/server/api';
 import { getSetting } from '$lib/server/settings';
 import { mintBridgeToken, BRIDGE_TOKEN_DEFAULT_TTL_S } from '$lib/bridge/token';
 
-export const GET: RequestHandler = async (event) => {
+export const GET: RequestHandler = endpoint(async (event) => {
 	const user = requireRole(event, 'technician', 'supervisor', 'admin');
 	const { token, expiresAt } = await mintBridgeToken(
 		requireBridgeSecret(),
@@ -19,4 +20,4 @@ export const GET: RequestHandler = async (event) => {
 		{ token, expiresAt, bridgeUrl: getSetting(db, 'bridgeUrl') },
 		{ headers: { 'cache-control': 'no-store' } }
 	);
-};
+});

@@ -2,18 +2,18 @@
 // frequency); admins change them.
 import { db } from '$lib/server/db';
 import { requireAdmin, requireUser } from '$lib/server/guards';
-import { json, readJson } from '$lib/server/api';
+import { endpoint, json, readJson } from '$lib/server/api';
 import { getSettings, updateSettings } from '$lib/server/settings';
 import { settingsPatchSchema } from '$lib/schemas/settings';
 import type { RequestHandler } from './$types';
 
-export const GET: RequestHandler = (event) => {
+export const GET: RequestHandler = endpoint((event) => {
 	requireUser(event);
 	return json(getSettings(db));
-};
+});
 
-export const PATCH: RequestHandler = async (event) => {
+export const PATCH: RequestHandler = endpoint(async (event) => {
 	requireAdmin(event);
 	const patch = await readJson(event, settingsPatchSchema);
 	return json(updateSettings(db, patch));
-};
+});

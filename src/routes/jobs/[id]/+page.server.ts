@@ -1,7 +1,9 @@
 // A job's page: unit, customer, status with its allowed moves, history, work log and parts.
-// Every action guards itself and calls the jobs service; the service enforces the rules again.
-import { error, fail, isHttpError } from '@sveltejs/kit';
+// Every action guards itself and calls the jobs service; the service enforces the rules again,
+// and its refusals (403 approval, 409 move not allowed, 404 gone) come back as page messages.
+import { fail } from '@sveltejs/kit';
 import { db } from '$lib/server/db';
+import { DomainError } from '$lib/server/errors';
 import { requireUser } from '$lib/server/guards';
 import { idParam } from '$lib/server/api';
 import {
@@ -23,38 +25,28 @@ import {
 } from '$lib/schemas/jobs';
 import { fieldErrors, number, optionalText, text } from '$lib/forms';
 import { parseMoneyToCents } from '$lib/format';
+import { pageLoad, formActions } from '$lib/server/handlers';
 import type { Actions, PageServerLoad } from './$types';
 
-export const load: PageServerLoad = (event) => {
+export const load: PageServerLoad = pageLoad((event) => {
 	const user = requireUser(event);
 	const id = idParam(event.params.id, 'job');
 	const job = getJob(db, id);
-	if (!job) error(404, 'No such job');
+	if (!job) throw new DomainError('not-found', 'No such job');
 	return {
 		job,
 		nextStatuses: allowedNextStatuses(job.status, user.role),
 		technicians: listAssignableUsers(db),
 		me: user
 	};
-};
-
-/** Refusals from the service (403 approval, 409 move not allowed, 404 gone) become page messages. */
-function refusal(action: string, e: unknown) {
-	if (isHttpError(e) && e.status < 500) {
-		const issues = (e.body as { issues?: { path: string; message: string }[] }).issues;
-		const errors: Record<string, string[]> = {};
-		for (const i of issues ?? []) (errors[i.path || '_form'] ??= []).push(i.message);
-		return fail(e.status, { action, message: e.body.message, errors });
-	}
-	throw e;
-}
+});
 
 function partIdFrom(form: FormData): number | null {
 	const n = Number(text(form, 'partId'));
 	return Number.isSafeInteger(n) && n > 0 ? n : null;
 }
 
-export const actions: Actions = {
+export const actions: Actions = formActions({
 	status: async (event) => {
 		const user = requireUser(event);
 		const id = idParam(event.params.id, 'job');
@@ -65,11 +57,7 @@ export const actions: Actions = {
 		});
 		if (!parsed.success)
 			return fail(400, { action: 'status', message: 'Choose a status', errors: fieldErrors(parsed.error) });
-		try {
-			changeStatus(db, id, parsed.data, user);
-		} catch (e) {
-			return refusal('status', e);
-		}
+		changeStatus(db, id, parsed.data, user);
 		return { action: 'status', ok: true };
 	},
 
@@ -77,11 +65,7 @@ export const actions: Actions = {
 		requireUser(event);
 		const id = idParam(event.params.id, 'job');
 		const form = await event.request.formData();
-		try {
-			updateJob(db, id, { technicianId: optionalText(form, 'technicianId') });
-		} catch (e) {
-			return refusal('assign', e);
-		}
+		updateJob(db, id, { technicianId: optionalText(form, 'technicianId') });
 		return { action: 'assign', ok: true };
 	},
 
@@ -92,11 +76,7 @@ export const actions: Actions = {
 		const values = { text: text(form, 'text'), minutes: text(form, 'minutes') };
 		const parsed = logEntrySchema.safeParse({ text: values.text, minutes: number(form, 'minutes') });
 		if (!parsed.success) return fail(400, { action: 'log', values, errors: fieldErrors(parsed.error) });
-		try {
-			addLogEntry(db, id, parsed.data, user.id);
-		} catch (e) {
-			return refusal('log', e);
-		}
+		addLogEntry(db, id, parsed.data, user.id);
 		return { action: 'log', ok: true };
 	},
 
@@ -132,11 +112,7 @@ export const actions: Actions = {
 		if (unitCostCents === null) errors.unitCost = ['Enter an amount like 12.50'];
 		if (errors.unitCostCents) errors.unitCost = errors.unitCostCents;
 		if (!parsed.success || unitCostCents === null) return fail(400, { action: 'addPart', values, errors });
-		try {
-			addPart(db, id, parsed.data);
-		} catch (e) {
-			return refusal('addPart', e);
-		}
+		addPart(db, id, parsed.data);
 		return { action: 'addPart', ok: true };
 	},
 
@@ -149,11 +125,7 @@ export const actions: Actions = {
 		if (!partId) return fail(404, { action: 'partState', message: 'No such part on this job' });
 		if (!(PART_STATES as readonly string[]).includes(state))
 			return fail(400, { action: 'partState', message: 'Choose ordered, received or fitted' });
-		try {
-			updatePart(db, id, partId, { state: state as (typeof PART_STATES)[number] });
-		} catch (e) {
-			return refusal('partState', e);
-		}
+		updatePart(db, id, partId, { state: state as (typeof PART_STATES)[number] });
 		return { action: 'partState', ok: true };
 	},
 
@@ -163,11 +135,7 @@ export const actions: Actions = {
 		const form = await event.request.formData();
 		const partId = partIdFrom(form);
 		if (!partId) return fail(404, { action: 'deletePart', message: 'No such part on this job' });
-		try {
-			deletePart(db, id, partId);
-		} catch (e) {
-			return refusal('deletePart', e);
-		}
+		deletePart(db, id, partId);
 		return { action: 'deletePart', ok: true };
 	}
-};
+});

@@ -1,6 +1,7 @@
 // Intake: a unit comes in. Superforms with the shared zod schema; errors come back beside
 // each field with the input kept, success goes to the new job's page.
-import { fail, isHttpError, redirect } from '@sveltejs/kit';
+import { fail, redirect } from '@sveltejs/kit';
+import { isDomainError } from '$lib/server/errors';
 import { superValidate, setError } from 'sveltekit-superforms';
 import { zod4 } from 'sveltekit-superforms/adapters';
 import { asc } from 'drizzle-orm';
@@ -9,6 +10,7 @@ import { requireUser } from '$lib/server/guards';
 import { createJob } from '$lib/server/jobs';
 import { listAssignableUsers } from '$lib/server/users';
 import { jobIntakeSchema, type JobIntake } from '$lib/schemas/jobs';
+import { pageLoad, formActions } from '$lib/server/handlers';
 import type { FormPath } from 'sveltekit-superforms';
 import type { Actions, PageServerLoad } from './$types';
 
@@ -27,15 +29,15 @@ function customerChoices() {
 		.all();
 }
 
-export const load: PageServerLoad = async (event) => {
+export const load: PageServerLoad = pageLoad(async (event) => {
 	const user = requireUser(event);
 	const form = await superValidate(zod4(jobIntakeSchema), { errors: false });
 	// The one taking the unit in usually benches it; they can pick someone else.
 	form.data.technicianId = user.role === 'technician' ? user.id : '';
 	return { form, customers: customerChoices(), technicians: listAssignableUsers(db) };
-};
+});
 
-export const actions: Actions = {
+export const actions: Actions = formActions({
 	default: async (event) => {
 		const user = requireUser(event);
 		const form = await superValidate(event.request, zod4(jobIntakeSchema));
@@ -45,11 +47,10 @@ export const actions: Actions = {
 			jobId = createJob(db, form.data, user.id).id;
 		} catch (e) {
 			// The service re-checks what only the database knows (customer, active technician).
-			const issues = isHttpError(e) && e.status === 400 ? (e.body as { issues?: unknown }).issues : null;
-			if (Array.isArray(issues)) {
-				for (const issue of issues as { path?: string; message?: string }[]) {
+			if (isDomainError(e) && e.code === 'invalid' && e.issues) {
+				for (const issue of e.issues) {
 					const path = (issue.path || 'customerName') as FormPath<JobIntake>;
-					setError(form, path, issue.message ?? 'Invalid value');
+					setError(form, path, issue.message);
 				}
 				return fail(400, { form });
 			}
@@ -57,4 +58,4 @@ export const actions: Actions = {
 		}
 		redirect(303, `/jobs/${jobId}`);
 	}
-};
+});

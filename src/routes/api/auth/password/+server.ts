@@ -1,12 +1,12 @@
 // Change one's own password: the current one must be right; other sessions end, this one stays.
 import { db } from '$lib/server/db';
 import { requireUser } from '$lib/server/guards';
-import { badRequest, json, readJson } from '$lib/server/api';
+import { badRequest, endpoint, json, readJson } from '$lib/server/api';
 import { changePassword } from '$lib/server/auth';
 import { passwordChangeSchema } from '$lib/schemas/users';
 import type { RequestHandler } from './$types';
 
-export const POST: RequestHandler = async (event) => {
+export const POST: RequestHandler = endpoint(async (event) => {
 	const user = requireUser(event);
 	const input = await readJson(event, passwordChangeSchema);
 	const result = await changePassword(
@@ -22,4 +22,4 @@ export const POST: RequestHandler = async (event) => {
 		]);
 	}
 	return json({ ok: true });
-};
+});

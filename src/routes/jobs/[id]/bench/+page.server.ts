@@ -1,18 +1,19 @@
 // The bench page for one job: the job's headline, the active limit profiles and its snapshots.
 // Live data comes from the bridge in the browser; captures go to /api/jobs/[id]/snapshots.
-import { error } from '@sveltejs/kit';
 import { db } from '$lib/server/db';
+import { DomainError } from '$lib/server/errors';
 import { requireUser } from '$lib/server/guards';
 import { idParam } from '$lib/server/api';
 import { getJob } from '$lib/server/jobs';
-import { listLimitProfiles } from '$lib/server/limits';
+import { listLimitProfiles } from '$lib/server/limit-profiles';
+import { pageLoad } from '$lib/server/handlers';
 import type { PageServerLoad } from './$types';
 
-export const load: PageServerLoad = (event) => {
+export const load: PageServerLoad = pageLoad((event) => {
 	requireUser(event);
 	const id = idParam(event.params.id, 'job');
 	const job = getJob(db, id);
-	if (!job) error(404, 'No such job');
+	if (!job) throw new DomainError('not-found', 'No such job');
 	return {
 		job: {
 			id: job.id,
@@ -28,4 +29,4 @@ export const load: PageServerLoad = (event) => {
 		},
 		profiles: listLimitProfiles(db)
 	};
-};
+});

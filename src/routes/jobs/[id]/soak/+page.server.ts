@@ -1,29 +1,26 @@
 // The soak page of a job: the job's rating for the presets, the shop's default limits, and the
 // run to show (the job's running run, resumed, or one named in ?run=).
-import { error } from '@sveltejs/kit';
 import { db } from '$lib/server/db';
+import { DomainError } from '$lib/server/errors';
 import { requireUser } from '$lib/server/guards';
 import { idParam } from '$lib/server/api';
 import { getJob } from '$lib/server/jobs';
 import { getSetting } from '$lib/server/settings';
-import { jobIdOfRun, runningRunId, SoakError } from '$lib/server/soak';
+import { jobIdOfRun, runningRunId } from '$lib/server/soak';
+import { pageLoad } from '$lib/server/handlers';
 import type { PageServerLoad } from './$types';
 
-export const load: PageServerLoad = (event) => {
+export const load: PageServerLoad = pageLoad((event) => {
 	requireUser(event);
 	const id = idParam(event.params.id, 'job');
 	const job = getJob(db, id);
-	if (!job) error(404, 'No such job');
+	if (!job) throw new DomainError('not-found', 'No such job');
 	let viewRunId: number | null = null;
 	const runParam = event.url.searchParams.get('run');
 	if (runParam !== null) {
 		const runId = idParam(runParam, 'soak run');
-		try {
-			if (jobIdOfRun(db, runId) !== id) error(404, 'No such soak run on this job');
-		} catch (e) {
-			if (e instanceof SoakError) error(404, 'No such soak run');
-			throw e;
-		}
+		// jobIdOfRun throws not-found for an unknown run, which the wrapper answers with a 404.
+		if (jobIdOfRun(db, runId) !== id) throw new DomainError('not-found', 'No such soak run on this job');
 		viewRunId = runId;
 	}
 	return {
@@ -41,4 +38,4 @@ export const load: PageServerLoad = (event) => {
 		runningRunId: runningRunId(db, id),
 		viewRunId
 	};
-};
+});

@@ -1,31 +1,34 @@
 // A job's snapshots: list them, or capture one from a multipart upload (`samples` WAV + `meta`
 // JSON). The server re-analyses the WAV itself; see $lib/server/snapshots.
-import { error } from '@sveltejs/kit';
 import { db } from '$lib/server/db';
+import { DomainError } from '$lib/server/errors';
 import { requireUser } from '$lib/server/guards';
-import { badRequest, idParam, json, readBodyCapped, requireSameOrigin } from '$lib/server/api';
+import { badRequest, endpoint, idParam, json, readBodyCapped, requireSameOrigin } from '$lib/server/api';
 import { jobExists } from '$lib/server/jobs';
-import { createSnapshot, listSnapshots, SnapshotError, SNAPSHOT_MAX_WAV_BYTES } from '$lib/server/snapshots';
+import { createSnapshot, listSnapshots, SNAPSHOT_MAX_WAV_BYTES } from '$lib/server/snapshots';
 import type { RequestHandler } from './$types';
 
 /** Room for the multipart boundaries and the meta part beside the largest WAV. */
 const MULTIPART_OVERHEAD_BYTES = 256 * 1024;
 
-export const GET: RequestHandler = (event) => {
+export const GET: RequestHandler = endpoint((event) => {
 	requireUser(event);
 	const jobId = idParam(event.params.id, 'job');
-	if (!jobExists(db, jobId)) error(404, 'No such job');
+	if (!jobExists(db, jobId)) throw new DomainError('not-found', 'No such job');
 	return json({ snapshots: listSnapshots(db, jobId) });
-};
+});
 
-export const POST: RequestHandler = async (event) => {
+export const POST: RequestHandler = endpoint(async (event) => {
 	const user = requireUser(event);
 	requireSameOrigin(event);
 	const jobId = idParam(event.params.id, 'job');
-	if (!jobExists(db, jobId)) error(404, 'No such job');
+	if (!jobExists(db, jobId)) throw new DomainError('not-found', 'No such job');
 	const type = event.request.headers.get('content-type') ?? '';
 	if (!/^multipart\/form-data\b/i.test(type))
-		error(415, 'Send the snapshot as multipart/form-data with `samples` and `meta`');
+		throw new DomainError(
+			'unsupported-type',
+			'Send the snapshot as multipart/form-data with `samples` and `meta`'
+		);
 
 	const bytes = await readBodyCapped(event.request, SNAPSHOT_MAX_WAV_BYTES + MULTIPART_OVERHEAD_BYTES);
 	let form: FormData;
@@ -39,20 +42,18 @@ export const POST: RequestHandler = async (event) => {
 	const samples = form.get('samples');
 	if (!(samples instanceof Blob)) badRequest('samples: attach the WAV file as the `samples` part');
 	if (samples.size > SNAPSHOT_MAX_WAV_BYTES)
-		error(413, `samples: the WAV file is larger than ${SNAPSHOT_MAX_WAV_BYTES} bytes`);
+		throw new DomainError(
+			'too-large',
+			`samples: the WAV file is larger than ${SNAPSHOT_MAX_WAV_BYTES} bytes`
+		);
 	const meta = form.get('meta');
 	if (typeof meta !== 'string') badRequest('meta: send the snapshot details as the `meta` part (JSON text)');
 
-	try {
-		const created = createSnapshot(db, {
-			jobId,
-			userId: user.id,
-			wav: new Uint8Array(await samples.arrayBuffer()),
-			meta
-		});
-		return json(created, { status: 201 });
-	} catch (e) {
-		if (e instanceof SnapshotError) badRequest(e.message, e.issues);
-		throw e;
-	}
-};
+	const created = createSnapshot(db, {
+		jobId,
+		userId: user.id,
+		wav: new Uint8Array(await samples.arrayBuffer()),
+		meta
+	});
+	return json(created, { status: 201 });
+});

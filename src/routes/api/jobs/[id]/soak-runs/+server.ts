@@ -1,26 +1,22 @@
 // A job's soak runs: list them (with a small chart each) and start one from a preset.
-import { error } from '@sveltejs/kit';
 import { db } from '$lib/server/db';
+import { DomainError } from '$lib/server/errors';
 import { requireUser } from '$lib/server/guards';
-import { idParam, json, readJson } from '$lib/server/api';
+import { endpoint, idParam, json, readJson } from '$lib/server/api';
 import { jobExists } from '$lib/server/jobs';
-import { createRun, createRunSchema, listRuns, soakFail } from '$lib/server/soak';
+import { createRun, createRunSchema, listRuns } from '$lib/server/soak';
 import type { RequestHandler } from './$types';
 
-export const GET: RequestHandler = (event) => {
+export const GET: RequestHandler = endpoint((event) => {
 	requireUser(event);
 	const jobId = idParam(event.params.id, 'job');
-	if (!jobExists(db, jobId)) error(404, 'No such job');
+	if (!jobExists(db, jobId)) throw new DomainError('not-found', 'No such job');
 	return json({ runs: listRuns(db, jobId) });
-};
+});
 
-export const POST: RequestHandler = async (event) => {
+export const POST: RequestHandler = endpoint(async (event) => {
 	const user = requireUser(event);
 	const jobId = idParam(event.params.id, 'job');
 	const input = await readJson(event, createRunSchema);
-	try {
-		return json(createRun(db, jobId, user.id, input), { status: 201 });
-	} catch (e) {
-		soakFail(e);
-	}
-};
+	return json(createRun(db, jobId, user.id, input), { status: 201 });
+});

@@ -1,16 +1,16 @@
 // The raw WAV a snapshot was computed from, for re-analysis (e.g. `npm run analyze`).
-import { error } from '@sveltejs/kit';
 import { db } from '$lib/server/db';
+import { DomainError } from '$lib/server/errors';
 import { requireUser } from '$lib/server/guards';
-import { idParam } from '$lib/server/api';
+import { endpoint, idParam } from '$lib/server/api';
 import { getSnapshotAudio } from '$lib/server/snapshots';
 import type { RequestHandler } from './$types';
 
-export const GET: RequestHandler = (event) => {
+export const GET: RequestHandler = endpoint((event) => {
 	requireUser(event);
 	const id = idParam(event.params.id, 'snapshot');
 	const audio = getSnapshotAudio(db, id);
-	if (!audio) error(404, 'No such snapshot');
+	if (!audio) throw new DomainError('not-found', 'No such snapshot');
 	return new Response(new Uint8Array(audio.wav), {
 		headers: {
 			'content-type': 'audio/wav',
@@ -21,4 +21,4 @@ export const GET: RequestHandler = (event) => {
 			'cache-control': 'private, no-store'
 		}
 	});
-};
+});

@@ -1,17 +1,13 @@
 // Soak events from the page: gap markers, THD+N samples, generator changes and notes.
 import { db } from '$lib/server/db';
 import { requireUser } from '$lib/server/guards';
-import { idParam, json, readJson } from '$lib/server/api';
-import { addEvents, eventsBodySchema, soakFail } from '$lib/server/soak';
+import { endpoint, idParam, json, readJson } from '$lib/server/api';
+import { addEvents, eventsBodySchema } from '$lib/server/soak';
 import type { RequestHandler } from './$types';
 
-export const POST: RequestHandler = async (event) => {
+export const POST: RequestHandler = endpoint(async (event) => {
 	requireUser(event);
 	const id = idParam(event.params.id, 'soak run');
 	const body = await readJson(event, eventsBodySchema, 256 * 1024);
-	try {
-		return json(addEvents(db, id, body.events));
-	} catch (e) {
-		soakFail(e);
-	}
-};
+	return json(addEvents(db, id, body.events));
+});

@@ -3,14 +3,8 @@
 import { z } from 'zod';
 import { db } from '$lib/server/db';
 import { requireUser } from '$lib/server/guards';
-import { idParam, json, readJson, readQuery } from '$lib/server/api';
-import {
-	addReadings,
-	readingsAfter,
-	readingsBodySchema,
-	READINGS_BODY_MAX_BYTES,
-	soakFail
-} from '$lib/server/soak';
+import { endpoint, idParam, json, readJson, readQuery } from '$lib/server/api';
+import { addReadings, readingsAfter, readingsBodySchema, READINGS_BODY_MAX_BYTES } from '$lib/server/soak';
 import type { RequestHandler } from './$types';
 
 const querySchema = z.object({
@@ -18,29 +12,21 @@ const querySchema = z.object({
 	limit: z.coerce.number().int().min(1).max(20_000).default(5000)
 });
 
-export const GET: RequestHandler = (event) => {
+export const GET: RequestHandler = endpoint((event) => {
 	requireUser(event);
 	const id = idParam(event.params.id, 'soak run');
 	const q = readQuery(event.url, querySchema);
-	try {
-		return json(readingsAfter(db, id, q.after, q.limit), { headers: { 'cache-control': 'no-store' } });
-	} catch (e) {
-		soakFail(e);
-	}
-};
+	return json(readingsAfter(db, id, q.after, q.limit), { headers: { 'cache-control': 'no-store' } });
+});
 
-export const POST: RequestHandler = async (event) => {
+export const POST: RequestHandler = endpoint(async (event) => {
 	requireUser(event);
 	const id = idParam(event.params.id, 'soak run');
 	const body = await readJson(event, readingsBodySchema, READINGS_BODY_MAX_BYTES);
-	try {
-		const res = addReadings(db, id, body.readings, body.bootId);
-		if (res.rejected.length) {
-			const message = `${res.rejected.length} reading(s) rejected; ${res.stored} new reading(s) stored`;
-			return json({ message, ...res }, { status: 400 });
-		}
-		return json(res);
-	} catch (e) {
-		soakFail(e);
+	const res = addReadings(db, id, body.readings, body.bootId);
+	if (res.rejected.length) {
+		const message = `${res.rejected.length} reading(s) rejected; ${res.stored} new reading(s) stored`;
+		return json({ message, ...res }, { status: 400 });
 	}
-};
+	return json(res);
+});

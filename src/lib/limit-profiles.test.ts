@@ -11,7 +11,7 @@ import {
 	stereoMeasurements,
 	verdictOf,
 	type Limit
-} from './limits';
+} from './limit-profiles';
 
 const lim = (l: Partial<Limit> & Pick<Limit, 'metric' | 'op' | 'value' | 'unit'>): Limit =>
 	limitSchema.parse({ channel: 'each', ...l });

@@ -5,13 +5,13 @@ import {
 	createLimitProfile,
 	deleteLimitProfile,
 	getLimitProfile,
-	LimitProfileError,
 	listLimitProfiles,
 	seedLimitProfiles,
 	SEED_LIMIT_PROFILES,
 	updateLimitProfile
-} from './limits';
-import { profileInputSchema } from '$lib/limits';
+} from './limit-profiles';
+import { profileInputSchema } from '$lib/limit-profiles';
+import { DomainError } from './errors';
 
 let db: Db;
 beforeEach(() => {
@@ -43,7 +43,7 @@ describe('limit profile service', () => {
 
 	it('refuses a duplicate name, case-insensitively', () => {
 		createLimitProfile(db, input, 'u1');
-		expect(() => createLimitProfile(db, { ...input, name: 'TEST PROFILE' }, 'u1')).toThrow(LimitProfileError);
+		expect(() => createLimitProfile(db, { ...input, name: 'TEST PROFILE' }, 'u1')).toThrow(DomainError);
 	});
 
 	it('updates part of a profile and leaves the rest', () => {

@@ -11,17 +11,9 @@ import {
 	type ProfileInput,
 	type ProfileInputRaw,
 	type ProfilePatch
-} from '../limits';
+} from '../limit-profiles';
 import { z } from 'zod';
-
-export class LimitProfileError extends Error {
-	constructor(
-		message: string,
-		readonly code: 'not-found' | 'name-taken'
-	) {
-		super(message);
-	}
-}
+import { DomainError } from './errors';
 
 type Row = typeof table.limitProfiles.$inferSelect;
 
@@ -64,7 +56,7 @@ function nameTaken(db: Pick<Db, 'select'>, name: string, exceptId?: number): boo
 export function createLimitProfile(db: Db, input: ProfileInputRaw, userId: string | null): LimitProfileView {
 	const data = profileInputSchema.parse(input);
 	if (nameTaken(db, data.name))
-		throw new LimitProfileError(`A profile named “${data.name}” already exists`, 'name-taken');
+		throw new DomainError('conflict', `A profile named “${data.name}” already exists`);
 	const row = db
 		.insert(table.limitProfiles)
 		.values({
@@ -82,9 +74,9 @@ export function createLimitProfile(db: Db, input: ProfileInputRaw, userId: strin
 export function updateLimitProfile(db: Db, id: number, patch: ProfilePatch): LimitProfileView {
 	return db.transaction((tx) => {
 		const existing = tx.select().from(table.limitProfiles).where(eq(table.limitProfiles.id, id)).get();
-		if (!existing) throw new LimitProfileError('No such limit profile', 'not-found');
+		if (!existing) throw new DomainError('not-found', 'No such limit profile');
 		if (patch.name !== undefined && nameTaken(tx, patch.name, id)) {
-			throw new LimitProfileError(`A profile named “${patch.name}” already exists`, 'name-taken');
+			throw new DomainError('conflict', `A profile named “${patch.name}” already exists`);
 		}
 		const row = tx
 			.update(table.limitProfiles)
@@ -110,7 +102,7 @@ export function updateLimitProfile(db: Db, id: number, patch: ProfilePatch): Lim
 export function deleteLimitProfile(db: Db, id: number): { outcome: 'deleted' | 'archived' } {
 	return db.transaction((tx) => {
 		const existing = tx.select().from(table.limitProfiles).where(eq(table.limitProfiles.id, id)).get();
-		if (!existing) throw new LimitProfileError('No such limit profile', 'not-found');
+		if (!existing) throw new DomainError('not-found', 'No such limit profile');
 		const used = tx
 			.select({ id: table.snapshots.id })
 			.from(table.snapshots)
