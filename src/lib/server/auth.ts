@@ -289,6 +289,13 @@ export function sessionIdFromToken(token: string): string {
 
 // ── waits ───────────────────────────────────────────────────────────────────
 
+/** A wait as people say it: "40 seconds", "1 minute", "15 minutes". */
+export function waitText(seconds: number): string {
+	if (seconds < 60) return `${seconds} second${seconds === 1 ? '' : 's'}`;
+	const minutes = Math.ceil(seconds / 60);
+	return `${minutes} minute${minutes === 1 ? '' : 's'}`;
+}
+
 /** Seconds to wait after the `failures`-th failure under `policy`. */
 export function backoffDelayS(policy: BackoffPolicy, failures: number): number {
 	if (failures <= policy.free) return 0;
