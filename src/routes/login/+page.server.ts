@@ -16,9 +16,9 @@ import { safeNext } from '$lib/safe-next';
 import { formActions, pageLoad } from '$lib/server/handlers';
 import type { Actions, PageServerLoad } from './$types';
 
-export const load: PageServerLoad = pageLoad(({ locals, url }) => {
-	const next = safeNext(url.searchParams.get('next'));
-	if (locals.user) redirect(303, next);
+export const load: PageServerLoad = pageLoad((event) => {
+	const next = safeNext(event.url.searchParams.get('next'));
+	if (event.locals.user) redirect(303, next);
 	return { next };
 });
 
