@@ -1,6 +1,6 @@
 // The job queue end to end: a technician takes a unit in (after one refused submission),
 // finds it through the filtered table, logs work and a part, moves it to review and cannot
-// approve it; a supervisor then approves it.
+// approve it; a supervisor then approves it, which locks the job until they reopen it with a reason.
 import { expect, test, type Page } from '@playwright/test';
 import { ready, signIn } from './helpers';
 
@@ -131,4 +131,21 @@ test('technician takes a unit in and works it; only a supervisor approves', asyn
 	await expect(latest).toContainText('Awaiting review → Approved');
 	await expect(latest).toContainText('heat soak clean');
 	await expect(page.getByTestId('status-history').getByTestId('history-entry')).toHaveCount(6);
+
+	// ── signed off: locked until a supervisor reopens it with a reason ──────
+	await expect(page.getByTestId('job-locked')).toBeVisible();
+	await expect(page.getByTestId('log-form')).toHaveCount(0);
+	const late = await page.request.post(`/api/jobs/${jobId}/log`, {
+		headers: { origin: baseURL!, 'content-type': 'application/json' },
+		data: { text: 'Late entry', minutes: 1 }
+	});
+	expect(late.status()).toBe(409);
+	await page.getByLabel('Reason for reopening').fill('Customer reports the hum is back');
+	await page.getByTestId('reopen-submit').click();
+	await expect(page.getByTestId('job-status').getByTestId('status-badge')).toHaveText('Awaiting review');
+	await expect(page.getByTestId('history-entry').first()).toContainText(
+		'Reopened: Customer reports the hum is back'
+	);
+	await expect(page.getByTestId('job-locked')).toHaveCount(0);
+	await expect(page.getByTestId('log-form')).toBeVisible();
 });

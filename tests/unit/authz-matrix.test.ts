@@ -2,20 +2,31 @@
 // status expected for signed-out, technician, supervisor and admin callers, run against
 // the real handlers on the app's database (in memory in tests, seeded with the demo shop).
 // Route files are found on disk; a route or method without a row here fails the suite.
-import { afterEach, beforeAll, beforeEach, describe, expect, it } from 'vitest';
-import { readdirSync, statSync } from 'node:fs';
-import { join, relative, resolve, sep } from 'node:path';
+// Pages and form actions have their own matrix (authz-pages.test.ts); both share fixtures.
+import { beforeAll, describe, expect, it } from 'vitest';
+import { join, relative } from 'node:path';
 import { pathToFileURL } from 'node:url';
-import { isHttpError, isRedirect, type Cookies, type RequestEvent } from '@sveltejs/kit';
-import { db } from '$lib/server/db';
-import { createSession, type SessionInfo, type SessionUser } from '$lib/server/auth';
-import { seedDemo, DEMO_PASSWORD } from '../../scripts/seed';
+import { isHttpError, isRedirect, type RequestEvent } from '@sveltejs/kit';
+import { DEMO_PASSWORD } from '../../scripts/seed';
 import { createRun } from '$lib/server/soak';
 import { createLimitProfile } from '$lib/server/limit-profiles';
 import type { ProfileInputRaw } from '$lib/limit-profiles';
 import { createSnapshot } from '$lib/server/snapshots';
 import { encodeWav } from '$lib/dsp';
 import { isWrapped } from '$lib/server/handlers';
+import {
+	ROLES,
+	ROUTES_DIR,
+	fakeCookies,
+	fillRoute,
+	findServerFiles,
+	routeIdOf,
+	setupFixtures,
+	useSavepoints,
+	type Caller,
+	type Fixtures,
+	type Who
+} from './authz-fixtures';
 
 /** A running one-hour soak on the fixture job (inside the case's savepoint), as a route param. */
 function soakRun(fx: Fixtures, startedAtMs = Date.now()): string {
@@ -71,21 +82,6 @@ function snapshotIn(fx: Fixtures): string {
 
 type Method = 'GET' | 'POST' | 'PUT' | 'PATCH' | 'DELETE';
 const METHODS: Method[] = ['GET', 'POST', 'PUT', 'PATCH', 'DELETE'];
-const ROLES = ['signed-out', 'technician', 'supervisor', 'admin'] as const;
-type Caller = (typeof ROLES)[number];
-
-/** Ids of seeded things a request can point at. Extend it when your routes need more. */
-interface Fixtures {
-	db: typeof db;
-	users: Record<'admin' | 'supervisor' | 'tech1' | 'tech2', string>;
-	/** A job in `received`, with no parts. */
-	jobId: number;
-	/** A job in `awaiting-review`: the one approval is tried on. */
-	reviewJobId: number;
-	/** A part and the job it belongs to. */
-	partJobId: number;
-	partId: number;
-}
 
 interface RequestSpec {
 	params?: Record<string, string>;
@@ -166,6 +162,15 @@ const MATRIX: Row[] = [
 		request: (fx) => ({
 			params: { id: String(fx.reviewJobId) },
 			body: { status: 'approved', note: 'Signed off' }
+		})
+	},
+	{
+		route: '/api/jobs/[id]/reopen',
+		method: 'POST',
+		expect: [401, 403, 200, 200],
+		request: (fx) => ({
+			params: { id: String(fx.approvedJobId) },
+			body: { reason: 'Customer reports the hum is back' }
 		})
 	},
 	{
@@ -357,24 +362,6 @@ const MATRIX: Row[] = [
 
 // ── discovery ───────────────────────────────────────────────────────────────
 
-const ROUTES_DIR = resolve(process.cwd(), 'src/routes');
-
-function findServerFiles(dir: string, names = ['+server.ts', '+server.js']): string[] {
-	const out: string[] = [];
-	for (const name of readdirSync(dir)) {
-		const path = join(dir, name);
-		if (statSync(path).isDirectory()) out.push(...findServerFiles(path, names));
-		else if (names.includes(name)) out.push(path);
-	}
-	return out;
-}
-
-function routeIdOf(file: string): string {
-	const rel = relative(ROUTES_DIR, file).split(sep).slice(0, -1);
-	// Route groups like (app) are not part of the URL.
-	return '/' + rel.filter((seg) => !/^\(.*\)$/.test(seg)).join('/');
-}
-
 type Handler = (event: RequestEvent) => Response | Promise<Response>;
 interface RouteModule {
 	file: string;
@@ -384,36 +371,12 @@ interface RouteModule {
 
 const discovered: RouteModule[] = [];
 
-/** Loads and actions that call no service (they redirect, sign in or out): nothing to map. */
-const LOADS_WITHOUT_SERVICES = [
-	'+layout.server.ts',
-	'+page.server.ts',
-	'login/+page.server.ts',
-	'logout/+page.server.ts'
-];
-const ACTIONS_WITHOUT_SERVICES = ['login/+page.server.ts:default', 'logout/+page.server.ts:default'];
+/** Loads that call no service (they only redirect or hand over locals): nothing to wrap. */
+const LOADS_WITHOUT_SERVICES = ['+layout.server.ts', '+page.server.ts'];
 
 // ── calling a handler like SvelteKit does ──────────────────────────────────
 
 const ORIGIN = 'http://127.0.0.1:5173';
-
-function fakeCookies(): Cookies {
-	const jar = new Map<string, string>();
-	return {
-		get: (name: string) => jar.get(name),
-		getAll: () => [...jar].map(([name, value]) => ({ name, value })),
-		set: (name: string, value: string) => void jar.set(name, value),
-		delete: (name: string) => void jar.delete(name),
-		serialize: (name: string, value: string) => `${name}=${value}`
-	} as Cookies;
-}
-
-function fillRoute(routeId: string, params: Record<string, string>): string {
-	return routeId.replace(/\[(?:\.\.\.)?([^\]=]+)(?:=[^\]]+)?\]/g, (_, key: string) => {
-		if (!(key in params)) throw new Error(`request() for ${routeId} must give params.${key}`);
-		return encodeURIComponent(params[key]);
-	});
-}
 
 interface CallOptions {
 	origin?: string | null;
@@ -423,7 +386,7 @@ interface CallOptions {
 async function callHandler(
 	mod: RouteModule,
 	method: Method,
-	who: { user: SessionUser | null; session: SessionInfo | null },
+	who: Who,
 	spec: RequestSpec,
 	options: CallOptions = {}
 ): Promise<{ status: number; body: unknown }> {
@@ -477,7 +440,7 @@ async function callHandler(
 // ── fixtures, and a savepoint around every call ─────────────────────────────
 
 let fx: Fixtures;
-const callers = {} as Record<Caller, { user: SessionUser | null; session: SessionInfo | null }>;
+let callers: Record<Caller, Who>;
 
 beforeAll(async () => {
 	for (const file of findServerFiles(join(ROUTES_DIR, 'api'))) {
@@ -486,53 +449,10 @@ beforeAll(async () => {
 		for (const m of METHODS) if (typeof mod[m] === 'function') handlers[m] = mod[m] as Handler;
 		discovered.push({ file, routeId: routeIdOf(file), handlers });
 	}
-
-	await seedDemo(db);
-	const sqlite = db.$client;
-	const userId = (email: string) =>
-		(sqlite.prepare('SELECT id FROM users WHERE email = ?').get(email) as { id: string }).id;
-	const users = {
-		admin: userId('admin@example.com'),
-		supervisor: userId('supervisor@example.com'),
-		tech1: userId('tech1@example.com'),
-		tech2: userId('tech2@example.com')
-	};
-	const jobIn = (status: string) =>
-		(sqlite.prepare('SELECT id FROM jobs WHERE status = ? ORDER BY id LIMIT 1').get(status) as { id: number })
-			.id;
-	const part = sqlite.prepare('SELECT id, job_id AS jobId FROM parts ORDER BY id LIMIT 1').get() as {
-		id: number;
-		jobId: number;
-	};
-	fx = {
-		db,
-		users,
-		jobId: jobIn('received'),
-		reviewJobId: jobIn('awaiting-review'),
-		partJobId: part.jobId,
-		partId: part.id
-	};
-
-	const who = async (email: string, key: keyof Fixtures['users']) => {
-		const { session } = await createSession(db, users[key]);
-		const row = sqlite
-			.prepare('SELECT id, email, name, role FROM users WHERE email = ?')
-			.get(email) as SessionUser;
-		return { user: row, session };
-	};
-	callers['signed-out'] = { user: null, session: null };
-	callers.technician = await who('tech1@example.com', 'tech1');
-	callers.supervisor = await who('supervisor@example.com', 'supervisor');
-	callers.admin = await who('admin@example.com', 'admin');
+	({ fx, callers } = await setupFixtures());
 });
 
-beforeEach(() => {
-	db.$client.exec('SAVEPOINT authz_case');
-});
-afterEach(() => {
-	db.$client.exec('ROLLBACK TO authz_case');
-	db.$client.exec('RELEASE authz_case');
-});
+useSavepoints();
 
 function moduleFor(row: Row): RouteModule {
 	const mod = discovered.find((d) => d.routeId === row.route);
@@ -569,8 +489,7 @@ describe('authorization matrix', () => {
 			if (mod.load && !isWrapped(mod.load) && !LOADS_WITHOUT_SERVICES.includes(where))
 				bare.push(`load ${where}`);
 			for (const [name, action] of Object.entries(mod.actions ?? {}))
-				if (!isWrapped(action) && !ACTIONS_WITHOUT_SERVICES.includes(`${where}:${name}`))
-					bare.push(`action ${name} ${where}`);
+				if (!isWrapped(action)) bare.push(`action ${name} ${where}`);
 		}
 		expect(bare).toEqual([]);
 	});
@@ -696,6 +615,44 @@ describe('jobs and accounts API input handling', () => {
 		});
 		const history = (ok.body as { history: { toStatus: string; userId: string }[] }).history;
 		expect(history.at(-1)).toMatchObject({ toStatus: 'approved', userId: fx.users.supervisor });
+	});
+
+	it('409 for every edit of a signed-off job, saying how to reopen it; a reopened job takes edits again', async () => {
+		const route = (id: string) => discovered.find((d) => d.routeId === id)!;
+		const params = { id: String(fx.approvedJobId) };
+		const locked = { message: 'This job is signed off and locked; a supervisor can reopen it with a reason' };
+		const calls: [string, Method, unknown][] = [
+			['/api/jobs/[id]', 'PATCH', { complaint: 'Edited after sign-off' }],
+			['/api/jobs/[id]/log', 'POST', { text: 'Late entry', minutes: 5 }],
+			['/api/jobs/[id]/parts', 'POST', { refDes: 'R9', description: 'Resistor' }],
+			['/api/jobs/[id]/status', 'POST', { status: 'on-hold' }]
+		];
+		for (const [id, method, body] of calls) {
+			const res = await callHandler(route(id), method, callers.technician, { params, body });
+			expect({ id, status: res.status, body: res.body }).toEqual({ id, status: 409, body: locked });
+		}
+		const reopen = route('/api/jobs/[id]/reopen');
+		const noReason = await callHandler(reopen, 'POST', callers.supervisor, {
+			params,
+			body: { reason: 'ok' }
+		});
+		expect(noReason.status).toBe(400);
+		expect(noReason.body).toMatchObject({ issues: [{ path: 'reason' }] });
+		const ok = await callHandler(reopen, 'POST', callers.supervisor, {
+			params,
+			body: { reason: 'Recheck the right channel' }
+		});
+		expect(ok.body).toMatchObject({ status: 'awaiting-review' });
+		const again = await callHandler(reopen, 'POST', callers.supervisor, {
+			params,
+			body: { reason: 'Recheck the right channel' }
+		});
+		expect(again.status).toBe(409);
+		const log = await callHandler(route('/api/jobs/[id]/log'), 'POST', callers.technician, {
+			params,
+			body: { text: 'Rechecked', minutes: 5 }
+		});
+		expect(log.status).toBe(201);
 	});
 
 	it('a wrong current password is a 400 naming the field', async () => {

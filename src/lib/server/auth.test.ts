@@ -1,21 +1,39 @@
 // Sessions and passwords against an in-memory database with the real migrations: fresh
-// session at sign-in, sign-out, idle and absolute expiry, password change and deactivation
-// ending sessions, rate limits, argon2id parameters, cookie attributes.
-import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
+// session at sign-in (ending the browser's previous one), sign-out, idle and absolute expiry,
+// password change and deactivation ending sessions, sign-in throttling (per e-mail + address
+// waits that grow, account and address ceilings), the owner's e-mail after repeated failures
+// (through a real SMTP server), password strength, client addresses behind proxies, argon2id
+// parameters, cookie attributes.
+import { afterAll, afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
+
+// A real SMTP server on a free loopback port, started before the mail module reads SMTP_PORT.
+const smtp = await vi.hoisted(async () => {
+	const { startSmtpCatcher } = await import('../../../tests/unit/smtp-catcher');
+	const catcher = await startSmtpCatcher();
+	process.env.SMTP_PORT = String(catcher.port);
+	return catcher;
+});
+
 import { createHash } from 'node:crypto';
 import type { Cookies } from '@sveltejs/kit';
 import { eq } from 'drizzle-orm';
 import { openDb, type Db } from './db/open';
 import * as table from './db/schema';
 import {
+	PASSWORD_CHANGE_LIMITS,
 	SESSION_COOKIE,
 	SIGN_IN_LIMITS,
+	addressKey,
+	backoffDelayS,
 	changePassword,
+	clientAddress,
 	cookieSecureFor,
 	deleteSessionCookie,
 	hashPassword,
+	passwordWeakness,
 	purgeExpiredSessions,
 	sessionIdFromToken,
+	sessionIsLive,
 	setSessionCookie,
 	signIn,
 	signOut,
@@ -23,7 +41,13 @@ import {
 	verifyPassword
 } from './auth';
 import { env } from './env';
+import { isDomainError } from './errors';
+import { updateSettings } from './settings';
 import { createUser, updateUser } from './users';
+
+afterAll(async () => {
+	await smtp.close();
+});
 
 const PASSWORD = 'correct horse battery';
 const MINUTE_MS = 60_000;
@@ -227,6 +251,103 @@ describe('sign-in and sessions', () => {
 		);
 	});
 
+	it('signing in again from the same browser ends its previous session', async () => {
+		const first = await signInOk(db);
+		const second = await signIn(db, {
+			email: 'pat@example.com',
+			password: PASSWORD,
+			ip: '10.0.0.1',
+			previousSessionId: first.session.id
+		});
+		expect(second.ok).toBe(true);
+		expect(await validateSessionToken(db, first.token)).toBeNull();
+		expect(
+			db
+				.select()
+				.from(table.sessions)
+				.all()
+				.map((s) => s.id)
+		).toEqual([second.ok ? second.session.id : '']);
+	});
+
+	it('a failed sign-in leaves the browser’s session alone', async () => {
+		const first = await signInOk(db);
+		const wrong = await signIn(db, {
+			email: 'pat@example.com',
+			password: 'not it at all',
+			ip: '10.0.0.1',
+			previousSessionId: first.session.id
+		});
+		expect(wrong.ok).toBe(false);
+		expect(await validateSessionToken(db, first.token)).not.toBeNull();
+	});
+
+	it('a role change ends all the user’s sessions', async () => {
+		const a = await signInOk(db);
+		expect(sessionIsLive(db, a.session.id)).toBe(true);
+		await updateUser(db, userId, { role: 'supervisor' });
+		expect(sessionIsLive(db, a.session.id)).toBe(false);
+		expect(await validateSessionToken(db, a.token)).toBeNull();
+		// Renaming alone keeps them signed in.
+		const b = await signInOk(db);
+		await updateUser(db, userId, { name: 'Pat B.', role: 'supervisor' });
+		expect(sessionIsLive(db, b.session.id)).toBe(true);
+	});
+
+	it('knows whether a session still stands (signed out, deactivated, idle, over age)', async () => {
+		vi.useFakeTimers({ toFake: ['Date'] });
+		vi.setSystemTime(new Date('2026-03-02T08:00:00Z'));
+		const a = await signInOk(db);
+		const b = await signInOk(db);
+		expect(sessionIsLive(db, a.session.id)).toBe(true);
+		await signOut(db, a.session.id);
+		expect(sessionIsLive(db, a.session.id)).toBe(false);
+		vi.setSystemTime(Date.now() + (env.SESSION_IDLE_MINUTES + 1) * MINUTE_MS);
+		expect(sessionIsLive(db, b.session.id)).toBe(false);
+		vi.setSystemTime(new Date('2026-03-02T08:00:00Z'));
+		expect(sessionIsLive(db, b.session.id)).toBe(true);
+		db.update(table.users).set({ active: false }).where(eq(table.users.id, userId)).run();
+		expect(sessionIsLive(db, b.session.id)).toBe(false);
+		expect(sessionIsLive(db, 'no-such-session')).toBe(false);
+	});
+
+	it('refuses a new password that is too easy to guess, saying why and what is allowed', async () => {
+		const here = await signInOk(db);
+		let thrown: unknown;
+		try {
+			await changePassword(db, userId, PASSWORD, 'Pat Benchley 2026', here.session.id);
+		} catch (e) {
+			thrown = e;
+		}
+		expect(isDomainError(thrown) && thrown.status).toBe(400);
+		const issue = isDomainError(thrown) ? thrown.issues?.[0] : undefined;
+		expect(issue?.path).toBe('newPassword');
+		expect(issue?.message).toMatch(/^Too easy to guess: it contains your name/);
+		expect(issue?.message).toContain('at least 12 characters');
+		// Nothing changed.
+		expect((await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '10.0.0.8' })).ok).toBe(
+			true
+		);
+	});
+
+	it('slows guesses of the current password on a password change', async () => {
+		vi.useFakeTimers({ toFake: ['Date'] });
+		let nowMs = new Date('2026-03-02T08:00:00Z').getTime();
+		vi.setSystemTime(nowMs);
+		const here = await signInOk(db);
+		const guess = (current: string) =>
+			changePassword(db, userId, current, 'a brand new passphrase', here.session.id);
+		for (let i = 0; i < PASSWORD_CHANGE_LIMITS.free + 1; i++)
+			expect(await guess(`guess ${i}`)).toEqual({ ok: false, reason: 'wrong-password' });
+		// Even the right password waits now; the wait doubles with each further wrong guess.
+		expect(await guess(PASSWORD)).toEqual({ ok: false, reason: 'rate-limited', retryAfterS: 2 });
+		vi.setSystemTime((nowMs += 2000));
+		expect(await guess('guess again')).toEqual({ ok: false, reason: 'wrong-password' });
+		expect(await guess(PASSWORD)).toEqual({ ok: false, reason: 'rate-limited', retryAfterS: 4 });
+		vi.setSystemTime((nowMs += 4000));
+		expect(await guess(PASSWORD)).toEqual({ ok: true });
+	});
+
 	it('deactivation ends all the user’s sessions; reactivation allows sign-in again', async () => {
 		const a = await signInOk(db);
 		const b = await signInOk(db);
@@ -254,49 +375,286 @@ describe('sign-in and sessions', () => {
 	});
 });
 
-describe('sign-in rate limits', () => {
-	it(`pauses an account after ${SIGN_IN_LIMITS.perAccount.points} failures, even with the right password`, async () => {
-		const { db } = await freshDb();
-		for (let i = 0; i < SIGN_IN_LIMITS.perAccount.points; i++) {
-			// Different addresses: only the per-account limit is in play.
-			const r = await signIn(db, { email: 'pat@example.com', password: `wrong ${i}`, ip: `10.1.0.${i}` });
-			expect(r).toEqual({ ok: false, reason: 'invalid' });
+describe('sign-in throttling', () => {
+	const OWNER = 'pat@example.com';
+	let db: Db;
+	let nowMs: number;
+
+	/** Move the (faked) clock on; the limiters read Date. */
+	function advanceS(seconds: number) {
+		nowMs += seconds * 1000;
+		vi.setSystemTime(nowMs);
+	}
+	const attempt = (ip: string, password = 'not the password', email = OWNER) =>
+		signIn(db, { email, password, ip });
+
+	/** A wrong password from `ip`, waiting first if the address must wait; answers the wait it then had. */
+	async function failFrom(ip: string, email = OWNER): Promise<void> {
+		for (;;) {
+			const r = await attempt(ip, 'not the password', email);
+			if (r.ok) throw new Error('a wrong password signed in');
+			if (r.reason === 'invalid') return;
+			advanceS(r.retryAfterS);
 		}
-		const blocked = await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '10.1.1.1' });
-		expect(blocked.ok).toBe(false);
-		if (blocked.ok) return;
-		expect(blocked.reason).toBe('rate-limited');
-		expect(blocked.retryAfterS).toBeGreaterThan(0);
-		expect(blocked.retryAfterS).toBeLessThanOrEqual(SIGN_IN_LIMITS.perAccount.durationS);
-		// Another account is unaffected.
-		const other = await signIn(db, { email: 'other.admin@example.com', password: PASSWORD, ip: '10.1.1.1' });
-		expect(other.ok).toBe(true);
+	}
+
+	beforeEach(async () => {
+		({ db } = await freshDb());
+		nowMs = new Date('2026-03-02T08:00:00Z').getTime();
+		vi.useFakeTimers({ toFake: ['Date'] });
+		vi.setSystemTime(nowMs);
+	});
+	afterEach(() => {
+		vi.useRealTimers();
 	});
 
-	it('a successful sign-in clears the account’s failure count', async () => {
-		const { db } = await freshDb();
-		const fail = (i: number) =>
-			signIn(db, { email: 'pat@example.com', password: `wrong ${i}`, ip: `10.2.0.${i}` });
-		for (let i = 0; i < SIGN_IN_LIMITS.perAccount.points - 1; i++) await fail(i);
-		expect((await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '10.2.1.1' })).ok).toBe(
-			true
-		);
-		for (let i = 0; i < SIGN_IN_LIMITS.perAccount.points - 1; i++) await fail(i);
-		expect((await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '10.2.1.1' })).ok).toBe(
-			true
-		);
+	it('an attacker’s 50 failures from one address do not stop the owner at another', async () => {
+		for (let i = 0; i < 50; i++) await failFrom('198.51.100.7');
+		// The attacker's address now waits the longest pair delay…
+		const again = await attempt('198.51.100.7', PASSWORD);
+		expect(again).toEqual({ ok: false, reason: 'rate-limited', retryAfterS: SIGN_IN_LIMITS.pair.maxDelayS });
+		// …while the owner, from an address the account has never used, signs straight in.
+		expect((await attempt('192.0.2.10', PASSWORD)).ok).toBe(true);
 	});
 
-	it(`pauses an address after ${SIGN_IN_LIMITS.perAddress.points} failures across accounts`, async () => {
-		const { db } = await freshDb();
-		for (let i = 0; i < SIGN_IN_LIMITS.perAddress.points; i++) {
-			await signIn(db, { email: `guess${i}@example.com`, password: 'guess', ip: '192.0.2.50' });
+	it('gives each e-mail + address pair a few free failures, then waits that double up to a cap', async () => {
+		const waits: number[] = [];
+		for (let i = 1; i <= 14; i++) {
+			// Checked at once: the first three failures left no wait, later ones were waited out.
+			expect(await attempt('198.51.100.8')).toEqual({ ok: false, reason: 'invalid' });
+			if (i <= SIGN_IN_LIMITS.pair.free) continue;
+			const probe = await attempt('198.51.100.8', PASSWORD);
+			if (probe.ok || probe.reason !== 'rate-limited') throw new Error(`no wait after failure ${i}`);
+			waits.push(probe.retryAfterS);
+			advanceS(probe.retryAfterS);
 		}
-		const r = await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '192.0.2.50' });
-		expect(r).toMatchObject({ ok: false, reason: 'rate-limited' });
-		expect((await signIn(db, { email: 'pat@example.com', password: PASSWORD, ip: '192.0.2.51' })).ok).toBe(
-			true
+		// Exponential backoff (common practice): 2 s after the 4th failure, doubling, capped at 15 min.
+		expect(waits).toEqual([2, 4, 8, 16, 32, 64, 128, 256, 512, 900, 900]);
+		expect(backoffDelayS(SIGN_IN_LIMITS.pair, 3)).toBe(0);
+		expect(backoffDelayS(SIGN_IN_LIMITS.pair, 40)).toBe(900);
+	});
+
+	it('refuses an attempt during its wait without checking or counting it, then lets it through', async () => {
+		for (let i = 0; i < 4; i++) await failFrom('198.51.100.9');
+		const early = await attempt('198.51.100.9', PASSWORD);
+		expect(early).toEqual({ ok: false, reason: 'rate-limited', retryAfterS: 2 });
+		advanceS(1);
+		expect(await attempt('198.51.100.9', PASSWORD)).toEqual({
+			ok: false,
+			reason: 'rate-limited',
+			retryAfterS: 1
+		});
+		advanceS(1);
+		expect((await attempt('198.51.100.9', PASSWORD)).ok).toBe(true);
+	});
+
+	it('forgets a pair’s failures after a success', async () => {
+		for (let i = 0; i < 3; i++) await failFrom('198.51.100.10');
+		expect((await attempt('198.51.100.10', PASSWORD)).ok).toBe(true);
+		// Three free failures again.
+		for (let i = 0; i < 3; i++)
+			expect(await attempt('198.51.100.10')).toEqual({ ok: false, reason: 'invalid' });
+		expect((await attempt('198.51.100.10', PASSWORD)).ok).toBe(true);
+	});
+
+	it('counts an IPv6 client by its /64, so rotating through one network does not reset the count', async () => {
+		for (let i = 1; i <= 4; i++) await failFrom(`2001:db8:aa:bb::${i}`);
+		expect(await attempt('2001:db8:aa:bb:ffff::9', PASSWORD)).toMatchObject({ reason: 'rate-limited' });
+		expect((await attempt('2001:db8:aa:cc::1', PASSWORD)).ok).toBe(true);
+	});
+
+	it(`holds the account ceiling (${SIGN_IN_LIMITS.account.failuresPerWindow} failures an hour) for strange addresses, not the owner’s usual one`, async () => {
+		// The owner signed in from the office last week.
+		expect((await attempt('192.0.2.20', PASSWORD)).ok).toBe(true);
+		advanceS(7 * 86_400);
+		// A spread-out attack: three failures from each of 34 addresses, under every pair and address wait.
+		let n = 0;
+		for (let a = 0; n < SIGN_IN_LIMITS.account.failuresPerWindow; a++)
+			for (let k = 0; k < 3 && n < SIGN_IN_LIMITS.account.failuresPerWindow; k++, n++)
+				expect(await attempt(`203.0.113.${a}`)).toEqual({ ok: false, reason: 'invalid' });
+		// A new address, even with the right password, waits for the hour to pass.
+		const fresh = await attempt('198.51.100.200', PASSWORD);
+		expect(fresh).toMatchObject({ ok: false, reason: 'rate-limited' });
+		if (fresh.ok || fresh.reason !== 'rate-limited') return;
+		expect(fresh.retryAfterS).toBeGreaterThan(0);
+		expect(fresh.retryAfterS).toBeLessThanOrEqual(SIGN_IN_LIMITS.account.windowS);
+		// The owner's usual address is still let in.
+		expect((await attempt('192.0.2.20', PASSWORD)).ok).toBe(true);
+		// Another account is untouched.
+		expect((await attempt('198.51.100.200', PASSWORD, 'other.admin@example.com')).ok).toBe(true);
+		// After the window the new address may sign in.
+		advanceS(fresh.retryAfterS);
+		expect((await attempt('198.51.100.200', PASSWORD)).ok).toBe(true);
+	});
+
+	it(`slows an address past ${SIGN_IN_LIMITS.address.free} failures across e-mails, and never shuts it out`, async () => {
+		for (let i = 0; i < SIGN_IN_LIMITS.address.free; i++)
+			expect(await attempt('192.0.2.50', 'guess', `guess${i}@example.com`)).toEqual({
+				ok: false,
+				reason: 'invalid'
+			});
+		expect(await attempt('192.0.2.50', 'guess', 'guess-next@example.com')).toEqual({
+			ok: false,
+			reason: 'invalid'
+		});
+		// Past the ceiling: a short wait, growing with every further failure up to a minute.
+		expect(await attempt('192.0.2.50', PASSWORD)).toEqual({
+			ok: false,
+			reason: 'rate-limited',
+			retryAfterS: 1
+		});
+		const waits: number[] = [];
+		for (let i = 0; i < 8; i++) {
+			advanceS(SIGN_IN_LIMITS.address.maxDelayS);
+			await attempt('192.0.2.50', 'guess', `more${i}@example.com`);
+			const r = await attempt('192.0.2.50', PASSWORD);
+			waits.push(!r.ok && r.reason === 'rate-limited' ? r.retryAfterS : 0);
+		}
+		expect(waits).toEqual([2, 4, 8, 16, 32, 60, 60, 60]);
+		// The owner behind the same address waits at most a minute, then gets in.
+		advanceS(SIGN_IN_LIMITS.address.maxDelayS);
+		expect((await attempt('192.0.2.50', PASSWORD)).ok).toBe(true);
+		// Other addresses never noticed.
+		expect((await attempt('192.0.2.51', PASSWORD)).ok).toBe(true);
+	});
+});
+
+describe('telling the owner about repeated failed sign-ins', () => {
+	let db: Db;
+	let nowMs: number;
+	// Only this suite's shop: notices from other suites may still be on their way.
+	const alerts = () => smtp.messages.filter((m) => (m.subject ?? '').startsWith('Harrow & Vane Audio:'));
+	const advanceS = (s: number) => vi.setSystemTime((nowMs += s * 1000));
+	/** Failures spread over addresses so no wait gets in the way. */
+	async function failures(count: number, email = 'pat@example.com', prefix = '203.0.113') {
+		for (let i = 0; i < count; i++)
+			expect(await signIn(db, { email, password: 'wrong', ip: `${prefix}.${i % 200}` })).toEqual({
+				ok: false,
+				reason: 'invalid'
+			});
+	}
+
+	beforeEach(async () => {
+		smtp.messages.length = 0;
+		({ db } = await freshDb());
+		updateSettings(db, { shopName: 'Harrow & Vane Audio' });
+		nowMs = new Date('2026-03-02T08:00:00Z').getTime();
+		vi.useFakeTimers({ toFake: ['Date'] });
+		vi.setSystemTime(nowMs);
+	});
+	afterEach(() => {
+		vi.useRealTimers();
+	});
+
+	it(`e-mails the owner at ${SIGN_IN_LIMITS.alert.failures} failures in an hour, in text and HTML`, async () => {
+		await failures(SIGN_IN_LIMITS.alert.failures - 1);
+		await new Promise((r) => setTimeout(r, 300));
+		expect(alerts()).toHaveLength(0);
+		await failures(1, 'pat@example.com', '198.51.100');
+		const mail = await smtp.waitFor(() => alerts().length > 0).then(() => alerts()[0]);
+		expect(mail.subject).toBe('Harrow & Vane Audio: 10 failed sign-ins to your Benchlight account');
+		expect(mail.to && !Array.isArray(mail.to) ? mail.to.value[0].address : null).toBe('pat@example.com');
+		expect(mail.text).toContain('Hello Pat Benchley');
+		expect(mail.text).toContain('10 failed attempts');
+		// The first five addresses seen, for the owner to recognise or not.
+		expect(mail.text).toContain('from: 203.0.113.0, 203.0.113.1, 203.0.113.2, 203.0.113.3, 203.0.113.4.');
+		expect(mail.text).toContain('not locked');
+		expect(mail.html).toContain('<strong>10 failed attempts</strong>');
+		expect(mail.html).toContain('Harrow &amp; Vane Audio');
+	});
+
+	it('sends at most one an hour, and another after the hour when failures go on', async () => {
+		await failures(25);
+		await smtp.waitFor(() => alerts().length > 0);
+		await new Promise((r) => setTimeout(r, 300));
+		expect(alerts()).toHaveLength(1);
+		advanceS(SIGN_IN_LIMITS.alert.windowS + 1);
+		await failures(SIGN_IN_LIMITS.alert.failures, 'pat@example.com', '198.51.100');
+		await smtp.waitFor(() => alerts().length === 2);
+		expect(alerts()[1].text).toContain('198.51.100.0');
+	});
+
+	it('e-mails nobody for an unknown or deactivated account', async () => {
+		await failures(12, 'nobody@example.com');
+		const pat = db.select().from(table.users).where(eq(table.users.email, 'pat@example.com')).get()!;
+		await updateUser(db, pat.id, { active: false });
+		await failures(12);
+		await new Promise((r) => setTimeout(r, 300));
+		expect(alerts()).toHaveLength(0);
+	});
+});
+
+describe('password strength', () => {
+	it('refuses common, patterned and context-specific passwords, naming why', async () => {
+		const context = ['pat@example.com', 'Pat Benchley', 'Harrow Audio Works'];
+		expect(await passwordWeakness('password1234', context)).toBe(
+			'it is too close to a commonly used password'
 		);
+		expect(await passwordWeakness('qwertyuiop12', context)).toMatch(/commonly used|keyboard|row of keys/);
+		expect(await passwordWeakness('aaaaaaaaaaaa', context)).toBe('it repeats a character (like “aaa”)');
+		expect(await passwordWeakness('Pat Benchley 1', context)).toBe(
+			'it contains your name, your e-mail address or the shop’s name'
+		);
+		// Built on the shop's or the person's words: zxcvbn alone would score these 3.
+		for (const p of ['harrowaudio2026', 'patbenchley12', 'HarrowAudio!', 'benchlight123'])
+			expect(await passwordWeakness(p, context), p).toBe(
+				'it contains your name, your e-mail address or the shop’s name'
+			);
+	});
+
+	it('accepts passphrases of unrelated words', async () => {
+		const context = ['pat@example.com', 'Pat Benchley', 'Harrow Audio Works'];
+		expect(await passwordWeakness('zebra kettle violin', context)).toBeNull();
+		expect(await passwordWeakness(PASSWORD, context)).toBeNull();
+		// Using a context word is fine inside a passphrase that is strong anyway.
+		expect(await passwordWeakness('harrow bench lamp sings at dusk', context)).toBeNull();
+	});
+});
+
+describe('client address', () => {
+	const event = (xff: string | null, socket = '10.0.0.2') => ({
+		request: new Request(
+			'http://127.0.0.1/login',
+			xff === null ? {} : { headers: { 'x-forwarded-for': xff } }
+		),
+		getClientAddress: () => socket
+	});
+
+	it('ignores X-Forwarded-For when no proxy is trusted (the default)', () => {
+		expect(env.TRUSTED_PROXY).toBe(0);
+		expect(clientAddress(event('203.0.113.9'))).toBe('10.0.0.2');
+		expect(clientAddress(event('203.0.113.9'), 0)).toBe('10.0.0.2');
+	});
+
+	it('takes the right-most address the trusted proxies did not add', () => {
+		// One proxy: it appended the client it saw; anything left of that the client could have sent.
+		expect(clientAddress(event('6.6.6.6, 203.0.113.9'), 1)).toBe('203.0.113.9');
+		// Two proxies: the outer one appended the client, the inner one the outer proxy.
+		expect(clientAddress(event('6.6.6.6, 203.0.113.9, 10.0.0.1'), 2)).toBe('203.0.113.9');
+		expect(clientAddress(event('2001:db8::5'), 1)).toBe('2001:db8::5');
+	});
+
+	it('falls back to the connection when the header is missing, short or not an address', () => {
+		expect(clientAddress(event(null), 1)).toBe('10.0.0.2');
+		expect(clientAddress(event('203.0.113.9'), 2)).toBe('203.0.113.9');
+		expect(clientAddress(event('6.6.6.6, not-an-ip'), 1)).toBe('10.0.0.2');
+	});
+
+	it('reads the raw socket when adapter-node hands it over, whatever getClientAddress says', () => {
+		const e = { ...event('203.0.113.9'), platform: { req: { socket: { remoteAddress: '10.9.9.9' } } } };
+		expect(clientAddress(e, 0)).toBe('10.9.9.9');
+	});
+
+	it('keys IPv4 as is (also IPv4-mapped) and IPv6 by its /64', () => {
+		expect(addressKey('203.0.113.9')).toBe('203.0.113.9');
+		expect(addressKey('::ffff:203.0.113.9')).toBe('203.0.113.9');
+		// RFC 4291 §2.2: '::' stands for the run of zero groups.
+		expect(addressKey('2001:db8::1')).toBe('2001:db8:0:0::/64');
+		expect(addressKey('2001:DB8:0:0:8:800:200C:417A')).toBe('2001:db8:0:0::/64');
+		expect(addressKey('2001:db8:aa:bb::9')).toBe('2001:db8:aa:bb::/64');
+		expect(addressKey('fe80::1%eth0')).toBe('fe80:0:0:0::/64');
+		expect(addressKey('::1')).toBe('0:0:0:0::/64');
+		expect(addressKey('')).toBe('unknown');
 	});
 });
 

@@ -20,7 +20,24 @@ const schema = z.object({
 		.number()
 		.int()
 		.min(1)
-		.default(24 * 7)
+		.default(24 * 7),
+	/**
+	 * How many reverse proxies in front of the app append to X-Forwarded-For (`on` = 1). Off (0,
+	 * the default): the client is the connection's address and forwarded headers are ignored.
+	 */
+	TRUSTED_PROXY: z.preprocess(
+		(v) => {
+			const s = typeof v === 'string' ? v.trim().toLowerCase() : v;
+			if (s === undefined || s === '' || s === 'off' || s === 'false') return 0;
+			if (s === 'on' || s === 'true') return 1;
+			return s;
+		},
+		z.coerce
+			.number('TRUSTED_PROXY must be off, on, or the number of proxies (1–5)')
+			.int('TRUSTED_PROXY must be off, on, or the number of proxies (1–5)')
+			.min(0, 'TRUSTED_PROXY must be off, on, or the number of proxies (1–5)')
+			.max(5, 'TRUSTED_PROXY must be off, on, or the number of proxies (1–5)')
+	)
 });
 
 const parsed = schema.safeParse(process.env);

@@ -1,19 +1,24 @@
 // The job service against an in-memory database with the real migrations: intake and
 // customer reuse, list search/filter/sort/pages, detail with totals, status transitions
-// (roles, history in the same transaction), work log and parts, and validation errors.
+// (roles, history in the same transaction), work log and parts, validation errors, and the
+// sign-off lock with its reopening.
 import { beforeEach, describe, expect, it } from 'vitest';
 import { isDomainError } from './errors';
 import { eq } from 'drizzle-orm';
 import { openDb, type Db } from './db/open';
 import * as table from './db/schema';
 import {
+	JOB_LOCKED_MESSAGE,
 	addLogEntry,
 	addPart,
+	assertJobOpen,
 	changeStatus,
 	createJob,
 	deletePart,
 	getJob,
 	listJobs,
+	reopenJob,
+	statusMoves,
 	updateJob,
 	updatePart,
 	type Actor
@@ -307,6 +312,107 @@ describe('status changes', () => {
 		expect(() => changeStatus(db, job.id, { status: 'diagnosing' }, TECH)).toThrow(/history refused/);
 		db.$client.exec('DROP TRIGGER no_history');
 		expect(getJob(db, job.id)!.status).toBe('received');
+	});
+});
+
+describe('the sign-off lock', () => {
+	/** A job walked to approval by the technician and signed off by the supervisor, with one part. */
+	function approvedJob() {
+		const job = createJob(db, intake(), 'tech');
+		const part = addPart(db, job.id, partSchema.parse({ refDes: 'C1', description: 'Filter cap' }));
+		for (const s of ['diagnosing', 'repairing', 'testing', 'awaiting-review'] as const)
+			changeStatus(db, job.id, { status: s }, TECH);
+		changeStatus(db, job.id, { status: 'approved', note: 'Signed off' }, SUP);
+		return { id: job.id, partId: part.id };
+	}
+
+	/** The refusal a call gets: its status and message. */
+	function refusal(fn: () => unknown): { status: number; message: string } | 'ok' {
+		try {
+			fn();
+			return 'ok';
+		} catch (e) {
+			if (isDomainError(e)) return { status: e.status, message: e.message };
+			throw e;
+		}
+	}
+	const LOCKED = { status: 409, message: JOB_LOCKED_MESSAGE };
+
+	it('refuses edits, parts, log entries and status moves on an approved job, and stores nothing', () => {
+		const { id, partId } = approvedJob();
+		const before = getJob(db, id)!;
+		expect(refusal(() => updateJob(db, id, { complaint: 'Changed after sign-off' }))).toEqual(LOCKED);
+		expect(refusal(() => updateJob(db, id, { technicianId: 'tech2' }))).toEqual(LOCKED);
+		expect(refusal(() => addLogEntry(db, id, { text: 'Late note', minutes: 5 }, 'tech'))).toEqual(LOCKED);
+		expect(refusal(() => addPart(db, id, partSchema.parse({ refDes: 'Q3', description: 'Output' })))).toEqual(
+			LOCKED
+		);
+		expect(refusal(() => updatePart(db, id, partId, { state: 'fitted' }))).toEqual(LOCKED);
+		expect(refusal(() => deletePart(db, id, partId))).toEqual(LOCKED);
+		// The old escape: put it on hold, then back to the bench. Not any more, for any role.
+		for (const actor of [TECH, SUP, ADMIN])
+			for (const status of ['on-hold', 'declined', 'testing', 'repairing'] as const)
+				expect(refusal(() => changeStatus(db, id, { status }, actor))).toEqual(LOCKED);
+		const after = getJob(db, id)!;
+		expect(after).toEqual(before);
+		expect(refusal(() => assertJobOpen(db, id))).toEqual(LOCKED);
+	});
+
+	it('still lets an approved unit go home, and then a returned job is locked too', () => {
+		const { id } = approvedJob();
+		expect(changeStatus(db, id, { status: 'returned' }, TECH).status).toBe('returned');
+		expect(refusal(() => addLogEntry(db, id, { text: 'Customer called', minutes: 0 }, 'tech'))).toEqual(
+			LOCKED
+		);
+		expect(refusal(() => changeStatus(db, id, { status: 'on-hold' }, ADMIN))).toEqual(LOCKED);
+	});
+
+	it('offers only the moves the lock allows', () => {
+		for (const role of ['technician', 'supervisor', 'admin'] as const) {
+			expect(statusMoves('approved', role)).toEqual(['returned']);
+			expect(statusMoves('returned', role)).toEqual([]);
+			for (const s of JOB_STATUSES.filter((x) => x !== 'approved' && x !== 'returned'))
+				expect(statusMoves(s, role)).toEqual(allowedNextStatuses(s, role));
+		}
+	});
+
+	it('lets only a supervisor or admin reopen, with a reason of 3–500 characters, recorded in the history', () => {
+		const { id } = approvedJob();
+		expect(refusal(() => reopenJob(db, id, { reason: 'Customer reports hum again' }, TECH))).toMatchObject({
+			status: 403
+		});
+		expect(refusal(() => reopenJob(db, id, { reason: ' x ' }, SUP))).toMatchObject({ status: 400 });
+		expect(refusal(() => reopenJob(db, id, { reason: 'y'.repeat(501) }, SUP))).toMatchObject({ status: 400 });
+		expect(refusal(() => reopenJob(db, id, {} as never, SUP))).toMatchObject({ status: 400 });
+		expect(getJob(db, id)!.status).toBe('approved');
+		expect(getJob(db, id)!.history).toHaveLength(6);
+
+		const reopened = reopenJob(db, id, { reason: '  Right channel THD out of limit on recheck  ' }, SUP);
+		expect(reopened.status).toBe('awaiting-review');
+		expect(reopened.history).toHaveLength(7);
+		expect(reopened.history.at(-1)).toMatchObject({
+			fromStatus: 'approved',
+			toStatus: 'awaiting-review',
+			note: 'Reopened: Right channel THD out of limit on recheck',
+			userId: 'sup',
+			userName: 'Rowan Thistlewood'
+		});
+		// Open again: work goes on, and it is signed off afresh.
+		expect(assertJobOpen(db, id).id).toBe(id);
+		changeStatus(db, id, { status: 'repairing' }, TECH);
+		addLogEntry(db, id, { text: 'Replaced the bias trimmer', minutes: 20 }, 'tech');
+		expect(getJob(db, id)!.log).toHaveLength(1);
+	});
+
+	it('sends a returned unit back to diagnosis, and refuses to reopen a job that is not signed off', () => {
+		const { id } = approvedJob();
+		changeStatus(db, id, { status: 'returned' }, TECH);
+		expect(reopenJob(db, id, { reason: 'Came back under warranty' }, ADMIN).status).toBe('diagnosing');
+		expect(refusal(() => reopenJob(db, id, { reason: 'Again?' }, ADMIN))).toMatchObject({ status: 409 });
+		expect(refusal(() => reopenJob(db, 9999, { reason: 'No such job' }, ADMIN))).toMatchObject({
+			status: 404
+		});
+		expect(refusal(() => assertJobOpen(db, 9999))).toMatchObject({ status: 404 });
 	});
 });
 

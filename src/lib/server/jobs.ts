@@ -1,6 +1,7 @@
 // The job queue: list with search/filter/sort/pages, job detail, intake, edits, status
-// changes (with history in the same transaction), work log and parts. Results are plain
-// JSON-safe objects (dates as ISO strings), identical for page loads and the JSON API.
+// changes (with history in the same transaction), work log and parts, and the sign-off lock
+// (`assertJobOpen`, the one rule every service that adds to a job calls; `reopenJob`). Results
+// are plain JSON-safe objects (dates as ISO strings), identical for page loads and the JSON API.
 import { aliasedTable, and, asc, count, desc, eq, inArray, isNull, or, sql, type SQL } from 'drizzle-orm';
 import type { BaseSQLiteDatabase } from 'drizzle-orm/sqlite-core';
 import type { RunResult } from 'better-sqlite3';
@@ -10,8 +11,10 @@ import type { JobStatus, PartState, Role, UnitCategory } from './db/schema';
 import { badRequest } from './api';
 import { DomainError } from './errors';
 import { validate } from './validate';
+import { reopenSchema, type ReopenInput } from '../schemas/job-lock';
 import {
 	JOB_STATUSES,
+	allowedNextStatuses,
 	jobIntakeSchema,
 	jobPatchSchema,
 	logEntrySchema,
@@ -156,6 +159,76 @@ function checkTechnician(db: Conn, technicianId: string | null): void {
 	if (!user || !user.active) {
 		badRequest('Invalid input', [{ path: 'technicianId', message: 'Choose an active member of staff' }]);
 	}
+}
+
+// ── sign-off lock ───────────────────────────────────────────────────────────
+
+/** Statuses that mean the job is signed off: its record is locked until a supervisor reopens it. */
+export const LOCKED_STATUSES: readonly JobStatus[] = ['approved', 'returned'];
+
+export const JOB_LOCKED_MESSAGE =
+	'This job is signed off and locked; a supervisor can reopen it with a reason';
+
+export function isLockedStatus(status: JobStatus): boolean {
+	return LOCKED_STATUSES.includes(status);
+}
+
+/** The one move a locked job still takes: the approved unit goes back to its owner. */
+const LOCKED_MOVES: Partial<Record<JobStatus, readonly JobStatus[]>> = { approved: ['returned'] };
+
+/**
+ * Where a reopened job resumes: an approval withdrawn goes back to review; a unit that came
+ * back after it was returned is diagnosed again.
+ */
+const REOPEN_TO: Partial<Record<JobStatus, JobStatus>> = {
+	approved: 'awaiting-review',
+	returned: 'diagnosing'
+};
+
+/**
+ * The job, when it may still be changed: 404 when there is no such job, 409 when it is signed
+ * off (approved or returned). Every service that edits a job or adds to it (details, parts,
+ * work log, snapshots, soak runs) calls this, inside its transaction when it has one.
+ */
+export function assertJobOpen(db: Conn, jobId: number): table.Job {
+	const job = requireJob(db, jobId);
+	if (isLockedStatus(job.status)) throw new DomainError('conflict', JOB_LOCKED_MESSAGE);
+	return job;
+}
+
+/** The statuses `role` may move a job to from `from`, with the lock applied (what the UI offers). */
+export function statusMoves(from: JobStatus, role: Role): JobStatus[] {
+	const moves = allowedNextStatuses(from, role);
+	return isLockedStatus(from) ? moves.filter((s) => LOCKED_MOVES[from]?.includes(s)) : moves;
+}
+
+/**
+ * A supervisor or admin reopens a signed-off job with a reason (3–500 characters): it goes back
+ * to review (approved) or to diagnosis (returned), and the history records who, when and why.
+ * 403 for other roles, 409 for a job that is not signed off.
+ */
+export function reopenJob(db: Db, id: number, input: ReopenInput, actor: Actor): JobDetail {
+	const data = validate(reopenSchema, input);
+	if (actor.role !== 'supervisor' && actor.role !== 'admin')
+		throw new DomainError('forbidden', 'Only a supervisor or admin may reopen a signed-off job');
+	db.transaction((tx) => {
+		const job = requireJob(tx, id);
+		const to = REOPEN_TO[job.status];
+		if (!to) throw new DomainError('conflict', 'This job is not signed off, so there is nothing to reopen');
+		const now = new Date();
+		tx.update(table.jobs).set({ status: to, updatedAt: now }).where(eq(table.jobs.id, id)).run();
+		tx.insert(table.jobStatusHistory)
+			.values({
+				jobId: id,
+				userId: actor.id,
+				fromStatus: job.status,
+				toStatus: to,
+				note: `Reopened: ${data.reason}`,
+				createdAt: now
+			})
+			.run();
+	});
+	return getJob(db, id)!;
 }
 
 // ── list ────────────────────────────────────────────────────────────────────
@@ -506,22 +579,24 @@ export function createJob(db: Db, input: JobIntake, userId: string): JobDetail {
 /** Edit unit details, complaint, assignment or promised date (not the status). */
 export function updateJob(db: Db, id: number, patch: JobPatch): JobDetail {
 	const data = validate(jobPatchSchema, patch);
-	requireJob(db, id);
-	const changes: Partial<typeof table.jobs.$inferInsert> = { updatedAt: new Date() };
-	if (data.category !== undefined) changes.category = data.category;
-	if (data.make !== undefined) changes.make = data.make;
-	if (data.model !== undefined) changes.model = data.model;
-	if (data.serial !== undefined) changes.serial = blank(data.serial);
-	if (data.year !== undefined) changes.year = data.year;
-	if (data.complaint !== undefined) changes.complaint = data.complaint;
-	if (data.ratedPowerW !== undefined) changes.ratedPowerW = data.ratedPowerW;
-	if (data.ratedLoadOhms !== undefined) changes.ratedLoadOhms = data.ratedLoadOhms;
-	if (data.promisedDate !== undefined) changes.promisedDate = blank(data.promisedDate);
-	if (data.technicianId !== undefined) {
-		changes.technicianId = blank(data.technicianId);
-		checkTechnician(db, changes.technicianId);
-	}
-	db.update(table.jobs).set(changes).where(eq(table.jobs.id, id)).run();
+	db.transaction((tx) => {
+		assertJobOpen(tx, id);
+		const changes: Partial<typeof table.jobs.$inferInsert> = { updatedAt: new Date() };
+		if (data.category !== undefined) changes.category = data.category;
+		if (data.make !== undefined) changes.make = data.make;
+		if (data.model !== undefined) changes.model = data.model;
+		if (data.serial !== undefined) changes.serial = blank(data.serial);
+		if (data.year !== undefined) changes.year = data.year;
+		if (data.complaint !== undefined) changes.complaint = data.complaint;
+		if (data.ratedPowerW !== undefined) changes.ratedPowerW = data.ratedPowerW;
+		if (data.ratedLoadOhms !== undefined) changes.ratedLoadOhms = data.ratedLoadOhms;
+		if (data.promisedDate !== undefined) changes.promisedDate = blank(data.promisedDate);
+		if (data.technicianId !== undefined) {
+			changes.technicianId = blank(data.technicianId);
+			checkTechnician(tx, changes.technicianId);
+		}
+		tx.update(table.jobs).set(changes).where(eq(table.jobs.id, id)).run();
+	});
 	return getJob(db, id)!;
 }
 
@@ -529,7 +604,8 @@ export function updateJob(db: Db, id: number, patch: JobPatch): JobDetail {
 
 /**
  * Move a job to another status. 403 when the role may not enter it (approval), 409 when
- * the move is not allowed from the current status. The job and its history row are
+ * the move is not allowed from the current status or the job is signed off (an approved job
+ * may only be returned; anything else needs `reopenJob`). The job and its history row are
  * written in one transaction.
  */
 export function changeStatus(db: Db, id: number, input: StatusChange, actor: Actor): JobDetail {
@@ -537,6 +613,8 @@ export function changeStatus(db: Db, id: number, input: StatusChange, actor: Act
 	db.transaction((tx) => {
 		const job = tx.select({ status: table.jobs.status }).from(table.jobs).where(eq(table.jobs.id, id)).get();
 		if (!job) throw new DomainError('not-found', 'No such job');
+		if (isLockedStatus(job.status) && !LOCKED_MOVES[job.status]?.includes(data.status))
+			throw new DomainError('conflict', JOB_LOCKED_MESSAGE);
 		if (!roleMayEnter(data.status, actor.role))
 			throw new DomainError('forbidden', 'Only a supervisor or admin may approve a job');
 		if (!nextStatuses(job.status).includes(data.status)) {
@@ -563,9 +641,7 @@ export function changeStatus(db: Db, id: number, input: StatusChange, actor: Act
 export function addLogEntry(db: Db, jobId: number, input: LogEntryInput, authorId: string): WorkLogItem {
 	const data = validate(logEntrySchema, input);
 	return db.transaction((tx) => {
-		if (!tx.select({ id: table.jobs.id }).from(table.jobs).where(eq(table.jobs.id, jobId)).get()) {
-			throw new DomainError('not-found', 'No such job');
-		}
+		assertJobOpen(tx, jobId);
 		const now = new Date();
 		const entry = tx
 			.insert(table.workLog)
@@ -594,7 +670,7 @@ export function addLogEntry(db: Db, jobId: number, input: LogEntryInput, authorI
 export function addPart(db: Db, jobId: number, input: PartInput): PartItem {
 	const data = validate(partSchema, input);
 	return db.transaction((tx) => {
-		requireJob(tx, jobId);
+		assertJobOpen(tx, jobId);
 		const now = new Date();
 		const part = tx
 			.insert(table.parts)
@@ -618,8 +694,9 @@ export function addPart(db: Db, jobId: number, input: PartInput): PartItem {
 	});
 }
 
+/** A part of an open job (404 for another job's part, 409 when the job is signed off). */
 function requirePart(db: Conn, jobId: number, partId: number): table.Part {
-	requireJob(db, jobId);
+	assertJobOpen(db, jobId);
 	const part = db
 		.select()
 		.from(table.parts)

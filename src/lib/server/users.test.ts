@@ -1,10 +1,12 @@
-// User management against an in-memory database: create (validation, duplicate e-mail),
-// list without hashes, role changes, the last-admin rule, deactivation.
+// User management against an in-memory database: create (validation, duplicate e-mail,
+// password strength), list without hashes, role changes and deactivation ending sessions,
+// the last-admin rule.
 import { beforeEach, describe, expect, it } from 'vitest';
 import { isDomainError } from './errors';
 import { openDb, type Db } from './db/open';
 import { createUser, getUser, isUserId, listAssignableUsers, listUsers, updateUser } from './users';
-import { signIn } from './auth';
+import { signIn, validateSessionToken } from './auth';
+import { updateSettings } from './settings';
 
 async function statusOf(fn: () => Promise<unknown>): Promise<number | 'ok'> {
 	try {
@@ -102,6 +104,61 @@ describe('users', () => {
 		await createUser(db, { email: 's@example.com', name: 'Mo', role: 'supervisor', password: PASSWORD });
 		await updateUser(db, t.id, { active: false });
 		expect(listAssignableUsers(db).map((u) => u.name)).toEqual(['Mo', 'Zed']);
+	});
+
+	it('ends the user’s sessions when their role changes, not when nothing changes', async () => {
+		await createUser(db, { email: 'adm@example.com', name: 'Adm', role: 'admin', password: PASSWORD });
+		const t = await createUser(db, {
+			email: 't@example.com',
+			name: 'T',
+			role: 'technician',
+			password: PASSWORD
+		});
+		const signInT = async () => {
+			const r = await signIn(db, { email: 't@example.com', password: PASSWORD, ip: '10.9.0.2' });
+			if (!r.ok) throw new Error('sign-in failed');
+			return r.token;
+		};
+		const same = await signInT();
+		await updateUser(db, t.id, { role: 'technician', name: 'Tee' });
+		expect(await validateSessionToken(db, same)).not.toBeNull();
+		const before = await signInT();
+		await updateUser(db, t.id, { role: 'supervisor' });
+		expect(await validateSessionToken(db, before)).toBeNull();
+		expect(await validateSessionToken(db, same)).toBeNull();
+	});
+
+	it('refuses a weak password on create and on an admin reset, naming the field and why (400)', async () => {
+		updateSettings(db, { shopName: 'Quiet Valve Audio Works' });
+		const weak = async (fn: () => Promise<unknown>) => {
+			try {
+				await fn();
+			} catch (e) {
+				if (isDomainError(e) && e.status === 400) return e.issues ?? [];
+				throw e;
+			}
+			throw new Error('expected a 400');
+		};
+		const base = { email: 'ola.venn@example.com', name: 'Ola Venn', role: 'technician' as const };
+		const common = await weak(() => createUser(db, { ...base, password: 'password1234' }));
+		expect(common).toEqual([
+			{
+				path: 'password',
+				message: expect.stringMatching(
+					/^Too easy to guess: it is too close to a commonly used password\. Use at least 12 characters/
+				)
+			}
+		]);
+		const own = await weak(() => createUser(db, { ...base, password: 'olavenn12345' }));
+		expect(own[0].message).toMatch(/your name, your e-mail address or the shop’s name/);
+		const shop = await weak(() => createUser(db, { ...base, password: 'quietvalve2026' }));
+		expect(shop[0].message).toMatch(/the shop’s name/);
+		expect(listUsers(db)).toHaveLength(0);
+
+		const u = await createUser(db, { ...base, password: PASSWORD });
+		const reset = await weak(() => updateUser(db, u.id, { password: 'qwerty123456' }));
+		expect(reset[0].path).toBe('password');
+		expect((await signIn(db, { email: base.email, password: PASSWORD, ip: '10.9.0.3' })).ok).toBe(true);
 	});
 
 	it('recognises user ids', () => {

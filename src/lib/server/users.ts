@@ -1,11 +1,12 @@
 // User management for admins: list, create, rename, change role, deactivate/reactivate,
-// reset a password. Deactivation and password resets end the user's sessions.
+// reset a password. A role change, deactivation or password reset ends the user's sessions;
+// a new password must pass the strength estimate (with the person's name and e-mail).
 import { asc, eq, and, count } from 'drizzle-orm';
 import { generateIdFromEntropySize } from 'lucia';
 import type { Db } from './db/open';
 import * as table from './db/schema';
 import type { Role } from './db/schema';
-import { endUserSessions, hashPassword, setPassword } from './auth';
+import { assertStrongPassword, endUserSessions, hashPassword, setPassword } from './auth';
 import { userCreateSchema, userPatchSchema, type UserCreate, type UserPatch } from '../schemas/users';
 import { DomainError } from './errors';
 import { validate } from './validate';
@@ -83,6 +84,7 @@ export async function createUser(db: Db, input: UserCreate): Promise<UserSummary
 	const data = validate(userCreateSchema, input);
 	if (emailTaken(db, data.email))
 		throw new DomainError('conflict', 'That e-mail address already has an account');
+	await assertStrongPassword(db, data.password, data);
 	const passwordHash = await hashPassword(data.password);
 	const id = generateIdFromEntropySize(10);
 	const now = new Date();
@@ -117,8 +119,9 @@ function activeAdminCount(db: Db): number {
 }
 
 /**
- * Rename, change role, (de)activate or reset the password. Deactivating or resetting the
- * password ends all the user's sessions. The last active admin cannot be demoted or
+ * Rename, change role, (de)activate or reset the password. Changing the role, deactivating or
+ * resetting the password ends all the user's sessions (they sign in again under the new terms;
+ * bridge tokens are minted only for live sessions). The last active admin cannot be demoted or
  * deactivated (409), so the shop never locks itself out of user management.
  */
 export async function updateUser(db: Db, id: string, patch: UserPatch): Promise<UserSummary> {
@@ -133,6 +136,8 @@ export async function updateUser(db: Db, id: string, patch: UserPatch): Promise<
 	if (losesAdmin && activeAdminCount(db) <= 1) {
 		throw new DomainError('conflict', 'This is the last active admin: make another admin first');
 	}
+	if (data.password !== undefined)
+		await assertStrongPassword(db, data.password, { email: current.email, name: data.name ?? current.name });
 
 	const changes: Partial<typeof table.users.$inferInsert> = {};
 	if (data.name !== undefined) changes.name = data.name;
@@ -142,7 +147,8 @@ export async function updateUser(db: Db, id: string, patch: UserPatch): Promise<
 		changes.updatedAt = new Date();
 		db.update(table.users).set(changes).where(eq(table.users.id, id)).run();
 	}
-	if (data.active === false) await endUserSessions(db, id);
+	const roleChanged = data.role !== undefined && data.role !== current.role;
+	if (data.active === false || roleChanged) await endUserSessions(db, id);
 	if (data.password !== undefined) await setPassword(db, id, data.password, null);
 	return getUser(db, id)!;
 }

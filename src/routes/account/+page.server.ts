@@ -1,7 +1,9 @@
-// Your account: change your own password. Other sessions end; this one stays signed in.
+// Your account: change your own password. Other sessions end; this one stays signed in. A new
+// password that is too easy to guess comes back beside its field (the service's 400); wrong
+// guesses of the current one are slowed (429).
 import { fail } from '@sveltejs/kit';
 import { db } from '$lib/server/db';
-import { changePassword } from '$lib/server/auth';
+import { changePassword, waitText } from '$lib/server/auth';
 import { requireUser } from '$lib/server/guards';
 import { passwordChangeSchema } from '$lib/schemas/users';
 import { pageLoad, formActions } from '$lib/server/handlers';
@@ -38,6 +40,15 @@ export const actions: Actions = formActions({
 			parsed.data.newPassword,
 			event.locals.session?.id ?? null
 		);
+		if (!result.ok && result.reason === 'rate-limited') {
+			event.setHeaders({ 'retry-after': String(result.retryAfterS) });
+			const errors: FieldErrors = {
+				currentPassword: [
+					`Too many wrong guesses of your current password. Wait ${waitText(result.retryAfterS)} and try again.`
+				]
+			};
+			return fail(429, { errors, done: false });
+		}
 		if (!result.ok) {
 			const errors: FieldErrors = { currentPassword: ['That is not your current password'] };
 			return fail(400, { errors, done: false });

@@ -1,19 +1,28 @@
-// Sign-in page: a fresh session on success, one generic message on any failure, and a
-// clear wait message when the per-account or per-address limit is reached.
+// Sign-in page: a fresh session on success (ending this browser's previous one), one generic
+// message on any failure, and a clear wait when this e-mail and address, or this address, must
+// slow down. The client address honours TRUSTED_PROXY.
 import { fail, redirect } from '@sveltejs/kit';
 import { db } from '$lib/server/db';
-import { cookieSecureFor, setSessionCookie, signIn, SIGN_IN_FAILED_MESSAGE } from '$lib/server/auth';
+import {
+	clientAddress,
+	cookieSecureFor,
+	setSessionCookie,
+	signIn,
+	SIGN_IN_FAILED_MESSAGE,
+	waitText
+} from '$lib/server/auth';
 import { signInSchema } from '$lib/schemas/users';
 import { safeNext } from '$lib/safe-next';
+import { formActions, pageLoad } from '$lib/server/handlers';
 import type { Actions, PageServerLoad } from './$types';
 
-export const load: PageServerLoad = ({ locals, url }) => {
-	const next = safeNext(url.searchParams.get('next'));
-	if (locals.user) redirect(303, next);
+export const load: PageServerLoad = pageLoad((event) => {
+	const next = safeNext(event.url.searchParams.get('next'));
+	if (event.locals.user) redirect(303, next);
 	return { next };
-};
+});
 
-export const actions: Actions = {
+export const actions: Actions = formActions({
 	default: async (event) => {
 		const form = await event.request.formData();
 		const next = safeNext(form.get('next'));
@@ -22,13 +31,17 @@ export const actions: Actions = {
 		const parsed = signInSchema.safeParse(raw);
 		if (!parsed.success) return fail(400, { email, message: SIGN_IN_FAILED_MESSAGE, limited: false });
 
-		const result = await signIn(db, { ...parsed.data, ip: event.getClientAddress() });
+		const result = await signIn(db, {
+			...parsed.data,
+			ip: clientAddress(event),
+			previousSessionId: event.locals.session?.id ?? null
+		});
 		if (!result.ok) {
 			if (result.reason === 'rate-limited') {
-				const minutes = Math.max(1, Math.ceil((result.retryAfterS ?? 60) / 60));
+				event.setHeaders({ 'retry-after': String(result.retryAfterS) });
 				return fail(429, {
 					email,
-					message: `Too many sign-in attempts. Wait ${minutes} minute${minutes === 1 ? '' : 's'} and try again.`,
+					message: `Too many failed sign-ins. Wait ${waitText(result.retryAfterS)} and try again.`,
 					limited: true
 				});
 			}
@@ -37,4 +50,4 @@ export const actions: Actions = {
 		setSessionCookie(event.cookies, result.token, result.expiresAt, cookieSecureFor(event.url));
 		redirect(303, next);
 	}
-};
+});

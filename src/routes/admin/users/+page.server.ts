@@ -45,7 +45,11 @@ export const actions: Actions = formActions({
 		const parsed = userPatchSchema.safeParse({ role: text(form, 'role') });
 		if (!parsed.success) return fail(400, { action: 'role', message: 'Choose a role' });
 		await updateUser(db, id, parsed.data);
-		return { action: 'role', ok: true, message: 'Role changed.' };
+		return {
+			action: 'role',
+			ok: true,
+			message: 'Role changed; their sessions have ended, so they sign in again.'
+		};
 	},
 
 	active: async (event) => {

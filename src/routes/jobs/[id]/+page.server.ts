@@ -1,10 +1,11 @@
 // A job's page: unit, customer, status with its allowed moves, history, work log and parts.
 // Every action guards itself and calls the jobs service; the service enforces the rules again,
-// and its refusals (403 approval, 409 move not allowed, 404 gone) come back as page messages.
+// and its refusals (403 approval, 409 move not allowed or job signed off, 404 gone) come back as
+// page messages. A signed-off job is locked; a supervisor or admin reopens it with a reason.
 import { fail } from '@sveltejs/kit';
 import { db } from '$lib/server/db';
 import { DomainError } from '$lib/server/errors';
-import { requireUser } from '$lib/server/guards';
+import { requireSupervisor, requireUser } from '$lib/server/guards';
 import { idParam } from '$lib/server/api';
 import {
 	addLogEntry,
@@ -12,17 +13,15 @@ import {
 	changeStatus,
 	deletePart,
 	getJob,
+	isLockedStatus,
+	reopenJob,
+	statusMoves,
 	updateJob,
 	updatePart
 } from '$lib/server/jobs';
 import { listAssignableUsers } from '$lib/server/users';
-import {
-	allowedNextStatuses,
-	logEntrySchema,
-	partSchema,
-	PART_STATES,
-	statusChangeSchema
-} from '$lib/schemas/jobs';
+import { reopenSchema } from '$lib/schemas/job-lock';
+import { logEntrySchema, partSchema, PART_STATES, statusChangeSchema } from '$lib/schemas/jobs';
 import { fieldErrors, number, optionalText, text } from '$lib/forms';
 import { parseMoneyToCents } from '$lib/format';
 import { pageLoad, formActions } from '$lib/server/handlers';
@@ -35,7 +34,9 @@ export const load: PageServerLoad = pageLoad((event) => {
 	if (!job) throw new DomainError('not-found', 'No such job');
 	return {
 		job,
-		nextStatuses: allowedNextStatuses(job.status, user.role),
+		nextStatuses: statusMoves(job.status, user.role),
+		locked: isLockedStatus(job.status),
+		canReopen: isLockedStatus(job.status) && (user.role === 'supervisor' || user.role === 'admin'),
 		technicians: listAssignableUsers(db),
 		me: user
 	};
@@ -59,6 +60,23 @@ export const actions: Actions = formActions({
 			return fail(400, { action: 'status', message: 'Choose a status', errors: fieldErrors(parsed.error) });
 		changeStatus(db, id, parsed.data, user);
 		return { action: 'status', ok: true };
+	},
+
+	reopen: async (event) => {
+		const user = requireSupervisor(event);
+		const id = idParam(event.params.id, 'job');
+		const form = await event.request.formData();
+		const values = { reason: text(form, 'reason') };
+		const parsed = reopenSchema.safeParse(values);
+		if (!parsed.success)
+			return fail(400, {
+				action: 'reopen',
+				message: 'Give a reason',
+				values,
+				errors: fieldErrors(parsed.error)
+			});
+		reopenJob(db, id, parsed.data, user);
+		return { action: 'reopen', ok: true };
 	},
 
 	assign: async (event) => {

@@ -1,0 +1,54 @@
+// A real SMTP server (smtp-server) on a free loopback port for unit tests: it keeps every
+// message it receives, parsed by mailparser, so a test can read back what the app sent.
+import { SMTPServer } from 'smtp-server';
+import { simpleParser, type ParsedMail } from 'mailparser';
+import type { AddressInfo } from 'node:net';
+
+export interface SmtpCatcher {
+	port: number;
+	messages: ParsedMail[];
+	/** The first message that matches, waiting up to `timeoutMs` for it to arrive. */
+	waitFor(match: (m: ParsedMail) => boolean, timeoutMs?: number): Promise<ParsedMail>;
+	close(): Promise<void>;
+}
+
+export async function startSmtpCatcher(): Promise<SmtpCatcher> {
+	const messages: ParsedMail[] = [];
+	const server = new SMTPServer({
+		disabledCommands: ['STARTTLS', 'AUTH'],
+		authOptional: true,
+		logger: false,
+		onData(stream, _session, callback) {
+			simpleParser(stream)
+				.then((parsed) => {
+					messages.push(parsed);
+					callback();
+				})
+				.catch((e: Error) => callback(e));
+		}
+	});
+	// Port 0: the system picks a free one.
+	await new Promise<void>((ok, fail) => {
+		server.once('error', fail);
+		server.listen(0, '127.0.0.1', () => ok());
+	});
+	const port = (server.server.address() as AddressInfo).port;
+
+	async function waitFor(match: (m: ParsedMail) => boolean, timeoutMs = 5000): Promise<ParsedMail> {
+		// performance.now(), not Date: tests that fake the clock still time out.
+		const until = performance.now() + timeoutMs;
+		for (;;) {
+			const found = messages.find(match);
+			if (found) return found;
+			if (performance.now() > until) throw new Error(`no matching mail within ${timeoutMs} ms`);
+			await new Promise((r) => setTimeout(r, 20));
+		}
+	}
+
+	return {
+		port,
+		messages,
+		waitFor,
+		close: () => new Promise<void>((ok) => server.close(() => ok()))
+	};
+}
