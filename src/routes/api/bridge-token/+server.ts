@@ -1,5 +1,8 @@
 // Mints a short-lived bridge token for a signed-in bench user, with the URL of the shop's
-// bridge (the `bridgeUrl` shop setting, which falls back to BRIDGE_URL).
+// bridge (the `bridgeUrl` shop setting, which falls back to BRIDGE_URL). The page fetches a new
+// one before the old runs out and renews its open stream with it; a deactivated user has no
+// session, so gets 401 here, and the bridge closes their stream when its token runs out.
+import { createHash } from 'node:crypto';
 import { json } from '@sveltejs/kit';
 import type { RequestHandler } from './$types';
 import { requireRole } from '$lib/server/guards';
@@ -9,15 +12,24 @@ import { endpoint } from '$lib/server/api';
 import { getSetting } from '$lib/server/settings';
 import { mintBridgeToken, BRIDGE_TOKEN_DEFAULT_TTL_S } from '$lib/bridge/token';
 
+/** An opaque, stable tag of the session for the token (the session id itself stays on the server). */
+function sessionTag(sessionId: string): string {
+	return createHash('sha256')
+		.update(`benchlight-bridge-session:${sessionId}`)
+		.digest('base64url')
+		.slice(0, 32);
+}
+
 export const GET: RequestHandler = endpoint(async (event) => {
 	const user = requireRole(event, 'technician', 'supervisor', 'admin');
+	const session = event.locals.session;
 	const { token, expiresAt } = await mintBridgeToken(
 		requireBridgeSecret(),
-		{ userId: user.id, role: user.role },
+		{ userId: user.id, role: user.role, ...(session ? { sessionTag: sessionTag(session.id) } : {}) },
 		BRIDGE_TOKEN_DEFAULT_TTL_S
 	);
 	return json(
-		{ token, expiresAt, bridgeUrl: getSetting(db, 'bridgeUrl') },
+		{ token, expiresAt, expiresInS: BRIDGE_TOKEN_DEFAULT_TTL_S, bridgeUrl: getSetting(db, 'bridgeUrl') },
 		{ headers: { 'cache-control': 'no-store' } }
 	);
 });
