@@ -51,20 +51,29 @@ describe('bridge flags and environment', () => {
 				'--time-scale',
 				'60',
 				'--seed',
-				'9'
+				'9',
+				'--dc-coupled',
+				'--clients-per-user',
+				'2'
 			],
 			{ BRIDGE_SECRET: SECRET }
 		);
 		expect(o.source).toEqual({
 			kind: 'cmd',
 			command: 'arecord -D hw:1 -f S32_LE -r 96000 -c 2 -t raw',
-			format: 's32le'
+			format: 's32le',
+			dcCoupled: true
 		});
+		expect(o.tuning).toEqual({ maxClientsPerUser: 2 });
 		expect(o.temps).toEqual({ kind: 'serial', path: '/dev/ttyUSB0', baudRate: 115200 });
 		expect(o).toMatchObject({ sampleRateHz: 96_000, blockSize: 8192, port: 8801, timeScale: 60, seed: 9 });
 		expect(
 			buildOptions(['--source', 'wav:/tmp/a b.wav', '--temps', 'none'], { BRIDGE_SECRET: SECRET }).source
 		).toEqual({ kind: 'wav', path: '/tmp/a b.wav' });
+		// A capture command is AC-coupled unless told otherwise; three streams per user by default.
+		const cmd = buildOptions(['--source', 'cmd:arecord -t raw'], { BRIDGE_SECRET: SECRET });
+		expect(cmd.source).toMatchObject({ dcCoupled: false });
+		expect(cmd.tuning).toEqual({ maxClientsPerUser: 3 });
 	});
 
 	it('refuses bad flags and a missing or short secret with a clear message', () => {
@@ -74,6 +83,10 @@ describe('bridge flags and environment', () => {
 		expect(() => buildOptions(['--rate', 'fast'], { BRIDGE_SECRET: SECRET })).toThrow(/--rate/);
 		expect(() => buildOptions(['--format', 'u8'], { BRIDGE_SECRET: SECRET })).toThrow(/--format/);
 		expect(() => buildOptions(['--bogus'], { BRIDGE_SECRET: SECRET })).toThrow(ConfigError);
+		expect(() => buildOptions(['--dc-coupled'], { BRIDGE_SECRET: SECRET })).toThrow(/cmd: sources/);
+		expect(() => buildOptions(['--clients-per-user', '0'], { BRIDGE_SECRET: SECRET })).toThrow(
+			/--clients-per-user/
+		);
 	});
 
 	it('derives allowed origins from BRIDGE_ALLOWED_ORIGINS, else ORIGIN', () => {

@@ -3,14 +3,14 @@ import { parseArgs } from 'node:util';
 import { existsSync, readFileSync } from 'node:fs';
 import { parseEnv } from 'node:util';
 import { z } from 'zod';
-import { DEFAULT_BRIDGE_PORT } from '../src/lib/bridge/protocol';
+import { DEFAULT_BRIDGE_PORT, DEFAULT_CLIENTS_PER_USER } from '../src/lib/bridge/protocol';
 import { BRIDGE_SECRET_MIN_LENGTH } from '../src/lib/bridge/token';
 import { PCM_FORMATS } from './sources/cmd';
 import type { BridgeOptions, SourceSpec, TempsSpec } from './server';
 
 export const USAGE = `Usage: npm run bridge -- [--source sim|wav:FILE|cmd:"COMMAND"] [--format s16le|s24le|s32le|f32le]
-       [--rate 48000] [--channels 2] [--block 4096] [--host 127.0.0.1] [--port ${DEFAULT_BRIDGE_PORT}]
-       [--temps sim|serial:PATH[@BAUD]|none] [--time-scale 1] [--seed N]
+       [--dc-coupled] [--rate 48000] [--channels 2] [--block 4096] [--host 127.0.0.1] [--port ${DEFAULT_BRIDGE_PORT}]
+       [--temps sim|serial:PATH[@BAUD]|none] [--time-scale 1] [--seed N] [--clients-per-user ${DEFAULT_CLIENTS_PER_USER}]
 
 Environment: BRIDGE_SECRET (required, the app's value), BRIDGE_ALLOWED_ORIGINS (comma list;
 default from ORIGIN, else http://localhost:3000,http://127.0.0.1:3000), BRIDGE_FULL_SCALE_VOLTS
@@ -28,13 +28,19 @@ const Flags = z.object({
 	port: z.coerce.number().int().min(0).max(65_535).default(DEFAULT_BRIDGE_PORT),
 	temps: z.string().default('sim'),
 	'time-scale': z.coerce.number().min(0.01).max(10_000).default(1),
-	seed: z.coerce.number().int().min(0).max(0xffffffff).default(1)
+	seed: z.coerce.number().int().min(0).max(0xffffffff).default(1),
+	'dc-coupled': z.boolean().default(false),
+	'clients-per-user': z.coerce.number().int().min(1).max(32).default(DEFAULT_CLIENTS_PER_USER)
 });
 
-function parseSource(s: string, format: (typeof PCM_FORMATS)[number]): SourceSpec {
+function parseSource(s: string, format: (typeof PCM_FORMATS)[number], dcCoupled: boolean): SourceSpec {
+	if (dcCoupled && !s.startsWith('cmd:'))
+		throw new ConfigError(
+			'--dc-coupled is for cmd: sources (the simulator is always DC-coupled, a WAV file never)'
+		);
 	if (s === 'sim') return { kind: 'sim' };
 	if (s.startsWith('wav:') && s.length > 4) return { kind: 'wav', path: s.slice(4) };
-	if (s.startsWith('cmd:') && s.length > 4) return { kind: 'cmd', command: s.slice(4), format };
+	if (s.startsWith('cmd:') && s.length > 4) return { kind: 'cmd', command: s.slice(4), format, dcCoupled };
 	throw new ConfigError(`--source must be sim, wav:FILE or cmd:"COMMAND" (got "${s}")`);
 }
 
@@ -95,6 +101,8 @@ export function buildOptions(argv: string[], env: Record<string, string | undefi
 				temps: { type: 'string' },
 				'time-scale': { type: 'string' },
 				seed: { type: 'string' },
+				'dc-coupled': { type: 'boolean' },
+				'clients-per-user': { type: 'string' },
 				help: { type: 'boolean' }
 			},
 			strict: true,
@@ -125,13 +133,14 @@ export function buildOptions(argv: string[], env: Record<string, string | undefi
 		port: v.port,
 		secret,
 		allowedOrigins: allowedOriginsFrom(env),
-		source: parseSource(v.source, v.format),
+		source: parseSource(v.source, v.format, v['dc-coupled']),
 		sampleRateHz: v.rate,
 		channels: v.channels,
 		blockSize: v.block,
 		temps: parseTemps(v.temps),
 		timeScale: v['time-scale'],
 		seed: v.seed,
-		fullScaleVolts
+		fullScaleVolts,
+		tuning: { maxClientsPerUser: v['clients-per-user'] }
 	};
 }

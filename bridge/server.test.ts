@@ -1,6 +1,7 @@
 // The bridge server, live and in-process: upgrade refusals before any WebSocket exists,
 // hello and frames for an authorised client, control messages, garbage that must not stop
-// it serving, temperature backfill, rate limiting and per-client flow control.
+// it serving, temperature backfill (paced by a stalled client's buffer), rate limiting,
+// per-client flow control, the per-user stream cap, and token expiry and renewal.
 import { request } from 'node:http';
 import { connect as netConnect, type Socket } from 'node:net';
 import { randomBytes } from 'node:crypto';
@@ -10,6 +11,9 @@ import { SignJWT } from 'jose';
 import { startBridge, type BridgeOptions, type RunningBridge } from './server';
 import { mintBridgeToken, BRIDGE_ISSUER } from '../src/lib/bridge/token';
 import {
+	CLOSE_SESSION_ENDED,
+	CLOSE_SESSION_ENDED_REASON,
+	CLOSE_TOO_MANY_FOR_USER,
 	decodeFrame,
 	parseBridgeMessage,
 	type BridgeMessage,
@@ -37,12 +41,29 @@ function options(over: Partial<BridgeOptions> = {}): BridgeOptions {
 		seed: 7,
 		log: () => {},
 		...over,
-		tuning: { tempsIntervalMs: 100, statsMs: 200, controlPerSecond: 100_000, ...over.tuning }
+		tuning: {
+			tempsIntervalMs: 100,
+			statsMs: 200,
+			controlPerSecond: 100_000,
+			maxClientsPerUser: 8,
+			...over.tuning
+		}
 	};
 }
 
-const token = async (ttlS = 60, nowMs = Date.now()) =>
-	(await mintBridgeToken(SECRET, { userId: 'tech-1', role: 'technician' }, ttlS, nowMs)).token;
+const token = async (
+	ttlS = 60,
+	nowMs = Date.now(),
+	claims: { userId?: string; role?: 'technician' | 'supervisor' | 'admin'; sessionTag?: string } = {}
+) =>
+	(
+		await mintBridgeToken(
+			SECRET,
+			{ userId: claims.userId ?? 'tech-1', role: claims.role ?? 'technician', sessionTag: claims.sessionTag },
+			ttlS,
+			nowMs
+		)
+	).token;
 
 /** Status of a raw upgrade attempt: 101 when the bridge accepted it. */
 function upgradeStatus(
@@ -83,6 +104,7 @@ interface TestClient {
 	frames: DecodedFrame[];
 	badFrames: number;
 	closed: Promise<number>;
+	closedWith: Promise<{ code: number; reason: string }>;
 	waitFor<T>(pick: () => T | undefined, what: string, timeoutMs?: number): Promise<T>;
 	send(value: unknown): void;
 }
@@ -97,6 +119,9 @@ async function client(port: number, tok?: string): Promise<TestClient> {
 		frames: [],
 		badFrames: 0,
 		closed: new Promise((resolve) => ws.on('close', (code) => resolve(code))),
+		closedWith: new Promise((resolve) =>
+			ws.on('close', (code, reason) => resolve({ code, reason: reason.toString() }))
+		),
 		async waitFor(pick, what, timeoutMs = 10_000) {
 			const start = Date.now();
 			for (;;) {
@@ -158,10 +183,14 @@ describe('bridge server', () => {
 			await mintBridgeToken('some-other-secret-0123456789-abcdefghij', { userId: 'x', role: 'admin' })
 		).token;
 		const expired = await token(60, Date.now() - 120_000);
+		// Issued two minutes ahead: beyond the 30 s allowed for clock skew between PCs.
+		const future = await token(60, Date.now() + 120_000);
+		const slightlyAhead = await token(60, Date.now() + 10_000);
 		const good = await token();
 		expect(await upgradeStatus(p, '/stream', {})).toBe(401); // no token
 		expect(await upgradeStatus(p, `/stream?token=${forged}`, {})).toBe(401); // bad signature
 		expect(await upgradeStatus(p, `/stream?token=${expired}`, {})).toBe(401);
+		expect(await upgradeStatus(p, `/stream?token=${future}`, {})).toBe(401);
 		expect(await upgradeStatus(p, `/stream?token=${wrongAudience}`, {})).toBe(401);
 		expect(await upgradeStatus(p, `/stream?token=garbage`, {})).toBe(401);
 		expect(await upgradeStatus(p, `/stream?token=${good}`, { Origin: 'http://evil.example' })).toBe(403);
@@ -175,6 +204,7 @@ describe('bridge server', () => {
 		expect(await upgradeStatus(p, `/elsewhere?token=${good}`, {})).toBe(404);
 		expect(bridge.clientCount()).toBe(0);
 		expect(await upgradeStatus(p, `/stream?token=${good}`, { Host: `localhost:${p}` })).toBe(101);
+		expect(await upgradeStatus(p, `/stream?token=${slightlyAhead}`, {})).toBe(101);
 	});
 
 	it('sends the hello, then frames and temperatures to an authorised client', async () => {
@@ -192,8 +222,13 @@ describe('bridge server', () => {
 			temps: 'sim',
 			timeScale: 60,
 			seed: 7,
-			bootId: bridge.bootId
+			bootId: bridge.bootId,
+			// The simulated analyzer input passes DC, so the bench may offer a DC-offset reading.
+			dcCoupled: true
 		});
+		// The token's expiry, on the bridge's clock (the client compares it with serverTimeMs).
+		expect(hello.tokenExpiresAtMs! - hello.serverTimeMs).toBeGreaterThan(58_000);
+		expect(hello.tokenExpiresAtMs! - hello.serverTimeMs).toBeLessThanOrEqual(60_000);
 		expect(hello.probes.map((p) => p.id)).toEqual([
 			'heatsink-left',
 			'heatsink-right',
@@ -444,6 +479,191 @@ describe('bridge server limits', () => {
 			for (const f of slow.frames) expect(f.sampleCount).toBe(8192);
 			slow.ws.close();
 			fast.ws.close();
+		} finally {
+			await b.close();
+		}
+	});
+});
+
+describe('bridge server: backfill flow control', () => {
+	it('a stalled client asking for a day of history never makes the bridge hold more than about one chunk', async () => {
+		const highWaterBytes = 256 * 1024;
+		const b = await startBridge(
+			options({
+				temps: { kind: 'none' },
+				tuning: { highWaterBytes, backfillHighWaterBytes: highWaterBytes, backfillChunk: 2000 }
+			})
+		);
+		try {
+			// 300 000 readings (about 25 MB of JSON): far more than the kernel's socket buffers hold.
+			const total = 300_000;
+			const t0 = Date.now() - total * 250;
+			for (let i = 0; i < total / 4; i++)
+				b.tempLog.record(
+					[
+						{ probe: 'heatsink-left', celsius: 40 },
+						{ probe: 'heatsink-right', celsius: 41 },
+						{ probe: 'transformer', celsius: 50 },
+						{ probe: 'ambient', celsius: 23 }
+					],
+					t0 + i * 1000
+				);
+			const c = await client(b.port);
+			await c.waitFor(() => c.messages[0], 'hello');
+			const socket = (c.ws as unknown as { _socket: Socket })._socket;
+			socket.pause();
+			c.send({ v: 1, id: 'bf', type: 'temps-after', seq: -1 });
+			c.send({ v: 1, id: 'bf2', type: 'temps-after', seq: -1 });
+			let maxBuffered = 0;
+			for (let i = 0; i < 150; i++) {
+				maxBuffered = Math.max(maxBuffered, b.bufferedBytes());
+				await new Promise((r) => setTimeout(r, 10));
+			}
+			// One chunk of 2000 readings is about 170 kB; frames stop at the high-water mark.
+			expect(maxBuffered).toBeGreaterThan(0);
+			expect(maxBuffered).toBeLessThan(highWaterBytes + 512 * 1024);
+			socket.resume();
+			const chunks = await c.waitFor(
+				() => {
+					const mine = ofType(c, 'temps').filter((m) => m.replyTo === 'bf');
+					return mine.at(-1)?.complete ? mine : undefined;
+				},
+				'the whole backfill',
+				30_000
+			);
+			const seqs = chunks.flatMap((m) => m.readings.map((r) => r.seq));
+			expect(seqs.length).toBe(total);
+			for (let i = 1; i < seqs.length; i++) expect(seqs[i]).toBe(seqs[i - 1] + 1);
+			expect(chunks.filter((m) => m.complete)).toHaveLength(1);
+			// One backfill at a time per client: the second request was refused, not queued.
+			const busy = await c.waitFor(() => ofType(c, 'error').find((m) => m.replyTo === 'bf2'), 'busy');
+			expect(busy.code).toBe('busy');
+			// Once done, another request is served.
+			c.send({ v: 1, id: 'bf3', type: 'temps-after', seq: seqs.at(-1)! - 3 });
+			const last = await c.waitFor(() => ofType(c, 'temps').find((m) => m.replyTo === 'bf3'), 'bf3');
+			expect(last.readings.map((r) => r.seq)).toEqual([seqs.at(-1)! - 2, seqs.at(-1)! - 1, seqs.at(-1)!]);
+			c.ws.close();
+		} finally {
+			await b.close();
+		}
+	}, 60_000);
+});
+
+describe('bridge server: streams per user', () => {
+	it('refuses a 4th stream from one user with a clear close reason while other users still connect', async () => {
+		const b = await startBridge(options({ temps: { kind: 'none' }, tuning: { maxClientsPerUser: 3 } }));
+		try {
+			const mine = [await client(b.port), await client(b.port), await client(b.port)];
+			for (const c of mine) await c.waitFor(() => c.messages[0], 'hello');
+			const fourth = await client(b.port);
+			const closed = await fourth.closedWith;
+			expect(closed.code).toBe(CLOSE_TOO_MANY_FOR_USER);
+			expect(closed.reason).toMatch(/3 bridge connections open/);
+			expect(fourth.messages).toHaveLength(0);
+			const other = await client(b.port, await token(60, Date.now(), { userId: 'tech-2' }));
+			expect(await other.waitFor(() => other.messages[0]?.type, 'hello for another user')).toBe('hello');
+			// Closing one frees its slot.
+			mine[0].ws.close();
+			await mine[0].closed;
+			await new Promise((r) => setTimeout(r, 50));
+			const again = await client(b.port);
+			expect(await again.waitFor(() => again.messages[0]?.type, 'hello again')).toBe('hello');
+			for (const c of [...mine, other, again]) c.ws.close();
+		} finally {
+			await b.close();
+		}
+	});
+});
+
+describe('bridge server: token expiry and renewal', () => {
+	let b: RunningBridge;
+	beforeAll(async () => {
+		b = await startBridge(options({ temps: { kind: 'none' } }));
+	});
+	afterAll(async () => {
+		await b?.close();
+	});
+	const session = { sessionTag: 'session-aaaaaaaa' };
+
+	it('closes a stream whose token runs out without renewal, saying the session ended', async () => {
+		const c = await client(b.port, await token(1, Date.now(), session));
+		const hello = await c.waitFor(() => c.messages[0] as HelloMessage | undefined, 'hello');
+		const closed = await c.closedWith;
+		expect(closed).toEqual({ code: CLOSE_SESSION_ENDED, reason: CLOSE_SESSION_ENDED_REASON });
+		// Not before the token's expiry (100 ms slack for timer granularity).
+		expect(Date.now()).toBeGreaterThanOrEqual(hello.tokenExpiresAtMs! - 100);
+	});
+
+	it('keeps a renewed stream past the first token’s expiry, with the renewed role, until the new one runs out', async () => {
+		const c = await client(b.port, await token(2, Date.now(), session));
+		const hello = await c.waitFor(() => c.messages[0] as HelloMessage | undefined, 'hello');
+		c.send({
+			v: 1,
+			id: 'r1',
+			type: 'renew',
+			token: await token(4, Date.now(), { ...session, role: 'supervisor' })
+		});
+		const renewed = await c.waitFor(
+			() => c.messages.find((m) => m.type === 'renewed' && m.replyTo === 'r1'),
+			'renewed'
+		);
+		if (renewed.type !== 'renewed') throw new Error('unreachable');
+		expect(renewed.role).toBe('supervisor');
+		expect(renewed.tokenExpiresAtMs).toBeGreaterThan(hello.tokenExpiresAtMs!);
+		// Past the first expiry the stream still carries frames.
+		while (Date.now() < hello.tokenExpiresAtMs! + 300) await new Promise((r) => setTimeout(r, 50));
+		const n = c.frames.length;
+		await c.waitFor(() => (c.frames.length > n + 2 ? true : undefined), 'frames after the first expiry');
+		expect(c.ws.readyState).toBe(WebSocket.OPEN);
+		const closed = await c.closedWith;
+		expect(closed.code).toBe(CLOSE_SESSION_ENDED);
+		expect(Date.now()).toBeGreaterThanOrEqual(renewed.tokenExpiresAtMs - 100);
+	}, 15_000);
+
+	it('refuses a renew token for another user or another session, and the stream still ends on time', async () => {
+		const c = await client(b.port, await token(2, Date.now(), session));
+		await c.waitFor(() => c.messages[0], 'hello');
+		c.send({
+			v: 1,
+			id: 'x1',
+			type: 'renew',
+			token: await token(60, Date.now(), { ...session, userId: 'tech-2' })
+		});
+		c.send({
+			v: 1,
+			id: 'x2',
+			type: 'renew',
+			token: await token(60, Date.now(), { sessionTag: 'session-bbbbbbbb' })
+		});
+		c.send({ v: 1, id: 'x3', type: 'renew', token: 'not-a-token' });
+		for (const id of ['x1', 'x2', 'x3']) {
+			const err = await c.waitFor(() => ofType(c, 'error').find((m) => m.replyTo === id), `refusal ${id}`);
+			expect(err.code).toBe('renew-refused');
+		}
+		expect(ofType(c, 'error').find((m) => m.replyTo === 'x1')?.message).toMatch(/another user or session/);
+		expect(c.messages.some((m) => m.type === 'renewed')).toBe(false);
+		expect((await c.closedWith).code).toBe(CLOSE_SESSION_ENDED);
+	}, 15_000);
+});
+
+describe('bridge server: input coupling', () => {
+	it.each([
+		[true, true],
+		[false, false],
+		[undefined, false]
+	])('a capture command started with dcCoupled %s says dcCoupled %s in the hello', async (flag, expected) => {
+		const b = await startBridge(
+			options({
+				source: { kind: 'cmd', command: 'sleep 30', format: 's16le', dcCoupled: flag },
+				temps: { kind: 'none' }
+			})
+		);
+		try {
+			const c = await client(b.port);
+			const hello = await c.waitFor(() => c.messages[0] as HelloMessage | undefined, 'hello');
+			expect(hello.source).toBe('cmd');
+			expect(hello.dcCoupled).toBe(expected);
+			c.ws.close();
 		} finally {
 			await b.close();
 		}

@@ -1,6 +1,8 @@
 // The bridge's WebSocket server: authenticates in the HTTP upgrade handler (Host, Origin,
-// token) before any WebSocket exists, streams sample frames with per-client flow control,
-// sends temperatures, and applies validated control messages. Startable in-process by tests.
+// token) before any WebSocket exists, caps streams per user, closes a stream whose token runs
+// out unrenewed, streams sample frames with per-client flow control, sends temperatures
+// (backfill paced by the client's send buffer), and applies validated control messages.
+// Startable in-process by tests.
 import { createServer, STATUS_CODES, type IncomingMessage } from 'node:http';
 import type { Duplex } from 'node:stream';
 import { randomUUID } from 'node:crypto';
@@ -8,8 +10,13 @@ import { WebSocketServer, WebSocket, type RawData } from 'ws';
 import { RateLimiterMemory } from 'rate-limiter-flexible';
 import {
 	BRIDGE_STREAM_PATH,
+	CLOSE_SESSION_ENDED,
+	CLOSE_SESSION_ENDED_REASON,
+	CLOSE_TOO_MANY_FOR_USER,
 	CONTROL_MAX_BYTES,
+	DEFAULT_CLIENTS_PER_USER,
 	PROBES,
+	closeTooManyForUserReason,
 	PROTOCOL_VERSION,
 	applySimPatch,
 	parseControlMessage,
@@ -34,7 +41,9 @@ import { SerialTemps, type PortFactory } from './temps/serial';
 import type { TempsSource } from './temps/types';
 
 export type SourceSpec =
-	{ kind: 'sim' } | { kind: 'wav'; path: string } | { kind: 'cmd'; command: string; format: PcmFormat };
+	| { kind: 'sim' }
+	| { kind: 'wav'; path: string }
+	| { kind: 'cmd'; command: string; format: PcmFormat; dcCoupled?: boolean };
 
 export type TempsSpec =
 	| { kind: 'sim' }
@@ -68,8 +77,13 @@ export interface Tuning {
 	/** A client whose socket holds more than this many unsent bytes gets no new frames. */
 	highWaterBytes: number;
 	maxClients: number;
+	/** Open streams one user may hold at once; more are closed with CLOSE_TOO_MANY_FOR_USER. */
+	maxClientsPerUser: number;
 	controlPerSecond: number;
+	/** Readings per temps-after answer message. */
 	backfillChunk: number;
+	/** The next backfill chunk waits until the previous one is flushed and the socket holds less than this. */
+	backfillHighWaterBytes: number;
 }
 
 export interface RunningBridge {
@@ -82,6 +96,8 @@ export interface RunningBridge {
 	readonly tempLog: TempLog;
 	readonly thermal: AmplifierThermal | null;
 	clientCount(): number;
+	/** Bytes queued in user space for all clients (what a stalled client can make the bridge hold). */
+	bufferedBytes(): number;
 	close(): Promise<void>;
 }
 
@@ -93,6 +109,11 @@ interface Client {
 	id: string;
 	ws: WebSocket;
 	claims: BridgeClaims;
+	/** When this stream's token runs out (ms epoch); a renew moves it. */
+	expiresAtMs: number;
+	expiryTimer: ReturnType<typeof setTimeout> | null;
+	/** A temps-after answer is being sent: one at a time per client. */
+	backfilling: boolean;
 	alive: boolean;
 	framesSent: number;
 	framesDropped: number;
@@ -132,8 +153,10 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 		tempsIntervalMs: 1000,
 		highWaterBytes: Math.max(256 * 1024, Math.floor(bytesPerSecond / 2)),
 		maxClients: 8,
+		maxClientsPerUser: DEFAULT_CLIENTS_PER_USER,
 		controlPerSecond: 20,
-		backfillChunk: 5000,
+		backfillChunk: 2000,
+		backfillHighWaterBytes: 256 * 1024,
 		...options.tuning
 	};
 	const startedMs = Date.now();
@@ -153,7 +176,8 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 				sampleRateHz: options.sampleRateHz,
 				channels: options.channels,
 				blockSize: options.blockSize,
-				seed: options.seed
+				seed: options.seed,
+				timeScale: options.timeScale
 			});
 			break;
 		case 'wav':
@@ -167,6 +191,7 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 				channels: options.channels,
 				blockSize: options.blockSize,
 				fullScaleVolts: fsv(options.channels),
+				dcCoupled: options.source.dcCoupled,
 				report: log
 			});
 			break;
@@ -241,6 +266,7 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 
 	// One array reused for every frame's channel sums: this runs once per audio frame.
 	const sums: ChannelSums[] = [];
+	let relayWas = sim?.relayOpen ?? null;
 	const onFrame = (frame: FrameOut) => {
 		if (thermal) {
 			const params = sim
@@ -251,6 +277,12 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 				blockSums(frame.samples, source.channels, frame.sampleCount, source.fullScaleVolts, sums),
 				params
 			);
+			// The protection-relay fault watches the simulated heatsinks.
+			sim?.setHeatsinkCelsius(thermal.heatsinks[0].tempC, thermal.heatsinks[1].tempC);
+		}
+		if (sim && sim.relayOpen !== relayWas) {
+			relayWas = sim.relayOpen;
+			log(relayWas ? `protection relay open (${relayWas})` : 'protection relay closed');
 		}
 		for (const c of clients) {
 			if (c.ws.readyState !== WebSocket.OPEN) continue;
@@ -320,25 +352,110 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 				loadOhms = next.loadOhms;
 				return broadcast(stateMessage(replyTo));
 			}
-			case 'temps-after': {
-				const oldestSeq = tempLog.ring.oldestSeq();
-				let after = msg.seq;
-				for (;;) {
-					const readings = tempLog.ring.after(after, tuning.backfillChunk);
-					const complete = readings.length < tuning.backfillChunk;
-					sendJson(c, {
-						type: 'temps',
-						bootId,
-						readings,
-						backfill: true,
-						complete,
-						oldestSeq,
-						...(replyTo !== undefined ? { replyTo } : {})
-					});
-					if (complete) return;
-					after = readings[readings.length - 1].seq;
-				}
+			case 'temps-after':
+				if (c.backfilling)
+					return sendError(
+						c,
+						'busy',
+						'a temperature backfill is still being sent to this client; ask again after the chunk marked complete',
+						replyTo
+					);
+				void backfill(c, msg.seq, replyTo);
+				return;
+			case 'renew':
+				verifyBridgeToken(options.secret, msg.token).then(
+					(next) => {
+						if (c.ws.readyState !== WebSocket.OPEN) return;
+						if (next.userId !== c.claims.userId || next.sessionTag !== c.claims.sessionTag)
+							return sendError(c, 'renew-refused', 'that token is for another user or session', replyTo);
+						if (next.role !== c.claims.role)
+							log(`user ${c.claims.userId}: role ${c.claims.role} → ${next.role} on renewal`);
+						c.claims = { userId: next.userId, role: next.role, sessionTag: next.sessionTag };
+						c.expiresAtMs = next.expiresAt.getTime();
+						armExpiry(c);
+						sendJson(c, {
+							type: 'renewed',
+							tokenExpiresAtMs: c.expiresAtMs,
+							serverTimeMs: Date.now(),
+							role: next.role,
+							...(replyTo !== undefined ? { replyTo } : {})
+						});
+					},
+					(e) =>
+						sendError(
+							c,
+							'renew-refused',
+							e instanceof BridgeTokenError ? e.message : 'the renewal token was refused',
+							replyTo
+						)
+				);
+				return;
+		}
+	};
+
+	/** Close the stream when its token runs out, unless a renew moves the time first. */
+	const armExpiry = (c: Client) => {
+		if (c.expiryTimer) clearTimeout(c.expiryTimer);
+		c.expiryTimer = setTimeout(
+			() => {
+				c.expiryTimer = null;
+				log(`user ${c.claims.userId}: token ran out without renewal; closing the stream`);
+				c.ws.close(CLOSE_SESSION_ENDED, CLOSE_SESSION_ENDED_REASON);
+			},
+			Math.max(0, c.expiresAtMs - Date.now())
+		);
+	};
+
+	/** Resolves true once the socket has room for more backfill, false if it closes first. */
+	const roomFor = async (c: Client): Promise<boolean> => {
+		let waitMs = 5;
+		while (c.ws.readyState === WebSocket.OPEN && c.ws.bufferedAmount > tuning.backfillHighWaterBytes) {
+			await new Promise((r) => setTimeout(r, waitMs));
+			waitMs = Math.min(100, waitMs * 2);
+		}
+		return c.ws.readyState === WebSocket.OPEN;
+	};
+
+	/** Send and resolve once the bytes have left user space (true), or the socket failed (false). */
+	const sendFlushed = (c: Client, text: string): Promise<boolean> =>
+		new Promise((resolve) => {
+			if (c.ws.readyState !== WebSocket.OPEN) return resolve(false);
+			const onClose = () => resolve(false);
+			c.ws.once('close', onClose);
+			c.ws.send(text, (err) => {
+				c.ws.off('close', onClose);
+				resolve(!err);
+			});
+		});
+
+	/**
+	 * Answer temps-after in chunks, oldest first. Each chunk waits until the previous one has been
+	 * flushed and the client's send buffer has room, so a stalled client holds at most one chunk
+	 * of backfill in the bridge, however much history it asks for.
+	 */
+	const backfill = async (c: Client, afterSeq: number, replyTo: string | number | undefined) => {
+		c.backfilling = true;
+		try {
+			const oldestSeq = tempLog.ring.oldestSeq();
+			let after = afterSeq;
+			for (;;) {
+				if (!(await roomFor(c))) return;
+				const readings = tempLog.ring.after(after, tuning.backfillChunk);
+				const complete = readings.length < tuning.backfillChunk;
+				const msg: BridgeMessage = {
+					type: 'temps',
+					bootId,
+					readings,
+					backfill: true,
+					complete,
+					oldestSeq,
+					...(replyTo !== undefined ? { replyTo } : {})
+				};
+				if (!(await sendFlushed(c, JSON.stringify(msg))) || complete) return;
+				after = readings[readings.length - 1].seq;
 			}
+		} finally {
+			c.backfilling = false;
 		}
 	};
 
@@ -382,11 +499,23 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 		);
 	};
 
-	const onConnection = (ws: WebSocket, claims: BridgeClaims) => {
+	const onConnection = (ws: WebSocket, claims: BridgeClaims & { expiresAt: Date }) => {
+		// Counted here, synchronously with adding, so concurrent upgrades cannot overshoot.
+		let mine = 0;
+		for (const other of clients) if (other.claims.userId === claims.userId) mine++;
+		if (mine >= tuning.maxClientsPerUser) {
+			ws.on('error', () => {});
+			log(`user ${claims.userId}: refused a stream beyond ${tuning.maxClientsPerUser}`);
+			ws.close(CLOSE_TOO_MANY_FOR_USER, closeTooManyForUserReason(tuning.maxClientsPerUser));
+			return;
+		}
 		const c: Client = {
 			id: randomUUID(),
 			ws,
-			claims,
+			claims: { userId: claims.userId, role: claims.role, sessionTag: claims.sessionTag },
+			expiresAtMs: claims.expiresAt.getTime(),
+			expiryTimer: null,
+			backfilling: false,
 			alive: true,
 			framesSent: 0,
 			framesDropped: 0,
@@ -406,6 +535,8 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 		ws.on('close', () => {
 			if (c.statsTimer) clearInterval(c.statsTimer);
 			c.statsTimer = null;
+			if (c.expiryTimer) clearTimeout(c.expiryTimer);
+			c.expiryTimer = null;
 			clients.delete(c);
 			void limiter.delete(c.id).catch(() => {});
 		});
@@ -425,9 +556,12 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 			generator,
 			timeScale: options.timeScale,
 			lastTempSeq: tempLog.ring.lastSeq(),
-			serverTimeMs: Date.now()
+			serverTimeMs: Date.now(),
+			dcCoupled: source.dcCoupled,
+			tokenExpiresAtMs: c.expiresAtMs
 		};
 		sendJson(c, hello);
+		armExpiry(c);
 		const latest = tempLog.ring.latest();
 		if (latest.length) sendJson(c, { type: 'temps', bootId, readings: latest });
 		c.statsTimer = setInterval(
@@ -542,6 +676,11 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 		tempLog,
 		thermal,
 		clientCount: () => clients.size,
+		bufferedBytes: () => {
+			let n = 0;
+			for (const c of clients) n += c.ws.bufferedAmount;
+			return n;
+		},
 		async close() {
 			if (closed) return;
 			closed = true;
@@ -552,6 +691,7 @@ export async function startBridge(options: BridgeOptions): Promise<RunningBridge
 			await temps.stop();
 			for (const c of clients) {
 				if (c.statsTimer) clearInterval(c.statsTimer);
+				if (c.expiryTimer) clearTimeout(c.expiryTimer);
 				c.ws.terminate();
 			}
 			clients.clear();

@@ -5,17 +5,20 @@
 //
 // Signal chain per channel:
 //   generator → [inverse-RIAA network, phono] → input stage → [RIAA playback, phono]
-//   → volume → 10-band EQ → low/high filters → output stage (crossover, gentle curvature,
-//   soft clip at the rails, weak device) → + hum, noise floor, DC → dummy load
-//   → analyzer input (sample = volts / full-scale volts)
+//   → volume → 10-band EQ → low/high filters → + DC → output stage (crossover, gentle
+//   curvature, soft clip at the rails, weak device) → + hum, noise floor → protection relay
+//   → dummy load → analyzer input (sample = volts / full-scale volts)
+// A phono stage driven past its own swing (PHONO_STAGE_CLIP_V) clips too: then the tones are
+// made at the phono stage's output and run through the rest of the chain in the time domain.
 import {
 	DEFAULT_SIMULATOR_STATE,
-	DC_OFFSET_FAULT_V,
 	EQ_BAND_CENTRES_HZ,
 	GENERATOR_OFF,
 	OUTPUT_HEADROOM_V,
 	PHONO_GAIN_1KHZ_DB,
-	WEAK_DEVICE_SWING_FRACTION,
+	PHONO_STAGE_CLIP_V,
+	RELAY_RESET_HYSTERESIS_C,
+	WEAK_DEVICE_MAX_CURRENT_A,
 	type GeneratorState,
 	type SimulatorState
 } from '../../src/lib/bridge/protocol';
@@ -66,8 +69,10 @@ const CLIP_KNEE = 0.95;
 // Hum at the output (V peak) per mains harmonic 1..8: field pickup at odd orders, rectifier
 // ripple at even orders; right channel a little quieter (from memory, about −102 dBV total).
 const HUM_PEAK_V = [6e-6, 9e-6, 3e-6, 2.5e-6, 1e-6, 1e-6, 0.5e-6, 0.5e-6];
-const TIRED_CAP_EVEN_FACTOR = 40;
-const TIRED_CAP_ODD_FACTOR = 3;
+export const TIRED_CAP_EVEN_FACTOR = 40;
+export const TIRED_CAP_ODD_FACTOR = 3;
+/** What the analyzer reads with the protection relay open: its own input noise (V rms, from memory: a decent interface). */
+export const ANALYZER_FLOOR_VRMS = 2e-6;
 const PHONO_HUM_FACTOR = 3;
 const SEGMENT = 256;
 
@@ -86,7 +91,12 @@ export interface SimulatorOptions {
 	seed: number;
 	state?: SimulatorState;
 	generator?: GeneratorState;
+	/** Simulated seconds per rendered second (the bridge's --time-scale), for the relay's timer. */
+	timeScale?: number;
 }
+
+/** Why the protection relay is open, or null when it is closed. */
+export type RelayTrip = 'heat' | 'timer' | null;
 
 /** The tones a generator setting produces (peak volts); noise is handled separately. */
 export function generatorTones(g: GeneratorState): { frequencyHz: number; amplitudeV: number }[] {
@@ -128,6 +138,7 @@ export class Simulator {
 	readonly channels: number;
 	readonly seed: number;
 	readonly fullScaleVolts = SIM_FULL_SCALE_VOLTS;
+	readonly timeScale: number;
 	private st: SimulatorState;
 	private gen: GeneratorState;
 	private dirty = true;
@@ -166,6 +177,16 @@ export class Simulator {
 	private humPos = 0;
 	private lastMeanAbsCurrentA = [0, 0];
 
+	// Phono stage overload: tones made at the phono stage's output (per side) when it clips.
+	private phonoCoefs: [number, number][][] = [[], []];
+	private phonoClipTones = false;
+	private readonly phonoTone: Float64Array[];
+
+	// Protection relay.
+	private relayTrip: RelayTrip = null;
+	private relayElapsedS = 0;
+	private heatsinkC = [-Infinity, -Infinity];
+
 	// Faults with time behaviour.
 	private scratchDb = [0, 0];
 	private crackleEnv = [0, 0];
@@ -185,6 +206,7 @@ export class Simulator {
 		this.sampleRateHz = opts.sampleRateHz;
 		this.channels = opts.channels;
 		this.seed = opts.seed >>> 0;
+		this.timeScale = opts.timeScale ?? 1;
 		this.st = structuredClone(opts.state ?? DEFAULT_SIMULATOR_STATE);
 		this.gen = structuredClone(opts.generator ?? GENERATOR_OFF);
 		const root = new Rng(this.seed);
@@ -197,6 +219,7 @@ export class Simulator {
 		this.work = [new Float64Array(SEGMENT), new Float64Array(SEGMENT)];
 		this.humBuf = [new Float64Array(SEGMENT), new Float64Array(SEGMENT)];
 		this.genBuf = new Float64Array(SEGMENT);
+		this.phonoTone = [new Float64Array(SEGMENT), new Float64Array(SEGMENT)];
 		const phono = riaaPlaybackBiquad(this.sampleRateHz, 10 ** (PHONO_GAIN_1KHZ_DB / 20));
 		this.phonoStates = [new BiquadState(phono), new BiquadState(phono)];
 		this.pinkNorm = 1 / pinkRmsGain();
@@ -212,8 +235,25 @@ export class Simulator {
 	}
 
 	setState(next: SimulatorState): void {
+		const wasOn = this.st.faults.protectionRelay.enabled;
 		this.st = structuredClone(next);
+		if (!next.faults.protectionRelay.enabled || !wasOn) {
+			// Switching the fault off closes the relay; switching it on starts its timer afresh.
+			this.relayTrip = null;
+			this.relayElapsedS = 0;
+		}
 		this.dirty = true;
+	}
+
+	/** The heatsink temperatures the protection relay watches (the bridge feeds its thermal model in). */
+	setHeatsinkCelsius(left: number, right: number): void {
+		this.heatsinkC[0] = left;
+		this.heatsinkC[1] = right;
+	}
+
+	/** Why the protection relay is open now (null: closed, the output reaches the load). */
+	get relayOpen(): RelayTrip {
+		return this.relayTrip;
 	}
 
 	setGenerator(next: GeneratorState): void {
@@ -297,12 +337,37 @@ export class Simulator {
 			});
 		}
 
+		// The phono stage's own output: tones through the inverse network and the playback curve
+		// (flat, unity) or straight into the playback curve. Above its swing it clips.
+		this.phonoClipTones = false;
+		if (st.input === 'phono') {
+			const phonoGain = 10 ** (PHONO_GAIN_1KHZ_DB / 20);
+			for (let side = 0; side < 2; side++) {
+				let peak = 0;
+				this.phonoCoefs[side] = this.tones.map((t) => {
+					const h: [number, number] = st.inverseRiaaNetwork
+						? [1, 0]
+						: riaaPlaybackComplex(t.frequencyHz, phonoGain);
+					let own: [number, number] = drivesSide(t.drive, side) ? [1, 0] : [0, 0];
+					if (sides === 2 && drivesSide(t.drive, 1 - side)) {
+						const xt = crosstalk(t.frequencyHz);
+						own = [own[0] + xt[0], own[1] + xt[1]];
+					}
+					const c = cmul(h, own);
+					peak += Math.hypot(c[0], c[1]) * t.amplitudeV;
+					return [c[0] * t.amplitudeV, c[1] * t.amplitudeV] as [number, number];
+				});
+				if (peak > CLIP_KNEE * PHONO_STAGE_CLIP_V) this.phonoClipTones = true;
+			}
+		}
+
 		this.swing = st.railVolts - OUTPUT_HEADROOM_V;
 		for (let side = 0; side < 2; side++) {
+			// A weak device is current-limited: its half clips at I_max·R (never above the rails).
 			const weak = st.faults.weakOutputDevice === SIDE_NAMES[side];
-			this.clipPos[side] = weak ? this.swing * WEAK_DEVICE_SWING_FRACTION : this.swing;
+			this.clipPos[side] = weak ? Math.min(this.swing, WEAK_DEVICE_MAX_CURRENT_A * st.loadOhms) : this.swing;
 			this.clipNeg[side] = this.swing;
-			this.dcV[side] = st.faults.dcOffset && side === 0 ? DC_OFFSET_FAULT_V : 0;
+			this.dcV[side] = st.faults.dcOffset && side === 0 ? st.faults.dcOffsetMv / 1000 : 0;
 		}
 		const bias = this.effectiveBias();
 		this.crossoverDepthV = CROSSOVER_DEPTH_MIN_V + CROSSOVER_DEPTH_ZERO_BIAS_V * Math.max(0, 1 - bias) ** 1.5;
@@ -383,10 +448,22 @@ export class Simulator {
 		}
 	}
 
-	/** Scratchy-control jumps and selector crackles, decided once per segment. */
+	/** Scratchy-control jumps, selector crackles and the protection relay, decided once per segment. */
 	private segmentFaults(m: number): void {
 		const f = this.st.faults;
 		const segS = m / this.sampleRateHz;
+		const relay = f.protectionRelay;
+		if (relay.enabled) {
+			this.relayElapsedS += segS * this.timeScale;
+			const hottestC = Math.max(this.heatsinkC[0], this.heatsinkC[1]);
+			if (this.relayTrip === null) {
+				if (hottestC >= relay.tripCelsius) this.relayTrip = 'heat';
+				else if (relay.tripAfterS !== null && this.relayElapsedS >= relay.tripAfterS)
+					this.relayTrip = 'timer';
+			} else if (this.relayTrip === 'heat' && hottestC < relay.tripCelsius - RELAY_RESET_HYSTERESIS_C) {
+				this.relayTrip = null;
+			}
+		}
 		const scratch = f.scratchyControl;
 		if (scratch.enabled && scratch.moving) {
 			// A worn track: the wiper loses contact for a few ms every ~20 ms of travel.
@@ -418,11 +495,20 @@ export class Simulator {
 		pre0.fill(0, 0, m);
 		pre1.fill(0, 0, m);
 
-		// Tones through the linear chain (exact complex response), two sides at once.
+		// Tones through the linear chain (exact complex response), two sides at once; or, while
+		// the phono stage clips, to the phono stage's output (the rest runs in noiseSegment).
+		const toPhono = this.phonoClipTones;
+		const out0 = toPhono ? this.phonoTone[0] : pre0;
+		const out1 = toPhono ? this.phonoTone[1] : pre1;
+		if (toPhono) {
+			out0.fill(0, 0, m);
+			out1.fill(0, 0, m);
+		}
+		const coefs = toPhono ? this.phonoCoefs : this.coefs;
 		for (let k = 0; k < this.tones.length; k++) {
 			const t = this.tones[k];
-			const c0 = this.coefs[0][k];
-			const c1 = this.coefs[1][k];
+			const c0 = coefs[0][k];
+			const c1 = coefs[1][k];
 			const w = (2 * Math.PI * t.frequencyHz) / fs;
 			const cw = Math.cos(w);
 			const sw = Math.sin(w);
@@ -433,8 +519,8 @@ export class Simulator {
 			const a1 = c1[0];
 			const b1 = c1[1];
 			for (let i = 0; i < m; i++) {
-				pre0[i] += a0 * zi + b0 * zr;
-				pre1[i] += a1 * zi + b1 * zr;
+				out0[i] += a0 * zi + b0 * zr;
+				out1[i] += a1 * zi + b1 * zr;
 				const nr = zr * cw - zi * sw;
 				zi = zi * cw + zr * sw;
 				zr = nr;
@@ -491,12 +577,12 @@ export class Simulator {
 			this.humPos = (this.humPos + m) % (fs * 10);
 		}
 
-		const inv = 1 / this.fullScaleVolts;
 		const depth = this.crossoverDepthV;
 		const invX = 1 / CROSSOVER_WIDTH_V;
 		const invSwing = 1 / this.swing;
 		const rng = this.rngNoise;
 		const loadOhms = this.st.loadOhms;
+		const relayOpen = this.relayTrip !== null;
 		for (let side = 0; side < sides; side++) {
 			const pre = this.pre[side];
 			const hum = this.humBuf[side];
@@ -507,11 +593,19 @@ export class Simulator {
 			const sigma = this.outNoiseSigma[side];
 			const dc = this.dcV[side];
 			const work = this.work[side];
+			if (relayOpen) {
+				// The relay has cut the amplifier off the load: the analyzer reads only itself.
+				rng.fillGaussian(work, m, ANALYZER_FLOOR_VRMS);
+				this.lastMeanAbsCurrentA[side] = 0;
+				this.writeSide(out, work, pos, m, side);
+				continue;
+			}
 			// Output-stage noise first, so the loop below only adds to it.
 			rng.fillGaussian(work, m, sigma);
 			let sumAbs = 0;
 			for (let i = 0; i < m; i++) {
-				let v = pre[i];
+				// The offset is part of what the output stage drives, so the rails bound it too.
+				let v = pre[i] + dc;
 				// Crossover: a small notch around zero, deeper as the bias falls.
 				let x = v * invX;
 				if (x > 3) x = 1;
@@ -527,13 +621,20 @@ export class Simulator {
 				else if (v < -kn)
 					v = -vn * (CLIP_KNEE + (1 - CLIP_KNEE) * Math.tanh((-v / vn - CLIP_KNEE) / (1 - CLIP_KNEE)));
 				sumAbs += v < 0 ? -v : v;
-				work[i] += v + hum[i] + dc;
+				work[i] += v + hum[i];
 			}
 			this.lastMeanAbsCurrentA[side] = sumAbs / m / loadOhms;
-			for (let c = side; c < chs; c += 2) {
-				let o = pos * chs + c;
-				for (let i = 0; i < m; i++, o += chs) out[o] = work[i] * inv;
-			}
+			this.writeSide(out, work, pos, m, side);
+		}
+	}
+
+	/** Copy one side's volts into every interleaved channel it feeds, as samples. */
+	private writeSide(out: Float32Array, work: Float64Array, pos: number, m: number, side: number): void {
+		const chs = this.channels;
+		const inv = 1 / this.fullScaleVolts;
+		for (let c = side; c < chs; c += 2) {
+			let o = pos * chs + c;
+			for (let i = 0; i < m; i++, o += chs) out[o] = work[i] * inv;
 		}
 	}
 
@@ -601,7 +702,25 @@ export class Simulator {
 			const x = this.work[side];
 			// Generator through the inverse network then the playback curve is flat: add it after the stage.
 			const dg = gen.kind === 'noise' && drivesSide(drive, side) && !(phono && !network) ? 1 : 0;
-			if (dg) for (let i = 0; i < m; i++) x[i] = gv * (x[i] + g[i]);
+			if (phono) {
+				if (dg) for (let i = 0; i < m; i++) x[i] += g[i];
+				if (this.phonoClipTones) {
+					const t = this.phonoTone[side];
+					for (let i = 0; i < m; i++) x[i] += t[i];
+				}
+				// The phono stage's own swing: an input far above its overload point clips here,
+				// whatever the volume after it.
+				const vp = PHONO_STAGE_CLIP_V;
+				const k = CLIP_KNEE * vp;
+				for (let i = 0; i < m; i++) {
+					const v = x[i];
+					if (v > k)
+						x[i] = vp * (CLIP_KNEE + (1 - CLIP_KNEE) * Math.tanh((v / vp - CLIP_KNEE) / (1 - CLIP_KNEE)));
+					else if (v < -k)
+						x[i] = -vp * (CLIP_KNEE + (1 - CLIP_KNEE) * Math.tanh((-v / vp - CLIP_KNEE) / (1 - CLIP_KNEE)));
+					x[i] *= gv;
+				}
+			} else if (dg) for (let i = 0; i < m; i++) x[i] = gv * (x[i] + g[i]);
 			else for (let i = 0; i < m; i++) x[i] *= gv;
 		}
 		// Volume is done; EQ and filters run both sides in one loop (independent recursions overlap).

@@ -42,6 +42,8 @@ export interface CmdSourceOptions {
 	channels: number;
 	blockSize: number;
 	fullScaleVolts: number[];
+	/** The interface's input passes DC (--dc-coupled); most audio interfaces block it. Default false. */
+	dcCoupled?: boolean;
 	/** Restart delay after the command exits (ms); doubles up to 10 s while it keeps failing quickly. */
 	restartMs?: number;
 	report?: (msg: string) => void;
@@ -54,6 +56,7 @@ export class CmdSource implements AudioSource {
 	readonly channels: number;
 	readonly blockSize: number;
 	readonly fullScaleVolts: number[];
+	readonly dcCoupled: boolean;
 	overruns = 0;
 	restarts = 0;
 	lastStderr = '';
@@ -74,6 +77,7 @@ export class CmdSource implements AudioSource {
 		this.channels = opts.channels;
 		this.blockSize = opts.blockSize;
 		this.fullScaleVolts = opts.fullScaleVolts;
+		this.dcCoupled = opts.dcCoupled ?? false;
 		this.writer = new FrameWriter(opts.sampleRateHz, opts.channels);
 		this.backoffMs = opts.restartMs ?? 1000;
 	}

@@ -11,6 +11,8 @@ export interface SimSourceOptions {
 	seed: number;
 	state?: SimulatorState;
 	generator?: GeneratorState;
+	/** Simulated seconds per real second (the protection relay's timer follows it). */
+	timeScale?: number;
 }
 
 export class SimSource extends PacedSource implements AudioSource {
@@ -20,6 +22,8 @@ export class SimSource extends PacedSource implements AudioSource {
 	readonly channels: number;
 	readonly blockSize: number;
 	readonly fullScaleVolts: number[];
+	/** The simulated analyzer input is DC-coupled, so the dc-offset fault can be read. */
+	readonly dcCoupled = true;
 	readonly simulator: Simulator;
 	overruns = 0;
 	private readonly writer: FrameWriter;

@@ -20,6 +20,8 @@ export interface AudioSource {
 	readonly channels: number;
 	readonly blockSize: number;
 	readonly fullScaleVolts: number[];
+	/** True when the input passes DC (so a DC-offset reading means something); most audio interfaces block it. */
+	readonly dcCoupled: boolean;
 	/** Blocks lost at the source (late timers, a stalled or restarted command). */
 	readonly overruns: number;
 	start(sink: FrameSink): Promise<void>;

@@ -37,6 +37,8 @@ export async function loadWav(
 export class WavSource extends PacedSource implements AudioSource {
 	readonly kind = 'wav' as const;
 	readonly label: string;
+	/** A recording says nothing reliable about DC. */
+	readonly dcCoupled = false;
 	overruns = 0;
 	private readonly writer: FrameWriter;
 	private pos = 0; // frame position in the file

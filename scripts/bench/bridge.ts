@@ -39,7 +39,12 @@ const CASES: Case[] = [
 			faults: {
 				noisySelector: 'left',
 				scratchyControl: { enabled: true, moving: true, band: 5 },
-				tiredFilterCap: true
+				tiredFilterCap: true,
+				underBias: true,
+				weakOutputDevice: 'right',
+				dcOffset: true,
+				// Armed but not tripped (no heatsink feed here): an open relay would only make less work.
+				protectionRelay: { enabled: true }
 			}
 		})
 	}

@@ -8,7 +8,8 @@ import {
 	bridgeStreamUrl,
 	maxSinePowerW,
 	parseBridgeMessage,
-	parseControlMessage
+	parseControlMessage,
+	railVoltsForPowerW
 } from './protocol';
 
 const valid = [
@@ -27,7 +28,10 @@ const valid = [
 		faults: { scratchyControl: { moving: true }, weakOutputDevice: 'left' }
 	},
 	{ v: 1, type: 'sim', eqBand: { index: 9, gainDb: -12 }, lowFilter: { enabled: true } },
-	{ v: 1, type: 'temps-after', seq: 1_767_000_000_000 }
+	{ v: 1, type: 'sim', faults: { dcOffset: true, dcOffsetMv: -75, protectionRelay: { tripAfterS: 600 } } },
+	{ v: 1, type: 'sim', faults: { protectionRelay: { enabled: true, tripCelsius: 55, tripAfterS: null } } },
+	{ v: 1, type: 'temps-after', seq: 1_767_000_000_000 },
+	{ v: 1, type: 'renew', token: 'eyJhbGciOiJIUzI1NiJ9.e30.sig', id: 7 }
 ];
 
 function lcg(seed: number): () => number {
@@ -63,6 +67,12 @@ describe('control messages', () => {
 			{ v: 1, type: 'sim', mainsHz: 55 },
 			{ v: 1, type: 'sim', faults: { noisySelector: 'centre' } },
 			{ v: 1, type: 'temps-after', seq: 1.5 },
+			{ v: 1, type: 'sim', faults: { dcOffsetMv: 2500 } },
+			{ v: 1, type: 'sim', faults: { protectionRelay: { tripCelsius: 500 } } },
+			{ v: 1, type: 'sim', faults: { protectionRelay: { enabled: true, after: 3 } } },
+			{ v: 1, type: 'renew', token: '' },
+			{ v: 1, type: 'renew', token: 'x'.repeat(3000) },
+			{ v: 1, type: 'renew' },
 			'x'.repeat(5000)
 		];
 		for (const b of bad) {
@@ -106,6 +116,21 @@ describe('simulator settings', () => {
 			faults: undefined
 		});
 		expect(DEFAULT_SIMULATOR_STATE.eqGainsDb[2]).toBe(0);
+		const relay = applySimPatch(DEFAULT_SIMULATOR_STATE, {
+			faults: { protectionRelay: { enabled: true }, dcOffsetMv: 40 }
+		});
+		expect(relay.faults.protectionRelay).toEqual({ enabled: true, tripCelsius: 50, tripAfterS: null });
+		expect(relay.faults.dcOffsetMv).toBe(40);
+		expect(relay.faults.dcOffset).toBe(false);
+	});
+
+	it('finds the rails for a rated power: P = V²/(2R) at the clip voltage (REFERENCES.md §5)', () => {
+		// 45 W into 8 Ω needs 26.83 V peak; plus the 3 V the output stage cannot swing.
+		expect(railVoltsForPowerW(45, 8)).toBeCloseTo(Math.sqrt(2 * 45 * 8) + 3, 9);
+		const st = applySimPatch(DEFAULT_SIMULATOR_STATE, { railVolts: railVoltsForPowerW(45, 8) });
+		expect(maxSinePowerW(st)).toBeCloseTo(45, 9);
+		expect(railVoltsForPowerW(2000, 8)).toBe(100); // the allowed range
+		expect(railVoltsForPowerW(0.1, 8)).toBe(10);
 	});
 
 	it('reports the largest clean sine power from the rails: P = V²/R (REFERENCES.md §5)', () => {
@@ -137,6 +162,13 @@ describe('bridge messages', () => {
 		};
 		expect(HelloMessageSchema.safeParse(hello).success).toBe(true);
 		expect(parseBridgeMessage(JSON.stringify(hello)).ok).toBe(true);
+		// A bridge that does not declare its coupling is taken as AC-coupled (no DC reading).
+		expect(HelloMessageSchema.parse(hello).dcCoupled).toBe(false);
+		const declared = HelloMessageSchema.parse({ ...hello, dcCoupled: true, tokenExpiresAtMs: 120_000 });
+		expect(declared).toMatchObject({ dcCoupled: true, tokenExpiresAtMs: 120_000 });
+		expect(HelloMessageSchema.safeParse({ ...hello, dcCoupled: 'yes' }).success).toBe(false);
+		const renewed = { type: 'renewed', tokenExpiresAtMs: 5, serverTimeMs: 1, role: 'technician', replyTo: 3 };
+		expect(parseBridgeMessage(JSON.stringify(renewed))).toEqual({ ok: true, message: renewed });
 		expect(parseBridgeMessage('{"type":"nope"}').ok).toBe(false);
 		expect(parseBridgeMessage('garbage').ok).toBe(false);
 	});

@@ -14,6 +14,18 @@ export const CONTROL_MAX_BYTES = 4096;
 /** WebSocket path on the bridge; the token travels as `?token=`. */
 export const BRIDGE_STREAM_PATH = '/stream';
 export const DEFAULT_BRIDGE_PORT = 8787;
+/** Open streams one user may hold at once (the bridge's default; `--clients-per-user`). */
+export const DEFAULT_CLIENTS_PER_USER = 3;
+
+// WebSocket close codes the bridge uses (4000–4999 is the application range, RFC 6455 §7.4.2);
+// the reason text is what the page shows.
+/** The stream's token ran out without a renewal: the session ended or the user lost access. */
+export const CLOSE_SESSION_ENDED = 4401;
+export const CLOSE_SESSION_ENDED_REASON = 'your session ended; sign in again';
+/** This user already holds the most streams allowed. */
+export const CLOSE_TOO_MANY_FOR_USER = 4429;
+export const closeTooManyForUserReason = (limit: number): string =>
+	`you already have ${limit} bridge connections open (the limit); close another bench or soak tab`;
 
 // ── shared vocabulary ──────────────────────────────────────────────────────────
 
@@ -105,16 +117,40 @@ export const EQ_BAND_CENTRES_HZ = [31.5, 63, 125, 250, 500, 1000, 2000, 4000, 80
 export const EQ_MAX_DB = 12;
 export const VOLUME_MIN_DB = -80;
 export const VOLUME_MAX_DB = 40;
+/** Allowed supply rails (±V). */
+export const RAIL_MIN_V = 10;
+export const RAIL_MAX_V = 100;
 /** Output swing stops this far short of each rail (driver and emitter-resistor losses). */
 export const OUTPUT_HEADROOM_V = 3;
-/** A weak output device on one half of a channel clips that half at this fraction of the swing. */
-export const WEAK_DEVICE_SWING_FRACTION = 0.6;
-/** Fixed output offset (V) on the left channel while the dc-offset fault is on. */
-export const DC_OFFSET_FAULT_V = 0.12;
+/**
+ * A weak output device (low current gain) on one channel's positive half cannot deliver more
+ * than this load current, so that half clips at WEAK_DEVICE_MAX_CURRENT_A × loadOhms (12 V peak
+ * into 8 Ω: 9 W of clean sine, where a healthy channel gives 95 W).
+ */
+export const WEAK_DEVICE_MAX_CURRENT_A = 1.5;
+/** Largest DC offset the dc-offset fault may be set to (mV, either sign). */
+export const DC_OFFSET_MAX_MV = 2000;
+/** The phono stage's own output swing (V peak, a ±15 V op-amp stage): a hot input clips it. */
+export const PHONO_STAGE_CLIP_V = 12;
+/** A heat-tripped protection relay closes again once both heatsinks are this much below the trip point. */
+export const RELAY_RESET_HYSTERESIS_C = 10;
 /** Inverse-RIAA network loss at 1 kHz (dB), matched by the phono stage gain so line and phono read alike. */
 export const PHONO_GAIN_1KHZ_DB = 40;
 
 const gainDb = z.number().min(-EQ_MAX_DB).max(EQ_MAX_DB);
+
+export const ProtectionRelaySchema = z.strictObject({
+	enabled: z.boolean(),
+	/** Opens when either heatsink reaches this temperature (needs the simulated temperatures). */
+	tripCelsius: z.number().min(30).max(150),
+	/** Or opens this many simulated (time-scaled) seconds after the fault is switched on; null = no timer. */
+	tripAfterS: z
+		.number()
+		.min(0)
+		.max(24 * 3600)
+		.nullable()
+});
+export type ProtectionRelay = z.infer<typeof ProtectionRelaySchema>;
 
 export const FaultsSchema = z.strictObject({
 	/** A dirty selector contact on one channel: raised noise floor and crackle there. */
@@ -132,12 +168,36 @@ export const FaultsSchema = z.strictObject({
 	tiredFilterCap: z.boolean(),
 	/** Bias drifted low: the effective bias falls to a fraction of the setting (crossover distortion). */
 	underBias: z.boolean(),
-	/** A weak output device on one channel: that channel's positive half clips early. */
+	/** A weak output device on one channel: that channel's positive half current-limits (WEAK_DEVICE_MAX_CURRENT_A). */
 	weakOutputDevice: ChannelNameSchema.nullable(),
-	/** A DC offset on the left output (DC_OFFSET_FAULT_V). */
-	dcOffset: z.boolean()
+	/** A DC offset of `dcOffsetMv` on the left output. */
+	dcOffset: z.boolean(),
+	/** The offset the dc-offset fault puts on the left output, mV. */
+	dcOffsetMv: z.number().min(-DC_OFFSET_MAX_MV).max(DC_OFFSET_MAX_MV),
+	/** The speaker protection relay opens: hot heatsinks (or a timer) cut the output off the load. */
+	protectionRelay: ProtectionRelaySchema
 });
 export type Faults = z.infer<typeof FaultsSchema>;
+export type FaultName = keyof Faults;
+
+/**
+ * What each fault does and exactly when it shows, for the simulator panel and the README.
+ * Every statement is checked against the simulator's output in bridge/sim/faults.test.ts.
+ */
+export const FAULT_HELP: Record<Exclude<FaultName, 'dcOffsetMv'>, string> = {
+	noisySelector:
+		"A dirty selector contact on one channel: that channel's noise rises by more than 20 dB (about 28 dB at the default volume) and it crackles, with or without signal; the other channel stays clean.",
+	scratchyControl:
+		'A worn slider on one EQ band: while "being moved" is on, the level at that band jumps by up to 12 dB every few tens of ms and crackles; left alone it reads steady.',
+	tiredFilterCap:
+		'A dried-out reservoir capacitor: ripple hum at twice the mains frequency (100 or 120 Hz) and its even harmonics rises 32 dB at idle and about 4 dB more at 12 W into 8 Ω; hum at the mains frequency rises about 10 dB.',
+	underBias:
+		'Bias drifted low (15 % of the setting): crossover distortion, worst at low levels: THD above 0.05 % at 1 W into 8 Ω, where a healthy unit reads under 0.01 %; at tens of watts it adds little to what the output stage shows anyway.',
+	weakOutputDevice: `One channel's positive half cannot deliver more than ${WEAK_DEVICE_MAX_CURRENT_A} A, so it clips early: at 12 W into 8 Ω THD+N on that channel rises above 1 % (about 4.5 %) while the other reads about 0.015 %; below about 8 W into 8 Ω (4 W into 4 Ω) it reads healthy.`,
+	dcOffset:
+		'A DC offset on the left output, of the set millivolts, always present (with or without signal). Only a DC-coupled analyzer input can read it.',
+	protectionRelay: `The speaker relay opens: the output drops to the analyzer's floor (more than 80 dB down) the moment either heatsink reaches the trip temperature (simulated temperatures only) or, with a timer set, that many simulated seconds after the fault is switched on. A heat trip closes again once both heatsinks are ${RELAY_RESET_HYSTERESIS_C} °C below the trip point; a timer trip stays open until the fault is switched off.`
+};
 
 const filterSchema = (minHz: number, maxHz: number) =>
 	z.strictObject({ enabled: z.boolean(), frequencyHz: z.number().min(minHz).max(maxHz) });
@@ -159,7 +219,7 @@ export const SimulatorStateSchema = z.strictObject({
 	mainsHz: z.union([z.literal(50), z.literal(60)]),
 	loadOhms: z.number().min(1).max(1000),
 	/** Supply rails ±railVolts; the clip point is railVolts − OUTPUT_HEADROOM_V (peak). */
-	railVolts: z.number().min(10).max(100),
+	railVolts: z.number().min(RAIL_MIN_V).max(RAIL_MAX_V),
 	faults: FaultsSchema
 });
 export type SimulatorState = z.infer<typeof SimulatorStateSchema>;
@@ -181,7 +241,9 @@ export const DEFAULT_SIMULATOR_STATE: SimulatorState = {
 		tiredFilterCap: false,
 		underBias: false,
 		weakOutputDevice: null,
-		dcOffset: false
+		dcOffset: false,
+		dcOffsetMv: 120,
+		protectionRelay: { enabled: false, tripCelsius: 50, tripAfterS: null }
 	}
 };
 
@@ -193,8 +255,18 @@ export function clipVoltsPeak(
 ): number {
 	const swing = state.railVolts - OUTPUT_HEADROOM_V;
 	if (half === 'positive' && state.faults.weakOutputDevice === channel)
-		return swing * WEAK_DEVICE_SWING_FRACTION;
+		return Math.min(swing, WEAK_DEVICE_MAX_CURRENT_A * state.loadOhms);
 	return swing;
+}
+
+/**
+ * Supply rails that make the simulator's clean-sine maximum `powerW` into `loadOhms`
+ * (P = V²/(2R) at the clip voltage, plus OUTPUT_HEADROOM_V), so it can stand in for a unit of
+ * that rating. Clamped to the allowed rail range.
+ */
+export function railVoltsForPowerW(powerW: number, loadOhms: number): number {
+	const v = Math.sqrt(2 * powerW * loadOhms) + OUTPUT_HEADROOM_V;
+	return Math.min(RAIL_MAX_V, Math.max(RAIL_MIN_V, v));
 }
 
 /** Largest clean sine power into the load (P = V²/R with V the rms of the clip-point sine). */
@@ -262,7 +334,9 @@ export const SimMessageSchema = z.strictObject({
 			tiredFilterCap: z.boolean().optional(),
 			underBias: z.boolean().optional(),
 			weakOutputDevice: FaultsSchema.shape.weakOutputDevice.optional(),
-			dcOffset: z.boolean().optional()
+			dcOffset: z.boolean().optional(),
+			dcOffsetMv: FaultsSchema.shape.dcOffsetMv.optional(),
+			protectionRelay: ProtectionRelaySchema.partial().optional()
 		})
 		.optional()
 });
@@ -275,12 +349,28 @@ export const TempsAfterMessageSchema = z.strictObject({
 	seq: z.number().int().min(-1).max(Number.MAX_SAFE_INTEGER)
 });
 
+/** Longest bridge token the bridge reads (a real one is about 300 characters). */
+export const BRIDGE_TOKEN_MAX_CHARS = 2048;
+
+/**
+ * Renew this stream's authorisation with a freshly minted token (GET /api/bridge-token) before
+ * the current one expires; it must name the same user and session. Unrenewed streams are closed
+ * at expiry with CLOSE_SESSION_ENDED.
+ */
+export const RenewMessageSchema = z.strictObject({
+	v,
+	id,
+	type: z.literal('renew'),
+	token: z.string().min(1).max(BRIDGE_TOKEN_MAX_CHARS)
+});
+
 export const ControlMessageSchema = z.discriminatedUnion('type', [
 	GeneratorMessageSchema,
 	InputMessageSchema,
 	LoadMessageSchema,
 	SimMessageSchema,
-	TempsAfterMessageSchema
+	TempsAfterMessageSchema,
+	RenewMessageSchema
 ]);
 export type ControlMessage = z.infer<typeof ControlMessageSchema>;
 export type SimMessage = z.infer<typeof SimMessageSchema>;
@@ -311,6 +401,9 @@ export function applySimPatch(
 		if (f.underBias !== undefined) next.faults.underBias = f.underBias;
 		if (f.weakOutputDevice !== undefined) next.faults.weakOutputDevice = f.weakOutputDevice;
 		if (f.dcOffset !== undefined) next.faults.dcOffset = f.dcOffset;
+		if (f.dcOffsetMv !== undefined) next.faults.dcOffsetMv = f.dcOffsetMv;
+		if (f.protectionRelay)
+			next.faults.protectionRelay = { ...next.faults.protectionRelay, ...f.protectionRelay };
 	}
 	return SimulatorStateSchema.parse(next);
 }
@@ -389,7 +482,18 @@ export const HelloMessageSchema = z.object({
 	timeScale: z.number(),
 	/** Highest temperature sequence number stored so far (null before the first reading). */
 	lastTempSeq: z.number().int().nullable(),
-	serverTimeMs: z.number()
+	serverTimeMs: z.number(),
+	/**
+	 * True when the source's input passes DC (the simulator; a capture command started with
+	 * --dc-coupled), so a DC-offset reading means something. Most audio interfaces block DC: a
+	 * bridge that does not say so is taken as AC-coupled.
+	 */
+	dcCoupled: z.boolean().default(false),
+	/**
+	 * When this stream's token runs out (ms epoch, the bridge's clock; compare with serverTimeMs).
+	 * Send `renew` before then or the bridge closes the stream with CLOSE_SESSION_ENDED.
+	 */
+	tokenExpiresAtMs: z.number().optional()
 });
 export type HelloMessage = z.infer<typeof HelloMessageSchema>;
 
@@ -417,13 +521,29 @@ export const StateMessageSchema = z.object({
 });
 export type StateMessage = z.infer<typeof StateMessageSchema>;
 
+/** The answer to an accepted `renew`: the stream now lives until tokenExpiresAtMs. */
+export const RenewedMessageSchema = z.object({
+	type: z.literal('renewed'),
+	/** ms epoch, the bridge's clock. */
+	tokenExpiresAtMs: z.number(),
+	serverTimeMs: z.number(),
+	/** The role the renewed token carries (a changed role takes effect here). */
+	role: z.string(),
+	replyTo: z.union([z.string(), z.number()]).optional()
+});
+export type RenewedMessage = z.infer<typeof RenewedMessageSchema>;
+
 export const ERROR_CODES = [
 	'bad-json',
 	'bad-message',
 	'unsupported',
 	'binary-not-accepted',
 	'rate-limited',
-	'out-of-range'
+	'out-of-range',
+	/** A temps-after arrived while this client's previous backfill is still being sent. */
+	'busy',
+	/** A renew token that does not verify, or names another user or session. */
+	'renew-refused'
 ] as const;
 export const ErrorMessageSchema = z.object({
 	type: z.literal('error'),
@@ -455,7 +575,8 @@ export const BridgeMessageSchema = z.discriminatedUnion('type', [
 	TempsMessageSchema,
 	StateMessageSchema,
 	ErrorMessageSchema,
-	StatsMessageSchema
+	StatsMessageSchema,
+	RenewedMessageSchema
 ]);
 export type BridgeMessage = z.infer<typeof BridgeMessageSchema>;
 

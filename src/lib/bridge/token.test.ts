@@ -74,7 +74,43 @@ describe('bridge tokens', () => {
 			.setExpirationTime(iat + 60)
 			.sign(key);
 		expect(await reason(verifyBridgeToken(SECRET, noRole))).toBe('bad-claims');
+		const badTag = await new SignJWT({ role: 'technician', sid: 'a b' })
+			.setProtectedHeader({ alg: 'HS256' })
+			.setSubject('u1')
+			.setAudience(BRIDGE_AUDIENCE)
+			.setIssuer(BRIDGE_ISSUER)
+			.setIssuedAt(iat)
+			.setExpirationTime(iat + 60)
+			.sign(key);
+		expect(await reason(verifyBridgeToken(SECRET, badTag))).toBe('bad-claims');
 		const unsigned = `${Buffer.from('{"alg":"none"}').toString('base64url')}.${token.split('.')[1]}.`;
 		expect(await reason(verifyBridgeToken(SECRET, unsigned))).not.toBe('accepted');
+	});
+
+	it('refuses a token issued more than 30 s in the future (clock skew allowance), accepts one within it', async () => {
+		const now = Date.now();
+		const ahead = async (s: number) =>
+			(await mintBridgeToken(SECRET, { userId: 'u1', role: 'technician' }, 60, now + s * 1000)).token;
+		expect(await reason(verifyBridgeToken(SECRET, await ahead(120), now))).toBe('not-yet-valid');
+		expect(await reason(verifyBridgeToken(SECRET, await ahead(32), now))).toBe('not-yet-valid');
+		expect(await reason(verifyBridgeToken(SECRET, await ahead(25), now))).toBe('accepted');
+		expect(await reason(verifyBridgeToken(SECRET, await ahead(0), now))).toBe('accepted');
+	});
+
+	it('carries the session tag so a renewal can be matched to the same sign-in', async () => {
+		const { token } = await mintBridgeToken(SECRET, {
+			userId: 'u1',
+			role: 'technician',
+			sessionTag: 'Zm9vYmFyYmF6cXV4'
+		});
+		expect(await verifyBridgeToken(SECRET, token)).toMatchObject({
+			userId: 'u1',
+			sessionTag: 'Zm9vYmFyYmF6cXV4'
+		});
+		const plain = (await mintBridgeToken(SECRET, { userId: 'u1', role: 'technician' })).token;
+		expect((await verifyBridgeToken(SECRET, plain)).sessionTag).toBeUndefined();
+		await expect(
+			mintBridgeToken(SECRET, { userId: 'u1', role: 'technician', sessionTag: 'no spaces' })
+		).rejects.toThrow(RangeError);
 	});
 });

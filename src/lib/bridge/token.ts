@@ -11,13 +11,21 @@ export const BRIDGE_SECRET_MIN_LENGTH = 32;
 export const BRIDGE_ROLES = ['technician', 'supervisor', 'admin'] as const;
 export type BridgeRole = (typeof BRIDGE_ROLES)[number];
 
+/** A token may say it was issued at most this far in the bridge's future (clock skew between PCs). */
+export const BRIDGE_TOKEN_MAX_SKEW_S = 30;
+
 export interface BridgeClaims {
 	userId: string;
 	role: BridgeRole;
+	/**
+	 * An opaque tag of the app session the token was minted for (never the session id itself):
+	 * a stream may only be renewed with a token from the same session.
+	 */
+	sessionTag?: string;
 }
 
 export type BridgeTokenFailure =
-	'missing' | 'malformed' | 'bad-signature' | 'expired' | 'wrong-audience' | 'bad-claims';
+	'missing' | 'malformed' | 'bad-signature' | 'expired' | 'not-yet-valid' | 'wrong-audience' | 'bad-claims';
 
 export class BridgeTokenError extends Error {
 	constructor(
@@ -51,7 +59,12 @@ export async function mintBridgeToken(
 		throw new RangeError('bridge token needs a user id and a bench role');
 	const iat = Math.floor(nowMs / 1000);
 	const exp = iat + Math.floor(ttlS);
-	const token = await new SignJWT({ role: claims.role })
+	if (claims.sessionTag !== undefined && !/^[\w-]{8,128}$/.test(claims.sessionTag))
+		throw new RangeError('bridge token session tag must be 8–128 word characters');
+	const token = await new SignJWT({
+		role: claims.role,
+		...(claims.sessionTag ? { sid: claims.sessionTag } : {})
+	})
 		.setProtectedHeader({ alg: 'HS256', typ: 'JWT' })
 		.setSubject(claims.userId)
 		.setAudience(BRIDGE_AUDIENCE)
@@ -100,5 +113,19 @@ export async function verifyBridgeToken(
 	// A token minted elsewhere with a long life is refused even though it verifies.
 	if (exp - iat > BRIDGE_TOKEN_MAX_TTL_S)
 		throw new BridgeTokenError('bad-claims', 'bridge token lifetime exceeds 5 minutes');
-	return { userId: payload.sub, role: role as BridgeRole, expiresAt: new Date(exp * 1000) };
+	// Issued in the future: a wrong clock or a token minted ahead to outlive its limit.
+	if (iat > nowMs / 1000 + BRIDGE_TOKEN_MAX_SKEW_S)
+		throw new BridgeTokenError(
+			'not-yet-valid',
+			`bridge token is issued ${Math.round(iat - nowMs / 1000)} s in the future (clocks more than ${BRIDGE_TOKEN_MAX_SKEW_S} s apart?)`
+		);
+	const sid = payload.sid;
+	if (sid !== undefined && (typeof sid !== 'string' || !/^[\w-]{8,128}$/.test(sid)))
+		throw new BridgeTokenError('bad-claims', 'bridge token session tag is malformed');
+	return {
+		userId: payload.sub,
+		role: role as BridgeRole,
+		...(sid ? { sessionTag: sid } : {}),
+		expiresAt: new Date(exp * 1000)
+	};
 }

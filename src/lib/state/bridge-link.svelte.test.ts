@@ -1,8 +1,15 @@
 // BridgeLink against a scripted fake WebSocket: token fetch and URL override, hello, dropped
 // frames from sequence gaps, frames handed over untouched, restart events on a new bootId,
-// temps-after backfill after a reconnect, and control messages validated before sending.
+// temps-after backfill after a reconnect, control messages validated before sending, the
+// bridge's DC-coupling declaration, and token renewal over the open socket.
 import { afterEach, beforeEach, describe, expect, it, vi } from 'vitest';
-import { encodeFrame, DEFAULT_SIMULATOR_STATE, type HelloMessage } from '$lib/bridge/protocol';
+import {
+	CLOSE_SESSION_ENDED,
+	CLOSE_SESSION_ENDED_REASON,
+	encodeFrame,
+	DEFAULT_SIMULATOR_STATE,
+	type HelloMessage
+} from '$lib/bridge/protocol';
 import {
 	BridgeLink,
 	BRIDGE_URL_OVERRIDE_KEY,
@@ -42,13 +49,13 @@ class FakeSocket {
 	binary(buf: ArrayBuffer) {
 		this.onmessage?.({ data: buf });
 	}
-	drop(code = 1006) {
+	drop(code = 1006, reason = '') {
 		this.readyState = 3;
-		this.onclose?.({ code, reason: '' });
+		this.onclose?.({ code, reason });
 	}
 }
 
-function hello(bootId: string): HelloMessage {
+function hello(bootId: string, over: Partial<HelloMessage> = {}): HelloMessage {
 	return {
 		type: 'hello',
 		protocolVersion: 1,
@@ -65,7 +72,9 @@ function hello(bootId: string): HelloMessage {
 		generator: { kind: 'off' },
 		timeScale: 1,
 		lastTempSeq: null,
-		serverTimeMs: 0
+		serverTimeMs: 0,
+		dcCoupled: true,
+		...over
 	};
 }
 
@@ -100,15 +109,21 @@ afterEach(() => {
 	vi.unstubAllGlobals();
 });
 
-async function connected(link: BridgeLink, bootId = 'boot-a'): Promise<FakeSocket> {
+async function connected(
+	link: BridgeLink,
+	bootId = 'boot-a',
+	over: Partial<HelloMessage> = {}
+): Promise<FakeSocket> {
 	const before = FakeSocket.instances.length;
 	link.connect();
 	await vi.waitFor(() => expect(FakeSocket.instances.length).toBeGreaterThan(before));
 	const ws = FakeSocket.instances.at(-1)!;
 	ws.open();
-	ws.text(hello(bootId));
+	ws.text(hello(bootId, over));
 	return ws;
 }
+
+const sentOf = (ws: FakeSocket) => ws.sent.map((t) => JSON.parse(t) as Record<string, unknown>);
 
 describe('BridgeLink', () => {
 	it('fetches a token and connects to the shop bridge, or to this browser’s override', async () => {
@@ -226,5 +241,100 @@ describe('BridgeLink', () => {
 		expect(link.loadOhms).toBe(4);
 		link.disconnect();
 		expect(link.status).toBe('closed');
+	});
+
+	it('says whether the bridge input is DC-coupled, as the hello declares (not declared: no)', async () => {
+		const link = new BridgeLink();
+		expect(link.dcCoupled).toBe(false);
+		await connected(link, 'boot-a', { dcCoupled: true });
+		expect(link.dcCoupled).toBe(true);
+		link.disconnect();
+		const other = new BridgeLink();
+		const { dcCoupled: _omit, ...old } = hello('boot-b');
+		const ws = await (async () => {
+			other.connect();
+			await vi.waitFor(() => expect(FakeSocket.instances.length).toBeGreaterThan(1));
+			return FakeSocket.instances.at(-1)!;
+		})();
+		ws.open();
+		ws.text(old); // an older bridge that says nothing about coupling
+		expect(other.status).toBe('connected');
+		expect(other.dcCoupled).toBe(false);
+		other.disconnect();
+	});
+
+	it('renews its token over the open socket before the bridge’s expiry, and again after each renewal', async () => {
+		const link = new BridgeLink();
+		const fetchMock = vi.mocked(fetch);
+		const ws = await connected(link, 'boot-a', { serverTimeMs: 1_000_000, tokenExpiresAtMs: 1_120_000 });
+		expect(fetchMock).toHaveBeenCalledTimes(1);
+		fetchMock.mockImplementation(
+			async () =>
+				new Response(JSON.stringify({ token: 'tok-2', expiresAt: 0, bridgeUrl: 'ws://127.0.0.1:8787' }))
+		);
+		// 120 s left: renew after a third of it.
+		await vi.advanceTimersByTimeAsync(39_000);
+		expect(sentOf(ws).filter((m) => m.type === 'renew')).toHaveLength(0);
+		await vi.advanceTimersByTimeAsync(1_500);
+		const renew = sentOf(ws).filter((m) => m.type === 'renew');
+		expect(renew).toEqual([{ v: 1, id: expect.any(Number), type: 'renew', token: 'tok-2' }]);
+		ws.text({
+			type: 'renewed',
+			tokenExpiresAtMs: 2_120_000,
+			serverTimeMs: 2_000_000,
+			role: 'technician',
+			replyTo: renew[0].id
+		});
+		await vi.advanceTimersByTimeAsync(39_000);
+		expect(sentOf(ws).filter((m) => m.type === 'renew')).toHaveLength(1);
+		await vi.advanceTimersByTimeAsync(1_500);
+		expect(sentOf(ws).filter((m) => m.type === 'renew')).toHaveLength(2);
+		expect(link.status).toBe('connected');
+		link.disconnect();
+	});
+
+	it('retries a refused renewal, and stops with "sign in again" when the app refuses a token (401)', async () => {
+		const link = new BridgeLink();
+		const fetchMock = vi.mocked(fetch);
+		const ws = await connected(link, 'boot-a', { serverTimeMs: 0, tokenExpiresAtMs: 60_000 });
+		await vi.advanceTimersByTimeAsync(20_500);
+		const first = sentOf(ws).filter((m) => m.type === 'renew');
+		expect(first).toHaveLength(1);
+		ws.text({
+			type: 'error',
+			code: 'renew-refused',
+			message: 'that token is for another user or session',
+			replyTo: first[0].id
+		});
+		await vi.advanceTimersByTimeAsync(5_500);
+		expect(sentOf(ws).filter((m) => m.type === 'renew')).toHaveLength(2);
+		// The session ended on the server: the token endpoint answers 401.
+		fetchMock.mockImplementation(
+			async () => new Response(JSON.stringify({ message: 'Sign in first' }), { status: 401 })
+		);
+		await vi.advanceTimersByTimeAsync(5_500);
+		expect(link.status).toBe('closed');
+		expect(link.sessionEnded).toBe(true);
+		expect(link.error).toBe(CLOSE_SESSION_ENDED_REASON);
+		const sockets = FakeSocket.instances.length;
+		await vi.advanceTimersByTimeAsync(30_000);
+		expect(FakeSocket.instances.length).toBe(sockets); // no reconnecting
+	});
+
+	it('shows the bridge’s reason and does not reconnect when the bridge ends the stream at token expiry', async () => {
+		const link = new BridgeLink({ minBackoffMs: 100 });
+		const ws = await connected(link);
+		ws.drop(CLOSE_SESSION_ENDED, CLOSE_SESSION_ENDED_REASON);
+		expect(link.status).toBe('closed');
+		expect(link.sessionEnded).toBe(true);
+		expect(link.error).toBe('your session ended; sign in again');
+		const sockets = FakeSocket.instances.length;
+		await vi.advanceTimersByTimeAsync(5_000);
+		expect(FakeSocket.instances.length).toBe(sockets);
+		// Signing in again and pressing Connect starts afresh.
+		await connected(link);
+		expect(link.status).toBe('connected');
+		expect(link.sessionEnded).toBe(false);
+		link.disconnect();
 	});
 });

@@ -1,7 +1,10 @@
 // The browser's one connection to the bench bridge, shared by the bench and soak pages: token,
-// connect and reconnect with backoff, hello/state, dropped-frame and frame-age bookkeeping,
-// sample frames handed to a subscriber as raw ArrayBuffers, temperatures with restart tracking.
+// connect and reconnect with backoff, token renewal over the open socket, hello/state,
+// dropped-frame and frame-age bookkeeping, sample frames handed to a subscriber as raw
+// ArrayBuffers, temperatures with restart tracking.
 import {
+	CLOSE_SESSION_ENDED,
+	CLOSE_SESSION_ENDED_REASON,
 	CONTROL_VERSION,
 	ControlMessageSchema,
 	FRAME_HEADER_BYTES,
@@ -82,6 +85,12 @@ interface TokenAnswer {
 	bridgeUrl: string;
 }
 
+/** The app refused a token (401/403): retrying will not help until the user signs in again. */
+class TokenRefusedError extends Error {}
+
+/** Retry a failed renewal this often (ms), while the current token still has time left. */
+const RENEW_RETRY_MS = 5000;
+
 function readOverride(): string | null {
 	try {
 		const v = globalThis.localStorage?.getItem(BRIDGE_URL_OVERRIDE_KEY);
@@ -114,6 +123,7 @@ export class BridgeLink {
 	});
 	#latestTemps = $state.raw<Record<string, TempReading>>({});
 	#lastControlError = $state<string | null>(null);
+	#sessionEnded = $state(false);
 
 	#framesReceived = 0;
 	#droppedFrames = 0;
@@ -133,6 +143,10 @@ export class BridgeLink {
 	#bootId: string | null = null;
 	#lastTempSeq: number | null = null;
 	#everConnected = false;
+	// Token renewal: when the stream's token runs out (local clock), the pending renew's id, its timer.
+	#tokenExpiresAtLocalMs: number | null = null;
+	#renewId: number | null = null;
+	#renewTimer: ReturnType<typeof setTimeout> | null = null;
 
 	// Listener registries, not UI state: plain Sets on purpose.
 	/* eslint-disable svelte/prefer-svelte-reactivity */
@@ -217,6 +231,17 @@ export class BridgeLink {
 	get lastControlError(): string | null {
 		return this.#lastControlError;
 	}
+	/**
+	 * True when the bridge's input passes DC (it says so in its hello), so a DC-offset reading
+	 * means something; false when it does not, or before the hello. Most audio interfaces block DC.
+	 */
+	get dcCoupled(): boolean {
+		return this.#hello?.dcCoupled ?? false;
+	}
+	/** The sign-in behind the stream ended (token refused or not renewed): the page should say "sign in again". */
+	get sessionEnded(): boolean {
+		return this.#sessionEnded;
+	}
 	/** Unpublished counters, read synchronously (benchmarks). */
 	counters(): { framesReceived: number; droppedFrames: number; lastFrameAtMs: number | null } {
 		return {
@@ -247,6 +272,7 @@ export class BridgeLink {
 	connect(): void {
 		if (this.#wanted) return;
 		this.#wanted = true;
+		this.#sessionEnded = false;
 		this.#attempt = 0;
 		this.#startTicker();
 		void this.#open();
@@ -255,6 +281,7 @@ export class BridgeLink {
 	disconnect(): void {
 		this.#wanted = false;
 		this.#clearRetry();
+		this.#clearRenew();
 		if (this.#tick) clearInterval(this.#tick);
 		this.#tick = null;
 		const ws = this.#ws;
@@ -271,6 +298,7 @@ export class BridgeLink {
 	reconnectNow(): void {
 		const ws = this.#ws;
 		this.#ws = null;
+		this.#clearRenew();
 		if (ws) {
 			ws.onopen = ws.onmessage = ws.onclose = ws.onerror = null;
 			ws.close(1000, 'reconnecting');
@@ -308,6 +336,7 @@ export class BridgeLink {
 	async #fetchToken(): Promise<TokenAnswer> {
 		const res = await fetch(this.#tokenUrl, { headers: { accept: 'application/json' }, cache: 'no-store' });
 		if (!res.ok) {
+			if (res.status === 401) throw new TokenRefusedError(CLOSE_SESSION_ENDED_REASON);
 			let msg = `token request failed (${res.status})`;
 			try {
 				const j = (await res.json()) as { message?: string };
@@ -315,7 +344,7 @@ export class BridgeLink {
 			} catch {
 				/* keep the status line */
 			}
-			throw new Error(msg);
+			throw res.status === 403 ? new TokenRefusedError(msg) : new Error(msg);
 		}
 		const j = (await res.json()) as Partial<TokenAnswer>;
 		if (typeof j.token !== 'string' || typeof j.bridgeUrl !== 'string')
@@ -330,6 +359,7 @@ export class BridgeLink {
 		try {
 			answer = await this.#fetchToken();
 		} catch (e) {
+			if (e instanceof TokenRefusedError) return this.#endSession(e.message);
 			this.#error = e instanceof Error ? e.message : String(e);
 			this.#scheduleRetry();
 			return;
@@ -354,6 +384,10 @@ export class BridgeLink {
 		ws.onclose = (ev) => {
 			if (this.#ws !== ws) return;
 			this.#ws = null;
+			this.#clearRenew();
+			// The bridge ended the stream because its token ran out unrenewed: reconnecting
+			// would only be refused again; the user has to sign in.
+			if (ev.code === CLOSE_SESSION_ENDED) return this.#endSession(ev.reason || CLOSE_SESSION_ENDED_REASON);
 			if (ev.code !== 1000 || this.#wanted) {
 				this.#error = ev.reason
 					? `bridge closed the link: ${ev.reason} (${ev.code})`
@@ -392,6 +426,82 @@ export class BridgeLink {
 		this.#nextRetryAtMs = null;
 	}
 
+	/** Stop for good (until connect()): the session behind the token is gone. */
+	#endSession(message: string): void {
+		this.#sessionEnded = true;
+		this.#error = message;
+		this.#wanted = false;
+		this.#clearRetry();
+		this.#clearRenew();
+		const ws = this.#ws;
+		this.#ws = null;
+		if (ws) {
+			ws.onopen = ws.onmessage = ws.onclose = ws.onerror = null;
+			ws.close(1000, 'session ended');
+		}
+		this.#status = 'closed';
+		this.#publish();
+	}
+
+	#clearRenew(): void {
+		if (this.#renewTimer) clearTimeout(this.#renewTimer);
+		this.#renewTimer = null;
+		this.#renewId = null;
+		this.#tokenExpiresAtLocalMs = null;
+	}
+
+	/**
+	 * The bridge told us when the stream's token runs out (on its clock, with its time now):
+	 * renew after a third of the time left, leaving room for retries and throttled timers in a
+	 * background tab.
+	 */
+	#tokenLifetime(expiresAtMs: number | undefined, serverTimeMs: number): void {
+		if (this.#renewTimer) clearTimeout(this.#renewTimer);
+		this.#renewTimer = null;
+		this.#renewId = null;
+		if (expiresAtMs === undefined) {
+			this.#tokenExpiresAtLocalMs = null; // a bridge that does not expire streams
+			return;
+		}
+		const leftMs = Math.max(0, expiresAtMs - serverTimeMs);
+		this.#tokenExpiresAtLocalMs = Date.now() + leftMs;
+		this.#scheduleRenew(Math.max(1000, leftMs / 3));
+	}
+
+	#scheduleRenew(delayMs: number): void {
+		if (this.#renewTimer) clearTimeout(this.#renewTimer);
+		const ws = this.#ws;
+		this.#renewTimer = setTimeout(() => {
+			this.#renewTimer = null;
+			if (ws) void this.#renew(ws);
+		}, delayMs);
+	}
+
+	/** Fetch a fresh token and present it over the open socket; retry while time is left. */
+	async #renew(ws: WebSocket): Promise<void> {
+		if (this.#ws !== ws || this.#tokenExpiresAtLocalMs === null) return;
+		const retry = () => {
+			if (this.#ws !== ws || this.#tokenExpiresAtLocalMs === null) return;
+			const leftMs = this.#tokenExpiresAtLocalMs - Date.now();
+			// Out of time: the bridge closes the stream and onclose reports it.
+			if (leftMs > 0) this.#scheduleRenew(Math.min(RENEW_RETRY_MS, Math.max(250, leftMs / 4)));
+		};
+		let answer: TokenAnswer;
+		try {
+			answer = await this.#fetchToken();
+		} catch (e) {
+			if (this.#ws !== ws) return;
+			if (e instanceof TokenRefusedError) return this.#endSession(e.message);
+			return retry();
+		}
+		if (this.#ws !== ws) return;
+		const sent = this.send({ type: 'renew', token: answer.token });
+		if (!sent.ok) return retry();
+		this.#renewId = sent.id;
+		// If no answer comes, try again; a `renewed` answer replaces this timer.
+		retry();
+	}
+
 	#onText(text: string): void {
 		const parsed = parseBridgeMessage(text);
 		if (!parsed.ok) return; // Unknown or newer messages are ignored, not fatal.
@@ -412,6 +522,7 @@ export class BridgeLink {
 				this.#lastSeq = -1;
 				this.#droppedFrames = 0;
 				this.#discontinuities = 0;
+				this.#tokenLifetime(m.tokenExpiresAtMs, m.serverTimeMs);
 				for (const fn of this.#helloListeners) fn(m);
 				if (wasConnected) {
 					const ev: RestartEvent = {
@@ -465,6 +576,9 @@ export class BridgeLink {
 				break;
 			case 'stats':
 				this.#stats = m;
+				break;
+			case 'renewed':
+				if (m.replyTo === this.#renewId) this.#tokenLifetime(m.tokenExpiresAtMs, m.serverTimeMs);
 				break;
 			case 'error':
 				this.#lastControlError = m.issues?.length

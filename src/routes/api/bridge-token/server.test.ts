@@ -79,6 +79,21 @@ describe('GET /api/bridge-token', () => {
 		expect(((await res.json()) as { bridgeUrl: string }).bridgeUrl).toBe('ws://127.0.0.1:8899');
 	});
 
+	it('carries an opaque tag of the session (for renewals), never the session id, and its lifetime', async () => {
+		const tagOf = async (caller: Who) => {
+			const body = (await (await GET(event(caller))).json()) as { token: string; expiresInS: number };
+			expect(body.expiresInS).toBeGreaterThan(60);
+			return (await verifyBridgeToken(SECRET, body.token)).sessionTag;
+		};
+		const { session } = await auth.createSession(db, who.technician.user.id);
+		const other = { user: who.technician.user, session };
+		const a1 = await tagOf(who.technician);
+		expect(a1).toMatch(/^[\w-]{32}$/);
+		expect(await tagOf(who.technician)).toBe(a1);
+		expect(await tagOf(other)).not.toBe(a1);
+		expect(a1).not.toContain(who.technician.session.id.slice(0, 16));
+	});
+
 	it('refuses (401) a session that ended after the request was let in', async () => {
 		const fresh = async () => {
 			const { session } = await auth.createSession(db, who.technician.user.id);
