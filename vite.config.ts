@@ -10,7 +10,8 @@ import { defineConfig } from 'vitest/config';
  * bundling that barrel drags @vinejs/vine (which imports node:dns) into the browser bundle and
  * typebox and zod 3 into the server bundle (pages of circular-import warnings). Benchlight
  * validates with zod 4 only, so the barrel resolves to the zod 4 adapter alone. Importing any
- * other adapter from it fails the build with a missing-export error, on purpose.
+ * other adapter from it fails the build with a missing-export error, on purpose. Builds only: the
+ * dev server's dependency pre-bundling handles the barrel as it is.
  */
 function superformsZod4Only(): Plugin {
 	const virtualId = '\0benchlight:superforms-adapters';
@@ -21,6 +22,7 @@ function superformsZod4Only(): Plugin {
 	return {
 		name: 'benchlight:superforms-zod4-only',
 		enforce: 'pre',
+		apply: 'build',
 		resolveId(source) {
 			return source === 'sveltekit-superforms/adapters' ? virtualId : undefined;
 		},

@@ -63,12 +63,13 @@ function fail(e) {
 	process.exit(1);
 }
 
+/** Tags each line with the process it came from (once: the bridge tags its own lines). */
 function prefix(tag, data) {
 	return data
 		.toString()
 		.split('\n')
 		.filter((l, i, a) => l || i < a.length - 1)
-		.map((l) => `${tag} ${l}\n`)
+		.map((l) => (l.startsWith(`${tag} `) ? `${l}\n` : `${tag} ${l}\n`))
 		.join('');
 }
 
@@ -165,7 +166,7 @@ async function main() {
 
 	const t0 = performance.now();
 	console.log('▸ Checking the build');
-	const build = await ensureBuild({ root, log: (l) => console.log(`  ${l}`) });
+	const build = await ensureBuild({ root, log: (l) => console.log(l ? `  ${l}` : '') });
 	buildDir = build.dir;
 	const took = ((performance.now() - t0) / 1000).toFixed(1);
 	console.log(
