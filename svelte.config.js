@@ -5,7 +5,9 @@ import { vitePreprocess } from '@sveltejs/vite-plugin-svelte';
 const config = {
 	preprocess: vitePreprocess(),
 	kit: {
-		adapter: adapter({ out: 'build' }),
+		// scripts/build.mjs builds into build/<hash>/ through BENCHLIGHT_BUILD_OUT. Never the bare
+		// build/ folder: the adapter empties its output first, which would delete running builds.
+		adapter: adapter({ out: process.env.BENCHLIGHT_BUILD_OUT ?? 'build/manual' }),
 		// Content Security Policy: SvelteKit adds nonces/hashes for its own inline scripts
 		// ('auto': nonces for dynamic pages, hashes for prerendered ones).
 		csp: {

@@ -1,7 +1,7 @@
 // The backup script's copy-and-verify step on real files.
 import { afterAll, describe, expect, it } from 'vitest';
 import Database from 'better-sqlite3';
-import { mkdtempSync, rmSync } from 'node:fs';
+import { mkdtempSync, rmSync, statSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { openDb } from '../src/lib/server/db/open';
@@ -40,6 +40,17 @@ describe('backup', () => {
 		const result = await backupDatabase(src, join(dir, 'broken-copy.db'));
 		expect(result.ok).toBe(false);
 		expect(result.foreignKeyProblems).toBe(1);
+	});
+
+	it('writes the copy readable by its owner only, in an owner-only new folder', async () => {
+		const src = join(dir, 'private.db');
+		const db = openDb(src);
+		const result = await backupDatabase(src, join(dir, 'private-backups', 'b.db'));
+		db.$client.close();
+		expect(result.ok).toBe(true);
+		// Permission bits only: rw for the owner, nothing for group or others.
+		expect(statSync(result.path).mode & 0o777).toBe(0o600);
+		expect(statSync(join(dir, 'private-backups')).mode & 0o777).toBe(0o700);
 	});
 
 	it('refuses a missing source', async () => {

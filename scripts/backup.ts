@@ -2,9 +2,10 @@
 // backup API (safe while the app is running), then checked with integrity_check and
 // foreign_key_check. Exits non-zero when the copy fails either check.
 import Database from 'better-sqlite3';
-import { existsSync, mkdirSync } from 'node:fs';
-import { dirname, resolve } from 'node:path';
+import { existsSync } from 'node:fs';
+import { resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
+import { createPrivateFile } from '../src/lib/server/db/open';
 import { env } from '../src/lib/server/env';
 
 function stamp(d = new Date()): string {
@@ -22,7 +23,8 @@ export interface BackupResult {
 /** Copy `sourcePath` to `outPath` online and verify the copy. */
 export async function backupDatabase(sourcePath: string, outPath: string): Promise<BackupResult> {
 	if (!existsSync(sourcePath)) throw new Error(`No database at ${sourcePath}`);
-	mkdirSync(dirname(resolve(outPath)), { recursive: true });
+	// A copy of the database is as private as the database: owner-only file (and new folders).
+	createPrivateFile(resolve(outPath));
 	const source = new Database(sourcePath, { fileMustExist: true });
 	try {
 		source.pragma('busy_timeout = 5000');

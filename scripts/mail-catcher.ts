@@ -10,7 +10,8 @@ const SMTP_PORT = Number(process.env.SMTP_PORT ?? 2525);
 const UI_PORT = Number(process.env.MAIL_UI_PORT ?? 8025);
 const MAIL_DIR = resolve(process.env.MAIL_DIR ?? 'data/mail');
 const MAX_MESSAGE_BYTES = 25 * 1024 * 1024;
-mkdirSync(MAIL_DIR, { recursive: true });
+// Caught mail holds customers' names and addresses: owner-only, like the database.
+mkdirSync(MAIL_DIR, { recursive: true, mode: 0o700 });
 
 interface Stored {
 	id: string;
@@ -42,8 +43,8 @@ const smtp = new SMTPServer({
 					subject: parsed.subject ?? '(no subject)',
 					text: parsed.text ?? ''
 				};
-				writeFileSync(join(MAIL_DIR, `${id}.eml`), raw);
-				writeFileSync(join(MAIL_DIR, `${id}.json`), JSON.stringify(meta, null, 2));
+				writeFileSync(join(MAIL_DIR, `${id}.eml`), raw, { mode: 0o600 });
+				writeFileSync(join(MAIL_DIR, `${id}.json`), JSON.stringify(meta, null, 2), { mode: 0o600 });
 				console.log(`caught mail to ${meta.to}: ${meta.subject}`);
 				callback();
 			} catch (err) {

@@ -3,7 +3,7 @@
 import Database from 'better-sqlite3';
 import { drizzle, type BetterSQLite3Database } from 'drizzle-orm/better-sqlite3';
 import { migrate } from 'drizzle-orm/better-sqlite3/migrator';
-import { existsSync, mkdirSync } from 'node:fs';
+import { closeSync, existsSync, mkdirSync, openSync } from 'node:fs';
 import { dirname, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import * as schema from './schema';
@@ -20,11 +20,21 @@ export function migrationsFolder(): string {
 }
 
 /**
+ * Creates the database file (and any missing folders on the way) readable by the owner only:
+ * it holds customers' names and addresses and password hashes. SQLite gives the -wal and -shm
+ * files the database file's permissions. Existing files and folders keep theirs.
+ */
+export function createPrivateFile(path: string): void {
+	mkdirSync(dirname(path), { recursive: true, mode: 0o700 });
+	if (!existsSync(path)) closeSync(openSync(path, 'a', 0o600));
+}
+
+/**
  * Open (creating if needed) and migrate. `:memory:` gives a private database for tests.
  * WAL + synchronous=FULL: an acknowledged commit survives a power cut.
  */
 export function openDb(url: string, options: { migrate?: boolean } = {}): Db {
-	if (url !== ':memory:') mkdirSync(dirname(resolve(url)), { recursive: true });
+	if (url !== ':memory:' && url !== '') createPrivateFile(resolve(url));
 	const sqlite = new Database(url);
 	sqlite.pragma('journal_mode = WAL');
 	sqlite.pragma('synchronous = FULL');
