@@ -5,7 +5,7 @@
 // the analysis code that wrote them.
 
 import { formatLimitValue, OP_SYMBOLS, UNITS, type LimitOp, type Unit } from './limit-profiles';
-import { hzLabel } from './measure-format';
+import { db as dbText, hz, hzLabel, percent, volts, watts } from './measure-format';
 
 // ── what a snapshot looks like to the comparison ────────────────────────────
 
@@ -196,6 +196,35 @@ export function formatChange(c: Change): string {
 	else digits = abs.toFixed(2);
 	const sign = Number(digits) === 0 ? '±' : v < 0 ? '−' : '+';
 	return `${sign}${digits} ${c.unit}`;
+}
+
+/** A figure with its unit for the screen: "1.234 mV rms", "0.0120 %", "−80.00 dBV", "—". */
+export function formatFigure(def: Pick<FigureDef, 'unit'>, v: number | null): string {
+	if (v === null || !Number.isFinite(v)) return '—';
+	switch (def.unit) {
+		case 'V rms': {
+			const x = volts(v);
+			return `${x.value} ${x.unit} rms`;
+		}
+		case 'V': {
+			const x = volts(v);
+			return `${x.value} ${x.unit}`;
+		}
+		case 'W': {
+			const x = watts(v);
+			return `${x.value} ${x.unit}`;
+		}
+		case '%':
+			return `${percent(v)} %`;
+		case 'Hz': {
+			const x = hz(v);
+			return `${x.value} ${x.unit}`;
+		}
+		case 'bits':
+			return `${v.toFixed(2)} bits`;
+		default:
+			return `${dbText(v)} ${def.unit}`;
+	}
 }
 
 // ── figures of one snapshot ─────────────────────────────────────────────────

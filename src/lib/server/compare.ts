@@ -5,7 +5,7 @@ import { z } from 'zod';
 import { MAX_COMPARE, parseSelection } from '$lib/compare';
 import { DomainError } from './errors';
 import type { Db } from './db/open';
-import { jobExists } from './jobs';
+import { getJob, jobExists } from './jobs';
 import { getSnapshot, listSnapshots, type SnapshotDetail } from './snapshots';
 
 /** The `s` query parameter: 1…MAX_COMPARE snapshot ids, comma-separated. */
@@ -72,4 +72,11 @@ export function listComparable(db: Db, jobId: number) {
 		createdAt: s.createdAt,
 		createdByName: s.createdByName
 	}));
+}
+
+/** The few facts of a job a compare or snapshot page heads itself with. */
+export function jobHeading(db: Db, jobId: number) {
+	const job = getJob(db, jobId);
+	if (!job) return null;
+	return { id: job.id, make: job.make, model: job.model, status: job.status, customerName: job.customer.name };
 }
