@@ -350,6 +350,17 @@ const MATRIX: Row[] = [
 		expect: [401, 200, 200, 200],
 		request: (fx) => ({ params: { id: snapshotIn(fx) } })
 	},
+	// compare: everyone signed in compares a job's own snapshots
+	{
+		route: '/api/jobs/[id]/compare',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => {
+			const a = snapshotIn(fx);
+			const b = snapshotIn(fx);
+			return { params: { id: String(fx.jobId) }, query: `?s=${a},${b}` };
+		}
+	},
 
 	// own account
 	{

@@ -9,6 +9,8 @@ import { pathToFileURL } from 'node:url';
 import { isActionFailure, isHttpError, isRedirect, type RequestEvent } from '@sveltejs/kit';
 import { DEMO_PASSWORD } from '../../scripts/seed';
 import { handle, PUBLIC_ROUTES } from '../../src/hooks.server';
+import { createSnapshot } from '$lib/server/snapshots';
+import { encodeWav } from '$lib/dsp';
 import {
 	ROLES,
 	ROUTES_DIR,
@@ -55,6 +57,20 @@ interface ActionRow {
 const OK = 200;
 const job = (fx: Fixtures) => ({ params: { id: String(fx.jobId) } });
 
+/** A snapshot stored inside the case's savepoint (rolled back after), as a route param. */
+function snapshotIn(fx: Fixtures): string {
+	const n = 8192;
+	const tone = new Float32Array(n);
+	for (let i = 0; i < n; i++) tone[i] = 0.5 * Math.sin((2 * Math.PI * 1000 * i) / 48000);
+	const created = createSnapshot(fx.db, {
+		jobId: fx.jobId,
+		userId: fx.users.tech1,
+		wav: encodeWav([tone], 48000),
+		meta: { label: 'Page matrix snapshot', stage: 'before' }
+	});
+	return String(created.id);
+}
+
 /* ─────────────────────────────────────────────────────────────────────────────
  * THE PAGE MATRIX. Every `+page.server.ts` load and every form action needs exactly one
  * row. Add or update the row in the same change as the page.
@@ -70,6 +86,12 @@ const LOADS: LoadRow[] = [
 	{ route: '/jobs/[id]', expect: ['login', OK, OK, OK], request: job },
 	{ route: '/jobs/[id]/bench', expect: ['login', OK, OK, OK], request: job },
 	{ route: '/jobs/[id]/soak', expect: ['login', OK, OK, OK], request: job },
+	{
+		route: '/jobs/[id]/compare',
+		expect: ['login', OK, OK, OK],
+		request: (fx) => ({ ...job(fx), query: `?s=${snapshotIn(fx)},${snapshotIn(fx)}` })
+	},
+	{ route: '/snapshots/[id]', expect: ['login', OK, OK, OK], request: (fx) => ({ params: { id: snapshotIn(fx) } }) },
 	{ route: '/limit-profiles', expect: ['login', OK, OK, OK] },
 	{ route: '/admin/users', expect: ['login', 403, 403, OK] },
 	{ route: '/admin/settings', expect: ['login', 403, 403, OK] }
