@@ -203,6 +203,20 @@ describe('figures of stored snapshots', () => {
 		expect(rows.some((r) => r.id.startsWith('imd:'))).toBe(false);
 	});
 
+	it('shows a power change under another load but does not call it better', () => {
+		const a = snap(1);
+		const b = snap(2, { chans: [channel({ powerW: 2 }), channel({ channel: 1, powerW: 2 })] });
+		(b.results as { conditions: Record<string, unknown> }).conditions.loadOhms = 4;
+		const power = figureRows([a, b]).find((r) => r.id === 'ch0:powerW')!;
+		// 10·lg(2 / 0.5) = 6.02 dB, but into 4 Ω instead of 8 Ω
+		expect(power.changes[1]!.value).toBeCloseTo(10 * Math.log10(4), 9);
+		expect(power.changes[1]!.verdict).toBe('not comparable');
+		expect(power.changes[1]!.note).toBe('measured into another load');
+		// Same load: judged as usual.
+		const same = figureRows([a, snap(2, { chans: [channel({ powerW: 2 })] })]).find((r) => r.id === 'ch0:powerW')!;
+		expect(same.changes[1]!.verdict).toBe('better');
+	});
+
 	it('adds IMD rows only where measured', () => {
 		const withImd = snap(2);
 		(withImd.results as Record<string, unknown>).imd = {

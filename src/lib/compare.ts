@@ -131,6 +131,8 @@ export interface Change {
 	/** 'dB', '% points' or the figure's own unit. */
 	unit: string;
 	verdict: ChangeVerdict;
+	/** Why the verdict is withheld although both values exist ("measured into another load"). */
+	note?: string;
 }
 
 const lg = Math.log10;
@@ -192,8 +194,10 @@ export function formatChange(c: Change): string {
 	const abs = Math.abs(v);
 	let digits: string;
 	if (c.unit === '% points') digits = abs >= 1 ? abs.toFixed(2) : abs >= 0.01 ? abs.toFixed(4) : abs.toPrecision(2);
-	else if (c.unit === 'V') return `${v < 0 ? '−' : '+'}${(abs * 1000).toFixed(2)} mV`;
-	else digits = abs.toFixed(2);
+	else if (c.unit === 'V') {
+		const mv = (abs * 1000).toFixed(2);
+		return `${Number(mv) === 0 ? '±' : v < 0 ? '−' : '+'}${mv} mV`;
+	} else digits = abs.toFixed(2);
 	const sign = Number(digits) === 0 ? '±' : v < 0 ? '−' : '+';
 	return `${sign}${digits} ${c.unit}`;
 }
@@ -352,10 +356,24 @@ export const channelName = (c: number): string => CHANNEL_NAMES[c] ?? `Ch ${c + 
  */
 export function figureRows(snaps: readonly ComparableSnapshot[]): FigureRow[] {
 	const rows: FigureRow[] = [];
+	// Power depends on the load and gain on the generator level: under another one, the change is
+	// shown but not judged better or worse.
+	const conds = snaps.map(conditionsOf);
+	const DEPENDS: Record<string, [string, string]> = {
+		powerW: ['load', 'measured into another load'],
+		gainDb: ['level', 'measured at another generator level']
+	};
 	const build = (id: string, def: FigureDef, scope: string | null, read: (s: ComparableSnapshot) => FigureValue) => {
 		const values = snaps.map(read);
 		const ref = values[0]?.value ?? null;
-		const changes = values.map((v, i) => (i === 0 ? null : changeOf(def, ref, v.value)));
+		const changes = values.map((v, i) => {
+			if (i === 0) return null;
+			const c = changeOf(def, ref, v.value);
+			const dep = DEPENDS[def.key];
+			if (dep && c.value !== null && conds[i][dep[0]] !== conds[0][dep[0]])
+				return { ...c, verdict: 'not comparable' as const, note: dep[1] };
+			return c;
+		});
 		rows.push({ id, def, scope, values, changes });
 	};
 	const channels = [...new Set(snaps.flatMap((s) => channelsOf(s).map((c) => c.channel)))].sort((a, b) => a - b);

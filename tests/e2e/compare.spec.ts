@@ -7,12 +7,18 @@ import { expect, test, type APIRequestContext } from '@playwright/test';
 import { encodeWav } from '../../src/lib/dsp/wav';
 import { ready, signIn } from './helpers';
 
-/** A 1 kHz tone at `amp` of full scale plus `h3` (re the fundamental) of third harmonic. */
-function tone(amp: number, h3: number, n = 32768, rate = 48000): Float32Array {
+/**
+ * A 1 kHz tone at `amp` of full scale plus `h3` (re the fundamental) of third harmonic, over a
+ * deterministic uniform noise floor of ±1e-5 full scale (about −105 dBFS rms), like a real bench.
+ */
+function tone(amp: number, h3: number, seed: number, n = 32768, rate = 48000): Float32Array {
 	const out = new Float32Array(n);
+	let x = seed >>> 0;
 	for (let i = 0; i < n; i++) {
+		x = (Math.imul(x, 1664525) + 1013904223) >>> 0;
+		const noise = (x / 2 ** 32 - 0.5) * 2e-5;
 		const w = (2 * Math.PI * 1000 * i) / rate;
-		out[i] = amp * (Math.sin(w) + h3 * Math.sin(3 * w));
+		out[i] = amp * (Math.sin(w) + h3 * Math.sin(3 * w)) + noise;
 	}
 	return out;
 }
@@ -24,7 +30,7 @@ async function upload(
 	meta: Record<string, unknown>,
 	h3: number
 ): Promise<number> {
-	const wav = encodeWav([tone(0.25, h3), tone(0.25, h3)], 48000);
+	const wav = encodeWav([tone(0.25, h3, 1), tone(0.25, h3, 2)], 48000);
 	const res = await request.post(`/api/jobs/${jobId}/snapshots`, {
 		headers: { origin },
 		multipart: {
@@ -107,7 +113,7 @@ test('compare: before vs after overlaid, changes in words, a flipped check, diff
 	// About 1 % before (the third harmonic is 1 % of the fundamental): the change reads −0.99…
 	await expect(change).toContainText(/−0\.99\d* % points/);
 	const thdDb = page.locator('[data-testid="compare-row"][data-row="ch0:thdDb"]').getByTestId('compare-change');
-	// 20·lg of the THD ratio: from −40 dB to the float signal's floor, far lower: still "better".
+	// 20·lg of the THD ratio: from −40 dB down to the noise floor's harmonic bins: "better".
 	await expect(thdDb).toContainText('better');
 
 	// ── the flipped check and the differing load ──────────────────────────────
@@ -115,6 +121,10 @@ test('compare: before vs after overlaid, changes in words, a flipped check, diff
 	await expect(flipped.first()).toContainText('fail → pass');
 	await expect(page.getByTestId('flipped-checks')).toContainText('THD+N (left) ≤ 0.05 %');
 	await expect(page.getByTestId('conditions-differ')).toContainText('load');
+	// Power into 600 Ω against 10 kΩ: the change is shown but not judged.
+	const power = page.locator('[data-testid="compare-row"][data-row="ch0:powerW"]').getByTestId('compare-change');
+	await expect(power).toHaveAttribute('data-verdict', 'not comparable');
+	await expect(power).toContainText('measured into another load');
 	await expect(page.locator('[data-condition="load"]')).toHaveAttribute('data-differs', 'true');
 	await expect(page.locator('[data-condition="band"]')).toHaveAttribute('data-differs', 'false');
 
