@@ -83,6 +83,37 @@ test('compare: before vs after overlaid, changes in words, a flipped check, diff
 	);
 	const foreignId = await upload(page.request, origin, otherJobId, { ...common, label: 'Elsewhere', stage: 'before' }, 0);
 
+	// A short soak run with a few heatsink readings, stopped by hand: it shows on the compare page.
+	const runRes = await page.request.post(`/api/jobs/${jobId}/soak-runs`, {
+		headers: { origin, 'content-type': 'application/json' },
+		data: {
+			preset: 'custom',
+			custom: { watts: 1, loadOhms: 8, frequencyHz: 1000, durationS: 600, channels: ['left', 'right'] },
+			probes: ['heatsink-left', 'heatsink-right']
+		}
+	});
+	expect(runRes.status(), await runRes.text()).toBe(201);
+	const runId = ((await runRes.json()) as { id: number }).id;
+	const run = (await (await page.request.get(`/api/soak-runs/${runId}`)).json()) as {
+		run: { id: number; startedAt: number };
+	};
+	const t0 = run.run.startedAt;
+	const readings = [0, 1, 2, 3].flatMap((k) => [
+		{ probe: 'heatsink-left', seq: 2 * k, t: t0 + k * 250, celsius: 30 + k },
+		{ probe: 'heatsink-right', seq: 2 * k + 1, t: t0 + k * 250, celsius: 31 + k }
+	]);
+	const readRes = await page.request.post(`/api/soak-runs/${run.run.id}/readings`, {
+		headers: { origin, 'content-type': 'application/json' },
+		data: { readings }
+	});
+	expect(readRes.status(), await readRes.text()).toBe(200);
+	await expect.poll(() => Date.now() - t0).toBeGreaterThan(1000);
+	const abortRes = await page.request.post(`/api/soak-runs/${run.run.id}/abort`, {
+		headers: { origin, 'content-type': 'application/json' },
+		data: { reason: 'Stopped to re-seat a probe' }
+	});
+	expect(abortRes.status(), await abortRes.text()).toBe(200);
+
 	// ── pick both on the job page ─────────────────────────────────────────────
 	await page.goto(`/jobs/${jobId}`);
 	await ready(page);
@@ -127,6 +158,13 @@ test('compare: before vs after overlaid, changes in words, a flipped check, diff
 	await expect(power).toContainText('measured into another load');
 	await expect(page.locator('[data-condition="load"]')).toHaveAttribute('data-differs', 'true');
 	await expect(page.locator('[data-condition="band"]')).toHaveAttribute('data-differs', 'false');
+
+	// ── the soak run on the temperature chart, its verdict in words ───────────
+	const soak = page.getByTestId('compare-soak');
+	await expect(soak.locator('canvas')).toHaveCount(1);
+	await expect(soak).toHaveAttribute('data-series', '2');
+	await expect(soak.getByTestId('compare-soak-run')).toContainText('Aborted');
+	await expect(soak.getByTestId('compare-soak-run')).toContainText('max L 33.0 °C');
 
 	// ── 390 px wide: the table scrolls in its own box, never the page ────────
 	await page.setViewportSize({ width: 390, height: 800 });
