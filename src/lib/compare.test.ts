@@ -75,8 +75,24 @@ function snap(id: number, over: Partial<ComparableSnapshot> & { chans?: Record<s
 			channels: chans ?? [channel(), channel({ channel: 1 })],
 			balanceDb: 0.3,
 			steadiness: [
-				{ channel: 0, frames: 20, levelSpreadDb: 1.2, thdnSpreadDb: 6, levelStdDb: 0.4, thdnStdDb: 2, durationS: 6 },
-				{ channel: 1, frames: 20, levelSpreadDb: 0.1, thdnSpreadDb: 1, levelStdDb: 0.03, thdnStdDb: 0.3, durationS: 6 }
+				{
+					channel: 0,
+					frames: 20,
+					levelSpreadDb: 1.2,
+					thdnSpreadDb: 6,
+					levelStdDb: 0.4,
+					thdnStdDb: 2,
+					durationS: 6
+				},
+				{
+					channel: 1,
+					frames: 20,
+					levelSpreadDb: 0.1,
+					thdnSpreadDb: 1,
+					levelStdDb: 0.03,
+					thdnStdDb: 0.3,
+					durationS: 6
+				}
 			]
 		},
 		checks: [],
@@ -213,7 +229,9 @@ describe('figures of stored snapshots', () => {
 		expect(power.changes[1]!.verdict).toBe('not comparable');
 		expect(power.changes[1]!.note).toBe('measured into another load');
 		// Same load: judged as usual.
-		const same = figureRows([a, snap(2, { chans: [channel({ powerW: 2 })] })]).find((r) => r.id === 'ch0:powerW')!;
+		const same = figureRows([a, snap(2, { chans: [channel({ powerW: 2 })] })]).find(
+			(r) => r.id === 'ch0:powerW'
+		)!;
 		expect(same.changes[1]!.verdict).toBe('better');
 	});
 
@@ -250,19 +268,34 @@ describe('limit checks that flipped', () => {
 
 	it('finds fail→pass and pass→fail by limit, and keeps steady ones out of the flipped list', () => {
 		const a = snap(1, {
-			checks: [check('thdnPercent', 'left', false, 0.52), check('snrDb', 'left', true, 86), check('snrDb', 'right', true, 85)]
+			checks: [
+				check('thdnPercent', 'left', false, 0.52),
+				check('snrDb', 'left', true, 86),
+				check('snrDb', 'right', true, 85)
+			]
 		});
 		const b = snap(2, {
-			checks: [check('thdnPercent', 'left', true, 0.012), check('snrDb', 'left', false, 78), check('snrDb', 'right', true, 85)]
+			checks: [
+				check('thdnPercent', 'left', true, 0.012),
+				check('snrDb', 'left', false, 78),
+				check('snrDb', 'right', true, 85)
+			]
 		});
 		const rows = checkRows([a, b]);
-		expect(rows.map((r) => r.text)).toEqual(['THD+N (left) ≤ 0.05 %', 'SNR (left) ≥ 80 dB', 'SNR (right) ≥ 80 dB']);
+		expect(rows.map((r) => r.text)).toEqual([
+			'THD+N (left) ≤ 0.05 %',
+			'SNR (left) ≥ 80 dB',
+			'SNR (right) ≥ 80 dB'
+		]);
 		expect(rows.map((r) => r.flips[1])).toEqual(['fail→pass', 'pass→fail', 'still passes']);
 		expect(flippedChecks(rows).map((r) => r.text)).toEqual(['THD+N (left) ≤ 0.05 %', 'SNR (left) ≥ 80 dB']);
 	});
 
 	it('a limit only one snapshot was checked against is "not checked", not a flip', () => {
-		const rows = checkRows([snap(1, { checks: [] }), snap(2, { checks: [check('snrDb', 'left', true, 86)] })]);
+		const rows = checkRows([
+			snap(1, { checks: [] }),
+			snap(2, { checks: [check('snrDb', 'left', true, 86)] })
+		]);
 		expect(rows[0].flips[1]).toBe('not checked');
 		expect(flippedChecks(rows)).toEqual([]);
 	});
@@ -277,7 +310,14 @@ describe('conditions', () => {
 			sampleRateHz: 96000
 		});
 		const r = b.results as { conditions: Record<string, unknown> };
-		r.conditions = { ...r.conditions, loadOhms: 4, referenceVrms: 1, bandHz: [20, 80000], weighting: 'a', window: 'hann' };
+		r.conditions = {
+			...r.conditions,
+			loadOhms: 4,
+			referenceVrms: 1,
+			bandHz: [20, 80000],
+			weighting: 'a',
+			window: 'hann'
+		};
 		expect(differingConditions([a, b])).toEqual([
 			'Stimulus',
 			'Load',
@@ -294,9 +334,13 @@ describe('conditions', () => {
 
 	it('describes the stored stimulus', () => {
 		expect(stimulusOf(snap(1))).toBe('sine 1 kHz, 0.5 V rms');
-		expect(stimulusOf(snap(1, { settings: { generator: { kind: 'smpte', lowHz: 60, highHz: 7000, ratio: 4, levelVrms: 1 } } }))).toBe(
-			'SMPTE 60 Hz + 7 kHz 4:1, 1 V rms'
-		);
+		expect(
+			stimulusOf(
+				snap(1, {
+					settings: { generator: { kind: 'smpte', lowHz: 60, highHz: 7000, ratio: 4, levelVrms: 1 } }
+				})
+			)
+		).toBe('SMPTE 60 Hz + 7 kHz 4:1, 1 V rms');
 		expect(stimulusOf(snap(1, { settings: null }))).toBeNull();
 	});
 });

@@ -82,16 +82,51 @@ export const CHANNEL_FIGURES: readonly FigureDef[] = [
 		change: 'amplitude',
 		group: 'noise'
 	},
-	{ key: 'snrWeightedDb', label: 'SNR (A-weighted)', unit: 'dB', better: 'higher', change: 'db', group: 'noise' },
+	{
+		key: 'snrWeightedDb',
+		label: 'SNR (A-weighted)',
+		unit: 'dB',
+		better: 'higher',
+		change: 'db',
+		group: 'noise'
+	},
 	// DC at the output: nearer 0 V is better (a drifting offset is a fault sign).
 	{ key: 'dcVolts', label: 'DC offset', unit: 'V', better: 'zero', change: 'linear', group: 'noise' }
 ];
 
 export const STEADINESS_FIGURES: readonly FigureDef[] = [
-	{ key: 'levelSpreadDb', label: 'Level spread', unit: 'dB', better: 'lower', change: 'db', group: 'steadiness' },
-	{ key: 'thdnSpreadDb', label: 'THD+N spread', unit: 'dB', better: 'lower', change: 'db', group: 'steadiness' },
-	{ key: 'levelStdDb', label: 'Level std. dev.', unit: 'dB', better: 'lower', change: 'db', group: 'steadiness' },
-	{ key: 'thdnStdDb', label: 'THD+N std. dev.', unit: 'dB', better: 'lower', change: 'db', group: 'steadiness' }
+	{
+		key: 'levelSpreadDb',
+		label: 'Level spread',
+		unit: 'dB',
+		better: 'lower',
+		change: 'db',
+		group: 'steadiness'
+	},
+	{
+		key: 'thdnSpreadDb',
+		label: 'THD+N spread',
+		unit: 'dB',
+		better: 'lower',
+		change: 'db',
+		group: 'steadiness'
+	},
+	{
+		key: 'levelStdDb',
+		label: 'Level std. dev.',
+		unit: 'dB',
+		better: 'lower',
+		change: 'db',
+		group: 'steadiness'
+	},
+	{
+		key: 'thdnStdDb',
+		label: 'THD+N std. dev.',
+		unit: 'dB',
+		better: 'lower',
+		change: 'db',
+		group: 'steadiness'
+	}
 ];
 
 export const STEREO_FIGURES: readonly FigureDef[] = [
@@ -110,7 +145,14 @@ export const IMD_FIGURES: readonly FigureDef[] = [
 
 /** A harmonic's level re the fundamental: lower is better. */
 export function harmonicDef(order: number): FigureDef {
-	return { key: `h${order}`, label: `H${order}`, unit: 'dBc', better: 'lower', change: 'db', group: 'harmonics' };
+	return {
+		key: `h${order}`,
+		label: `H${order}`,
+		unit: 'dBc',
+		better: 'lower',
+		change: 'db',
+		group: 'harmonics'
+	};
 }
 
 /**
@@ -138,9 +180,19 @@ export interface Change {
 const lg = Math.log10;
 
 /** The change from `a` (reference) to `b` for one figure, with its verdict in words. */
-export function changeOf(def: Pick<FigureDef, 'better' | 'change' | 'unit'>, a: number | null, b: number | null): Change {
+export function changeOf(
+	def: Pick<FigureDef, 'better' | 'change' | 'unit'>,
+	a: number | null,
+	b: number | null
+): Change {
 	const unit =
-		def.change === 'points' ? '% points' : def.change === 'linear' ? (def.unit === 'V' ? 'V' : def.unit) : 'dB';
+		def.change === 'points'
+			? '% points'
+			: def.change === 'linear'
+				? def.unit === 'V'
+					? 'V'
+					: def.unit
+				: 'dB';
 	if (a === null || b === null || !Number.isFinite(a) || !Number.isFinite(b))
 		return { value: null, unit, verdict: 'not comparable' };
 	let value: number | null;
@@ -193,7 +245,8 @@ export function formatChange(c: Change): string {
 	const v = c.value;
 	const abs = Math.abs(v);
 	let digits: string;
-	if (c.unit === '% points') digits = abs >= 1 ? abs.toFixed(2) : abs >= 0.01 ? abs.toFixed(4) : abs.toPrecision(2);
+	if (c.unit === '% points')
+		digits = abs >= 1 ? abs.toFixed(2) : abs >= 0.01 ? abs.toFixed(4) : abs.toPrecision(2);
 	else if (c.unit === 'V') {
 		const mv = (abs * 1000).toFixed(2);
 		return `${Number(mv) === 0 ? '±' : v < 0 ? '−' : '+'}${mv} mV`;
@@ -363,7 +416,12 @@ export function figureRows(snaps: readonly ComparableSnapshot[]): FigureRow[] {
 		powerW: ['load', 'measured into another load'],
 		gainDb: ['level', 'measured at another generator level']
 	};
-	const build = (id: string, def: FigureDef, scope: string | null, read: (s: ComparableSnapshot) => FigureValue) => {
+	const build = (
+		id: string,
+		def: FigureDef,
+		scope: string | null,
+		read: (s: ComparableSnapshot) => FigureValue
+	) => {
 		const values = snaps.map(read);
 		const ref = values[0]?.value ?? null;
 		const changes = values.map((v, i) => {
@@ -376,7 +434,9 @@ export function figureRows(snaps: readonly ComparableSnapshot[]): FigureRow[] {
 		});
 		rows.push({ id, def, scope, values, changes });
 	};
-	const channels = [...new Set(snaps.flatMap((s) => channelsOf(s).map((c) => c.channel)))].sort((a, b) => a - b);
+	const channels = [...new Set(snaps.flatMap((s) => channelsOf(s).map((c) => c.channel)))].sort(
+		(a, b) => a - b
+	);
 	const anyHas = (read: (s: ComparableSnapshot) => FigureValue) => snaps.some((s) => read(s).value !== null);
 
 	for (const def of CHANNEL_FIGURES)
@@ -395,9 +455,12 @@ export function figureRows(snaps: readonly ComparableSnapshot[]): FigureRow[] {
 			}
 	for (const order of [...orders].sort((a, b) => a - b))
 		for (const ch of channels)
-			build(`ch${ch}:h${order}`, harmonicDef(order), channelName(ch), (s) => channelFigure(s, ch, `h${order}`));
+			build(`ch${ch}:h${order}`, harmonicDef(order), channelName(ch), (s) =>
+				channelFigure(s, ch, `h${order}`)
+			);
 	for (const def of STEADINESS_FIGURES)
-		for (const ch of channels) build(`ch${ch}:${def.key}`, def, channelName(ch), (s) => channelFigure(s, ch, def.key));
+		for (const ch of channels)
+			build(`ch${ch}:${def.key}`, def, channelName(ch), (s) => channelFigure(s, ch, def.key));
 	for (const def of STEREO_FIGURES) {
 		const read = (s: ComparableSnapshot) => stereoFigure(s, def.key);
 		if (channels.length < 2) continue;
@@ -527,7 +590,11 @@ export const CONDITIONS: readonly ConditionDef[] = [
 export function stimulusOf(s: ComparableSnapshot): string | null {
 	const r = isRec(s.results) ? s.results : {};
 	const settings = isRec(s.settings) ? s.settings : {};
-	const g = isRec(r.stimulus) ? r.stimulus : isRec(settings.stimulus) ? settings.stimulus : settings.generator;
+	const g = isRec(r.stimulus)
+		? r.stimulus
+		: isRec(settings.stimulus)
+			? settings.stimulus
+			: settings.generator;
 	if (!isRec(g)) return null;
 	const lvl = num(g.levelVrms);
 	const level = lvl !== null ? `, ${formatLimitValue(lvl)} V rms` : '';
@@ -623,7 +690,9 @@ export function beforeAfterPair(
 	list: readonly { id: number; stage: string; createdAt: string }[]
 ): [number, number] | null {
 	const newest = (stage: string) =>
-		[...list].filter((s) => s.stage === stage).sort((a, b) => b.createdAt.localeCompare(a.createdAt) || b.id - a.id)[0];
+		[...list]
+			.filter((s) => s.stage === stage)
+			.sort((a, b) => b.createdAt.localeCompare(a.createdAt) || b.id - a.id)[0];
 	const b = newest('before');
 	const a = newest('after');
 	return b && a ? [b.id, a.id] : null;

@@ -53,7 +53,13 @@ test('compare: before vs after overlaid, changes in words, a flipped check, diff
 	const newJob = async (model: string) => {
 		const res = await page.request.post('/api/jobs', {
 			headers: { origin, 'content-type': 'application/json' },
-			data: { customerName: 'Comparo Customer', category: 'preamplifier', make: 'Velmora', model, complaint: 'Harsh treble' }
+			data: {
+				customerName: 'Comparo Customer',
+				category: 'preamplifier',
+				make: 'Velmora',
+				model,
+				complaint: 'Harsh treble'
+			}
 		});
 		expect(res.status()).toBe(201);
 		return ((await res.json()) as { id: number }).id;
@@ -81,7 +87,13 @@ test('compare: before vs after overlaid, changes in words, a flipped check, diff
 		{ ...common, label: 'After recap', stage: 'after', loadOhms: 600 },
 		0
 	);
-	const foreignId = await upload(page.request, origin, otherJobId, { ...common, label: 'Elsewhere', stage: 'before' }, 0);
+	const foreignId = await upload(
+		page.request,
+		origin,
+		otherJobId,
+		{ ...common, label: 'Elsewhere', stage: 'before' },
+		0
+	);
 
 	// A short soak run with a few heatsink readings, stopped by hand: it shows on the compare page.
 	const runRes = await page.request.post(`/api/jobs/${jobId}/soak-runs`, {
@@ -120,9 +132,13 @@ test('compare: before vs after overlaid, changes in words, a flipped check, diff
 	await expect(page.getByTestId('snapshot-row')).toHaveCount(2);
 	await expect(page.getByTestId('compare-before-after')).toBeVisible();
 	for (const id of [beforeId, afterId])
-		await page.locator(`[data-testid="snapshot-row"][data-snapshot-id="${id}"] [data-testid="snapshot-pick"]`).check();
+		await page
+			.locator(`[data-testid="snapshot-row"][data-snapshot-id="${id}"] [data-testid="snapshot-pick"]`)
+			.check();
 	await page.getByTestId('compare-selected').click();
-	await expect(page).toHaveURL(new RegExp(`/jobs/${jobId}/compare\\?s=(${beforeId},${afterId}|${afterId},${beforeId})$`));
+	await expect(page).toHaveURL(
+		new RegExp(`/jobs/${jobId}/compare\\?s=(${beforeId},${afterId}|${afterId},${beforeId})$`)
+	);
 	await ready(page);
 
 	// ── overlaid spectra: a canvas, and a legend entry per snapshot and channel ─
@@ -133,7 +149,10 @@ test('compare: before vs after overlaid, changes in words, a flipped check, diff
 	await expect(chart.locator('.u-legend .u-series')).toHaveCount(5);
 	await expect(chart.locator('.u-legend')).toContainText(`#${beforeId} As received · L`);
 	await expect(chart.locator('.u-legend')).toContainText(`#${afterId} After recap · R`);
-	await expect(chart.locator('[role="img"]')).toHaveAttribute('aria-label', /Spectra of 2 snapshots overlaid/);
+	await expect(chart.locator('[role="img"]')).toHaveAttribute(
+		'aria-label',
+		/Spectra of 2 snapshots overlaid/
+	);
 
 	// ── the figure table: THD+N fell, in % points and in words ────────────────
 	const thdn = page.locator('[data-testid="compare-row"][data-row="ch0:thdnPercent"]');
@@ -143,7 +162,9 @@ test('compare: before vs after overlaid, changes in words, a flipped check, diff
 	await expect(change).toContainText('better');
 	// About 1 % before (the third harmonic is 1 % of the fundamental): the change reads −0.99…
 	await expect(change).toContainText(/−0\.99\d* % points/);
-	const thdDb = page.locator('[data-testid="compare-row"][data-row="ch0:thdDb"]').getByTestId('compare-change');
+	const thdDb = page
+		.locator('[data-testid="compare-row"][data-row="ch0:thdDb"]')
+		.getByTestId('compare-change');
 	// 20·lg of the THD ratio: from −40 dB down to the noise floor's harmonic bins: "better".
 	await expect(thdDb).toContainText('better');
 
@@ -153,7 +174,9 @@ test('compare: before vs after overlaid, changes in words, a flipped check, diff
 	await expect(page.getByTestId('flipped-checks')).toContainText('THD+N (left) ≤ 0.05 %');
 	await expect(page.getByTestId('conditions-differ')).toContainText('load');
 	// Power into 600 Ω against 10 kΩ: the change is shown but not judged.
-	const power = page.locator('[data-testid="compare-row"][data-row="ch0:powerW"]').getByTestId('compare-change');
+	const power = page
+		.locator('[data-testid="compare-row"][data-row="ch0:powerW"]')
+		.getByTestId('compare-change');
 	await expect(power).toHaveAttribute('data-verdict', 'not comparable');
 	await expect(power).toContainText('measured into another load');
 	await expect(page.locator('[data-condition="load"]')).toHaveAttribute('data-differs', 'true');
@@ -168,9 +191,7 @@ test('compare: before vs after overlaid, changes in words, a flipped check, diff
 
 	// ── 390 px wide: the table scrolls in its own box, never the page ────────
 	await page.setViewportSize({ width: 390, height: 800 });
-	await expect
-		.poll(() => page.evaluate(() => document.documentElement.scrollWidth))
-		.toBeLessThanOrEqual(390);
+	await expect.poll(() => page.evaluate(() => document.documentElement.scrollWidth)).toBeLessThanOrEqual(390);
 	const box = page.getByTestId('compare-table-box');
 	expect(await box.evaluate((el) => el.scrollWidth > el.clientWidth)).toBe(true);
 	await page.setViewportSize({ width: 1280, height: 900 });
@@ -185,7 +206,9 @@ test('compare: before vs after overlaid, changes in words, a flipped check, diff
 	expect(seven?.status()).toBe(400);
 
 	// ── the snapshot page: readable record with its audio hash ────────────────
-	const api = (await (await page.request.get(`/api/snapshots/${beforeId}`)).json()) as { audioSha256: string };
+	const api = (await (await page.request.get(`/api/snapshots/${beforeId}`)).json()) as {
+		audioSha256: string;
+	};
 	await page.goto(`/jobs/${jobId}`);
 	await ready(page);
 	await page
@@ -201,7 +224,5 @@ test('compare: before vs after overlaid, changes in words, a flipped check, diff
 	await expect(page.getByTestId('snapshot-harmonics')).toContainText('H3');
 	await expect(page.getByTestId('spectrum-chart').locator('canvas')).toHaveCount(1);
 	await page.setViewportSize({ width: 390, height: 800 });
-	await expect
-		.poll(() => page.evaluate(() => document.documentElement.scrollWidth))
-		.toBeLessThanOrEqual(390);
+	await expect.poll(() => page.evaluate(() => document.documentElement.scrollWidth)).toBeLessThanOrEqual(390);
 });

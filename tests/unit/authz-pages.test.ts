@@ -91,7 +91,11 @@ const LOADS: LoadRow[] = [
 		expect: ['login', OK, OK, OK],
 		request: (fx) => ({ ...job(fx), query: `?s=${snapshotIn(fx)},${snapshotIn(fx)}` })
 	},
-	{ route: '/snapshots/[id]', expect: ['login', OK, OK, OK], request: (fx) => ({ params: { id: snapshotIn(fx) } }) },
+	{
+		route: '/snapshots/[id]',
+		expect: ['login', OK, OK, OK],
+		request: (fx) => ({ params: { id: snapshotIn(fx) } })
+	},
 	{ route: '/limit-profiles', expect: ['login', OK, OK, OK] },
 	{ route: '/admin/users', expect: ['login', 403, 403, OK] },
 	{ route: '/admin/settings', expect: ['login', 403, 403, OK] }

@@ -39,7 +39,13 @@ beforeAll(() => {
 	const job = () =>
 		db
 			.insert(table.jobs)
-			.values({ customerId: c.id, category: 'amplifier', make: 'Velmora', model: 'VA-9', complaint: 'distorts' })
+			.values({
+				customerId: c.id,
+				category: 'integrated-amplifier',
+				make: 'Velmora',
+				model: 'VA-9',
+				complaint: 'distorts'
+			})
 			.returning()
 			.get().id;
 	jobId = job();
@@ -58,7 +64,14 @@ beforeAll(() => {
 			jobId: job,
 			userId: tech.id,
 			wav: encodeWav([tone(16384, 0.4, h3), tone(16384, 0.4, h3)], 48000),
-			meta: { label, stage, profileId: profile.id, fullScaleVolts: 2, loadOhms: 8, analysis: { fftSize: 16384 } }
+			meta: {
+				label,
+				stage,
+				profileId: profile.id,
+				fullScaleVolts: 2,
+				loadOhms: 8,
+				analysis: { fftSize: 16384 }
+			}
 		}).id;
 	// 1 % third harmonic before, 0.01 % after: THD 1 % → 0.01 %, a −40 dB change (20·lg(0.01/1)).
 	ids.push(snap(jobId, 'distorting', 'before', 0.01));

@@ -78,5 +78,11 @@ export function listComparable(db: Db, jobId: number) {
 export function jobHeading(db: Db, jobId: number) {
 	const job = getJob(db, jobId);
 	if (!job) return null;
-	return { id: job.id, make: job.make, model: job.model, status: job.status, customerName: job.customer.name };
+	return {
+		id: job.id,
+		make: job.make,
+		model: job.model,
+		status: job.status,
+		customerName: job.customer.name
+	};
 }

@@ -18,13 +18,17 @@ export const load: PageServerLoad = pageLoad((event) => {
 	const snapshots = listComparable(db, jobId);
 	const picked = parseSelection(event.url.searchParams.get('s'));
 	if (picked === null)
-		throw new DomainError('invalid', 'The snapshots to compare are given as ids separated by commas: ?s=12,15', [
-			{ path: 's', message: 'snapshot ids separated by commas' }
-		]);
+		throw new DomainError(
+			'invalid',
+			'The snapshots to compare are given as ids separated by commas: ?s=12,15',
+			[{ path: 's', message: 'snapshot ids separated by commas' }]
+		);
 	if (picked.length > MAX_COMPARE)
-		throw new DomainError('invalid', `At most ${MAX_COMPARE} snapshots can be compared at once; ${picked.length} were picked`, [
-			{ path: 's', message: `1 to ${MAX_COMPARE} snapshots` }
-		]);
+		throw new DomainError(
+			'invalid',
+			`At most ${MAX_COMPARE} snapshots can be compared at once; ${picked.length} were picked`,
+			[{ path: 's', message: `1 to ${MAX_COMPARE} snapshots` }]
+		);
 	const known = new Set(snapshots.map((s) => s.id));
 	const foreign = picked.filter((id) => !known.has(id));
 	if (foreign.length)

@@ -10,7 +10,11 @@ export interface CompareSnapshot extends ComparableSnapshot {
 	createdByName: string;
 	verdict: 'pass' | 'fail' | 'none';
 	sampleRateHz: number;
-	spectrum?: { fftSize?: number; window?: string; channels?: { frequencyHz: number[]; levelDbv: number[] }[] };
+	spectrum?: {
+		fftSize?: number;
+		window?: string;
+		channels?: { frequencyHz: number[]; levelDbv: number[] }[];
+	};
 }
 
 async function getJson<T>(url: string, signal?: AbortSignal): Promise<T> {
