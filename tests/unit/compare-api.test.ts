@@ -146,3 +146,32 @@ describe('GET /api/jobs/{id}/compare', () => {
 		expect((await get(`?s=${ids[0]}`, jobId, null)).status).toBe(401);
 	});
 });
+
+describe('the compare page load', () => {
+	const load = async (query: string, job = jobId) => {
+		const { load: pageLoadFn } = await import('../../src/routes/jobs/[id]/compare/+page.server');
+		const url = new URL(`/jobs/${job}/compare${query}`, 'http://bench.test');
+		const event = { url, params: { id: String(job) }, locals: { user: tech, session: null } };
+		try {
+			return { status: 200, data: (await pageLoadFn(event as never)) as Record<string, unknown> };
+		} catch (e) {
+			const err = e as { status?: number; body?: { message?: string } };
+			if (typeof err.status === 'number') return { status: err.status, message: err.body?.message };
+			throw e;
+		}
+	};
+
+	it('lists the job’s snapshots and the picks, and refuses another job’s with a 400', async () => {
+		const ok = await load(`?s=${ids[0]},${ids[1]}`);
+		expect(ok.status).toBe(200);
+		expect(ok.data!.picked).toEqual([ids[0], ids[1]]);
+		expect((ok.data!.snapshots as { id: number }[]).map((s) => s.id).sort()).toEqual([...ids].sort());
+		const foreign = await load(`?s=${ids[0]},${foreignId}`);
+		expect(foreign.status).toBe(400);
+		expect(foreign.message).toContain(`Snapshot ${foreignId} is not part of job ${jobId}`);
+		expect((await load('?s=1,2,3,4,5,6,7')).status).toBe(400);
+		expect((await load('?s=1;2')).status).toBe(400);
+		// No picks yet: the page opens to let them be made.
+		expect((await load('')).status).toBe(200);
+	});
+});
