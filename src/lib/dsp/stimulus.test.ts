@@ -227,3 +227,107 @@ describe('no-signal state with a tone stimulus (§6)', () => {
 		expect(lenient.signal).toBe(true);
 	});
 });
+
+describe('two-tone stimuli: IMD per channel, THD hidden (REFERENCES.md §3)', () => {
+	const n = 1 << 16;
+	const tone = (f: number, a: number, i: number, ph = 0) => a * Math.sin((2 * Math.PI * f * i) / RATE + ph);
+
+	it('SMPTE 60 Hz + 7 kHz at 4:1 with known sidebands: d2, d3 and IMD by the definition', () => {
+		const A = 0.1; // HF tone peak
+		const s2 = A * 0.003; // each second-order sideband (7000 ± 60 Hz)
+		const s3 = A * 0.001; // each third-order sideband (7000 ± 120 Hz)
+		const x = new Float32Array(n);
+		for (let i = 0; i < n; i++)
+			x[i] =
+				tone(60, 4 * A, i) +
+				tone(7000, A, i, 0.2) +
+				tone(6940, s2, i, 0.4) +
+				tone(7060, s2, i, 0.9) +
+				tone(6880, s3, i, 1.3) +
+				tone(7120, s3, i, 2.1);
+		const r = analyzeChannel(x, RATE, 1, { stimulus: 'smpte' });
+		// Sidebands add linearly within an order, re the HF tone; orders add as rss (§3).
+		const d2 = (2 * s2) / A;
+		const d3 = (2 * s3) / A;
+		expect(r.signal).toBe(true);
+		expect(r.imd).not.toBeNull();
+		expect(r.imd!.d2Percent).toBeCloseTo(100 * d2, 3);
+		expect(r.imd!.d3Percent).toBeCloseTo(100 * d3, 3);
+		expect(r.imd!.imdPercent).toBeCloseTo(100 * Math.hypot(d2, d3), 3);
+		expect(r.imd!.level2Vrms).toBeCloseTo(A / Math.SQRT2, 5); // rms = peak/√2
+		// THD has no meaning with two tones: null, not 0 % or a THD+N of 55 %.
+		expect(r.thdPercent).toBeNull();
+		expect(r.thdnPercent).toBeNull();
+		expect(r.frequencyHz).toBeNull();
+	});
+
+	it('twin-tone 19 + 20 kHz 1:1: products re the sum of the tone amplitudes', () => {
+		const A = 0.2;
+		const p2 = A * 0.002; // 1 kHz
+		const p3 = A * 0.0005; // 18 kHz and 21 kHz each
+		const x = new Float32Array(n);
+		for (let i = 0; i < n; i++)
+			x[i] = tone(19000, A, i) + tone(20000, A, i, 0.7) + tone(1000, p2, i) + tone(18000, p3, i) + tone(21000, p3, i, 1);
+		const r = analyzeFrames([x, x], RATE, [1, 2], { stimulus: 'twin-tone' });
+		for (const [i, ch] of r.channels.entries()) {
+			const d2 = p2 / (2 * A);
+			const d3 = (2 * p3) / (2 * A);
+			expect(ch.imd!.imdPercent).toBeCloseTo(100 * Math.hypot(d2, d3), 3);
+			expect(ch.imd!.imdDb).toBeCloseTo(20 * Math.log10(Math.hypot(d2, d3)), 2);
+			// Per channel, with that channel's full scale.
+			expect(ch.imd!.level1Vrms).toBeCloseTo(((i + 1) * A) / Math.SQRT2, 5);
+		}
+		expect(r.conditions.stimulus).toBe('twin-tone');
+	});
+
+	it('an FFT too short for the SMPTE spacing says so instead of a number', () => {
+		const x = new Float32Array(4096);
+		for (let i = 0; i < x.length; i++) x[i] = tone(60, 0.4, i) + tone(7000, 0.1, i);
+		const r = analyzeChannel(x, RATE, 1, { stimulus: 'smpte', fftSize: 4096 });
+		expect(r.imd).toBeNull();
+		expect(r.imdError).toMatch(/need an FFT of at least 16384 samples/);
+		expect(r.signal).toBe(false);
+	});
+});
+
+describe('harmonics beyond the band and overload (REFERENCES.md §6)', () => {
+	const sine = (f: number, peak: number, n = 1 << 15) => {
+		const x = new Float32Array(n);
+		for (let i = 0; i < n; i++) x[i] = peak * Math.sin((2 * Math.PI * f * i) / RATE + 0.1);
+		return x;
+	};
+
+	it('a 5 kHz tone in a 20 kHz band: orders 5…10 lie above the band, so THD is understated', () => {
+		// h·f > 20 kHz for h ≥ 5 (plain arithmetic); at 1 kHz all ten orders fit.
+		expect(analyzeChannel(sine(5000, 0.5), RATE, 1).harmonicsBeyondBand).toEqual([5, 6, 7, 8, 9, 10]);
+		expect(analyzeChannel(sine(1000, 0.5), RATE, 1).harmonicsBeyondBand).toEqual([]);
+		// 15 kHz at 48 kHz: the 2nd harmonic (30 kHz) is above Nyquist as well.
+		expect(analyzeChannel(sine(15000, 0.5), RATE, 1, { bandHz: [20, 24000] }).harmonicsBeyondBand).toEqual([
+			2, 3, 4, 5, 6, 7, 8, 9, 10
+		]);
+	});
+
+	it('flat tops: a sine clipped at 70 % of its peak is flagged; a clean sine is not', () => {
+		// 997 Hz: not a divisor of the rate, so the sample phases cover the period evenly.
+		const clean = analyzeChannel(sine(997, 0.5), RATE, 1);
+		// Share of time |sin| ≥ c is 1 − (2/π)·asin(c) (plain trigonometry): 6.4 % for c = 0.995.
+		expect(clean.clipping.flatTopPercent).toBeCloseTo(100 * (1 - (2 / Math.PI) * Math.asin(0.995)), 0);
+		expect(clean.clipping.clipped).toBe(false);
+		expect(clean.clipping.crestFactorDb).toBeCloseTo(20 * Math.log10(Math.SQRT2), 2); // sine crest √2
+		const x = sine(997, 0.5);
+		for (let i = 0; i < x.length; i++) x[i] = Math.max(-0.35, Math.min(0.35, x[i]));
+		const clipped = analyzeChannel(x, RATE, 1);
+		expect(clipped.clipping.flatTopPercent).toBeCloseTo(100 * (1 - (2 / Math.PI) * Math.asin(0.7)), 0);
+		expect(clipped.clipping.clipped).toBe(true);
+		expect(clipped.clipping.reason).toMatch(/flat tops/);
+		expect(clipped.signal).toBe(true); // an overloaded amplifier still has a signal
+	});
+
+	it('samples at digital full scale are an input overload', () => {
+		const x = sine(1000, 1.2);
+		for (let i = 0; i < x.length; i++) x[i] = Math.max(-1, Math.min(1, x[i]));
+		const r = analyzeChannel(x, RATE, 1);
+		expect(r.clipping.fullScaleSamples).toBeGreaterThan(0);
+		expect(r.clipping.reason).toMatch(/digital full scale/);
+	});
+});
