@@ -228,7 +228,7 @@ describe('no-signal state with a tone stimulus (§6)', () => {
 	});
 });
 
-describe('two-tone stimuli: IMD per channel, THD hidden (REFERENCES.md §3)', () => {
+describe('two-tone stimuli: IMD per channel, THD hidden (REFERENCES.md §7)', () => {
 	const n = 1 << 16;
 	const tone = (f: number, a: number, i: number, ph = 0) => a * Math.sin((2 * Math.PI * f * i) / RATE + ph);
 
@@ -246,7 +246,7 @@ describe('two-tone stimuli: IMD per channel, THD hidden (REFERENCES.md §3)', ()
 				tone(6880, s3, i, 1.3) +
 				tone(7120, s3, i, 2.1);
 		const r = analyzeChannel(x, RATE, 1, { stimulus: 'smpte' });
-		// Sidebands add linearly within an order, re the HF tone; orders add as rss (§3).
+		// Sidebands add linearly within an order, re the HF tone; orders add as rss (§7).
 		const d2 = (2 * s2) / A;
 		const d3 = (2 * s3) / A;
 		expect(r.signal).toBe(true);
@@ -290,7 +290,7 @@ describe('two-tone stimuli: IMD per channel, THD hidden (REFERENCES.md §3)', ()
 	});
 });
 
-describe('harmonics beyond the band and overload (REFERENCES.md §6)', () => {
+describe('harmonics beyond the band (REFERENCES.md §6) and overload (§14)', () => {
 	const sine = (f: number, peak: number, n = 1 << 15) => {
 		const x = new Float32Array(n);
 		for (let i = 0; i < n; i++) x[i] = peak * Math.sin((2 * Math.PI * f * i) / RATE + 0.1);
