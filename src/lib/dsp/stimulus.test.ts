@@ -310,7 +310,7 @@ describe('harmonics beyond the band (REFERENCES.md §6) and overload (§14)', ()
 	it('flat tops: a sine clipped at 70 % of its peak is flagged; a clean sine is not', () => {
 		// 997 Hz: not a divisor of the rate, so the sample phases cover the period evenly.
 		const clean = analyzeChannel(sine(997, 0.5), RATE, 1);
-		// Share of time |sin| ≥ c is 1 − (2/π)·asin(c) (plain trigonometry): 6.4 % for c = 0.995.
+		// Share of time |sin| ≥ c is 1 − (2/π)·asin(c) (plain trigonometry, §14): 6.4 % for c = 0.995.
 		expect(clean.clipping.flatTopPercent).toBeCloseTo(100 * (1 - (2 / Math.PI) * Math.asin(0.995)), 0);
 		expect(clean.clipping.clipped).toBe(false);
 		expect(clean.clipping.crestFactorDb).toBeCloseTo(20 * Math.log10(Math.SQRT2), 2); // sine crest √2
