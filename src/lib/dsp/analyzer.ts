@@ -35,6 +35,8 @@ export const DEFAULT_TONE_MARGIN_DB = 10;
 export const HUM_ORDERS = 10;
 /** Share of samples at the frame's own peaks (within 0.5 %) above which the waveform has flat tops, %. */
 export const FLAT_TOP_PERCENT = 15;
+/** Crest factor below which a frame is checked for flat tops, dB (a sine's is 3.01 dB). */
+export const CLIP_CREST_DB = 2.9;
 
 export function db10(ratio: number): number {
 	return ratio > 0 ? Math.max(MIN_DB, 10 * Math.log10(ratio)) : MIN_DB;
@@ -495,7 +497,17 @@ export class Analyzer {
 		const n = this.fftSize;
 		const frame = this.frame;
 		const w = this.awin;
-		for (let i = 0; i < n; i++) frame[i] = samples[off + i] * w[i];
+		// The window pass also gathers the frame's peaks and power for the overload check (one read of the samples).
+		let max = 0;
+		let min = 0;
+		let s2 = 0;
+		for (let i = 0; i < n; i++) {
+			const x = samples[off + i];
+			frame[i] = x * w[i];
+			if (x > max) max = x;
+			else if (x < min) min = x;
+			s2 += x * x;
+		}
 		this.fft.realTransform(this.spec, frame);
 		const spec = this.spec;
 		const cur = this.cur;
@@ -523,7 +535,7 @@ export class Analyzer {
 				kPeak = k;
 			}
 		}
-		this.measureClipping(samples, off);
+		this.measureClipping(samples, off, max, min, s2);
 		if (c.stimulus !== 'tone') {
 			this.measureWithoutTone();
 			this.displaySpectrum(samples, off);
@@ -685,39 +697,42 @@ export class Analyzer {
 	/**
 	 * Overload signs in the raw frame: samples at digital full scale, and flat tops (a large share of
 	 * samples sitting at the frame's own peaks, which a sine or noise never does). Common practice.
+	 * The flat-top count needs a second pass; it is only made when the crest factor is already below
+	 * a sine's (3.01 dB), so clean frames cost nothing extra.
 	 */
-	private measureClipping(samples: Float32Array | Float64Array, off: number): void {
+	private measureClipping(
+		samples: Float32Array | Float64Array,
+		off: number,
+		max: number,
+		min: number,
+		s2: number
+	): void {
 		const n = this.fftSize;
-		let max = 0;
-		let min = 0;
-		let s2 = 0;
-		let atFs = 0;
-		for (let i = off; i < off + n; i++) {
-			const x = samples[i];
-			if (x > max) max = x;
-			if (x < min) min = x;
-			s2 += x * x;
-			if (x >= 0.999 || x <= -0.999) atFs++;
-		}
 		const clip = this.clip;
-		clip.fullScaleSamples = atFs;
 		const peak = Math.max(max, -min);
 		const rms = Math.sqrt(s2 / n);
 		clip.crestFactorDb = rms > 0 ? 20 * Math.log10(peak / rms) : 0;
-		let flat = 0;
-		if (peak > 0) {
-			const hi = max * 0.995;
-			const lo = min * 0.995;
+		let atFs = 0;
+		if (peak >= 0.999)
 			for (let i = off; i < off + n; i++) {
 				const x = samples[i];
-				if ((max > 0 && x >= hi) || (min < 0 && x <= lo)) flat++;
+				if (x >= 0.999 || x <= -0.999) atFs++;
 			}
-		}
-		clip.flatTopPercent = (100 * flat) / n;
+		clip.fullScaleSamples = atFs;
+		if (peak > 0 && clip.crestFactorDb < CLIP_CREST_DB) {
+			const hi = max > 0 ? max * 0.995 : Infinity;
+			const lo = min < 0 ? min * 0.995 : -Infinity;
+			let flat = 0;
+			for (let i = off; i < off + n; i++) {
+				const x = samples[i];
+				if (x >= hi || x <= lo) flat++;
+			}
+			clip.flatTopPercent = (100 * flat) / n;
+		} else clip.flatTopPercent = null;
 		if (atFs > 0) {
 			clip.clipped = true;
 			clip.reason = `${atFs} samples at digital full scale: the input is overloaded`;
-		} else if (clip.flatTopPercent >= FLAT_TOP_PERCENT && clip.crestFactorDb < 2.9) {
+		} else if (clip.flatTopPercent !== null && clip.flatTopPercent >= FLAT_TOP_PERCENT) {
 			clip.clipped = true;
 			clip.reason = `flat tops: ${clip.flatTopPercent.toFixed(0)} % of samples sit at the peaks (a sine has about 6 %)`;
 		} else {

@@ -91,7 +91,7 @@ export const channelResultSchema = z.object({
 	clipping: z
 		.object({
 			fullScaleSamples: z.number().int().nonnegative(),
-			flatTopPercent: finite.nonnegative(),
+			flatTopPercent: finite.nonnegative().nullable(),
 			crestFactorDb: finite,
 			clipped: z.boolean(),
 			reason: z.string().max(300).nullable()

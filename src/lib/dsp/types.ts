@@ -77,8 +77,11 @@ export interface HumComponent {
 export interface ClippingResult {
 	/** Samples at or beyond 99.9 % of digital full scale (the interface itself overloads). */
 	fullScaleSamples: number;
-	/** Share of samples within 0.5 % of the frame's own positive or negative peak (flat tops), %. */
-	flatTopPercent: number;
+	/**
+	 * Share of samples within 0.5 % of the frame's own positive or negative peak (flat tops), %; only
+	 * counted when the crest factor is below 2.9 dB (a sine's is 3.01 dB), otherwise null.
+	 */
+	flatTopPercent: number | null;
 	/** Peak over rms, dB (a sine is 3.01 dB; clipping pushes it toward 0 dB). */
 	crestFactorDb: number;
 	clipped: boolean;
