@@ -719,22 +719,35 @@ export class Analyzer {
 				if (x >= 0.999 || x <= -0.999) atFs++;
 			}
 		clip.fullScaleSamples = atFs;
-		if (peak > 0 && clip.crestFactorDb < CLIP_CREST_DB) {
+		// Each half is judged on its own: a weak device clips one half only (the other peak keeps the
+		// overall crest factor near a sine's).
+		const crestPos = rms > 0 && max > 0 ? 20 * Math.log10(max / rms) : Infinity;
+		const crestNeg = rms > 0 && min < 0 ? 20 * Math.log10(-min / rms) : Infinity;
+		let flatPos = 0;
+		let flatNeg = 0;
+		if (peak > 0 && Math.min(crestPos, crestNeg) < CLIP_CREST_DB) {
 			const hi = max > 0 ? max * 0.995 : Infinity;
 			const lo = min < 0 ? min * 0.995 : -Infinity;
-			let flat = 0;
 			for (let i = off; i < off + n; i++) {
 				const x = samples[i];
-				if (x >= hi || x <= lo) flat++;
+				if (x >= hi) flatPos++;
+				else if (x <= lo) flatNeg++;
 			}
-			clip.flatTopPercent = (100 * flat) / n;
+			clip.flatTopPercent = (100 * (flatPos + flatNeg)) / n;
 		} else clip.flatTopPercent = null;
+		const posPct = (100 * flatPos) / n;
+		const negPct = (100 * flatNeg) / n;
+		const half = FLAT_TOP_PERCENT / 2;
 		if (atFs > 0) {
 			clip.clipped = true;
 			clip.reason = `${atFs} samples at digital full scale: the input is overloaded`;
-		} else if (clip.flatTopPercent !== null && clip.flatTopPercent >= FLAT_TOP_PERCENT) {
+		} else if (posPct >= half && negPct >= half) {
 			clip.clipped = true;
-			clip.reason = `flat tops: ${clip.flatTopPercent.toFixed(0)} % of samples sit at the peaks (a sine has about 6 %)`;
+			clip.reason = `flat tops: ${(posPct + negPct).toFixed(0)} % of samples sit at the peaks (a sine has about 6 %)`;
+		} else if (posPct >= half || negPct >= half) {
+			clip.clipped = true;
+			const side = posPct >= half ? 'positive' : 'negative';
+			clip.reason = `flat tops on the ${side} half only: ${Math.max(posPct, negPct).toFixed(0)} % of samples sit at its peak (a sine has about 3 % per half)`;
 		} else {
 			clip.clipped = false;
 			clip.reason = null;

@@ -324,11 +324,43 @@ describe('harmonics beyond the band (REFERENCES.md §6) and overload (§14)', ()
 		expect(clipped.signal).toBe(true); // an overloaded amplifier still has a signal
 	});
 
+	it('one half clipped (a weak output device): flagged for that half', () => {
+		const x = sine(997, 0.5);
+		for (let i = 0; i < x.length; i++) x[i] = Math.min(0.43, x[i]); // positive half stops at 86 % of the peak
+		const r = analyzeChannel(x, RATE, 1);
+		// Share of a period with sin ≥ c is (π − 2·asin c)/(2π) (plain trigonometry, §14): 17.0 % for c = 0.86.
+		const expected = (100 * (Math.PI - 2 * Math.asin(0.86))) / (2 * Math.PI);
+		expect(expected).toBeCloseTo(17.0, 0);
+		expect(r.clipping.clipped).toBe(true);
+		expect(r.clipping.reason).toMatch(/positive half only: 17 %/);
+		// The unclipped negative peak keeps the overall crest factor near a sine's 3.01 dB.
+		expect(r.clipping.crestFactorDb).toBeGreaterThan(2.9);
+	});
+
 	it('samples at digital full scale are an input overload', () => {
 		const x = sine(1000, 1.2);
 		for (let i = 0; i < x.length; i++) x[i] = Math.max(-1, Math.min(1, x[i]));
 		const r = analyzeChannel(x, RATE, 1);
 		expect(r.clipping.fullScaleSamples).toBeGreaterThan(0);
 		expect(r.clipping.reason).toMatch(/digital full scale/);
+	});
+});
+
+describe('DC offset (REFERENCES.md §5)', () => {
+	it('is read in volts with or without a tone, and never counted as noise', () => {
+		const n = 1 << 16;
+		const hiss = gaussian(n, 20e-6, 3);
+		const quiet = new Float32Array(n);
+		const loud = new Float32Array(n);
+		for (let i = 0; i < n; i++) {
+			quiet[i] = 0.025 + hiss[i]; // +25 mV offset, 20 µV hiss, 1 V full scale
+			loud[i] = -0.04 + 0.5 * Math.sin((2 * Math.PI * 997 * i) / RATE) + hiss[i];
+		}
+		const none = analyzeChannel(quiet, RATE, 1, { stimulus: 'none' });
+		expect(none.dcVolts).toBeCloseTo(0.025, 6);
+		// The in-band total is the hiss alone: σ·√(band/Nyquist) (§5), the offset excluded.
+		expect(Math.abs(db(none.noiseVrms / (20e-6 * Math.sqrt(19980 / 24000))))).toBeLessThan(0.2);
+		const tone = analyzeChannel(loud, RATE, 1);
+		expect(tone.dcVolts).toBeCloseTo(-0.04, 6);
 	});
 });
