@@ -229,7 +229,7 @@ function table(file: string, wav: ReturnType<typeof decodeWav>, result: Analysis
 		['Noise', 'V rms', (r) => r.noiseVrms.toPrecision(3)],
 		['SNR re tone', 'dB', (r) => fmt(r.snrDb, 1)],
 		['Noise (A)', 'V rms', (r) => r.noiseWeightedVrms.toPrecision(3)],
-		['SNR re tone A', 'dB', (r) => fmt(r.snrWeightedDb, 1)],
+		['SNR re tone (A)', 'dB', (r) => fmt(r.snrWeightedDb, 1)],
 		['SINAD', 'dB', (r) => fmt(r.sinadDb, 1)],
 		['ENOB', 'bits', (r) => fmt(r.enob, 2)]
 	);
@@ -257,7 +257,7 @@ function table(file: string, wav: ReturnType<typeof decodeWav>, result: Analysis
 			['IMD', 'dB', (r) => fmt(r.imd?.imdDb, 1)]
 		);
 
-	const labelW = 12;
+	const labelW = 16;
 	const unitW = 7;
 	const colW = 14;
 	lines.push('');
