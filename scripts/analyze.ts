@@ -1,6 +1,7 @@
 // Command-line analysis of a WAV file with the same measurement core the browser and server use.
 // Usage: npm run analyze -- FILE.wav [--json] [--channel N] [--fft SIZE] [--window NAME] [--band LO-HI]
-//        [--weighting a|none] [--full-scale-volts V] [--load OHMS]
+//        [--weighting a|none] [--full-scale-volts V] [--load OHMS] [--stimulus tone|none|smpte|twin-tone]
+//        [--mains 50|60] [--expect-hz HZ] [--sn-ref V]
 
 import { readFileSync } from 'node:fs';
 import { basename } from 'node:path';
@@ -16,7 +17,9 @@ import {
 	WINDOW_NAMES,
 	MIN_FFT_SIZE,
 	MAX_FFT_SIZE,
+	STIMULI,
 	type AnalysisOptions,
+	type Stimulus,
 	type AnalysisResult,
 	type ChannelResult,
 	type WindowName
@@ -31,7 +34,13 @@ const USAGE = `usage: npm run analyze -- FILE.wav [options]
   --weighting a|none      weighting for THD+N (noise is reported both ways)
   --full-scale-volts V    volts peak at sample value 1.0 (default 1)
   --load OHMS             resistive load, for power in watts
-  --averages N            power-average N consecutive frames (default 1)`;
+  --averages N            power-average N consecutive frames (default 1)
+  --stimulus KIND         what drove the unit: tone (default), none (residual noise and hum),
+                          smpte or twin-tone (IMD); without a tone THD, THD+N and frequency are null
+  --mains 50|60           mains frequency for the hum breakdown (default 50)
+  --expect-hz HZ          generator frequency: a strongest tone elsewhere reads as "no signal"
+  --tone-margin DB        a tone must stand this far above the noise to count (default 10)
+  --sn-ref V              S/N reference output in V rms (with --stimulus none), e.g. 2.83 for 1 W into 8 Ω`;
 
 /** Exit codes: 1 = the file or its analysis failed, 2 = the command line is wrong. */
 class CliError extends Error {
@@ -85,7 +94,12 @@ function parseCli(argv: string[]): Cli {
 				weighting: { type: 'string' },
 				'full-scale-volts': { type: 'string' },
 				load: { type: 'string' },
-				averages: { type: 'string' }
+				averages: { type: 'string' },
+				stimulus: { type: 'string' },
+				mains: { type: 'string' },
+				'expect-hz': { type: 'string' },
+				'tone-margin': { type: 'string' },
+				'sn-ref': { type: 'string' }
 			}
 		});
 	} catch (err) {
@@ -135,6 +149,25 @@ function parseCli(argv: string[]): Cli {
 			usageError(`--averages must be a whole number ≥ 1, got "${values.averages}"`);
 		options.averages = Number(values.averages);
 	}
+	if (values.stimulus !== undefined) {
+		const st = values.stimulus.toLowerCase();
+		if (!(STIMULI as readonly string[]).includes(st))
+			usageError(`--stimulus must be one of ${STIMULI.join(', ')}, got "${values.stimulus}"`);
+		options.stimulus = st as Stimulus;
+	}
+	if (values.mains !== undefined) {
+		if (values.mains !== '50' && values.mains !== '60')
+			usageError(`--mains must be 50 or 60 (Hz), got "${values.mains}"`);
+		options.mainsHz = values.mains === '50' ? 50 : 60;
+	}
+	options.expectedFrequencyHz = positiveNumber('expect-hz', values['expect-hz']);
+	if (values['tone-margin'] !== undefined) {
+		const m = Number(values['tone-margin']);
+		if (!Number.isFinite(m)) usageError(`--tone-margin must be a number of dB, got "${values['tone-margin']}"`);
+		options.toneMarginDb = m;
+	}
+	const snRef = positiveNumber('sn-ref', values['sn-ref']);
+	if (snRef !== undefined) options.snReference = { vrms: snRef, label: `re ${snRef} V` };
 	return { file: positionals[0], json: values.json ?? false, channel, fullScaleVolts, options };
 }
 
@@ -162,7 +195,10 @@ function readWav(file: string) {
 	}
 }
 
-const fmt = (v: number | undefined, digits: number) => (v === undefined ? '—' : v.toFixed(digits));
+const fmt = (v: number | null | undefined, digits: number) =>
+	v === undefined || v === null ? '—' : v.toFixed(digits);
+const prec = (v: number | null | undefined, digits: number) =>
+	v === undefined || v === null ? '—' : v.toPrecision(digits);
 
 function table(file: string, wav: ReturnType<typeof decodeWav>, result: AnalysisResult): string {
 	const c = result.conditions;
@@ -186,35 +222,67 @@ function table(file: string, wav: ReturnType<typeof decodeWav>, result: Analysis
 	];
 	if (c.loadOhms) rows.push(['Power', 'W', (r) => (r.powerW ?? 0).toPrecision(4)]);
 	rows.push(
-		['THD', '%', (r) => r.thdPercent.toPrecision(3)],
+		['THD', '%', (r) => prec(r.thdPercent, 3)],
 		['THD', 'dB', (r) => fmt(r.thdDb, 1)],
-		[c.weighting === 'a' ? 'THD+N (A)' : 'THD+N', '%', (r) => r.thdnPercent.toPrecision(3)],
+		[c.weighting === 'a' ? 'THD+N (A)' : 'THD+N', '%', (r) => prec(r.thdnPercent, 3)],
 		[c.weighting === 'a' ? 'THD+N (A)' : 'THD+N', 'dB', (r) => fmt(r.thdnDb, 1)],
 		['Noise', 'V rms', (r) => r.noiseVrms.toPrecision(3)],
-		['SNR', 'dB', (r) => fmt(r.snrDb, 1)],
+		['SNR re tone', 'dB', (r) => fmt(r.snrDb, 1)],
 		['Noise (A)', 'V rms', (r) => r.noiseWeightedVrms.toPrecision(3)],
-		['SNR (A)', 'dB', (r) => fmt(r.snrWeightedDb, 1)],
+		['SNR re tone (A)', 'dB', (r) => fmt(r.snrWeightedDb, 1)],
 		['SINAD', 'dB', (r) => fmt(r.sinadDb, 1)],
 		['ENOB', 'bits', (r) => fmt(r.enob, 2)]
 	);
+	if (c.snReference)
+		rows.push(
+			['S/N', 'dB', (r) => fmt(r.snDb, 1)],
+			['S/N (A)', 'dB', (r) => fmt(r.snWeightedDb, 1)]
+		);
+	rows.push(['DC', 'V', (r) => r.dcVolts.toPrecision(3)]);
 	const orders = new Set<number>();
 	for (const r of chs) for (const h of r.harmonics) orders.add(h.order);
 	for (const order of [...orders].sort((a, b) => a - b))
 		rows.push([`H${order}`, 'dBc', (r) => fmt(r.harmonics.find((h) => h.order === order)?.levelDbc, 1)]);
+	const humOrders = new Set<number>();
+	for (const r of chs) for (const h of r.hum) humOrders.add(h.order);
+	for (const order of [...humOrders].sort((a, b) => a - b))
+		rows.push([
+			order === 1 ? 'Mains' : `Mains ×${order}`,
+			'V rms',
+			(r) => prec(r.hum.find((h) => h.order === order)?.levelVrms, 3)
+		]);
+	if (chs.some((r) => r.imd))
+		rows.push(
+			['IMD', '%', (r) => prec(r.imd?.imdPercent, 3)],
+			['IMD', 'dB', (r) => fmt(r.imd?.imdDb, 1)]
+		);
 
-	const labelW = 12;
+	const labelW = 16;
 	const unitW = 7;
 	const colW = 14;
 	lines.push('');
+	lines.push(`Stimulus: ${c.stimulus}${c.stimulus === 'none' ? `, mains ${c.mainsHz} Hz` : ''}`);
 	lines.push(''.padEnd(labelW + unitW) + chs.map((r) => `ch ${r.channel}`.padStart(colW)).join(''));
 	for (const [label, unit, get] of rows)
 		lines.push(label.padEnd(labelW) + unit.padEnd(unitW) + chs.map((r) => get(r).padStart(colW)).join(''));
 	if (result.balanceDb !== undefined) {
 		lines.push('');
 		lines.push(`Balance (ch 0 re ch 1)  ${fmt(result.balanceDb, 2)} dB`);
-		lines.push(
-			`Crosstalk (ch ${result.crosstalkFromChannel} → ch ${result.crosstalkToChannel})  ${fmt(result.crosstalkDb, 1)} dB`
-		);
+		// Crosstalk exists only with one channel driven and the other not (≥ 10 dB apart).
+		if (result.crosstalkDb !== undefined)
+			lines.push(
+				`Crosstalk (ch ${result.crosstalkFromChannel} → ch ${result.crosstalkToChannel})  ${fmt(result.crosstalkDb, 1)} dB`
+			);
+		else lines.push('Crosstalk  — (needs one channel driven and the other undriven)');
+	}
+	for (const r of chs) {
+		if (!r.signal && r.signalReason) lines.push(`ch ${r.channel}: no signal — ${r.signalReason}`);
+		if (r.harmonicsBeyondBand.length)
+			lines.push(
+				`ch ${r.channel}: THD understated — harmonics ${r.harmonicsBeyondBand.join(', ')} lie above the band or Nyquist`
+			);
+		if (r.clipping.clipped) lines.push(`ch ${r.channel}: overload — ${r.clipping.reason}`);
+		if (r.imdError) lines.push(`ch ${r.channel}: IMD not measured — ${r.imdError}`);
 	}
 	return lines.join('\n');
 }
@@ -253,7 +321,8 @@ function main(argv: string[]): void {
 			file: basename(cli.file),
 			sampleRateHz: result.sampleRateHz,
 			conditions: result.conditions,
-			channels: result.channels,
+			// noiseAVrms: the A-weighted noise under the short name the issue and shop sheets use.
+			channels: result.channels.map((r) => ({ ...r, noiseAVrms: r.noiseWeightedVrms })),
 			...(result.balanceDb !== undefined
 				? {
 						balanceDb: result.balanceDb,

@@ -107,7 +107,7 @@ describe('weak output device fault', () => {
 		expect(healthy.powerW).toBeCloseTo(12, 1);
 		expect(healthy.thdnPercent).toBeLessThan(0.05);
 		expect(weak.thdnPercent).toBeGreaterThan(1);
-		expect(weak.thdnDb - healthy.thdnDb).toBeGreaterThan(30);
+		expect(weak.thdnDb! - healthy.thdnDb!).toBeGreaterThan(30);
 		// The positive half stops at I_max·R = 1.5 A × 8 Ω = 12 V; the negative half swings the full 13.9 V.
 		const limitV = WEAK_DEVICE_MAX_CURRENT_A * 8;
 		expect(clipVoltsPeak(st, 'left', 'positive')).toBeCloseTo(limitV, 9);
@@ -119,7 +119,7 @@ describe('weak output device fault', () => {
 
 	it('reads healthy below the current limit (7 W into 8 Ω) and the limit follows the load (4 Ω)', () => {
 		const low = measure(state({ faults: { weakOutputDevice: 'right' } }), sine(1000, levelForPowerW(7)));
-		expect(Math.abs(low.channels[1].thdnDb - low.channels[0].thdnDb)).toBeLessThan(1);
+		expect(Math.abs(low.channels[1].thdnDb! - low.channels[0].thdnDb!)).toBeLessThan(1);
 		const four = state({ loadOhms: 4, faults: { weakOutputDevice: 'right' } });
 		expect(clipVoltsPeak(four, 'right', 'positive')).toBeCloseTo(WEAK_DEVICE_MAX_CURRENT_A * 4, 9);
 		const r = measure(four, sine(1000, levelForPowerW(12, 4)), 4);
@@ -301,7 +301,7 @@ describe('overload: the rails and the phono stage bound the output', () => {
 		let hi = 3;
 		for (let i = 0; i < 20; i++) {
 			const mid = (lo + hi) / 2;
-			if (thdAt(mid).thdPercent < 1) lo = mid;
+			if (thdAt(mid).thdPercent! < 1) lo = mid;
 			else hi = mid;
 		}
 		const at1Pct = thdAt(lo).powerW!;

@@ -7,6 +7,7 @@ import {
 	describeMismatch,
 	evaluateLimits,
 	limitSchema,
+	measurementsFromResults,
 	profileInputSchema,
 	stereoMeasurements,
 	verdictOf,
@@ -171,5 +172,51 @@ describe('schemas', () => {
 			conditionMismatches({ ...live, bandHz: [20, 30_000] }, { ...c, bandHighHz: 40_000 }, 24_000)
 		).toEqual([]);
 		expect(describeConditions(c)).toBe('0.32 V rms, 8 Ω load, 20 Hz–20 kHz, unweighted');
+	});
+});
+
+describe('limits on figures that need no tone', () => {
+	const base = {
+		frequencyHz: null,
+		levelVrms: 2.5e-4,
+		levelDbv: -72,
+		thdPercent: null,
+		thdDb: null,
+		thdnPercent: null,
+		thdnDb: null,
+		noiseVrms: 2.5e-4,
+		snrDb: null,
+		noiseWeightedVrms: 5e-5,
+		snrWeightedDb: null,
+		snDb: 81,
+		snWeightedDb: 95,
+		dcVolts: -0.012
+	};
+	it('a THD limit fails as "not measured" with no tone; noise, S/N and DC offset are judged', () => {
+		const m = measurementsFromResults([base], {}, [], 'a', { dcCoupled: true });
+		const checks = evaluateLimits(
+			[
+				{ metric: 'thdnPercent', channel: 'left', op: 'le', value: 0.1, unit: '%' },
+				{ metric: 'noiseVrms', channel: 'left', op: 'le', value: 100, unit: 'µV' },
+				{ metric: 'snDb', channel: 'left', op: 'ge', value: 90, unit: 'dB' },
+				{ metric: 'dcOffsetV', channel: 'left', op: 'le', value: 50, unit: 'mV' }
+			],
+			m
+		);
+		expect(checks.map((c) => c.pass)).toEqual([false, true, true, true]);
+		expect(checks[0].note).toBe('not measured');
+		expect(checks[1].measured).toBeCloseTo(50, 9); // A-weighted noise with an A-weighted profile
+		expect(checks[3].measured).toBeCloseTo(12, 9); // |DC| in mV
+	});
+	it('DC offset is not a reading from an AC-coupled input', () => {
+		const m = measurementsFromResults([base], {}, [], 'none');
+		const [c] = evaluateLimits([{ metric: 'dcOffsetV', channel: 'left', op: 'le', value: 50, unit: 'mV' }], m);
+		expect(c.pass).toBe(false);
+		expect(c.measured).toBeNull();
+	});
+	it('IMD limits read the IMD result', () => {
+		const m = measurementsFromResults([{ ...base, imd: { imdPercent: 0.02, imdDb: -74 } }], {}, [], 'none');
+		const [c] = evaluateLimits([{ metric: 'imdPercent', channel: 'left', op: 'le', value: 0.05, unit: '%' }], m);
+		expect(c.pass).toBe(true);
 	});
 });

@@ -87,18 +87,40 @@ export const METRICS = {
 	},
 	thdnDb: { label: 'THD+N (dB)', scope: 'channel', baseUnit: 'dB', units: ['dB'], help: 'THD+N in dB' },
 	snrDb: {
-		label: 'SNR',
+		label: 'SNR re tone',
 		scope: 'channel',
 		baseUnit: 'dB',
 		units: ['dB'],
-		help: 'Signal against noise (harmonics excluded), with the profile weighting'
+		help: 'The test tone against the rest of the spectrum while it plays (harmonics excluded), with the profile weighting; not the S/N of a noise test'
 	},
 	noiseVrms: {
 		label: 'Noise',
 		scope: 'channel',
 		baseUnit: 'V',
 		units: ['µV', 'mV', 'V'],
-		help: 'Noise rms in band (harmonics excluded)'
+		help: 'Noise rms in band with the profile weighting: with no stimulus the total in-band rms (hum included), with a tone what is left after the tone and its harmonics'
+	},
+	snDb: {
+		label: 'S/N',
+		scope: 'channel',
+		baseUnit: 'dB',
+		units: ['dB'],
+		help: 'No stimulus, input terminated: the stated reference output (rated power or 1 W into the load, 0.5 V for a line stage) over the noise, with the profile weighting'
+	},
+	imdPercent: {
+		label: 'IMD',
+		scope: 'channel',
+		baseUnit: '%',
+		units: ['%', 'ppm'],
+		help: 'Intermodulation of the SMPTE (re the HF tone) or twin-tone (re the sum of the tones) stimulus'
+	},
+	imdDb: { label: 'IMD (dB)', scope: 'channel', baseUnit: 'dB', units: ['dB'], help: 'IMD in dB' },
+	dcOffsetV: {
+		label: 'DC offset',
+		scope: 'channel',
+		baseUnit: 'V',
+		units: ['mV', 'V'],
+		help: '|DC| at the output; only from a DC-coupled input (most audio interfaces block DC)'
 	},
 	frequencyHz: {
 		label: 'Frequency',
@@ -447,19 +469,24 @@ export function formatLimitValue(v: number): string {
 
 /** The per-channel figures of the measurement core that limits read (a structural subset of ChannelResult). */
 export interface ChannelFigures {
-	frequencyHz: number;
+	/** Null without a tone (no stimulus, no signal, two-tone stimuli). */
+	frequencyHz: number | null;
 	levelVrms: number;
 	levelDbv: number;
 	powerW?: number;
-	gainDb?: number;
-	thdPercent: number;
-	thdDb: number;
-	thdnPercent: number;
-	thdnDb: number;
+	gainDb?: number | null;
+	thdPercent: number | null;
+	thdDb: number | null;
+	thdnPercent: number | null;
+	thdnDb: number | null;
 	noiseVrms: number;
-	snrDb: number;
+	snrDb: number | null;
 	noiseWeightedVrms: number;
-	snrWeightedDb: number;
+	snrWeightedDb: number | null;
+	snDb?: number | null;
+	snWeightedDb?: number | null;
+	imd?: { imdPercent: number; imdDb: number } | null;
+	dcVolts?: number;
 }
 
 export interface SteadinessFiguresLike {
@@ -475,7 +502,9 @@ export function measurementsFromResults(
 	channels: readonly (ChannelFigures | undefined)[],
 	stereo: { balanceDb?: number | null; crosstalkDb?: number | null },
 	steadiness: readonly (SteadinessFiguresLike | null | undefined)[],
-	weighting: Weighting
+	weighting: Weighting,
+	/** DC offset counts only from an input that passes DC (the bridge says so); otherwise "not measured". */
+	opts: { dcCoupled?: boolean } = {}
 ): Measurements {
 	const weighted = weighting === 'a';
 	return {
@@ -494,6 +523,10 @@ export function measurementsFromResults(
 						snrDb: weighted ? c.snrWeightedDb : c.snrDb,
 						noiseVrms: weighted ? c.noiseWeightedVrms : c.noiseVrms,
 						frequencyHz: c.frequencyHz,
+						snDb: (weighted ? c.snWeightedDb : c.snDb) ?? null,
+						imdPercent: c.imd?.imdPercent ?? null,
+						imdDb: c.imd?.imdDb ?? null,
+						dcOffsetV: opts.dcCoupled && typeof c.dcVolts === 'number' ? Math.abs(c.dcVolts) : null,
 						levelSpreadDb: steadiness[i]?.levelSpreadDb ?? null,
 						thdnSpreadDb: steadiness[i]?.thdnSpreadDb ?? null
 					}

@@ -1,5 +1,18 @@
 import { describe, expect, it } from 'vitest';
-import { db, dbSigned, hz, hzLabel, percent, sig, volts, watts, wattsLabel } from './measure-format';
+import {
+	db,
+	dbSigned,
+	hz,
+	hzLabel,
+	NO_SIGNAL,
+	noiseLevel,
+	ordersLabel,
+	percent,
+	sig,
+	volts,
+	watts,
+	wattsLabel
+} from './measure-format';
 
 describe('measure-format', () => {
 	it('keeps significant digits and scales units', () => {
@@ -38,5 +51,19 @@ describe('measure-format', () => {
 		expect(hzLabel(22_050)).toBe('22.05 kHz');
 		expect(hzLabel(2000, { digits: 3, compact: true })).toBe('2k');
 		expect(hzLabel(200, { compact: true })).toBe('200');
+	});
+});
+
+describe('noise and no-signal formatting', () => {
+	it('noise reads in µV and dBV re 1 V (REFERENCES.md §5, §13), a dash when missing', () => {
+		// 20·lg(257.4e-6) = −71.79 dBV (definition of dBV).
+		expect(noiseLevel(257.4e-6)).toEqual({ value: '257.4', unit: 'µV', dbv: '−71.79' });
+		expect(noiseLevel(null)).toEqual({ value: '—', unit: 'V', dbv: '—' });
+		expect(NO_SIGNAL).toBe('no signal');
+	});
+	it('orders as a short list', () => {
+		expect(ordersLabel([5, 6, 7, 8, 9, 10])).toBe('H5–H10');
+		expect(ordersLabel([2, 4])).toBe('H2, H4');
+		expect(ordersLabel([])).toBe('');
 	});
 });

@@ -104,3 +104,23 @@ export function hzLabel(v: number, options: { digits?: number; compact?: boolean
 export function fftLabel(n: number): string {
 	return n >= 1024 ? `${n / 1024}k` : String(n);
 }
+
+/** What a readout shows instead of a figure that needs a tone when none was measured. */
+export const NO_SIGNAL = 'no signal';
+
+/**
+ * A noise or hum level as a technician reads it: µV/mV/V and dBV (0 dBV = 1 V rms), never as power
+ * into the load. { value: "257.4", unit: "µV", dbv: "−71.79" }.
+ */
+export function noiseLevel(v: number | null | undefined): { value: string; unit: string; dbv: string } {
+	const x = volts(v);
+	return { ...x, dbv: ok(v) && v > 0 ? db(20 * Math.log10(v)) : DASH };
+}
+
+/** Orders as a short range list: [5, 6, 7, 8] → "H5–H8", [2, 4] → "H2, H4". */
+export function ordersLabel(orders: readonly number[]): string {
+	if (orders.length === 0) return '';
+	const contiguous = orders.every((o, i) => i === 0 || o === orders[i - 1] + 1);
+	if (contiguous && orders.length > 2) return `H${orders[0]}–H${orders[orders.length - 1]}`;
+	return orders.map((o) => `H${o}`).join(', ');
+}

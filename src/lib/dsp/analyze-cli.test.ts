@@ -5,6 +5,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { encodeWav } from './wav';
 
 const ROOT = fileURLToPath(new URL('../../../', import.meta.url));
 const SOX = '/usr/bin/sox';
@@ -145,7 +146,58 @@ describe('scripts/analyze.ts', () => {
 		expect(r.status).toBe(0);
 		expect(r.stdout).toMatch(/THD\+N\s+dB/);
 		expect(r.stdout).toMatch(/1234\.500/);
+		// Both channels are driven (balance ≈ 0 dB): no crosstalk figure, and never "ch undefined".
+		expect(r.stdout).not.toMatch(/undefined/);
+		expect(r.stdout).toMatch(/Crosstalk\s+—/);
 	});
+
+	it(
+		'--stimulus none --json: hum + hiss reads its total in-band rms; tone figures are null (REFERENCES.md §5)',
+		{ timeout: 60_000 },
+		() => {
+			// 250 µV at 100 Hz, 60 µV at 200 Hz, 15 µV white noise (LCG uniform, rms = half-width/√3), 48 kHz.
+			const rate = 48000;
+			const n = 6 * rate;
+			const fs = 2e-3;
+			const x = new Float32Array(n);
+			let seed = 1;
+			const halfWidth = 15e-6 * Math.sqrt(3);
+			let s2 = 0;
+			for (let i = 0; i < n; i++) {
+				seed = (Math.imul(seed, 1664525) + 1013904223) >>> 0;
+				const w = (seed / 4294967296 - 0.5) * 2 * halfWidth;
+				s2 += w * w;
+				const t = i / rate;
+				x[i] =
+					(250e-6 * Math.SQRT2 * Math.sin(2 * Math.PI * 100 * t) +
+						60e-6 * Math.SQRT2 * Math.sin(2 * Math.PI * 200 * t + 1) +
+						w) /
+					fs;
+			}
+			const hum = join(dir, 'hum-hiss.wav');
+			writeFileSync(hum, encodeWav([x], rate));
+			const r = analyze([hum, '--json', '--stimulus', 'none', '--mains', '50', '--full-scale-volts', String(fs)]);
+			expect(r.stderr).toBe('');
+			expect(r.status).toBe(0);
+			const doc = JSON.parse(r.stdout) as {
+				conditions: { stimulus: string; mainsHz: number };
+				channels: (Record<string, unknown> & { noiseVrms: number; noiseAVrms: number })[];
+			};
+			const ch = doc.channels[0];
+			// Uncorrelated parts add in power; white noise over 20 Hz–20 kHz of 0–24 kHz.
+			const white2 = (s2 / n) * (19980 / 24000);
+			const expected = Math.sqrt(250e-6 ** 2 + 60e-6 ** 2 + white2);
+			expect(Math.abs(20 * Math.log10(ch.noiseVrms / expected))).toBeLessThan(0.1);
+			expect(ch.noiseAVrms).toBeLessThan(ch.noiseVrms);
+			expect(ch.thdPercent).toBeNull();
+			expect(ch.thdnPercent).toBeNull();
+			expect(ch.frequencyHz).toBeNull();
+			expect(doc.conditions).toMatchObject({ stimulus: 'none', mainsHz: 50 });
+			const table = analyze([hum, '--stimulus', 'none', '--full-scale-volts', String(fs)]);
+			expect(table.stdout).toMatch(/Mains ×2\s+V rms\s+0\.000250/);
+			expect(table.stdout).toMatch(/no signal — no stimulus/);
+		}
+	);
 
 	it(
 		'errors are one line on stderr with exit code 1 or 2, never a stack trace',
@@ -161,6 +213,8 @@ describe('scripts/analyze.ts', () => {
 				[[file, '--weighting', 'c'], 2, /--weighting/],
 				[[file, '--channel', '5'], 2, /does not exist/],
 				[[file, '--bogus'], 2, /bogus/],
+				[[file, '--stimulus', 'pink'], 2, /--stimulus must be one of tone, none, smpte, twin-tone/],
+				[[file, '--mains', '55'], 2, /--mains must be 50 or 60/],
 				[[], 2, /no WAV file/]
 			];
 			const results = await Promise.all(cases.map(([args]) => analyzeAsync(args)));

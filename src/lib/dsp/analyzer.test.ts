@@ -71,7 +71,7 @@ describe('level and frequency', () => {
 		]) {
 			const r = analyzeChannel(synth(FS, N, [{ f, a, ph: 0.7 }]), FS, fsv);
 			const vrms = (a * fsv) / Math.SQRT2; // sine rms = peak/√2 (definition)
-			expect(Math.abs(r.frequencyHz - f)).toBeLessThan(1e-4);
+			expect(Math.abs(r.frequencyHz! - f)).toBeLessThan(1e-4);
 			expect(Math.abs(r.levelDbv - db(vrms))).toBeLessThan(1e-3); // 0 dBV = 1 V rms
 			expect(r.levelVrms).toBeCloseTo(vrms, 6);
 			expect(r.levelDbu).toBeCloseTo(db(vrms / dbuToVrms(0)), 6); // 0 dBu = √0.6 V (REFERENCES §5)
@@ -99,7 +99,7 @@ describe('level and frequency', () => {
 			const r = analyzeChannel(synth(FS, n, [{ f, a: 0.5, ph: 0.4 }], 0, 1, 0.01), FS, 1, {
 				bandHz: [1, 24000]
 			});
-			expect(Math.abs(r.frequencyHz - f), `${f} Hz in ${n}`).toBeLessThan(1e-4);
+			expect(Math.abs(r.frequencyHz! - f), `${f} Hz in ${n}`).toBeLessThan(1e-4);
 			expect(Math.abs(r.levelDbv - db(0.5 / Math.SQRT2))).toBeLessThan(1e-4);
 			expect(r.dcVolts).toBeCloseTo(0.01, 6);
 			expect(r.thdnDb).toBeLessThan(-130);
@@ -119,10 +119,10 @@ describe('level and frequency', () => {
 			];
 			const r = analyzeChannel(synth(FS, n, tones, 0, 1, 0.02), FS, 1, { bandHz: [1, 24000] });
 			const thd = Math.hypot(0.01, 0.0031622, 0.001);
-			expect(Math.abs(r.frequencyHz - f), `${f} Hz in ${n}`).toBeLessThan(1e-4);
+			expect(Math.abs(r.frequencyHz! - f), `${f} Hz in ${n}`).toBeLessThan(1e-4);
 			expect(Math.abs(r.levelDbv - db(0.5 / Math.SQRT2))).toBeLessThan(1e-4);
-			expect(Math.abs(r.thdDb - db(thd))).toBeLessThan(0.01);
-			expect(Math.abs(r.thdnDb - db(thd / Math.sqrt(1 + thd * thd)))).toBeLessThan(0.01);
+			expect(Math.abs(r.thdDb! - db(thd))).toBeLessThan(0.01);
+			expect(Math.abs(r.thdnDb! - db(thd / Math.sqrt(1 + thd * thd)))).toBeLessThan(0.01);
 			expect(Math.abs((r.harmonics.find((h) => h.order === 3)?.levelDbc ?? 0) + 50)).toBeLessThan(0.01);
 			expect(r.harmonics.find((h) => h.order === 4)?.levelDbc).toBeLessThan(-120);
 			expect(r.dcVolts).toBeCloseTo(0.02, 6);
@@ -131,14 +131,14 @@ describe('level and frequency', () => {
 
 	it('a DC offset far larger than the tone does not hide it', () => {
 		const r = analyzeChannel(synth(FS, 4096, [{ f: 1000, a: 0.01 }], 0, 1, 0.5), FS, 1);
-		expect(Math.abs(r.frequencyHz - 1000)).toBeLessThan(1e-4);
+		expect(Math.abs(r.frequencyHz! - 1000)).toBeLessThan(1e-4);
 		expect(Math.abs(r.levelDbv - db(0.01 / Math.SQRT2))).toBeLessThan(1e-3);
 		expect(r.dcVolts).toBeCloseTo(0.5, 6);
 	});
 
 	it('a low fundamental with a DC offset is still measured (near-DC fit)', () => {
 		const r = analyzeChannel(synth(FS, N, [{ f: 20.3, a: 0.3 }], 0, 1, 0.05), FS, 4);
-		expect(Math.abs(r.frequencyHz - 20.3)).toBeLessThan(1e-4);
+		expect(Math.abs(r.frequencyHz! - 20.3)).toBeLessThan(1e-4);
 		expect(Math.abs(r.levelDbv - db((0.3 * 4) / Math.SQRT2))).toBeLessThan(1e-3);
 		expect(r.dcVolts).toBeCloseTo(0.2, 5);
 	});
@@ -175,7 +175,7 @@ describe('distortion and noise', () => {
 		const r = analyzeChannel(synth(FS, N, tones, sigma, 7), FS, 1);
 		// THD = √(ΣVn²)/V1 (IEC 60050 / REFERENCES §6)
 		const hPow = hDbc.reduce((s, [, l]) => s + 10 ** (l / 10), 0);
-		expect(Math.abs(r.thdDb - 10 * Math.log10(hPow))).toBeLessThan(0.02);
+		expect(Math.abs(r.thdDb! - 10 * Math.log10(hPow))).toBeLessThan(0.02);
 		// Each harmonic is fitted over its 2.6-bin noise bandwidth: at σ = 1e-4 the −75 dBc one sits only ~45 dB above
 		// that noise, so its level may move by a few hundredths of a dB.
 		for (const [h, l] of hDbc)
@@ -184,12 +184,12 @@ describe('distortion and noise', () => {
 		const noisePow = sigma * sigma * (19980 / 24000);
 		const p1 = 0.5;
 		const thdnTruth = Math.sqrt((hPow * p1 + noisePow) / (p1 + hPow * p1 + noisePow)); // relative to total in-band rms (REFERENCES §6, Benchlight convention)
-		expect(Math.abs(r.thdnDb - db(thdnTruth))).toBeLessThan(0.1);
-		expect(Math.abs(r.thdnPercent - thdnTruth * 100)).toBeLessThan(thdnTruth * 100 * 0.012);
+		expect(Math.abs(r.thdnDb! - db(thdnTruth))).toBeLessThan(0.1);
+		expect(Math.abs(r.thdnPercent! - thdnTruth * 100)).toBeLessThan(thdnTruth * 100 * 0.012);
 		expect(Math.abs(db(r.noiseVrms) - 10 * Math.log10(noisePow))).toBeLessThan(0.15);
-		expect(Math.abs(r.snrDb - 10 * Math.log10(p1 / noisePow))).toBeLessThan(0.15); // SNR excludes harmonics (REFERENCES §6)
-		expect(Math.abs(r.sinadDb - 10 * Math.log10(p1 / (hPow * p1 + noisePow)))).toBeLessThan(0.1); // SINAD (REFERENCES §6)
-		expect(r.enob).toBeCloseTo((r.sinadDb - 1.76) / 6.02, 10); // ENOB = (SINAD − 1.76)/6.02 (IEEE 1241)
+		expect(Math.abs(r.snrDb! - 10 * Math.log10(p1 / noisePow))).toBeLessThan(0.15); // SNR excludes harmonics (REFERENCES §6)
+		expect(Math.abs(r.sinadDb! - 10 * Math.log10(p1 / (hPow * p1 + noisePow)))).toBeLessThan(0.1); // SINAD (REFERENCES §6)
+		expect(r.enob).toBeCloseTo((r.sinadDb! - 1.76) / 6.02, 10); // ENOB = (SINAD − 1.76)/6.02 (IEEE 1241)
 	});
 
 	it('band-limited noise of known rms: multitone noise inside and outside the band', () => {
@@ -217,7 +217,7 @@ describe('distortion and noise', () => {
 		const r = analyzeChannel(x, FS, 1);
 		expect(Math.abs(db(r.noiseVrms) - 10 * Math.log10(inBand))).toBeLessThan(0.05);
 		expect(Math.abs(db(r.noiseWeightedVrms) - 10 * Math.log10(inBandA))).toBeLessThan(0.05);
-		expect(Math.abs(r.snrWeightedDb - 10 * Math.log10(0.125 / inBandA))).toBeLessThan(0.05);
+		expect(Math.abs(r.snrWeightedDb! - 10 * Math.log10(0.125 / inBandA))).toBeLessThan(0.05);
 		const narrow = analyzeChannel(x, FS, 1, { bandHz: [100, 5000] });
 		expect(Math.abs(db(narrow.noiseVrms) - 10 * Math.log10(inNarrow))).toBeLessThan(0.1);
 		expect(narrow.harmonics.map((h) => h.order)).toEqual([2, 3, 4, 5]);
@@ -233,7 +233,7 @@ describe('distortion and noise', () => {
 		const humPow = hum.reduce((s, t) => s + (t.a * t.a) / 2, 0);
 		expect(Math.abs(db(r.noiseVrms) - 10 * Math.log10(humPow))).toBeLessThan(0.01);
 		expect(r.thdDb).toBeLessThan(-120);
-		expect(Math.abs(r.thdnDb - 10 * Math.log10(humPow / (0.125 + humPow)))).toBeLessThan(0.01);
+		expect(Math.abs(r.thdnDb! - 10 * Math.log10(humPow / (0.125 + humPow)))).toBeLessThan(0.01);
 		// A-weighted hum: each line scaled by the IEC 61672-1 response at its frequency.
 		const humA = hum.reduce((s, t) => s + ((t.a * t.a) / 2) * aWeightingPowerGain(t.f), 0);
 		expect(Math.abs(db(r.noiseWeightedVrms) - 10 * Math.log10(humA))).toBeLessThan(0.01);
@@ -247,15 +247,15 @@ describe('distortion and noise', () => {
 		const x = synth(fs, N, tones);
 		const audio = analyzeChannel(x, fs, 1); // default band 20 Hz–20 kHz
 		expect(audio.harmonics.map((h) => h.order)).toEqual([2, 3]);
-		expect(Math.abs(audio.thdDb - db(Math.SQRT2 * 1e-3))).toBeLessThan(0.01);
-		expect(Math.abs(audio.thdnDb - db((Math.SQRT2 * 1e-3) / Math.sqrt(1 + 2e-6)))).toBeLessThan(0.01);
+		expect(Math.abs(audio.thdDb! - db(Math.SQRT2 * 1e-3))).toBeLessThan(0.01);
+		expect(Math.abs(audio.thdnDb! - db((Math.SQRT2 * 1e-3) / Math.sqrt(1 + 2e-6)))).toBeLessThan(0.01);
 		const wide = analyzeChannel(x, fs, 1, { bandHz: [10, 80000] });
 		expect(wide.harmonics.map((h) => h.order)).toEqual(
 			[2, 3, 4, 5, 6, 7, 8, 9, 10, 11, 12, 13].filter((h) => h * f0 <= 80000 && h <= 10)
 		);
 		const thdWide = Math.sqrt(2e-6 + 2e-4);
-		expect(Math.abs(wide.thdDb - db(thdWide))).toBeLessThan(0.01);
-		expect(Math.abs(wide.thdnDb - db(thdWide / Math.sqrt(1 + thdWide * thdWide)))).toBeLessThan(0.01);
+		expect(Math.abs(wide.thdDb! - db(thdWide))).toBeLessThan(0.01);
+		expect(Math.abs(wide.thdnDb! - db(thdWide / Math.sqrt(1 + thdWide * thdWide)))).toBeLessThan(0.01);
 	});
 
 	it('A-weighted THD+N scales a residual tone by the weighting at its frequency', () => {
@@ -271,7 +271,7 @@ describe('distortion and noise', () => {
 		// Residual A-weighted over total A-weighted; A(1 kHz) = 0 dB (IEC 61672-1).
 		const res = 0.5e-4 * aWeightingPowerGain(100);
 		const tot = 0.5 * aWeightingPowerGain(1000) + res;
-		expect(Math.abs(r.thdnDb - 10 * Math.log10(res / tot))).toBeLessThan(0.01);
+		expect(Math.abs(r.thdnDb! - 10 * Math.log10(res / tot))).toBeLessThan(0.01);
 		expect(r.thdnDb).toBeCloseTo(-40 - 19.1, 0); // IEC 61672-1 table: A(100 Hz) = −19.1 dB
 	});
 
@@ -285,8 +285,8 @@ describe('distortion and noise', () => {
 			const r = analyzeChannel(x, FS, 1, { bandHz: [1, FS / 2] });
 			// Uniform quantisation noise q²/12 against a sine of power a²/2 (REFERENCES §5: 20·lg 2^N + 10·lg 1.5 at full scale)
 			const truth = 10 * Math.log10((a * a) / 2 / ((q * q) / 12)) + 10 * Math.log10(24000 / (24000 - 1));
-			expect(Math.abs(r.sinadDb - truth)).toBeLessThan(0.3);
-			expect(Math.abs(r.enob - bits)).toBeLessThan(0.06);
+			expect(Math.abs(r.sinadDb! - truth)).toBeLessThan(0.3);
+			expect(Math.abs(r.enob! - bits)).toBeLessThan(0.06);
 		});
 	}
 });
@@ -326,7 +326,7 @@ describe('averaging, channels and the reusable analyser', () => {
 		const x = synth(FS, n + 5000, [{ f: 300, a: 0.9 }]);
 		x.set(synth(FS, n, [{ f, a: 0.5 }]), 5000);
 		const r = an.analyze(x, 2);
-		expect(Math.abs(r.frequencyHz - f)).toBeLessThan(1e-3);
+		expect(Math.abs(r.frequencyHz! - f)).toBeLessThan(1e-3);
 		const spec = an.spectrumDbv;
 		expect(spec.length).toBe(n / 2 + 1);
 		const peak = Math.max(...spec);

@@ -8,7 +8,20 @@ import { ANALYSIS_WINDOW, makeWindow, windows, type WindowName } from './windows
 import { ToneFitter, interpolatePeak } from './tonefit';
 import { aWeightingPowerGain, aWeightingTable } from './weighting';
 import { vrmsToDbu, wattsIntoLoad } from './units';
-import type { AnalysisOptions, AnalysisResult, ChannelResult, HarmonicResult, Weighting } from './types';
+import { imdOnSpectrum } from './imd';
+import type {
+	AnalysisOptions,
+	AnalysisResult,
+	ChannelResult,
+	ClippingResult,
+	HarmonicResult,
+	HumComponent,
+	MainsHz,
+	SnReference,
+	Stimulus,
+	Weighting
+} from './types';
+import type { ImdResult } from './imd';
 
 /** Floor for dB figures of zero quantities, so results stay finite (JSON has no −Infinity). */
 export const MIN_DB = -300;
@@ -16,6 +29,14 @@ export const MAX_FFT_SIZE = 1 << 20;
 export const MIN_FFT_SIZE = 256;
 export const DEFAULT_FFT_CAP = 262144;
 export const DEFAULT_BAND_HZ: [number, number] = [20, 20000];
+/** Default margin of the fitted tone over the in-band noise for it to count as a signal, dB. */
+export const DEFAULT_TONE_MARGIN_DB = 10;
+/** Mains orders in the hum breakdown (1 = the mains frequency). */
+export const HUM_ORDERS = 10;
+/** Share of samples at the frame's own peaks (within 0.5 %) above which the waveform has flat tops, %. */
+export const FLAT_TOP_PERCENT = 15;
+/** Crest factor below which a frame is checked for flat tops, dB (a sine's is 3.01 dB). */
+export const CLIP_CREST_DB = 2.9;
 
 export function db10(ratio: number): number {
 	return ratio > 0 ? Math.max(MIN_DB, 10 * Math.log10(ratio)) : MIN_DB;
@@ -84,7 +105,8 @@ const V_R = 5; // residual in band (all but the fundamental): in-band harmonics 
 const V_RA = 6; // residual, A-weighted
 const V_N = 7; // noise (all but fundamental, harmonics, DC) in band
 const V_NA = 8; // noise, A-weighted
-const V_H = 9; // harmonic powers from order 2 (NaN when outside the band)
+const V_MNU = 9; // fitted mains frequency, bins (stimulus 'none')
+const V_H = 10; // harmonic powers from order 2 (NaN when outside the band); then HUM_ORDERS hum powers
 
 interface ResolvedConditions {
 	window: WindowName;
@@ -93,6 +115,13 @@ interface ResolvedConditions {
 	loadOhms: number | null;
 	referenceVrms: number | null;
 	maxHarmonic: number;
+	stimulus: Stimulus;
+	mainsHz: MainsHz;
+	toneMarginDb: number;
+	expectedFrequencyHz: number | null;
+	imdF1Hz: number | null;
+	imdF2Hz: number | null;
+	snReference: SnReference | null;
 }
 
 function resolveConditions(sampleRateHz: number, options: AnalysisOptions): ResolvedConditions {
@@ -105,7 +134,21 @@ function resolveConditions(sampleRateHz: number, options: AnalysisOptions): Reso
 	const window = options.window ?? ANALYSIS_WINDOW;
 	if (!(window in windows)) throw new RangeError(`unknown window "${window}"`);
 	const maxHarmonic = Math.max(2, Math.min(50, Math.floor(options.maxHarmonic ?? 10)));
+	const stimulus = options.stimulus ?? 'tone';
+	if (!['tone', 'none', 'smpte', 'twin-tone'].includes(stimulus))
+		throw new RangeError(`unknown stimulus "${stimulus}" (allowed: tone, none, smpte, twin-tone)`);
+	const mainsHz = options.mainsHz ?? 50;
+	if (mainsHz !== 50 && mainsHz !== 60) throw new RangeError(`mains frequency must be 50 or 60 Hz, got ${mainsHz}`);
+	const ref = options.snReference;
 	return {
+		stimulus,
+		mainsHz,
+		toneMarginDb: Number.isFinite(options.toneMarginDb) ? (options.toneMarginDb as number) : DEFAULT_TONE_MARGIN_DB,
+		expectedFrequencyHz:
+			options.expectedFrequencyHz && options.expectedFrequencyHz > 0 ? options.expectedFrequencyHz : null,
+		imdF1Hz: options.imdF1Hz && options.imdF1Hz > 0 ? options.imdF1Hz : null,
+		imdF2Hz: options.imdF2Hz && options.imdF2Hz > 0 ? options.imdF2Hz : null,
+		snReference: ref && ref.vrms > 0 ? { vrms: ref.vrms, label: ref.label } : null,
 		window,
 		bandHz: [lo, hi],
 		weighting: options.weighting ?? 'none',
@@ -169,6 +212,18 @@ export class Analyzer {
 	private readonly hA: Float64Array;
 	private readonly hB: Float64Array;
 	private readonly toneNu: Float64Array;
+	private readonly humA: Float64Array;
+	private readonly humB: Float64Array;
+	/** Last frame's IMD (not averaged) and time-domain overload signs. */
+	private lastImd: ImdResult | null = null;
+	private lastImdError: string | null = null;
+	private readonly clip: ClippingResult = {
+		fullScaleSamples: 0,
+		flatTopPercent: 0,
+		crestFactorDb: 0,
+		clipped: false,
+		reason: null
+	};
 
 	constructor(fftSize: number, sampleRateHz: number, options: AnalyzerOptions = {}) {
 		if (!isPowerOfTwo(fftSize) || fftSize < MIN_FFT_SIZE || fftSize > MAX_FFT_SIZE)
@@ -197,7 +252,9 @@ export class Analyzer {
 		this.resid = new Float64Array(2 * this.bins);
 		this.pw = new Float64Array(this.bins);
 		this.dspec = this.dwin ? new Float64Array(2 * fftSize) : null;
-		this.fitter = new ToneFitter(fftSize, ANALYSIS_WINDOW, this.conditions.maxHarmonic);
+		this.fitter = new ToneFitter(fftSize, ANALYSIS_WINDOW, Math.max(HUM_ORDERS, this.conditions.maxHarmonic));
+		this.humA = new Float64Array(HUM_ORDERS);
+		this.humB = new Float64Array(HUM_ORDERS);
 		this.aw2 = sharedAWeights(this.bins, this.binHz);
 
 		let s2 = 0;
@@ -215,7 +272,7 @@ export class Analyzer {
 		if (this.kHi - this.kLo < 2)
 			throw new RangeError(`band ${lo}–${hi} Hz holds fewer than 3 bins at FFT size ${fftSize}`);
 
-		this.nv = V_H + this.conditions.maxHarmonic - 1;
+		this.nv = V_H + this.conditions.maxHarmonic - 1 + HUM_ORDERS;
 		this.ivStart = new Int32Array(this.conditions.maxHarmonic + 2);
 		this.hA = new Float64Array(this.conditions.maxHarmonic);
 		this.hB = new Float64Array(this.conditions.maxHarmonic);
@@ -234,6 +291,9 @@ export class Analyzer {
 		const harmonics: HarmonicResult[] = [];
 		this.result = {
 			channel: 0,
+			stimulus: this.conditions.stimulus,
+			signal: false,
+			signalReason: null,
 			frequencyHz: 0,
 			levelVrms: 0,
 			levelDbv: MIN_DB,
@@ -243,16 +303,24 @@ export class Analyzer {
 			thdDb: MIN_DB,
 			thdnPercent: 0,
 			thdnDb: MIN_DB,
+			harmonicsBeyondBand: [],
 			noiseVrms: 0,
 			noiseDbv: MIN_DB,
 			snrDb: 0,
 			noiseWeightedVrms: 0,
+			noiseWeightedDbv: MIN_DB,
 			snrWeightedDb: 0,
+			snDb: null,
+			snWeightedDb: null,
 			sinadDb: 0,
 			enob: 0,
 			totalVrms: 0,
 			dcVolts: 0,
-			harmonics
+			harmonics,
+			hum: [],
+			imd: null,
+			imdError: null,
+			clipping: { ...this.clip }
 		};
 	}
 
@@ -429,7 +497,17 @@ export class Analyzer {
 		const n = this.fftSize;
 		const frame = this.frame;
 		const w = this.awin;
-		for (let i = 0; i < n; i++) frame[i] = samples[off + i] * w[i];
+		// The window pass also gathers the frame's peaks and power for the overload check (one read of the samples).
+		let max = 0;
+		let min = 0;
+		let s2 = 0;
+		for (let i = 0; i < n; i++) {
+			const x = samples[off + i];
+			frame[i] = x * w[i];
+			if (x > max) max = x;
+			else if (x < min) min = x;
+			s2 += x * x;
+		}
 		this.fft.realTransform(this.spec, frame);
 		const spec = this.spec;
 		const cur = this.cur;
@@ -456,6 +534,12 @@ export class Analyzer {
 				pPeak = p;
 				kPeak = k;
 			}
+		}
+		this.measureClipping(samples, off, max, min, s2);
+		if (c.stimulus !== 'tone') {
+			this.measureWithoutTone();
+			this.displaySpectrum(samples, off);
+			return;
 		}
 		if (kFirst <= reach) {
 			let best = spec[2 * kPeak] ** 2 + spec[2 * kPeak + 1] ** 2;
@@ -591,16 +675,177 @@ export class Analyzer {
 		cur[V_T] = cur[V_P1] + cur[V_R];
 		cur[V_TA] = cur[V_P1] * aWeightingPowerGain(nu * this.binHz) + cur[V_RA];
 
-		if (this.wantSpectrum) {
-			let src = spec;
-			if (this.dwin && this.dspec) {
-				const dw = this.dwin;
-				for (let i = 0; i < n; i++) frame[i] = samples[off + i] * dw[i];
-				this.fft.realTransform(this.dspec, frame);
-				src = this.dspec;
+		this.displaySpectrum(samples, off);
+	}
+
+	/** Magnitude spectrum for plotting (display window), into binPow. */
+	private displaySpectrum(samples: Float32Array | Float64Array, off: number): void {
+		if (!this.wantSpectrum) return;
+		const n = this.fftSize;
+		const frame = this.frame;
+		let src = this.spec;
+		if (this.dwin && this.dspec) {
+			const dw = this.dwin;
+			for (let i = 0; i < n; i++) frame[i] = samples[off + i] * dw[i];
+			this.fft.realTransform(this.dspec, frame);
+			src = this.dspec;
+		}
+		const bp = this.binPow;
+		for (let k = 0; k < this.bins; k++) bp[k] = src[2 * k] * src[2 * k] + src[2 * k + 1] * src[2 * k + 1];
+	}
+
+	/**
+	 * Overload signs in the raw frame: samples at digital full scale, and flat tops (a large share of
+	 * samples sitting at the frame's own peaks, which a sine or noise never does). Common practice.
+	 * The flat-top count needs a second pass; it is only made when the crest factor is already below
+	 * a sine's (3.01 dB), so clean frames cost nothing extra.
+	 */
+	private measureClipping(
+		samples: Float32Array | Float64Array,
+		off: number,
+		max: number,
+		min: number,
+		s2: number
+	): void {
+		const n = this.fftSize;
+		const clip = this.clip;
+		const peak = Math.max(max, -min);
+		const rms = Math.sqrt(s2 / n);
+		clip.crestFactorDb = rms > 0 ? 20 * Math.log10(peak / rms) : 0;
+		let atFs = 0;
+		if (peak >= 0.999)
+			for (let i = off; i < off + n; i++) {
+				const x = samples[i];
+				if (x >= 0.999 || x <= -0.999) atFs++;
 			}
-			const bp = this.binPow;
-			for (let k = 0; k < this.bins; k++) bp[k] = src[2 * k] * src[2 * k] + src[2 * k + 1] * src[2 * k + 1];
+		clip.fullScaleSamples = atFs;
+		// Each half is judged on its own: a weak device clips one half only (the other peak keeps the
+		// overall crest factor near a sine's).
+		const crestPos = rms > 0 && max > 0 ? 20 * Math.log10(max / rms) : Infinity;
+		const crestNeg = rms > 0 && min < 0 ? 20 * Math.log10(-min / rms) : Infinity;
+		let flatPos = 0;
+		let flatNeg = 0;
+		if (peak > 0 && Math.min(crestPos, crestNeg) < CLIP_CREST_DB) {
+			const hi = max > 0 ? max * 0.995 : Infinity;
+			const lo = min < 0 ? min * 0.995 : -Infinity;
+			for (let i = off; i < off + n; i++) {
+				const x = samples[i];
+				if (x >= hi) flatPos++;
+				else if (x <= lo) flatNeg++;
+			}
+			clip.flatTopPercent = (100 * (flatPos + flatNeg)) / n;
+		} else clip.flatTopPercent = null;
+		const posPct = (100 * flatPos) / n;
+		const negPct = (100 * flatNeg) / n;
+		const half = FLAT_TOP_PERCENT / 2;
+		if (atFs > 0) {
+			clip.clipped = true;
+			clip.reason = `${atFs} samples at digital full scale: the input is overloaded`;
+		} else if (posPct >= half && negPct >= half) {
+			clip.clipped = true;
+			clip.reason = `flat tops: ${(posPct + negPct).toFixed(0)} % of samples sit at the peaks (a sine has about 6 %)`;
+		} else if (posPct >= half || negPct >= half) {
+			clip.clipped = true;
+			const side = posPct >= half ? 'positive' : 'negative';
+			clip.reason = `flat tops on the ${side} half only: ${Math.max(posPct, negPct).toFixed(0)} % of samples sit at its peak (a sine has about 3 % per half)`;
+		} else {
+			clip.clipped = false;
+			clip.reason = null;
+		}
+	}
+
+	/**
+	 * Stimulus 'none' and the two-tone stimuli: the total in-band power with DC taken out (nothing else
+	 * removed), the mains hum series ('none'), or the IMD of the two tones.
+	 */
+	private measureWithoutTone(): void {
+		const spec = this.spec;
+		const cur = this.cur;
+		const fit = this.fitter;
+		const c = this.conditions;
+		const ps = this.powerScale;
+		const half = this.fftSize >>> 1;
+		const reach = fit.subtractHalfWidth;
+		const resid = this.resid;
+		for (let v = V_H; v < this.nv; v++) cur[v] = NaN;
+		cur[V_P1] = 0;
+		cur[V_NU] = 0;
+		cur[V_MNU] = 0;
+
+		// DC (and, with no stimulus, the hum series jointly with it: their lobes may overlap DC's).
+		const top = Math.min(half, reach + 1 + (c.stimulus === 'none' ? Math.ceil(((HUM_ORDERS * c.mainsHz) / this.binHz) + reach) : 0));
+		for (let j = 0; j <= top; j++) {
+			resid[2 * j] = spec[2 * j];
+			resid[2 * j + 1] = spec[2 * j + 1];
+		}
+		let dc: number;
+		const mainsNu = c.mainsHz / this.binHz;
+		let humCount = 0;
+		if (c.stimulus === 'none' && mainsNu >= 2) {
+			while (humCount < HUM_ORDERS && (humCount + 1) * mainsNu < half - 1) humCount++;
+			dc = fit.fitHarmonics(resid, mainsNu, humCount, true, this.humA, this.humB, true);
+			// Mains wanders by a fraction of a per cent; anything farther is the fit chasing noise.
+			if (!(Math.abs(fit.nu - mainsNu) <= 0.01 * mainsNu)) {
+				dc = fit.fitHarmonics(resid, mainsNu, humCount, true, this.humA, this.humB, false);
+				fit.nu = mainsNu;
+			}
+			cur[V_MNU] = fit.nu;
+			const base = V_H + c.maxHarmonic - 1;
+			for (let h = 0; h < humCount; h++)
+				cur[base + h] = (this.humA[h] * this.humA[h] + this.humB[h] * this.humB[h]) / 2;
+		} else {
+			dc = fit.fitDc(resid);
+		}
+		fit.subtractDc(resid, dc);
+		cur[V_DC] = dc;
+
+		// Total in band: bins near DC from the DC-free copy, the rest straight from the spectrum.
+		const kLo = this.kLo;
+		const kHi = this.kHi;
+		const dcEnd = Math.min(kHi, reach + 1);
+		let p = 0;
+		let pa = 0;
+		if (kLo <= dcEnd) {
+			this.bandSum(resid, kLo, dcEnd);
+			p += this.sumP;
+			pa += this.sumPA;
+		}
+		const from = Math.max(kLo, dcEnd + 1);
+		if (from <= kHi) {
+			this.powerSum(from, kHi);
+			p += this.sumP;
+			pa += this.sumPA;
+		}
+		p *= ps;
+		pa *= ps;
+		cur[V_T] = p;
+		cur[V_TA] = pa;
+		cur[V_R] = p;
+		cur[V_RA] = pa;
+		cur[V_N] = p;
+		cur[V_NA] = pa;
+
+		this.lastImd = null;
+		this.lastImdError = null;
+		if (c.stimulus === 'smpte' || c.stimulus === 'twin-tone') {
+			// The IMD fit subtracts the tones from its spectrum: work on a copy.
+			for (let j = 0; j < 2 * (half + 1); j++) resid[j] = spec[j];
+			try {
+				const r = imdOnSpectrum(c.stimulus, resid, fit, this.fftSize, this.binHz, c.imdF1Hz, c.imdF2Hz);
+				this.lastImd = r;
+				// Noise under a two-tone stimulus: everything in band but the two tones.
+				const [f1, f2] = [r.f1Hz, r.f2Hz];
+				const t1 = r.level1Vrms * r.level1Vrms;
+				const t2 = r.level2Vrms * r.level2Vrms;
+				const inBand = (f: number) => f >= c.bandHz[0] && f <= c.bandHz[1];
+				const tp = (inBand(f1) ? t1 : 0) + (inBand(f2) ? t2 : 0);
+				const tpa =
+					(inBand(f1) ? t1 * aWeightingPowerGain(f1) : 0) + (inBand(f2) ? t2 * aWeightingPowerGain(f2) : 0);
+				cur[V_N] = Math.max(0, p - tp);
+				cur[V_NA] = Math.max(0, pa - tpa);
+			} catch (e) {
+				this.lastImdError = e instanceof Error ? e.message : String(e);
+			}
 		}
 	}
 
@@ -662,14 +907,108 @@ export class Analyzer {
 		const avg = this.avg;
 		const out = this.result;
 		const fs2 = fs * fs;
+		const c = this.conditions;
 		const p1 = avg[V_P1];
 		out.channel = channel;
-		out.frequencyHz = avg[V_NU] * this.binHz;
+		out.stimulus = c.stimulus;
+		out.dcVolts = avg[V_DC] * fs;
+		out.totalVrms = Math.sqrt(avg[V_T] * fs2);
+		const cl = out.clipping;
+		cl.fullScaleSamples = this.clip.fullScaleSamples;
+		cl.flatTopPercent = this.clip.flatTopPercent;
+		cl.crestFactorDb = this.clip.crestFactorDb;
+		cl.clipped = this.clip.clipped;
+		cl.reason = this.clip.reason;
+		out.hum.length = 0;
+		out.imd = null;
+		out.imdError = null;
+		out.snDb = null;
+		out.snWeightedDb = null;
+
+		// Harmonics that would count in THD but fall above the band or Nyquist (THD is understated).
+		const beyond = out.harmonicsBeyondBand;
+		beyond.length = 0;
+		const f0 = avg[V_NU] * this.binHz;
+		if (c.stimulus === 'tone' && f0 > 0)
+			for (let h = 2; h <= c.maxHarmonic; h++)
+				if (h * f0 > c.bandHz[1] || h * f0 >= this.sampleRateHz / 2) beyond.push(h);
+
+		// Is the tone a signal? It must stand toneMarginDb above the noise, and be the generator's tone.
+		let reason: string | null = null;
+		if (c.stimulus === 'none') reason = 'no stimulus: the generator is off';
+		else if (c.stimulus === 'smpte' || c.stimulus === 'twin-tone') reason = null;
+		else {
+			const snr = db10(p1 / avg[V_N]);
+			const exp = c.expectedFrequencyHz;
+			if (!(p1 > 0) || snr < c.toneMarginDb)
+				reason = `no tone stands ${c.toneMarginDb} dB above the noise (strongest: ${snr.toFixed(1)} dB)`;
+			else if (exp !== null && Math.abs(f0 - exp) > Math.max(2 * this.binHz, 0.01 * exp))
+				reason = `the strongest tone is at ${f0.toFixed(1)} Hz, not the ${exp} Hz stimulus (hum or oscillation?)`;
+		}
+		const tone = c.stimulus === 'tone' && reason === null;
+		out.signal = tone || ((c.stimulus === 'smpte' || c.stimulus === 'twin-tone') && this.lastImd !== null);
+		if (!out.signal && reason === null) reason = this.lastImdError ?? 'the two tones were not found';
+		out.signalReason = out.signal ? null : reason;
+
+		if (!tone) {
+			// Nothing is a fundamental: level and noise are the total in band (nothing removed, DC excluded).
+			out.frequencyHz = null;
+			out.levelVrms = out.totalVrms;
+			out.levelDbv = db20(out.levelVrms);
+			out.levelDbu = out.levelVrms > 0 ? Math.max(MIN_DB, vrmsToDbu(out.levelVrms)) : MIN_DB;
+			out.levelDbfs = db10(avg[V_T] / 0.5);
+			delete out.powerW;
+			if (c.referenceVrms !== null) out.gainDb = null;
+			else delete out.gainDb;
+			out.harmonics.length = 0;
+			out.thdPercent = null;
+			out.thdDb = null;
+			out.thdnPercent = null;
+			out.thdnDb = null;
+			out.snrDb = null;
+			out.snrWeightedDb = null;
+			out.sinadDb = null;
+			out.enob = null;
+			beyond.length = 0;
+			// The tone path leaves the fundamental in V_T: with no signal, the noise is that total.
+			const n = c.stimulus === 'tone' ? avg[V_T] : avg[V_N];
+			const na = c.stimulus === 'tone' ? avg[V_TA] : avg[V_NA];
+			out.noiseVrms = Math.sqrt(n * fs2);
+			out.noiseDbv = db20(out.noiseVrms);
+			out.noiseWeightedVrms = Math.sqrt(na * fs2);
+			out.noiseWeightedDbv = db20(out.noiseWeightedVrms);
+			if (c.stimulus === 'none') {
+				if (c.snReference) {
+					out.snDb = db20(c.snReference.vrms / out.noiseVrms);
+					out.snWeightedDb = db20(c.snReference.vrms / out.noiseWeightedVrms);
+				}
+				const base = V_H + c.maxHarmonic - 1;
+				const mf = avg[V_MNU] * this.binHz;
+				for (let h = 1; h <= HUM_ORDERS; h++) {
+					const ph = avg[base + h - 1];
+					if (!Number.isFinite(ph)) continue;
+					const f = h * mf;
+					const v = Math.sqrt(ph) * fs;
+					const item: HumComponent = {
+						order: h,
+						frequencyHz: f,
+						levelVrms: v,
+						levelDbv: db20(v),
+						inBand: f >= c.bandHz[0] && f <= c.bandHz[1]
+					};
+					out.hum.push(item);
+				}
+			}
+			if (this.lastImd) out.imd = scaleImd(this.lastImd, fs);
+			else if (c.stimulus === 'smpte' || c.stimulus === 'twin-tone') out.imdError = reason;
+			return out;
+		}
+
+		out.frequencyHz = f0;
 		out.levelVrms = Math.sqrt(p1) * fs;
 		out.levelDbv = db20(out.levelVrms);
 		out.levelDbu = out.levelVrms > 0 ? Math.max(MIN_DB, vrmsToDbu(out.levelVrms)) : MIN_DB;
 		out.levelDbfs = db10(p1 / 0.5);
-		const c = this.conditions;
 		if (c.loadOhms !== null) out.powerW = wattsIntoLoad(out.levelVrms, c.loadOhms);
 		else delete out.powerW;
 		if (c.referenceVrms !== null) out.gainDb = db20(out.levelVrms / c.referenceVrms);
@@ -688,7 +1027,7 @@ export class Analyzer {
 				hs.push(item);
 			}
 			item.order = h;
-			item.frequencyHz = h * out.frequencyHz;
+			item.frequencyHz = h * f0;
 			item.levelDbc = db10(ph / p1);
 			item.levelVrms = Math.sqrt(ph) * fs;
 			count++;
@@ -707,17 +1046,33 @@ export class Analyzer {
 		out.noiseDbv = db20(out.noiseVrms);
 		out.snrDb = db10(p1 / avg[V_N]);
 		out.noiseWeightedVrms = Math.sqrt(avg[V_NA] * fs2);
+		out.noiseWeightedDbv = db20(out.noiseWeightedVrms);
 		out.snrWeightedDb = db10(p1 / avg[V_NA]);
 		out.sinadDb = db10(p1 / avg[V_R]);
 		out.enob = (out.sinadDb - 1.76) / 6.02;
-		out.totalVrms = Math.sqrt(avg[V_T] * fs2);
-		out.dcVolts = avg[V_DC] * fs;
 		return out;
 	}
 }
 
+/** An IMD result measured in sample units, in volts at `fs` volts full scale (ratios unchanged). */
+function scaleImd(r: ImdResult, fs: number): ImdResult {
+	return {
+		...r,
+		level1Vrms: r.level1Vrms * fs,
+		level2Vrms: r.level2Vrms * fs,
+		products: r.products.map((q) => ({ ...q, levelVrms: q.levelVrms * fs }))
+	};
+}
+
 function cloneResult(r: ChannelResult): ChannelResult {
-	return { ...r, harmonics: r.harmonics.map((h) => ({ ...h })) };
+	return {
+		...r,
+		harmonics: r.harmonics.map((h) => ({ ...h })),
+		harmonicsBeyondBand: [...r.harmonicsBeyondBand],
+		hum: r.hum.map((h) => ({ ...h })),
+		clipping: { ...r.clipping },
+		imd: r.imd ? { ...r.imd, products: r.imd.products.map((q) => ({ ...q })) } : null
+	};
 }
 
 /** Analysis of one channel's samples: `averages` consecutive frames of fftSize from the start, power-averaged. */
@@ -751,6 +1106,13 @@ function analyzeOne(
 		loadOhms: options.loadOhms,
 		referenceVrms: options.referenceVrms,
 		maxHarmonic: options.maxHarmonic,
+		stimulus: options.stimulus,
+		mainsHz: options.mainsHz,
+		toneMarginDb: options.toneMarginDb,
+		expectedFrequencyHz: options.expectedFrequencyHz,
+		imdF1Hz: options.imdF1Hz,
+		imdF2Hz: options.imdF2Hz,
+		snReference: options.snReference,
 		averages: frames,
 		averaging: frames > 1 ? 'power' : 'none',
 		spectrum: false
@@ -802,6 +1164,7 @@ export function crosstalkDb(
 		: [fullScaleVolts, fullScaleVolts];
 	const fftSize = options.fftSize ?? defaultFftSize(Math.min(driven.length, other.length));
 	const d = analyzeChannel(driven, sampleRateHz, fsDriven, { ...options, fftSize, averages: 1 });
+	if (d.frequencyHz === null) throw new RangeError(`no tone in the driven channel: ${d.signalReason}`);
 	return db20(toneLevelAt(other, sampleRateHz, d.frequencyHz, fsOther, fftSize) / d.levelVrms);
 }
 
@@ -842,6 +1205,8 @@ export function stereoFigures(
 	// With both channels driven the "quieter" one is just the other signal, not leakage.
 	if (Math.abs(out.balanceDb) >= CROSSTALK_MIN_BALANCE_DB) {
 		const [from, to] = a.result.levelVrms >= b.result.levelVrms ? [a, b] : [b, a];
+		// Crosstalk needs a tone in the driven channel; without one there is nothing to follow.
+		if (from.result.frequencyHz === null) return out;
 		const otherVrms = to.analyzer.toneVrmsAt(from.result.frequencyHz);
 		out.crosstalkDb = db20(otherVrms / from.result.levelVrms);
 		out.crosstalkFromChannel = from.result.channel;
@@ -883,7 +1248,12 @@ export function analyzeFrames(
 			binHz: sampleRateHz / fftSize,
 			maxHarmonic: rc.maxHarmonic,
 			thdReference: 'fundamental',
-			thdnReference: 'total-in-band'
+			thdnReference: 'total-in-band',
+			stimulus: rc.stimulus,
+			mainsHz: rc.mainsHz,
+			toneMarginDb: rc.toneMarginDb,
+			expectedFrequencyHz: rc.expectedFrequencyHz,
+			snReference: rc.snReference
 		},
 		channels: results
 	};

@@ -12,6 +12,7 @@ import FFT from 'fft.js';
 import { ANALYSIS_WINDOW, makeWindow, windows } from './windows';
 import { ToneFitter, interpolatePeak, peakBin } from './tonefit';
 import { db20, defaultFftSize } from './analyzer';
+import type { Spectrum } from './tonefit';
 
 export interface ImdProduct {
 	label: string;
@@ -51,6 +52,14 @@ interface Prepared {
 	n: number;
 }
 
+function checkSpacing(n: number, binHz: number, minSpacingHz: number): void {
+	const needBins = 2 * windows[ANALYSIS_WINDOW].mainlobeHalfWidthBins + 1;
+	if (minSpacingHz / binHz < needBins) {
+		const minN = 2 ** Math.ceil(Math.log2((needBins * binHz * n) / minSpacingHz));
+		throw new RangeError(`IMD products ${minSpacingHz} Hz apart need an FFT of at least ${minN} samples`);
+	}
+}
+
 function prepare(
 	samples: Float32Array,
 	sampleRateHz: number,
@@ -60,11 +69,7 @@ function prepare(
 	const n = fftSize;
 	if (samples.length < n) throw new RangeError(`need ${n} samples, got ${samples.length}`);
 	const binHz = sampleRateHz / n;
-	const needBins = 2 * windows[ANALYSIS_WINDOW].mainlobeHalfWidthBins + 1;
-	if (minSpacingHz / binHz < needBins) {
-		const minN = 2 ** Math.ceil(Math.log2((needBins * sampleRateHz) / minSpacingHz));
-		throw new RangeError(`IMD products ${minSpacingHz} Hz apart need an FFT of at least ${minN} samples`);
-	}
+	checkSpacing(n, binHz, minSpacingHz);
 	const w = makeWindow(ANALYSIS_WINDOW, n);
 	const frame = new Float64Array(n);
 	for (let i = 0; i < n; i++) frame[i] = samples[i] * w[i];
@@ -128,12 +133,35 @@ function finish(
 	};
 }
 
-/** SMPTE IMD: LF tone f1 (60 Hz) and HF tone f2 (7 kHz) at 4:1. */
-export function smpteImd(samples: Float32Array, sampleRateHz: number, options: ImdOptions = {}): ImdResult {
-	const f1n = options.f1Hz ?? 60;
-	const f2n = options.f2Hz ?? 7000;
-	const fftSize = options.fftSize ?? defaultFftSize(samples.length);
-	const p = prepare(samples, sampleRateHz, fftSize, f1n);
+/**
+ * IMD from an analysis-window spectrum the caller already has (the live analyser): `spec` is changed
+ * (the tones are subtracted), so pass a copy. Levels are in sample units (full scale 1).
+ */
+export function imdOnSpectrum(
+	method: 'smpte' | 'twin-tone',
+	spec: Spectrum,
+	fit: ToneFitter,
+	n: number,
+	binHz: number,
+	f1Hz: number | null = null,
+	f2Hz: number | null = null
+): ImdResult {
+	const p: Prepared = { fit, spec, binHz, n };
+	if (method === 'smpte') {
+		const f1n = f1Hz ?? 60;
+		const f2n = f2Hz ?? 7000;
+		if (f2n >= (n / 2) * binHz) throw new RangeError(`the ${f2n} Hz tone is above Nyquist`);
+		checkSpacing(n, binHz, f1n);
+		return smpteOn(p, f1n, f2n, 1, n);
+	}
+	const f1n = f1Hz ?? 19000;
+	const f2n = f2Hz ?? 20000;
+	if (Math.max(f1n, f2n) >= (n / 2) * binHz) throw new RangeError(`the ${Math.max(f1n, f2n)} Hz tone is above Nyquist`);
+	checkSpacing(n, binHz, Math.abs(f2n - f1n));
+	return twinOn(p, f1n, f2n, 1, n);
+}
+
+function smpteOn(p: Prepared, f1n: number, f2n: number, fs: number, fftSize: number): ImdResult {
 	const [f1, u1] = takeTone(p, f1n);
 	const [f2, u2] = takeTone(p, f2n);
 	const prods = [
@@ -142,7 +170,27 @@ export function smpteImd(samples: Float32Array, sampleRateHz: number, options: I
 		{ label: 'f2 − 2f1', order: 3 as const, f: f2 - 2 * f1 },
 		{ label: 'f2 + 2f1', order: 3 as const, f: f2 + 2 * f1 }
 	].map((q) => ({ ...q, u: productAmp(p, q.f) }));
-	return finish('smpte', f1, f2, u1, u2, u2, prods, options.fullScaleVolts ?? 1, fftSize);
+	return finish('smpte', f1, f2, u1, u2, u2, prods, fs, fftSize);
+}
+
+function twinOn(p: Prepared, f1n: number, f2n: number, fs: number, fftSize: number): ImdResult {
+	const [f1, u1] = takeTone(p, f1n);
+	const [f2, u2] = takeTone(p, f2n);
+	const prods = [
+		{ label: 'f2 − f1', order: 2 as const, f: f2 - f1 },
+		{ label: '2f1 − f2', order: 3 as const, f: 2 * f1 - f2 },
+		{ label: '2f2 − f1', order: 3 as const, f: 2 * f2 - f1 }
+	].map((q) => ({ ...q, u: productAmp(p, q.f) }));
+	return finish('twin-tone', f1, f2, u1, u2, u1 + u2, prods, fs, fftSize);
+}
+
+/** SMPTE IMD: LF tone f1 (60 Hz) and HF tone f2 (7 kHz) at 4:1. */
+export function smpteImd(samples: Float32Array, sampleRateHz: number, options: ImdOptions = {}): ImdResult {
+	const f1n = options.f1Hz ?? 60;
+	const f2n = options.f2Hz ?? 7000;
+	const fftSize = options.fftSize ?? defaultFftSize(samples.length);
+	const p = prepare(samples, sampleRateHz, fftSize, f1n);
+	return smpteOn(p, f1n, f2n, options.fullScaleVolts ?? 1, fftSize);
 }
 
 /** Twin-tone (difference-frequency) IMD: equal tones f1 and f2 (19 + 20 kHz). */
@@ -155,12 +203,5 @@ export function twinToneImd(
 	const f2n = options.f2Hz ?? 20000;
 	const fftSize = options.fftSize ?? defaultFftSize(samples.length);
 	const p = prepare(samples, sampleRateHz, fftSize, Math.abs(f2n - f1n));
-	const [f1, u1] = takeTone(p, f1n);
-	const [f2, u2] = takeTone(p, f2n);
-	const prods = [
-		{ label: 'f2 − f1', order: 2 as const, f: f2 - f1 },
-		{ label: '2f1 − f2', order: 3 as const, f: 2 * f1 - f2 },
-		{ label: '2f2 − f1', order: 3 as const, f: 2 * f2 - f1 }
-	].map((q) => ({ ...q, u: productAmp(p, q.f) }));
-	return finish('twin-tone', f1, f2, u1, u2, u1 + u2, prods, options.fullScaleVolts ?? 1, fftSize);
+	return twinOn(p, f1n, f2n, options.fullScaleVolts ?? 1, fftSize);
 }

@@ -36,12 +36,15 @@ export {
 	MAX_FFT_SIZE,
 	DEFAULT_FFT_CAP,
 	DEFAULT_BAND_HZ,
+	DEFAULT_TONE_MARGIN_DB,
+	HUM_ORDERS,
+	FLAT_TOP_PERCENT,
 	type AnalyzerOptions,
 	type AveragingMode
 } from './analyzer';
 export { ToneFitter } from './tonefit';
 export { compactSpectrum, type CompactSpectrum } from './spectrum';
-export { smpteImd, twinToneImd, type ImdResult, type ImdProduct, type ImdOptions } from './imd';
+export { smpteImd, twinToneImd, imdOnSpectrum, type ImdResult, type ImdProduct, type ImdOptions } from './imd';
 export { steadiness, SteadinessTracker, type SteadinessSample, type SteadinessStats } from './steadiness';
 export {
 	analysisResultSchema,
@@ -50,6 +53,8 @@ export {
 	analysisConditionsSchema,
 	analysisOptionsSchema,
 	weightingSchema,
+	stimulusSchema,
+	mainsHzSchema,
 	type ChannelResultParsed,
 	type AnalysisResultParsed
 } from './schema';

@@ -6,6 +6,10 @@ import { WINDOW_NAMES, type WindowName } from './windows';
 const finite = z.number().refine(Number.isFinite, 'must be a finite number');
 const windowName = z.enum(WINDOW_NAMES as [WindowName, ...WindowName[]]);
 export const weightingSchema = z.enum(['none', 'a']);
+export const stimulusSchema = z.enum(['tone', 'none', 'smpte', 'twin-tone']);
+export const mainsHzSchema = z.union([z.literal(50), z.literal(60)]);
+/** A figure that is null when there is no tone to refer it to (stimulus 'none', no signal). */
+const figure = finite.nullable();
 
 export const harmonicResultSchema = z.object({
 	order: z.number().int().min(2).max(50),
@@ -14,29 +18,85 @@ export const harmonicResultSchema = z.object({
 	levelVrms: finite.nonnegative().optional()
 });
 
+const imdResultSchema = z.object({
+	method: z.enum(['smpte', 'twin-tone']),
+	reference: z.enum(['hf-tone', 'sum-of-tones']),
+	f1Hz: finite,
+	f2Hz: finite,
+	level1Vrms: finite.nonnegative(),
+	level2Vrms: finite.nonnegative(),
+	d2Percent: finite.nonnegative(),
+	d3Percent: finite.nonnegative(),
+	imdPercent: finite.nonnegative(),
+	imdDb: finite,
+	products: z
+		.array(
+			z.object({
+				label: z.string().max(40),
+				order: z.union([z.literal(2), z.literal(3)]),
+				frequencyHz: finite,
+				levelVrms: finite.nonnegative(),
+				levelDbr: finite
+			})
+		)
+		.max(8),
+	fftSize: z.number().int().positive()
+});
+
+// Fields added with the stimulus condition are optional so results stored before it still parse.
 export const channelResultSchema = z.object({
 	channel: z.number().int().min(0).max(63),
-	frequencyHz: finite.nonnegative(),
+	stimulus: stimulusSchema.optional(),
+	signal: z.boolean().optional(),
+	signalReason: z.string().max(300).nullable().optional(),
+	frequencyHz: finite.nonnegative().nullable(),
 	levelVrms: finite.nonnegative(),
 	levelDbv: finite,
 	levelDbu: finite,
 	levelDbfs: finite,
 	powerW: finite.nonnegative().optional(),
-	gainDb: finite.optional(),
-	thdPercent: finite.nonnegative(),
-	thdDb: finite,
-	thdnPercent: finite.nonnegative(),
-	thdnDb: finite,
+	gainDb: figure.optional(),
+	thdPercent: finite.nonnegative().nullable(),
+	thdDb: figure,
+	harmonicsBeyondBand: z.array(z.number().int().min(2).max(50)).max(49).optional(),
+	thdnPercent: finite.nonnegative().nullable(),
+	thdnDb: figure,
 	noiseVrms: finite.nonnegative(),
 	noiseDbv: finite.optional(),
-	snrDb: finite,
+	snrDb: figure,
 	noiseWeightedVrms: finite.nonnegative(),
-	snrWeightedDb: finite,
-	sinadDb: finite,
-	enob: finite,
+	noiseWeightedDbv: finite.optional(),
+	snrWeightedDb: figure,
+	snDb: figure.optional(),
+	snWeightedDb: figure.optional(),
+	sinadDb: figure,
+	enob: figure,
 	totalVrms: finite.nonnegative().optional(),
 	dcVolts: finite.optional(),
-	harmonics: z.array(harmonicResultSchema).max(49)
+	harmonics: z.array(harmonicResultSchema).max(49),
+	hum: z
+		.array(
+			z.object({
+				order: z.number().int().min(1).max(10),
+				frequencyHz: finite.nonnegative(),
+				levelVrms: finite.nonnegative(),
+				levelDbv: finite,
+				inBand: z.boolean()
+			})
+		)
+		.max(10)
+		.optional(),
+	imd: imdResultSchema.nullable().optional(),
+	imdError: z.string().max(300).nullable().optional(),
+	clipping: z
+		.object({
+			fullScaleSamples: z.number().int().nonnegative(),
+			flatTopPercent: finite.nonnegative().nullable(),
+			crestFactorDb: finite,
+			clipped: z.boolean(),
+			reason: z.string().max(300).nullable()
+		})
+		.optional()
 });
 
 export const analysisConditionsSchema = z.object({
@@ -57,7 +117,12 @@ export const analysisConditionsSchema = z.object({
 	binHz: finite.positive(),
 	maxHarmonic: z.number().int().min(2).max(50),
 	thdReference: z.literal('fundamental'),
-	thdnReference: z.literal('total-in-band')
+	thdnReference: z.literal('total-in-band'),
+	stimulus: stimulusSchema.optional(),
+	mainsHz: mainsHzSchema.optional(),
+	toneMarginDb: finite.optional(),
+	expectedFrequencyHz: finite.positive().nullable().optional(),
+	snReference: z.object({ vrms: finite.positive(), label: z.string().max(80) }).nullable().optional()
 });
 
 export const analysisResultSchema = z.object({
@@ -88,7 +153,14 @@ export const analysisOptionsSchema = z.object({
 	loadOhms: finite.positive().optional(),
 	referenceVrms: finite.positive().optional(),
 	averages: z.number().int().min(1).max(1024).optional(),
-	maxHarmonic: z.number().int().min(2).max(50).optional()
+	maxHarmonic: z.number().int().min(2).max(50).optional(),
+	stimulus: stimulusSchema.optional(),
+	mainsHz: mainsHzSchema.optional(),
+	toneMarginDb: finite.min(0).max(60).optional(),
+	expectedFrequencyHz: finite.positive().optional(),
+	imdF1Hz: finite.positive().optional(),
+	imdF2Hz: finite.positive().optional(),
+	snReference: z.object({ vrms: finite.positive(), label: z.string().trim().min(1).max(80) }).optional()
 });
 
 export type ChannelResultParsed = z.infer<typeof channelResultSchema>;

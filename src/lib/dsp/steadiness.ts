@@ -3,7 +3,8 @@
 
 export interface SteadinessSample {
 	levelDbv: number;
-	thdnDb: number;
+	/** Null for a frame without a tone; such frames are left out. */
+	thdnDb: number | null;
 }
 
 export interface SteadinessStats {
@@ -73,9 +74,10 @@ function statsOf(
 
 /** Spread (max − min and standard deviation) of level and THD+N over the given frames. */
 export function steadiness(history: readonly SteadinessSample[]): SteadinessStats {
-	const levels = history.map((h) => h.levelDbv);
-	const thdns = history.map((h) => h.thdnDb);
-	return statsOf(levels, thdns, history.length, emptyStats());
+	const toned = history.filter((h): h is { levelDbv: number; thdnDb: number } => h.thdnDb !== null);
+	const levels = toned.map((h) => h.levelDbv);
+	const thdns = toned.map((h) => h.thdnDb);
+	return statsOf(levels, thdns, toned.length, emptyStats());
 }
 
 /** Fixed-capacity ring of recent frames; push() and stats() allocate nothing. */
@@ -94,8 +96,9 @@ export class SteadinessTracker {
 		this.thdns = new Float64Array(this.capacity);
 	}
 
-	push(levelDbv: number, thdnDb: number): void {
-		if (!Number.isFinite(levelDbv) || !Number.isFinite(thdnDb)) return;
+	/** A frame without a tone (thdnDb null) is not a sample of a steady tone: it is skipped. */
+	push(levelDbv: number, thdnDb: number | null): void {
+		if (thdnDb === null || !Number.isFinite(levelDbv) || !Number.isFinite(thdnDb)) return;
 		this.levels[this.next] = levelDbv;
 		this.thdns[this.next] = thdnDb;
 		this.next = (this.next + 1) % this.capacity;

@@ -145,7 +145,7 @@ describe('decodeWav on sox-made files', () => {
 					5e-7 + 1e-9
 				);
 				const r = analyzeChannel(wav.channels[ch], wav.sampleRateHz, 1, { fftSize: 16384 });
-				expect(Math.abs(r.frequencyHz - TONES_HZ[ch])).toBeLessThan(0.05);
+				expect(Math.abs(r.frequencyHz! - TONES_HZ[ch])).toBeLessThan(0.05);
 			}
 		});
 	}

@@ -8,9 +8,10 @@ export type SnapshotVerdictView = 'pass' | 'fail' | 'none';
 /** Headline figures of one channel, for lists. */
 export interface SnapshotSummaryRow {
 	channel: number;
-	frequencyHz: number;
+	/** Null when the capture had no tone (no stimulus, no signal, two-tone stimuli). */
+	frequencyHz: number | null;
 	levelVrms: number;
-	thdnPercent: number;
+	thdnPercent: number | null;
 	weighting: string;
 }
 

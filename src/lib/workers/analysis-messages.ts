@@ -1,7 +1,8 @@
 // Messages between the page and the analysis worker (analysis.worker.ts). Large arrays travel as
 // transferables; the page hands spectrum and scope buffers back with `recycle` so the worker
 // reuses them instead of allocating new ones for every update.
-import type { ChannelResult, Weighting } from '$lib/dsp/types';
+import type { ChannelResult, MainsHz, Stimulus, Weighting } from '$lib/dsp/types';
+import type { GeneratorState } from '$lib/bridge/protocol';
 import type { WindowName } from '$lib/dsp/windows';
 
 export const FFT_SIZES = [4096, 8192, 16384, 32768, 65536, 131072, 262144] as const;
@@ -32,6 +33,46 @@ export interface AnalysisSettings {
 	triggerLevelV: number;
 	/** Seconds of history for the steadiness figures. */
 	steadinessWindowS: number;
+	/** What drives the unit: set from the generator (off → 'none'), see stimulusFromGenerator. */
+	stimulus: Stimulus;
+	/** Generator frequency with a sine: a strongest tone elsewhere reads as "no signal". */
+	expectedFrequencyHz: number | null;
+	/** The two tones of an IMD stimulus (null = the method's defaults). */
+	imdF1Hz: number | null;
+	imdF2Hz: number | null;
+	/** Mains frequency for the hum breakdown (shop setting). */
+	mainsHz: MainsHz;
+	/** A tone must stand this far above the noise to count as a signal, dB. */
+	toneMarginDb: number;
+}
+
+/** The analysis settings that follow the generator: off (or noise) → no tone to measure. */
+export function stimulusFromGenerator(
+	g: GeneratorState | null
+): Pick<AnalysisSettings, 'stimulus' | 'expectedFrequencyHz' | 'imdF1Hz' | 'imdF2Hz'> {
+	if (!g || g.kind === 'off' || g.kind === 'noise')
+		return { stimulus: 'none', expectedFrequencyHz: null, imdF1Hz: null, imdF2Hz: null };
+	if (g.kind === 'sine')
+		return { stimulus: 'tone', expectedFrequencyHz: g.frequencyHz, imdF1Hz: null, imdF2Hz: null };
+	if (g.kind === 'smpte')
+		return { stimulus: 'smpte', expectedFrequencyHz: null, imdF1Hz: g.lowHz, imdF2Hz: g.highHz };
+	return { stimulus: 'twin-tone', expectedFrequencyHz: null, imdF1Hz: g.f1Hz, imdF2Hz: g.f2Hz };
+}
+
+/** One line for the readouts caption: which stimulus the figures assume. */
+export function stimulusCaption(s: Pick<AnalysisSettings, 'stimulus' | 'expectedFrequencyHz' | 'mainsHz'>): string {
+	switch (s.stimulus) {
+		case 'none':
+			return `Generator off: residual noise and hum (total in-band rms, nothing removed; mains ${s.mainsHz} Hz)`;
+		case 'smpte':
+			return 'Generator SMPTE two-tone: IMD shown, THD hidden';
+		case 'twin-tone':
+			return 'Generator twin-tone: IMD shown, THD hidden';
+		default:
+			return s.expectedFrequencyHz
+				? `Generator sine ${s.expectedFrequencyHz} Hz: THD, THD+N and SNR re the tone`
+				: 'Sine stimulus: THD, THD+N and SNR re the strongest tone';
+	}
 }
 
 export const DEFAULT_SETTINGS: AnalysisSettings = {
@@ -48,7 +89,13 @@ export const DEFAULT_SETTINGS: AnalysisSettings = {
 	scopeSpanMs: 5,
 	triggerChannel: 0,
 	triggerLevelV: 0,
-	steadinessWindowS: 3
+	steadinessWindowS: 3,
+	stimulus: 'tone',
+	expectedFrequencyHz: null,
+	imdF1Hz: null,
+	imdF2Hz: null,
+	mainsHz: 50,
+	toneMarginDb: 10
 };
 
 /** Seconds of audio the worker keeps per channel, so a capture can carry the steadiness window. */

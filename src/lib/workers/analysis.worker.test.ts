@@ -2,7 +2,14 @@
 // module is driven through its message handler (a stand-in `self`) and compared with analyzeFrames.
 import { beforeAll, describe, expect, it, vi } from 'vitest';
 import { analyzeFrames, CROSSTALK_MIN_BALANCE_DB } from '$lib/dsp';
-import { DEFAULT_SETTINGS, type FromWorker, type ToWorker, type WorkerResult } from './analysis-messages';
+import {
+	DEFAULT_SETTINGS,
+	stimulusFromGenerator,
+	type AnalysisSettings,
+	type FromWorker,
+	type ToWorker,
+	type WorkerResult
+} from './analysis-messages';
 
 const RATE = 48_000;
 const FFT = 16_384;
@@ -47,14 +54,14 @@ function frame(left: Float32Array, right: Float32Array): ToWorker {
 }
 
 /** Feed one FFT frame of audio from a fresh configuration and return the worker's result. */
-function live(left: Float32Array, right: Float32Array): WorkerResult {
+function live(left: Float32Array, right: Float32Array, patch: Partial<AnalysisSettings> = {}): WorkerResult {
 	posted.length = 0;
 	send({
 		type: 'config',
 		sampleRateHz: RATE,
 		channels: 2,
 		fullScaleVolts: [2, 2],
-		settings: { ...DEFAULT_SETTINGS, fftSize: FFT, averaging: 'none', loadOhms: null }
+		settings: { ...DEFAULT_SETTINGS, fftSize: FFT, averaging: 'none', loadOhms: null, ...patch }
 	});
 	send(frame(left, right));
 	const r = posted.find((m): m is WorkerResult => m.type === 'result');
@@ -85,5 +92,36 @@ describe('analysis worker stereo figures', () => {
 		expect(r.crosstalkDb).toBeNull();
 		expect(r.balanceDb!).toBeCloseTo(3, 3); // 20·lg(10^(3/20)) = 3 dB (definition)
 		expect(saved.balanceDb!).toBeCloseTo(3, 3);
+	});
+});
+
+describe('analysis worker stimulus', () => {
+	it('generator off → stimulus none: hum reads as noise, tone figures null, same as saved', () => {
+		const settings = stimulusFromGenerator({ kind: 'off' });
+		expect(settings.stimulus).toBe('none');
+		// 1 mV of 100 Hz hum at 2 V full scale on both channels.
+		const hum = sine(FFT, 100, 1e-3 / 2 * Math.SQRT2);
+		const r = live(hum, hum, settings);
+		const saved = analyzeFrames([hum, hum], RATE, [2, 2], { fftSize: FFT, stimulus: 'none' });
+		for (const [i, ch] of r.results.entries()) {
+			expect(ch.signal).toBe(false);
+			expect(ch.thdnPercent).toBeNull();
+			expect(ch.frequencyHz).toBeNull();
+			// A sine's rms is peak/√2: the whole 1 mV is noise now, not a removed "fundamental".
+			expect(ch.noiseVrms).toBeCloseTo(1e-3, 6);
+			expect(ch.noiseVrms).toBeCloseTo(saved.channels[i].noiseVrms, 9);
+			expect(ch.hum.find((h) => h.order === 2)?.levelVrms).toBeCloseTo(1e-3, 6);
+		}
+		expect(r.crosstalkDb).toBeNull();
+	});
+
+	it('a sine generator sets the expected frequency: a 100 Hz hum under a 1 kHz stimulus is "no signal"', () => {
+		const settings = stimulusFromGenerator({ kind: 'sine', frequencyHz: 1000, levelVrms: 0.5 });
+		expect(settings).toMatchObject({ stimulus: 'tone', expectedFrequencyHz: 1000 });
+		const hum = sine(FFT, 100, 1e-3);
+		const r = live(hum, hum, settings);
+		expect(r.results[0].signal).toBe(false);
+		expect(r.results[0].signalReason).toMatch(/not the 1000 Hz stimulus/);
+		expect(r.results[0].thdPercent).toBeNull();
 	});
 });

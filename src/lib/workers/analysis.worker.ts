@@ -98,6 +98,12 @@ function rebuild(): void {
 				averaging: s.averaging,
 				averages: s.averaging === 'power' ? Math.max(1, Math.round(s.averages)) : 1,
 				alpha: s.averaging === 'exponential' ? 1 / Math.max(1, s.averages) : undefined,
+				stimulus: s.stimulus ?? 'tone',
+				mainsHz: s.mainsHz ?? 50,
+				toneMarginDb: s.toneMarginDb,
+				expectedFrequencyHz: s.expectedFrequencyHz ?? undefined,
+				imdF1Hz: s.imdF1Hz ?? undefined,
+				imdF2Hz: s.imdF2Hz ?? undefined,
 				spectrum: true
 			})
 	);
