@@ -235,7 +235,48 @@ describe('figures of stored snapshots', () => {
 		expect(same.changes[1]!.verdict).toBe('better');
 	});
 
-	it('adds IMD rows only where measured', () => {
+	it('adds IMD rows only where measured, per channel, with the core’s reason when it could not be', () => {
+		const imd = (imdPercent: number) => ({
+			method: 'smpte',
+			imdPercent,
+			imdDb: 20 * Math.log10(imdPercent / 100),
+			d2Percent: 0.05,
+			d3Percent: 0.06
+		});
+		const before = snap(1, {
+			chans: [channel({ imd: null, imdError: 'FFT too short for the tone spacing' }), channel({ channel: 1 })]
+		});
+		const after = snap(2, { chans: [channel({ imd: imd(0.08) }), channel({ channel: 1, imd: imd(0.2) })] });
+		const rows = figureRows([before, after]);
+		const left = rows.find((r) => r.id === 'imd:smpte:ch0:imdPercent')!;
+		expect(left.scope).toBe('L SMPTE');
+		expect(left.values.map((v) => v.value)).toEqual([null, 0.08]);
+		expect(left.values[0].reason).toBe('FFT too short for the tone spacing');
+		expect(left.changes[1]!.verdict).toBe('not comparable');
+		const right = rows.find((r) => r.id === 'imd:smpte:ch1:imdPercent')!;
+		expect(right.values[0]).toEqual({ value: null, reason: 'not measured' });
+		expect(rows.some((r) => r.id.startsWith('imd:') && r.id.includes('imdDb'))).toBe(true);
+		// A later snapshot with IMD on both: 0.08 % → 0.2 % is +0.12 % points, worse.
+		const rows2 = figureRows([after, snap(3, { chans: [channel({ imd: imd(0.2) })] })]);
+		const c = rows2.find((r) => r.id === 'imd:smpte:ch0:imdPercent')!.changes[1]!;
+		expect(c.value).toBeCloseTo(0.12, 12);
+		expect(c.verdict).toBe('worse');
+	});
+
+	it('reads the analysis’s stimulus kind when no generator settings were stored', () => {
+		const s = snap(1, { settings: {} });
+		(s.results as { conditions: Record<string, unknown> }).conditions.stimulus = 'none';
+		expect(stimulusOf(s)).toBe('none (residual noise and hum)');
+	});
+
+	it('leaves S/N rows out unless a snapshot has them', () => {
+		expect(figureRows([snap(1), snap(2)]).some((r) => r.id === 'ch0:snDb')).toBe(false);
+		const withSn = snap(2, { chans: [channel({ snDb: 95.5 })] });
+		const row = figureRows([snap(1), withSn]).find((r) => r.id === 'ch0:snDb')!;
+		expect(row.values.map((v) => v.value)).toEqual([null, 95.5]);
+	});
+
+	it('reads IMD stored once for the record (results.imd) as the left channel’s', () => {
 		const withImd = snap(2);
 		(withImd.results as Record<string, unknown>).imd = {
 			method: 'smpte',
@@ -245,8 +286,8 @@ describe('figures of stored snapshots', () => {
 			d3Percent: 0.06
 		};
 		const rows = figureRows([snap(1), withImd]);
-		const imd = rows.find((r) => r.id === 'imd:smpte:imdPercent')!;
-		expect(imd.scope).toBe('SMPTE');
+		const imd = rows.find((r) => r.id === 'imd:smpte:ch0:imdPercent')!;
+		expect(imd.scope).toBe('L SMPTE');
 		expect(imd.values.map((v) => v.value)).toEqual([null, 0.08]);
 		expect(imd.values[0].reason).toBe('not measured');
 		expect(imd.changes[1]!.verdict).toBe('not comparable');

@@ -55,6 +55,15 @@ export interface FigureDef {
 	group: 'level' | 'distortion' | 'noise' | 'harmonics' | 'steadiness' | 'stereo' | 'imd';
 }
 
+/** Per-channel figures shown only when at least one snapshot has them. */
+export const OPTIONAL_FIGURES: ReadonlySet<string> = new Set([
+	'powerW',
+	'gainDb',
+	'noiseWeightedDbv',
+	'snDb',
+	'snWeightedDb'
+]);
+
 /** Per-channel figures of the measurement core, in the order the table shows them. */
 export const CHANNEL_FIGURES: readonly FigureDef[] = [
 	{ key: 'frequencyHz', label: 'Frequency', unit: 'Hz', better: 'none', change: 'linear', group: 'level' },
@@ -85,6 +94,24 @@ export const CHANNEL_FIGURES: readonly FigureDef[] = [
 	{
 		key: 'snrWeightedDb',
 		label: 'SNR (A-weighted)',
+		unit: 'dB',
+		better: 'higher',
+		change: 'db',
+		group: 'noise'
+	},
+	{
+		key: 'noiseWeightedDbv',
+		label: 'Noise (A-weighted)',
+		unit: 'dBV',
+		better: 'lower',
+		change: 'db',
+		group: 'noise'
+	},
+	// S/N against a stated reference output, measured without a stimulus (residual noise).
+	{ key: 'snDb', label: 'S/N', unit: 'dB', better: 'higher', change: 'db', group: 'noise' },
+	{
+		key: 'snWeightedDb',
+		label: 'S/N (A-weighted)',
 		unit: 'dB',
 		better: 'higher',
 		change: 'db',
@@ -365,19 +392,32 @@ export function stereoFigure(s: ComparableSnapshot, key: string): FigureValue {
 }
 
 /**
- * IMD results where measured. The stored shape may be one result or a list, under `imd`; each is
- * returned with its method for labelling ("SMPTE", "twin-tone").
+ * IMD results where measured: per channel (`channels[i].imd`, the measurement core's shape) or, for
+ * records that stored it once, `results.imd` (one result or a list) counted as channel 0.
  */
-export function imdOf(s: ComparableSnapshot): { method: string; raw: Rec }[] {
+export function imdOf(s: ComparableSnapshot): { channel: number; method: string; raw: Rec }[] {
+	const out: { channel: number; method: string; raw: Rec }[] = [];
+	for (const c of channelsOf(s))
+		if (isRec(c.raw.imd))
+			out.push({ channel: c.channel, method: str(c.raw.imd.method) ?? 'imd', raw: c.raw.imd });
 	const r = isRec(s.results) ? s.results : {};
-	const imd = r.imd;
-	const list = Array.isArray(imd) ? imd : imd != null ? [imd] : [];
-	return list.filter(isRec).map((x) => ({ method: str(x.method) ?? 'imd', raw: x }));
+	const top = Array.isArray(r.imd) ? r.imd : r.imd != null ? [r.imd] : [];
+	for (const x of top.filter(isRec)) {
+		const method = str(x.method) ?? 'imd';
+		if (!out.some((o) => o.channel === 0 && o.method === method)) out.push({ channel: 0, method, raw: x });
+	}
+	return out;
 }
 
-export function imdFigure(s: ComparableSnapshot, method: string, key: string): FigureValue {
-	const found = imdOf(s).find((x) => x.method === method);
-	if (!found) return { value: null, reason: 'not measured' };
+/** Why IMD could not be measured on a channel under an IMD stimulus (the core's `imdError`). */
+export function imdErrorOf(s: ComparableSnapshot, channel: number): string | null {
+	const c = channelsOf(s).find((x) => x.channel === channel);
+	return c ? str(c.raw.imdError) : null;
+}
+
+export function imdFigure(s: ComparableSnapshot, channel: number, method: string, key: string): FigureValue {
+	const found = imdOf(s).find((x) => x.channel === channel && x.method === method);
+	if (!found) return { value: null, reason: imdErrorOf(s, channel) ?? 'not measured' };
 	const v = num(found.raw[key]);
 	return { value: v, reason: v === null ? reasonFor(found.raw, key, 'not measured') : null };
 }
@@ -442,8 +482,9 @@ export function figureRows(snaps: readonly ComparableSnapshot[]): FigureRow[] {
 	for (const def of CHANNEL_FIGURES)
 		for (const ch of channels) {
 			const read = (s: ComparableSnapshot) => channelFigure(s, ch, def.key);
-			// Power and gain only exist with a stated load or level: leave the rows out when none has them.
-			if ((def.key === 'powerW' || def.key === 'gainDb') && !anyHas(read)) continue;
+			// Figures that exist only under some conditions (a stated load or level, a reference for
+			// S/N, a newer analysis) are left out when no picked snapshot has them.
+			if (OPTIONAL_FIGURES.has(def.key) && !anyHas(read)) continue;
 			build(`ch${ch}:${def.key}`, def, channelName(ch), read);
 		}
 	const orders = new Set<number>();
@@ -469,7 +510,10 @@ export function figureRows(snaps: readonly ComparableSnapshot[]): FigureRow[] {
 	const methods = [...new Set(snaps.flatMap((s) => imdOf(s).map((x) => x.method)))];
 	for (const method of methods)
 		for (const def of IMD_FIGURES)
-			build(`imd:${method}:${def.key}`, def, imdMethodLabel(method), (s) => imdFigure(s, method, def.key));
+			for (const ch of channels)
+				build(`imd:${method}:ch${ch}:${def.key}`, def, `${channelName(ch)} ${imdMethodLabel(method)}`, (s) =>
+					imdFigure(s, ch, method, def.key)
+				);
 	return rows;
 }
 
@@ -595,7 +639,17 @@ export function stimulusOf(s: ComparableSnapshot): string | null {
 		: isRec(settings.stimulus)
 			? settings.stimulus
 			: settings.generator;
-	if (!isRec(g)) return null;
+	if (!isRec(g)) {
+		// The analysis's own stimulus kind, when the bench sent no generator settings.
+		const c = isRec(r.conditions) ? r.conditions : {};
+		const kind: Record<string, string> = {
+			tone: 'one tone',
+			none: 'none (residual noise and hum)',
+			smpte: 'SMPTE two-tone',
+			'twin-tone': 'twin-tone'
+		};
+		return typeof c.stimulus === 'string' ? (kind[c.stimulus] ?? c.stimulus) : null;
+	}
 	const lvl = num(g.levelVrms);
 	const level = lvl !== null ? `, ${formatLimitValue(lvl)} V rms` : '';
 	const drive = g.drive === 'left' || g.drive === 'right' ? `, ${g.drive} channel driven` : '';
