@@ -22,11 +22,11 @@ export const snapshotStorageSchema = z.object({
 	perJobMiB: z
 		.number('Per-job snapshot storage is a number of MiB')
 		.int('Per-job snapshot storage is a whole number of MiB')
-		.min(32, 'Per-job snapshot storage is at least 32 MiB (one largest upload)')
-		.max(100_000, 'Per-job snapshot storage is at most 100,000 MiB'),
+		.min(1, 'Per-job snapshot storage is at least 1 MiB')
+		.max(1_000_000, 'Per-job snapshot storage is at most 1,000,000 MiB'),
 	perShopGiB: z
 		.number('Shop snapshot storage is a number of GiB')
-		.min(0.5, 'Shop snapshot storage is at least 0.5 GiB')
+		.min(0.01, 'Shop snapshot storage is at least 0.01 GiB')
 		.max(10_000, 'Shop snapshot storage is at most 10,000 GiB')
 });
 export type SnapshotStorageLimits = z.infer<typeof snapshotStorageSchema>;

@@ -66,6 +66,11 @@ export class AnalysisPool {
 		return this.#reserved;
 	}
 
+	/** Analyses running on a thread now. */
+	get running(): number {
+		return this.#slots.filter((s) => s.job !== null).length;
+	}
+
 	/**
 	 * A place for one analysis, or DomainError('busy') (503 with Retry-After) when the pool is full.
 	 * Call before reading the upload.
