@@ -137,8 +137,13 @@ export class AnalysisPool {
 			slot.job = job;
 			slot.worker.ref();
 			const task: PoolTask<SnapshotAnalysisRequest> = { id: job.id, request: job.request };
-			// The upload moves to the thread without a copy; it comes back with the result.
-			slot.worker.postMessage(task, [job.request.wav.buffer as ArrayBuffer]);
+			// The upload moves to the thread without a copy and comes back with the result; a buffer
+			// that may not move (Node's shared Buffer pool) is copied instead.
+			try {
+				slot.worker.postMessage(task, [job.request.wav.buffer as ArrayBuffer]);
+			} catch {
+				slot.worker.postMessage(task);
+			}
 		}
 	}
 

@@ -5,6 +5,7 @@ import { DomainError } from '$lib/server/errors';
 import { requireUser } from '$lib/server/guards';
 import { badRequest, endpoint, idParam, json, readBodyCapped, requireSameOrigin } from '$lib/server/api';
 import { analysisPool } from '$lib/server/analysis-pool';
+import { multipartBoundary, parseMultipart } from '$lib/server/multipart';
 import { assertJobOpen, jobExists } from '$lib/server/jobs';
 import { createSnapshotInPool, listSnapshots, SNAPSHOT_MAX_WAV_BYTES } from '$lib/server/snapshots';
 import type { RequestHandler } from './$types';
@@ -26,6 +27,7 @@ export const POST: RequestHandler = endpoint(async (event) => {
 	// 404 / 409 (signed off) before anything is read.
 	assertJobOpen(db, jobId);
 	const type = event.request.headers.get('content-type') ?? '';
+	const boundary = multipartBoundary(type);
 	if (!/^multipart\/form-data\b/i.test(type))
 		throw new DomainError(
 			'unsupported-type',
@@ -36,28 +38,24 @@ export const POST: RequestHandler = endpoint(async (event) => {
 	const reservation = analysisPool().reserve();
 	try {
 		const bytes = await readBodyCapped(event.request, SNAPSHOT_MAX_WAV_BYTES + MULTIPART_OVERHEAD_BYTES);
-		let form: FormData;
-		try {
-			form = await new Response(bytes as Uint8Array<ArrayBuffer>, {
-				headers: { 'content-type': type }
-			}).formData();
-		} catch {
-			badRequest('The body is not valid multipart/form-data');
-		}
-		const samples = form.get('samples');
-		if (!(samples instanceof Blob)) badRequest('samples: attach the WAV file as the `samples` part');
-		if (samples.size > SNAPSHOT_MAX_WAV_BYTES)
+		const parts = boundary === null ? null : parseMultipart(bytes, boundary);
+		if (!parts) badRequest('The body is not valid multipart/form-data');
+		const samples = parts.find((p) => p.name === 'samples');
+		if (!samples || samples.filename === undefined)
+			badRequest('samples: attach the WAV file as the `samples` part');
+		if (samples.data.byteLength > SNAPSHOT_MAX_WAV_BYTES)
 			throw new DomainError(
 				'too-large',
 				`samples: the WAV file is larger than ${SNAPSHOT_MAX_WAV_BYTES} bytes`
 			);
-		const meta = form.get('meta');
-		if (typeof meta !== 'string')
+		const metaPart = parts.find((p) => p.name === 'meta');
+		if (!metaPart || metaPart.filename !== undefined)
 			badRequest('meta: send the snapshot details as the `meta` part (JSON text)');
+		const meta = new TextDecoder().decode(metaPart.data);
 
 		const created = await createSnapshotInPool(
 			db,
-			{ jobId, userId: user.id, wav: new Uint8Array(await samples.arrayBuffer()), meta },
+			{ jobId, userId: user.id, wav: samples.data, meta },
 			reservation
 		);
 		return json(created, { status: 201 });
