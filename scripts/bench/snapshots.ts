@@ -8,7 +8,6 @@
 import { mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { monitorEventLoopDelay } from 'node:perf_hooks';
 import { pathToFileURL } from 'node:url';
 import type { RequestEvent } from '@sveltejs/kit';
 import { openDb } from '../../src/lib/server/db/open';
@@ -112,8 +111,16 @@ export async function run(): Promise<void> {
 	let server: Awaited<ReturnType<typeof createServer>> | undefined;
 	try {
 		const setup = openDb(file);
-		const user = { id: 'bench-tech', email: 'bench@example.com', name: 'Bench Tech', role: 'technician' as const };
-		setup.insert(table.users).values({ ...user, passwordHash: 'x' }).run();
+		const user = {
+			id: 'bench-tech',
+			email: 'bench@example.com',
+			name: 'Bench Tech',
+			role: 'technician' as const
+		};
+		setup
+			.insert(table.users)
+			.values({ ...user, passwordHash: 'x' })
+			.run();
 		const customerId = setup.insert(table.customers).values({ name: 'B. Customer' }).returning().get().id;
 		const newJob = () =>
 			setup
@@ -131,14 +138,26 @@ export async function run(): Promise<void> {
 			server: { middlewareMode: true, hmr: false, watch: null }
 		});
 		const load = (path: string) => server!.ssrLoadModule(path);
-		const snapshotsRoute = (await load('/src/routes/api/jobs/[id]/snapshots/+server.ts')) as { POST: Handler };
+		const snapshotsRoute = (await load('/src/routes/api/jobs/[id]/snapshots/+server.ts')) as {
+			POST: Handler;
+		};
 		const jobsRoute = (await load('/src/routes/api/jobs/+server.ts')) as { GET: Handler };
-		const service = (await load('/src/lib/server/snapshots.ts')) as typeof import('../../src/lib/server/snapshots');
+		const service = (await load(
+			'/src/lib/server/snapshots.ts'
+		)) as typeof import('../../src/lib/server/snapshots');
 		const { db } = (await load('/src/lib/server/db/index.ts')) as typeof import('../../src/lib/server/db');
-		const { analysisPool } = (await load('/src/lib/server/analysis-pool.ts')) as typeof import('../../src/lib/server/analysis-pool');
+		const { analysisPool } = (await load(
+			'/src/lib/server/analysis-pool.ts'
+		)) as typeof import('../../src/lib/server/analysis-pool');
 
 		const event = (url: URL, request: Request, params: Record<string, string>) =>
-			({ url, request, params, route: { id: url.pathname }, locals: { user, session: null } }) as unknown as RequestEvent;
+			({
+				url,
+				request,
+				params,
+				route: { id: url.pathname },
+				locals: { user, session: null }
+			}) as unknown as RequestEvent;
 		const listJobs = async () => {
 			const url = new URL('/api/jobs', ORIGIN);
 			const res = await jobsRoute.GET(event(url, new Request(url), {}));
@@ -178,7 +197,11 @@ export async function run(): Promise<void> {
 		};
 
 		const cases: [string, Uint8Array, object][] = [
-			['768 kHz stereo 16-bit, 4k FFT', pcmWav(2, 768_000, 16, SIZE_CAP_BYTES), { analysis: { fftSize: 4096 } }],
+			[
+				'768 kHz stereo 16-bit, 4k FFT',
+				pcmWav(2, 768_000, 16, SIZE_CAP_BYTES),
+				{ analysis: { fftSize: 4096 } }
+			],
 			[
 				'8 kHz mono 8-bit, 256k FFT × 64',
 				pcmWav(1, 8000, 8, SIZE_CAP_BYTES),
@@ -208,7 +231,10 @@ export async function run(): Promise<void> {
 		const four = await measure(async () => {
 			const results = await Promise.allSettled(uploads.map((u) => uploadNow(u)));
 			const refused = results.filter((r) => r.status === 'rejected').length;
-			if (refused) console.log(`  (${refused} of 4 refused: ${(results.find((r) => r.status === 'rejected') as PromiseRejectedResult).reason})`);
+			if (refused)
+				console.log(
+					`  (${refused} of 4 refused: ${(results.find((r) => r.status === 'rejected') as PromiseRejectedResult).reason})`
+				);
 		}, listJobs);
 		console.log(`snapshots: four worst uploads at once (after): ${fmt(four)}`);
 		await pool.close();

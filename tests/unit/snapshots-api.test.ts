@@ -116,7 +116,8 @@ const post = (body: FormData, extra: Partial<Parameters<typeof call>[1]> & { job
 		...rest
 	});
 };
-const metaOf = (extra: Record<string, unknown> = {}) => JSON.stringify({ label: 'x', stage: 'after', ...extra });
+const metaOf = (extra: Record<string, unknown> = {}) =>
+	JSON.stringify({ label: 'x', stage: 'after', ...extra });
 
 describe('snapshot API', () => {
 	const wav = encodeWav([sine(16384), sine(16384, 0.2)], 48000);
@@ -242,7 +243,9 @@ describe('snapshot API', () => {
 		expect((one.body.settings as { stimulus: string }).stimulus).toBe('smpte');
 		const bad = await post(form(wav as BlobPart, metaOf({ stimulus: 'noise' })));
 		expect(bad.status).toBe(400);
-		const issue = (bad.body.issues as { path: string; message: string }[]).find((i) => i.path === 'meta.stimulus');
+		const issue = (bad.body.issues as { path: string; message: string }[]).find(
+			(i) => i.path === 'meta.stimulus'
+		);
 		for (const allowed of ['tone', 'none', 'smpte', 'twin-tone']) expect(issue?.message).toContain(allowed);
 	});
 
@@ -256,7 +259,9 @@ describe('snapshot API', () => {
 		}
 		// The edges themselves are allowed.
 		for (const rateHz of [8000, 768_000]) {
-			const res = await post(form(pcmWav(1, rateHz, 16, 64 * 1024, 1000) as BlobPart, metaOf({ analysis: { fftSize: 4096 } })));
+			const res = await post(
+				form(pcmWav(1, rateHz, 16, 64 * 1024, 1000) as BlobPart, metaOf({ analysis: { fftSize: 4096 } }))
+			);
 			expect(res.status).toBe(201);
 		}
 		expect(count()).toBe(before + 2);
@@ -363,10 +368,12 @@ describe('snapshot API', () => {
 
 		const pool = analysisPool();
 		let uploadDoneAt = 0;
-		const upload = post(form(worst as BlobPart, metaOf({ analysis: { fftSize: 4096 } })), { job }).then((r) => {
-			uploadDoneAt = performance.now();
-			return r;
-		});
+		const upload = post(form(worst as BlobPart, metaOf({ analysis: { fftSize: 4096 } })), { job }).then(
+			(r) => {
+				uploadDoneAt = performance.now();
+				return r;
+			}
+		);
 		while (pool.running === 0 && uploadDoneAt === 0) await sleep(2);
 		const sentAt = performance.now();
 		const jobs = await list();
@@ -380,7 +387,10 @@ describe('snapshot API', () => {
 		expect(jobsDoneAt).toBeLessThan(uploadDoneAt);
 		expect(jobsDoneAt - sentAt).toBeLessThan((uploadDoneAt - sentAt) / 5);
 		// And the work was bounded by seconds of audio at this rate.
-		const r = res.body.results as { analysedSamples: number; steadiness: { durationS: number; frames: number }[] };
+		const r = res.body.results as {
+			analysedSamples: number;
+			steadiness: { durationS: number; frames: number }[];
+		};
 		expect(r.analysedSamples).toBeLessThanOrEqual(ANALYSIS_MAX_SECONDS * 768_000);
 		for (const s of r.steadiness) expect(s.durationS).toBeLessThanOrEqual(STEADINESS_MAX_SECONDS);
 	});

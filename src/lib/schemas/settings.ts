@@ -81,5 +81,11 @@ export const DEFAULT_SOAK_LIMITS: SoakLimits = {
 	thdnCeilingDb: null
 };
 
-export const SETTINGS_KEYS = ['shopName', 'bridgeUrl', 'mainsHz', 'soakDefaultLimits', 'snapshotStorage'] as const;
+export const SETTINGS_KEYS = [
+	'shopName',
+	'bridgeUrl',
+	'mainsHz',
+	'soakDefaultLimits',
+	'snapshotStorage'
+] as const;
 export type SettingsKey = (typeof SETTINGS_KEYS)[number];

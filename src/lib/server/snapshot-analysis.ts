@@ -192,7 +192,8 @@ function floatsFinite(b: Uint8Array, l: WavLayout, bits: number): boolean {
 	const step = bits / 8;
 	const n = Math.floor(l.dataBytes / step);
 	for (let i = 0; i < n; i++) {
-		const v = bits === 32 ? view.getFloat32(i * step, l.littleEndian) : view.getFloat64(i * step, l.littleEndian);
+		const v =
+			bits === 32 ? view.getFloat32(i * step, l.littleEndian) : view.getFloat64(i * step, l.littleEndian);
 		if (!Number.isFinite(v)) return false;
 	}
 	return true;
@@ -234,7 +235,8 @@ function steadinessOf(
 		STEADINESS_MIN_FRAMES,
 		Math.min(STEADINESS_MAX_FRAMES, Math.floor(STEADINESS_SAMPLE_BUDGET / fftSize))
 	);
-	const overlapped = channel.length >= fftSize ? Math.floor((channel.length - fftSize) / (fftSize / 4)) + 1 : 0;
+	const overlapped =
+		channel.length >= fftSize ? Math.floor((channel.length - fftSize) / (fftSize / 4)) + 1 : 0;
 	const frames = Math.min(overlapped, maxFrames);
 	const hop = frames === overlapped ? fftSize / 4 : Math.floor((channel.length - fftSize) / (frames - 1));
 	const base = { channel: index, frames, durationS: channel.length / sampleRateHz };
@@ -301,8 +303,14 @@ export function analyseSnapshotAudio(req: SnapshotAnalysisRequest): SnapshotAnal
 	const plan = (length: number, rate: number) => {
 		const fftSize = Math.min(req.fftSize ?? 65_536, largestPow2AtMost(length));
 		const maxAnalysed = Math.max(fftSize, Math.ceil(ANALYSIS_MAX_SECONDS * rate));
-		const averages = Math.max(1, Math.min(req.averages ?? 1, Math.floor(length / fftSize), Math.floor(maxAnalysed / fftSize)));
-		const keep = Math.min(length, Math.max(averages * fftSize, fftSize, Math.ceil(STEADINESS_MAX_SECONDS * rate)));
+		const averages = Math.max(
+			1,
+			Math.min(req.averages ?? 1, Math.floor(length / fftSize), Math.floor(maxAnalysed / fftSize))
+		);
+		const keep = Math.min(
+			length,
+			Math.max(averages * fftSize, fftSize, Math.ceil(STEADINESS_MAX_SECONDS * rate))
+		);
 		return { fftSize, averages, keep };
 	};
 
@@ -328,7 +336,10 @@ export function analyseSnapshotAudio(req: SnapshotAnalysisRequest): SnapshotAnal
 			`samples: the WAV file holds ${length} samples per channel; at least ${SNAPSHOT_MIN_SAMPLES} are needed`
 		);
 	if (channels.length > 2)
-		throw new AnalysisRefusal('samples', `samples: ${channels.length} channels; the bench captures one or two`);
+		throw new AnalysisRefusal(
+			'samples',
+			`samples: ${channels.length} channels; the bench captures one or two`
+		);
 	// Non-finite samples anywhere in the stored file are refused, not only in the part analysed.
 	const finite =
 		decoded.format === 'pcm-float' && toDecode !== wav && layout

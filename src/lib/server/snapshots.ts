@@ -7,6 +7,7 @@
 // `analyseSnapshotAudio` (snapshot-analysis.ts: in the pool, or inline) and `storeSnapshot`.
 import { and, desc, eq, sql } from 'drizzle-orm';
 import type { AnalysisConditions, AnalysisResult } from '$lib/dsp/types';
+import type { CompactSpectrum } from '$lib/dsp/spectrum';
 import {
 	evaluateLimits,
 	measurementsFromResults,
