@@ -1,7 +1,7 @@
 // Snapshot re-analysis runs on worker threads, never on the request thread: a pool with one
-// thread per core and a short bounded queue. A request reserves a place *before* its body is read;
-// when every thread is busy and the queue is full it is refused at once with 503 + Retry-After,
-// so a burst of large uploads neither stalls other users nor piles up 32 MiB bodies in memory.
+// thread per core (up to four) and a short bounded queue. A request reserves a place *before* its
+// body is read; when every thread is busy and the queue is full it is refused at once with 503 +
+// Retry-After, so a burst of large uploads neither stalls other users nor piles up 32 MiB bodies.
 import { availableParallelism } from 'node:os';
 import { Worker } from 'node:worker_threads';
 import { DomainError } from './errors';
@@ -14,8 +14,14 @@ import {
 // The worker entry bundled into one self-contained script (see the node-worker plugin in vite.config.ts).
 import workerSource from './snapshot-analysis.worker.ts?node-worker';
 
+/**
+ * A running analysis holds up to ~150 MiB (the 32 MiB upload, its newest 6 s decoded, the decoder's
+ * own copy); a queued one only its upload. Four threads keep a many-core server's peak under 1 GiB.
+ */
+export const MAX_DEFAULT_THREADS = 4;
+
 export interface AnalysisPoolOptions {
-	/** Worker threads; default one per core. */
+	/** Worker threads; default one per core, at most MAX_DEFAULT_THREADS. */
 	threads?: number;
 	/** Reservations allowed to wait beyond the running ones; default twice the threads. */
 	maxQueued?: number;
@@ -55,7 +61,7 @@ export class AnalysisPool {
 	#closed = false;
 
 	constructor(options: AnalysisPoolOptions = {}) {
-		this.threads = Math.max(1, options.threads ?? availableParallelism());
+		this.threads = Math.max(1, options.threads ?? Math.min(availableParallelism(), MAX_DEFAULT_THREADS));
 		this.maxQueued = Math.max(0, options.maxQueued ?? this.threads * 2);
 		this.retryAfterS = options.retryAfterS ?? 5;
 		this.#source = options.source ?? workerSource;
