@@ -315,6 +315,18 @@ describe('snapshot API', () => {
 		} finally {
 			updateSettings(db, { snapshotStorage: DEFAULT_SNAPSHOT_STORAGE });
 		}
+		// The caps themselves are validated like any setting: every problem at once, with the range.
+		let refusal: { status?: number; issues?: { path: string; message: string }[] } = {};
+		try {
+			updateSettings(db, { snapshotStorage: { perJobMiB: 0.5, perShopGiB: 0 } });
+		} catch (e) {
+			refusal = e as typeof refusal;
+		}
+		expect(refusal.status).toBe(400);
+		expect(new Set(refusal.issues?.map((i) => i.path))).toEqual(
+			new Set(['snapshotStorage.perJobMiB', 'snapshotStorage.perShopGiB'])
+		);
+		expect(refusal.issues?.map((i) => i.message)).toContain('Shop snapshot storage is at least 0.01 GiB');
 	});
 
 	it('a full analysis pool answers 503 with Retry-After before reading the body', async () => {
