@@ -3,10 +3,15 @@
 // oversize and storage caps are 413, a full pool is 503 + Retry-After before the body is read, a
 // signed-off job is 409, and the guards (sign-in, same origin, content type) answer before anything
 // is stored. The worst legal upload does not hold up another user's request.
-import { beforeAll, describe, expect, it, vi } from 'vitest';
+import { rmSync } from 'node:fs';
+import { afterAll, beforeAll, describe, expect, it, vi } from 'vitest';
 
-vi.hoisted(() => {
-	process.env.DATABASE_URL = ':memory:';
+// A database file, not :memory:, so uploads are written the way the server writes them: on a
+// worker thread's own connection to the file.
+const DB_FILE = vi.hoisted(() => {
+	const file = `${process.env.TMPDIR ?? '/tmp'}/benchlight-snapshots-api-${process.pid}-${Date.now()}.db`;
+	process.env.DATABASE_URL = file;
+	return file;
 });
 
 import { sql } from 'drizzle-orm';
@@ -35,6 +40,12 @@ function newJob(status: 'received' | 'approved' | 'returned' = 'received'): numb
 		.returning()
 		.get().id;
 }
+
+afterAll(async () => {
+	await analysisPool().close();
+	db.$client.close();
+	for (const suffix of ['', '-wal', '-shm']) rmSync(DB_FILE + suffix, { force: true });
+});
 
 beforeAll(() => {
 	db.insert(table.users)

@@ -44,7 +44,9 @@ describe('AnalysisPool', () => {
 				parentPort.postMessage({ id: t.id, ok: true, output: { wav: t.request.wav } });
 			});`;
 		const pool = new AnalysisPool({ threads: 1, maxQueued: 0, source });
-		await expect(pool.reserve().run(request())).rejects.toThrow(/worker stopped: exit code 3/);
+		const first = pool.reserve();
+		await expect(first.run(request())).rejects.toThrow(/worker stopped: exit code 3/);
+		first.release();
 		expect(pool.reserved).toBe(0);
 		const out = await pool.reserve().run({ ...request(), wav: new Uint8Array(8) });
 		expect(out.wav.byteLength).toBe(8);

@@ -5,12 +5,13 @@
 import { availableParallelism } from 'node:os';
 import { Worker } from 'node:worker_threads';
 import { DomainError } from './errors';
-import type { PoolReply, PoolTask } from './analysis-pool-messages';
+import type { PoolReply, PoolTask, StoreTask } from './analysis-pool-messages';
 import {
 	AnalysisRefusal,
 	type SnapshotAnalysisOutput,
 	type SnapshotAnalysisRequest
 } from './snapshot-analysis';
+import { StoreRefusal } from './snapshot-store';
 // The worker entry bundled into one self-contained script (see the node-worker plugin in vite.config.ts).
 import workerSource from './snapshot-analysis.worker.ts?node-worker';
 
@@ -31,10 +32,12 @@ export interface AnalysisPoolOptions {
 	source?: string;
 }
 
+type TaskBody = { kind: 'analyse'; request: SnapshotAnalysisRequest } | { kind: 'store'; store: StoreTask };
+
 interface Pending {
 	id: number;
-	request: SnapshotAnalysisRequest;
-	resolve: (out: SnapshotAnalysisOutput) => void;
+	body: TaskBody;
+	resolve: (out: unknown) => void;
 	reject: (e: unknown) => void;
 }
 
@@ -43,9 +46,14 @@ interface Slot {
 	job: Pending | null;
 }
 
-/** A place in the pool: run one analysis with it, or release it unused. Releasing twice is harmless. */
+/**
+ * A place in the pool, held from before the upload is read until it is stored: analyse with it,
+ * then store on the same budget; release it when done (or unused). Releasing twice is harmless.
+ */
 export interface Reservation {
 	run(request: SnapshotAnalysisRequest): Promise<SnapshotAnalysisOutput>;
+	/** Write an analysed snapshot on a worker's own connection; resolves to the new snapshot's id. */
+	store(task: StoreTask): Promise<number>;
 	release(): void;
 }
 
@@ -93,32 +101,24 @@ export class AnalysisPool {
 			);
 		this.#reserved++;
 		let held = true;
-		const release = () => {
-			if (!held) return;
-			held = false;
-			this.#reserved--;
+		const submit = <T>(body: TaskBody): Promise<T> => {
+			if (!held) return Promise.reject(new Error('this reservation was already released'));
+			return new Promise<T>((resolve, reject) => {
+				const job: Pending = { id: this.#nextId++, body, resolve: resolve as (o: unknown) => void, reject };
+				// A write finishes an upload already analysed: it goes ahead of new analyses.
+				if (body.kind === 'store') this.#waiting.unshift(job);
+				else this.#waiting.push(job);
+				this.#pump();
+			});
 		};
 		return {
-			run: (request) => {
-				if (!held) return Promise.reject(new Error('this reservation was already used or released'));
-				return new Promise<SnapshotAnalysisOutput>((resolve, reject) => {
-					const job: Pending = {
-						id: this.#nextId++,
-						request,
-						resolve: (out) => {
-							release();
-							resolve(out);
-						},
-						reject: (e) => {
-							release();
-							reject(e);
-						}
-					};
-					this.#waiting.push(job);
-					this.#pump();
-				});
-			},
-			release
+			run: (request) => submit<SnapshotAnalysisOutput>({ kind: 'analyse', request }),
+			store: async (store) => (await submit<{ id: number }>({ kind: 'store', store })).id,
+			release: () => {
+				if (!held) return;
+				held = false;
+				this.#reserved--;
+			}
 		};
 	}
 
@@ -142,11 +142,12 @@ export class AnalysisPool {
 			const job = this.#waiting.shift()!;
 			slot.job = job;
 			slot.worker.ref();
-			const task: PoolTask<SnapshotAnalysisRequest> = { id: job.id, request: job.request };
+			const task: PoolTask = { id: job.id, ...job.body };
+			const wav = job.body.kind === 'store' ? job.body.store.wav : job.body.request.wav;
 			// The upload moves to the thread without a copy and comes back with the result; a buffer
 			// that may not move (Node's shared Buffer pool) is copied instead.
 			try {
-				slot.worker.postMessage(task, [job.request.wav.buffer as ArrayBuffer]);
+				slot.worker.postMessage(task, [wav.buffer as ArrayBuffer]);
 			} catch {
 				slot.worker.postMessage(task);
 			}
@@ -163,9 +164,15 @@ export class AnalysisPool {
 			if (!job || job.id !== reply.id) return;
 			slot.job = null;
 			worker.unref();
-			if (reply.ok) job.resolve(reply.output as SnapshotAnalysisOutput);
-			else if ('refusal' in reply) job.reject(new AnalysisRefusal(reply.refusal.path, reply.refusal.message));
-			else job.reject(new Error(`snapshot analysis failed in its worker: ${reply.error}`));
+			if (reply.ok) job.resolve(reply.output);
+			else if ('refusal' in reply) {
+				const r = reply.refusal;
+				job.reject(
+					r.code
+						? new StoreRefusal(r.code, r.message, r.issues)
+						: new AnalysisRefusal(r.path ?? 'samples', r.message)
+				);
+			} else job.reject(new Error(`snapshot ${job.body.kind} failed in its worker: ${reply.error}`));
 			this.#pump();
 		});
 		const lost = (why: string) => {

@@ -28,12 +28,12 @@ import {
 import type { SnapshotStorageLimits } from '$lib/schemas/settings';
 import { DomainError, type Issue } from './errors';
 import { formatIssues } from './validate';
-import type { BaseSQLiteDatabase } from 'drizzle-orm/sqlite-core';
-import type { RunResult } from 'better-sqlite3';
+import { createRequire } from 'node:module';
+import { resolve } from 'node:path';
 import type { Db } from './db/open';
 import * as table from './db/schema';
 import type { SnapshotStage } from './db/schema';
-import { assertJobOpen } from './jobs';
+import { assertJobOpen, JOB_LOCKED_MESSAGE, LOCKED_STATUSES } from './jobs';
 import { getLimitProfile } from './limit-profiles';
 import { getSettings } from './settings';
 import type { Reservation } from './analysis-pool';
@@ -45,6 +45,13 @@ import {
 	type SnapshotSpectrum,
 	type SteadinessResult
 } from './snapshot-analysis';
+import {
+	snapshotStorageUse as storageUse,
+	storageRefusal,
+	StoreRefusal,
+	writeSnapshot,
+	type StorePlan
+} from './snapshot-store';
 
 export {
 	ANALYSIS_MAX_SECONDS,
@@ -119,52 +126,25 @@ export function parseSnapshotMeta(raw: unknown): SnapshotMeta {
 
 // ── storage quota ───────────────────────────────────────────────────────────
 
-/** The database or a transaction on it. */
-type Conn = BaseSQLiteDatabase<'sync', RunResult, typeof table>;
-
-const MIB = 1024 * 1024;
-const GIB = 1024 * MIB;
-const mib = (bytes: number) => `${(bytes / MIB).toFixed(1)} MiB`;
-const gib = (bytes: number) => `${(bytes / GIB).toFixed(2)} GiB`;
-
 /** Bytes of snapshot audio stored for one job and for the whole shop. */
-export function snapshotStorageUse(db: Conn, jobId: number): { jobBytes: number; shopBytes: number } {
-	// length() of a BLOB is read from the record header: the audio itself is not loaded.
-	const row = db
-		.select({
-			jobBytes: sql<number>`coalesce(sum(case when ${table.snapshots.jobId} = ${jobId} then length(${table.snapshotAudio.wav}) end), 0)`,
-			shopBytes: sql<number>`coalesce(sum(length(${table.snapshotAudio.wav})), 0)`
-		})
-		.from(table.snapshotAudio)
-		.innerJoin(table.snapshots, eq(table.snapshots.id, table.snapshotAudio.snapshotId))
-		.get();
-	return { jobBytes: Number(row?.jobBytes ?? 0), shopBytes: Number(row?.shopBytes ?? 0) };
+export function snapshotStorageUse(db: Db, jobId: number): { jobBytes: number; shopBytes: number } {
+	return storageUse(db.$client, jobId);
+}
+
+/** A refused write as the answer it gets (404 / 409 / 413); anything else passes through. */
+function fromStoreRefusal(e: unknown): unknown {
+	return e instanceof StoreRefusal ? new DomainError(e.code, e.message, e.issues) : e;
 }
 
 /** 413 when `bytes` more audio would pass the job's or the shop's cap, naming the cap and the use. */
 export function assertSnapshotStorageRoom(
-	db: Conn,
+	db: Db,
 	jobId: number,
 	bytes: number,
 	limits: SnapshotStorageLimits
 ): void {
-	const { jobBytes, shopBytes } = snapshotStorageUse(db, jobId);
-	const jobCap = limits.perJobMiB * MIB;
-	const shopCap = limits.perShopGiB * GIB;
-	if (jobBytes + bytes > jobCap)
-		throw new DomainError(
-			'too-large',
-			`samples: this job's snapshot audio cap is ${limits.perJobMiB} MiB and ${mib(jobBytes)} is stored; ` +
-				`this ${mib(bytes)} upload does not fit. An admin can raise “Snapshot audio per job” in Settings.`,
-			[{ path: 'samples', message: `per-job cap ${limits.perJobMiB} MiB, ${mib(jobBytes)} used` }]
-		);
-	if (shopBytes + bytes > shopCap)
-		throw new DomainError(
-			'too-large',
-			`samples: the shop's snapshot audio cap is ${limits.perShopGiB} GiB and ${gib(shopBytes)} is stored; ` +
-				`this ${mib(bytes)} upload does not fit. An admin can raise “Snapshot audio for the shop” in Settings.`,
-			[{ path: 'samples', message: `per-shop cap ${limits.perShopGiB} GiB, ${gib(shopBytes)} used` }]
-		);
+	const refusal = storageRefusal(storageUse(db.$client, jobId), bytes, limits);
+	if (refusal) throw fromStoreRefusal(refusal);
 }
 
 // ── creating ────────────────────────────────────────────────────────────────
@@ -279,8 +259,16 @@ export function asDomainError(e: unknown): unknown {
 	return e instanceof AnalysisRefusal ? invalid(e.path, e.message) : e;
 }
 
-/** Judge the analysed snapshot and store it with its audio, in one transaction. */
-export function storeSnapshot(db: Db, p: PreparedSnapshot, out: SnapshotAnalysisOutput): CreatedSnapshot {
+interface JudgedSnapshot {
+	results: SnapshotResults;
+	verdict: Verdict;
+	checks: Check[];
+	/** The write: re-checks and the row's INSERT, for whichever connection performs it. */
+	plan: StorePlan;
+}
+
+/** Judge the analysed snapshot against its profile and build the write. */
+function judgeSnapshot(db: Db, p: PreparedSnapshot, out: SnapshotAnalysisOutput): JudgedSnapshot {
 	const { analysis, steadiness: steadinessResults, spectrum, fullScaleVolts: fsv } = out;
 	const results: SnapshotResults = {
 		...analysis,
@@ -306,52 +294,63 @@ export function storeSnapshot(db: Db, p: PreparedSnapshot, out: SnapshotAnalysis
 			)
 		: [];
 	const verdict: Verdict = profile ? verdictOf(checks) : 'none';
-	const wav = out.wav;
+	const insert = db
+		.insert(table.snapshots)
+		.values({
+			jobId: p.jobId,
+			createdBy: p.userId,
+			label: p.meta.label,
+			stage: p.meta.stage,
+			profileId: profile?.id ?? null,
+			profile: profile
+				? { id: profile.id, name: profile.name, conditions: profile.conditions, limits: profile.limits }
+				: null,
+			sampleRateHz: out.sampleRateHz,
+			channelCount: out.channelCount,
+			sampleCount: out.capturedSamples,
+			fullScaleVolts: fsv[0],
+			loadOhms: p.loadOhms ?? null,
+			results,
+			verdict,
+			checks,
+			spectrum,
+			settings: {
+				...(p.meta.settings ?? {}),
+				analysis: p.meta.analysis ?? null,
+				fullScaleVolts: fsv,
+				stimulus: p.meta.stimulus
+			}
+		})
+		.returning({ id: table.snapshots.id })
+		.toSQL();
+	return {
+		results,
+		verdict,
+		checks,
+		plan: {
+			jobId: p.jobId,
+			lockedStatuses: LOCKED_STATUSES,
+			lockedMessage: JOB_LOCKED_MESSAGE,
+			storage: p.storage,
+			insert: { sql: insert.sql, params: insert.params },
+			sha256: out.sha256
+		}
+	};
+}
 
-	const id = db.transaction((tx) => {
-		// Checked again here: the job may have been signed off, or the room taken, while it was analysed.
-		assertJobOpen(tx, p.jobId);
-		assertSnapshotStorageRoom(tx, p.jobId, wav.byteLength, p.storage);
-		const row = tx
-			.insert(table.snapshots)
-			.values({
-				jobId: p.jobId,
-				createdBy: p.userId,
-				label: p.meta.label,
-				stage: p.meta.stage,
-				profileId: profile?.id ?? null,
-				profile: profile
-					? { id: profile.id, name: profile.name, conditions: profile.conditions, limits: profile.limits }
-					: null,
-				sampleRateHz: out.sampleRateHz,
-				channelCount: out.channelCount,
-				sampleCount: out.capturedSamples,
-				fullScaleVolts: fsv[0],
-				loadOhms: p.loadOhms ?? null,
-				results,
-				verdict,
-				checks,
-				spectrum,
-				settings: {
-					...(p.meta.settings ?? {}),
-					analysis: p.meta.analysis ?? null,
-					fullScaleVolts: fsv,
-					stimulus: p.meta.stimulus
-				}
-			})
-			.returning({ id: table.snapshots.id })
-			.get();
-		tx.insert(table.snapshotAudio)
-			.values({
-				snapshotId: row.id,
-				sha256: out.sha256,
-				wav: Buffer.from(wav.buffer, wav.byteOffset, wav.byteLength)
-			})
-			.run();
-		return row.id;
-	});
+/** Judge the analysed snapshot and store it with its audio (one transaction, on this thread). */
+export function storeSnapshot(db: Db, p: PreparedSnapshot, out: SnapshotAnalysisOutput): CreatedSnapshot {
+	const { results, verdict, checks, plan } = judgeSnapshot(db, p, out);
+	let id: number;
+	try {
+		id = writeSnapshot(db.$client, plan, out.wav);
+	} catch (e) {
+		throw fromStoreRefusal(e);
+	}
 	return { id, results, verdict, checks };
 }
+
+let sqliteModule: string | undefined;
 
 /**
  * Analyse (on this thread), judge and store a snapshot: for tests, fixtures and scripts. The server
@@ -368,26 +367,37 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 	return storeSnapshot(db, prepared, out);
 }
 
-/** `createSnapshot` with the analysis on a worker thread of the pool, through `reservation`. */
+/**
+ * `createSnapshot` with the heavy parts on the pool's threads through `reservation`: the analysis,
+ * and for a database file also the write (a worker's own connection; an in-memory database can
+ * only be written here). Releases the reservation when done.
+ */
 export async function createSnapshotInPool(
 	db: Db,
 	input: CreateSnapshotInput,
 	reservation: Reservation
 ): Promise<CreatedSnapshot> {
-	let prepared: PreparedSnapshot;
 	try {
-		prepared = prepareSnapshot(db, input);
-	} catch (e) {
+		const prepared = prepareSnapshot(db, input);
+		let out: SnapshotAnalysisOutput;
+		try {
+			out = await reservation.run(prepared.request);
+		} catch (e) {
+			throw asDomainError(e);
+		}
+		if (db.$client.memory) return storeSnapshot(db, prepared, out);
+		const { results, verdict, checks, plan } = judgeSnapshot(db, prepared, out);
+		sqliteModule ??= createRequire(import.meta.url).resolve('better-sqlite3');
+		let id: number;
+		try {
+			id = await reservation.store({ dbFile: resolve(db.$client.name), sqliteModule, plan, wav: out.wav });
+		} catch (e) {
+			throw fromStoreRefusal(e);
+		}
+		return { id, results, verdict, checks };
+	} finally {
 		reservation.release();
-		throw e;
 	}
-	let out: SnapshotAnalysisOutput;
-	try {
-		out = await reservation.run(prepared.request);
-	} catch (e) {
-		throw asDomainError(e);
-	}
-	return storeSnapshot(db, prepared, out);
 }
 
 // ── reading ─────────────────────────────────────────────────────────────────
