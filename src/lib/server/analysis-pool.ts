@@ -155,7 +155,11 @@ export class AnalysisPool {
 	}
 
 	#spawn(): Slot {
-		const worker = new Worker(this.#source, { eval: true });
+		const worker = new Worker(this.#source, {
+			eval: true,
+			// The script is CommonJS; `--input-type=module` (node -e …) would make eval'd code ESM.
+			execArgv: process.execArgv.filter((a) => !a.startsWith('--input-type'))
+		});
 		// Idle threads must not keep the process (a test run, a CLI) alive.
 		worker.unref();
 		const slot: Slot = { worker, job: null };

@@ -22,7 +22,8 @@ function connection(task: StoreTask): Database {
 		client = new open(task.dbFile);
 		// As the server's own connection (db/open.ts): these are per connection.
 		client.pragma('synchronous = FULL');
-		client.pragma('busy_timeout = 5000');
+		// Waiting for the write lock here holds up no request, so wait longer than the server's 5 s.
+		client.pragma('busy_timeout = 60000');
 		client.pragma('foreign_keys = ON');
 		connections.set(task.dbFile, client);
 	}
