@@ -2,10 +2,13 @@
 // chosen limit profile and stores results, verdict, a compact spectrum and the audio in one
 // transaction. What the browser claims about its readings is never stored as a result.
 //
-// A snapshot is made in three steps so the heavy middle one can run on a worker thread:
-// `prepareSnapshot` (meta, profile, open job, storage room: cheap, on the request thread),
-// `analyseSnapshotAudio` (snapshot-analysis.ts: in the pool, or inline) and `storeSnapshot`.
-import { and, desc, eq, sql } from 'drizzle-orm';
+// A snapshot is made in steps so the heavy ones run on a worker thread: `prepareSnapshot` (meta,
+// profile, open job, storage room: cheap, on the request thread), `analyseSnapshotAudio`
+// (snapshot-analysis.ts: in the pool, or inline), judging against the profile (request thread),
+// and the write (snapshot-store.ts: in the pool for a database file, else on this thread).
+import { createRequire } from 'node:module';
+import { resolve } from 'node:path';
+import { and, desc, eq } from 'drizzle-orm';
 import type { AnalysisConditions, AnalysisResult } from '$lib/dsp/types';
 import type { CompactSpectrum } from '$lib/dsp/spectrum';
 import {
@@ -28,8 +31,6 @@ import {
 import type { SnapshotStorageLimits } from '$lib/schemas/settings';
 import { DomainError, type Issue } from './errors';
 import { formatIssues } from './validate';
-import { createRequire } from 'node:module';
-import { resolve } from 'node:path';
 import type { Db } from './db/open';
 import * as table from './db/schema';
 import type { SnapshotStage } from './db/schema';
