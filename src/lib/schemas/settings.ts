@@ -14,6 +14,26 @@ export const soakLimitsSchema = z.object({
 });
 export type SoakLimits = z.infer<typeof soakLimitsSchema>;
 
+/**
+ * Caps on stored snapshot audio (the WAV files): per job and for the whole shop. An upload that
+ * would pass either is refused with 413, naming the cap and what is stored.
+ */
+export const snapshotStorageSchema = z.object({
+	perJobMiB: z
+		.number('Per-job snapshot storage is a number of MiB')
+		.int('Per-job snapshot storage is a whole number of MiB')
+		.min(1, 'Per-job snapshot storage is at least 1 MiB')
+		.max(1_000_000, 'Per-job snapshot storage is at most 1,000,000 MiB'),
+	perShopGiB: z
+		.number('Shop snapshot storage is a number of GiB')
+		.min(0.01, 'Shop snapshot storage is at least 0.01 GiB')
+		.max(10_000, 'Shop snapshot storage is at most 10,000 GiB')
+});
+export type SnapshotStorageLimits = z.infer<typeof snapshotStorageSchema>;
+
+/** Defaults: room for about a hundred 5 MB captures per job; admins change them in Settings. */
+export const DEFAULT_SNAPSHOT_STORAGE: SnapshotStorageLimits = { perJobMiB: 500, perShopGiB: 20 };
+
 /** Host names that mean this machine and that a CSP source can name (CSP has no IPv6 literals). */
 const LOOPBACK_HOSTS = ['127.0.0.1', 'localhost'];
 
@@ -38,7 +58,8 @@ export const shopSettingsSchema = z.object({
 		}, 'Use the bench PC’s own bridge address, like ws://127.0.0.1:8787 (loopback only)'),
 	/** Local mains frequency: where hum shows up in the spectrum. */
 	mainsHz: z.union([z.literal(50), z.literal(60)], 'Mains is 50 Hz or 60 Hz'),
-	soakDefaultLimits: soakLimitsSchema
+	soakDefaultLimits: soakLimitsSchema,
+	snapshotStorage: snapshotStorageSchema
 });
 export type ShopSettings = z.infer<typeof shopSettingsSchema>;
 
@@ -60,5 +81,11 @@ export const DEFAULT_SOAK_LIMITS: SoakLimits = {
 	thdnCeilingDb: null
 };
 
-export const SETTINGS_KEYS = ['shopName', 'bridgeUrl', 'mainsHz', 'soakDefaultLimits'] as const;
+export const SETTINGS_KEYS = [
+	'shopName',
+	'bridgeUrl',
+	'mainsHz',
+	'soakDefaultLimits',
+	'snapshotStorage'
+] as const;
 export type SettingsKey = (typeof SETTINGS_KEYS)[number];

@@ -6,6 +6,7 @@ import * as table from './db/schema';
 import { env } from './env';
 import { validate } from './validate';
 import {
+	DEFAULT_SNAPSHOT_STORAGE,
 	DEFAULT_SOAK_LIMITS,
 	SETTINGS_KEYS,
 	settingsPatchSchema,
@@ -20,7 +21,8 @@ export function defaultSettings(): ShopSettings {
 		shopName: 'Benchlight',
 		bridgeUrl: env.BRIDGE_URL,
 		mainsHz: 50,
-		soakDefaultLimits: { ...DEFAULT_SOAK_LIMITS }
+		soakDefaultLimits: { ...DEFAULT_SOAK_LIMITS },
+		snapshotStorage: { ...DEFAULT_SNAPSHOT_STORAGE }
 	};
 }
 

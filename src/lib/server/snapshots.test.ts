@@ -11,6 +11,7 @@ import {
 	listSnapshots,
 	STEADINESS_MAX_SECONDS
 } from './snapshots';
+import { STEADINESS_MAX_FRAMES } from './snapshot-analysis';
 import { createLimitProfile, listLimitProfiles, seedLimitProfiles } from './limit-profiles';
 import { DomainError } from './errors';
 
@@ -354,6 +355,80 @@ describe('createSnapshot', () => {
 		// The stored capture and its final-frame analysis are untouched by the cap.
 		expect(res.results.capturedSamples).toBe(n);
 		expect(res.results.channels[0].levelDbv).toBeCloseTo(20 * Math.log10((0.3 * step) / Math.SQRT2), 3);
+	});
+
+	it('at a high rate steadiness spreads its frames over the same 6 s, within the frame budget', () => {
+		// 192 kHz, 7 s, 4k FFT: every fftSize/4 would be ⌊(6·192 000 − 4 096)/1 024⌋ + 1 = 1 122 frames.
+		const rate = 192_000;
+		const n = 7 * rate;
+		const x = new Float64Array(n);
+		for (let i = 0; i < n; i++) x[i] = 0.3 * Math.sin((2 * Math.PI * ((1000 * i) % rate)) / rate);
+		const res = createSnapshot(db, {
+			jobId,
+			userId: 'u1',
+			wav: wav24([x], rate),
+			meta: { label: 'fast', stage: 'other', analysis: { fftSize: 4096 } }
+		});
+		const st = res.results.steadiness[0];
+		expect(st.frames).toBe(STEADINESS_MAX_FRAMES);
+		expect(st.durationS).toBeCloseTo(6, 6);
+		expect(st.levelSpreadDb).toBeLessThan(0.01);
+		// Plain physics: rms of a sine = peak/√2.
+		expect(res.results.channels[0].levelVrms).toBeCloseTo(0.3 / Math.SQRT2, 4);
+		expect(res.results.capturedSamples).toBe(n);
+	});
+
+	it('refuses a NaN sample even in older audio the analysis does not read', () => {
+		// 32-bit float WAV, 10 s at 48 kHz, written by hand; one NaN in its first second.
+		const n = 10 * RATE;
+		const bytes = new Uint8Array(44 + n * 4);
+		const dv = new DataView(bytes.buffer);
+		const ascii = (at: number, t: string) => [...t].forEach((c, i) => (bytes[at + i] = c.charCodeAt(0)));
+		ascii(0, 'RIFF');
+		dv.setUint32(4, 36 + n * 4, true);
+		ascii(8, 'WAVE');
+		ascii(12, 'fmt ');
+		dv.setUint32(16, 16, true);
+		dv.setUint16(20, 3, true); // IEEE float
+		dv.setUint16(22, 1, true);
+		dv.setUint32(24, RATE, true);
+		dv.setUint32(28, RATE * 4, true);
+		dv.setUint16(32, 4, true);
+		dv.setUint16(34, 32, true);
+		ascii(36, 'data');
+		dv.setUint32(40, n * 4, true);
+		for (let i = 0; i < n; i++)
+			dv.setFloat32(44 + 4 * i, 0.3 * Math.sin((2 * Math.PI * 1000 * i) / RATE), true);
+		dv.setFloat32(44 + 4 * 1000, NaN, true);
+		let refusal: unknown;
+		try {
+			createSnapshot(db, { jobId, userId: 'u1', wav: bytes, meta: { label: 'nan', stage: 'other' } });
+		} catch (e) {
+			refusal = e;
+		}
+		expect(refusal).toBeInstanceOf(DomainError);
+		expect((refusal as DomainError).message).toBe('samples: the WAV file contains NaN or infinite samples');
+		expect(count('snapshots')).toBe(0);
+	});
+
+	it('a signed-off job takes no new snapshot (409), stores nothing', () => {
+		db.update(table.jobs)
+			.set({ status: 'approved' })
+			.where(sql`id = ${jobId}`)
+			.run();
+		let refusal: unknown;
+		try {
+			createSnapshot(db, {
+				jobId,
+				userId: 'u1',
+				wav: wav24([tone(0.5, 1000)], RATE),
+				meta: { label: 'late', stage: 'after' }
+			});
+		} catch (e) {
+			refusal = e;
+		}
+		expect((refusal as DomainError).status).toBe(409);
+		expect(count('snapshots')).toBe(0);
 	});
 
 	it('measures steadiness across the capture: a 1 dB level step shows as ≈ 1 dB spread', () => {

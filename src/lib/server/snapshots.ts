@@ -1,23 +1,16 @@
 // Snapshots: a captured WAV goes in, the server re-runs the measurement core on it, evaluates the
 // chosen limit profile and stores results, verdict, a compact spectrum and the audio in one
 // transaction. What the browser claims about its readings is never stored as a result.
-import { createHash } from 'node:crypto';
+//
+// A snapshot is made in steps so the heavy ones run on a worker thread: `prepareSnapshot` (meta,
+// profile, open job, storage room: cheap, on the request thread), `analyseSnapshotAudio`
+// (snapshot-analysis.ts: in the pool, or inline), judging against the profile (request thread),
+// and the write (snapshot-store.ts: in the pool for a database file, else on this thread).
+import { createRequire } from 'node:module';
+import { resolve } from 'node:path';
 import { and, desc, eq } from 'drizzle-orm';
-import { z } from 'zod';
-import {
-	Analyzer,
-	analyzeFrames,
-	compactSpectrum,
-	decodeWav,
-	isWindowName,
-	SteadinessTracker,
-	WavError,
-	WINDOW_NAMES,
-	type AnalysisOptions,
-	type AnalysisResult,
-	type CompactSpectrum,
-	type WindowName
-} from '$lib/dsp';
+import type { AnalysisConditions, AnalysisResult } from '$lib/dsp/types';
+import type { CompactSpectrum } from '$lib/dsp/spectrum';
 import {
 	evaluateLimits,
 	measurementsFromResults,
@@ -28,84 +21,58 @@ import {
 	type Verdict,
 	type Weighting
 } from '$lib/limit-profiles';
-import { CAPTURE_SECONDS } from '$lib/workers/analysis-messages';
-import type { AnalysisConditions } from '$lib/dsp/types';
 import type { SnapshotListItem } from '$lib/snapshots/types';
+import {
+	snapshotMetaSchema,
+	SNAPSHOT_STAGE_NAMES,
+	type SnapshotMeta,
+	type SnapshotStimulus
+} from '$lib/schemas/snapshots';
+import type { SnapshotStorageLimits } from '$lib/schemas/settings';
 import { DomainError, type Issue } from './errors';
 import { formatIssues } from './validate';
 import type { Db } from './db/open';
 import * as table from './db/schema';
-import { SNAPSHOT_STAGES } from './db/schema';
+import type { SnapshotStage } from './db/schema';
+import { assertJobOpen, JOB_LOCKED_MESSAGE, LOCKED_STATUSES } from './jobs';
 import { getLimitProfile } from './limit-profiles';
+import { getSettings } from './settings';
+import type { Reservation } from './analysis-pool';
+import {
+	AnalysisRefusal,
+	analyseSnapshotAudio,
+	type SnapshotAnalysisOutput,
+	type SnapshotAnalysisRequest,
+	type SnapshotSpectrum,
+	type SteadinessResult
+} from './snapshot-analysis';
+import {
+	snapshotStorageUse as storageUse,
+	storageRefusal,
+	StoreRefusal,
+	writeSnapshot,
+	type StorePlan
+} from './snapshot-store';
+
+export {
+	ANALYSIS_MAX_SECONDS,
+	SNAPSHOT_SPECTRUM_POINTS,
+	STEADINESS_MAX_SECONDS,
+	STEADINESS_MIN_FRAMES,
+	type SnapshotSpectrum,
+	type SteadinessResult
+} from './snapshot-analysis';
+export { SNAPSHOT_MIN_SAMPLES, snapshotMetaSchema, type SnapshotMeta } from '$lib/schemas/snapshots';
 
 export const SNAPSHOT_MAX_WAV_BYTES = 32 * 1024 * 1024;
-/** Shortest capture the server analyses: one 4k FFT frame (the smallest size the bench offers). */
-export const SNAPSHOT_MIN_SAMPLES = 4096;
-export const SNAPSHOT_SPECTRUM_POINTS = 2000;
-/** Steadiness needs at least this many analysis frames across the capture, else it is "not measured". */
-export const STEADINESS_MIN_FRAMES = 3;
-/**
- * Steadiness reads at most the newest this-many seconds of a capture (or one FFT frame, if longer):
- * the history the bench keeps and sends (CAPTURE_SECONDS). It bounds the server's work per upload to
- * about 4 × 6 s of audio through the FFT, whatever the WAV's length; older audio is stored, not analysed.
- */
-export const STEADINESS_MAX_SECONDS = CAPTURE_SECONDS;
 
-const finite = z.number().refine(Number.isFinite, 'must be a finite number');
-
-export const snapshotMetaSchema = z.strictObject({
-	label: z.string().trim().min(1, 'Give the snapshot a label').max(200),
-	stage: z.enum(SNAPSHOT_STAGES),
-	profileId: z.number().int().positive().nullish(),
-	/** Peak volts of sample value 1.0: one number for all channels or one per channel. */
-	fullScaleVolts: z
-		.union([finite.positive().max(10_000), z.array(finite.positive().max(10_000)).min(1).max(8)])
-		.default(1),
-	loadOhms: finite.positive().max(100_000).nullish(),
-	/** Generator level in V rms, for gain. */
-	referenceVrms: finite.positive().max(100).nullish(),
-	/** How the bench analysed it; used where a chosen profile does not fix the condition. */
-	analysis: z
-		.strictObject({
-			fftSize: z
-				.number()
-				.int()
-				.min(SNAPSHOT_MIN_SAMPLES)
-				.max(262_144)
-				.refine((n) => (n & (n - 1)) === 0, 'must be a power of two')
-				.optional(),
-			window: z.enum(WINDOW_NAMES as [WindowName, ...WindowName[]]).optional(),
-			bandHz: z
-				.tuple([finite.nonnegative(), finite.positive()])
-				.refine(([lo, hi]) => hi > lo, 'upper band edge must be above the lower')
-				.optional(),
-			weighting: z.enum(['none', 'a']).optional(),
-			averages: z.number().int().min(1).max(64).optional()
-		})
-		.optional(),
-	/** Generator, simulator and page settings as the bench had them (kept for the record, not trusted). */
-	settings: z
-		.record(z.string(), z.unknown())
-		.refine((v) => JSON.stringify(v).length <= 32_768, 'settings are larger than 32 KiB')
-		.optional()
-});
-export type SnapshotMeta = z.input<typeof snapshotMetaSchema>;
+// The browser's stage names and the database's are one list.
+const STAGES_MATCH: readonly SnapshotStage[] = SNAPSHOT_STAGE_NAMES;
+void STAGES_MATCH;
 
 /** A bad upload, named by where it is wrong (`samples`, `meta`, `meta.profileId` …): answered as a 400. */
 function invalid(path: string, message: string, issues?: Issue[]): DomainError {
 	return new DomainError('invalid', message, issues ?? [{ path, message }]);
-}
-
-export interface SteadinessResult {
-	channel: number;
-	/** Analysis frames across the newest STEADINESS_MAX_SECONDS of the capture (hop = fftSize/4). */
-	frames: number;
-	levelSpreadDb: number | null;
-	thdnSpreadDb: number | null;
-	levelStdDb: number | null;
-	thdnStdDb: number | null;
-	/** Audio the steadiness frames span, s (at most STEADINESS_MAX_SECONDS, or one frame). */
-	durationS: number;
 }
 
 /** Where a measuring condition came from: the chosen profile, the bench's meta, or neither. */
@@ -120,19 +87,15 @@ export interface ConditionSources {
 
 /** What is stored in `snapshots.results`: the analysis (CLI JSON shape) plus steadiness. */
 export interface SnapshotResults extends AnalysisResult {
-	/** The analysis conditions plus where each profile-governed one came from. */
-	conditions: AnalysisConditions & { sources: ConditionSources };
+	/**
+	 * The analysis conditions, where each profile-governed one came from, and the test signal
+	 * (absent in snapshots stored before it was recorded: those were tones).
+	 */
+	conditions: AnalysisConditions & { sources: ConditionSources; stimulus?: SnapshotStimulus };
 	steadiness: SteadinessResult[];
 	/** Samples per channel in the uploaded WAV, and how many of the newest were analysed. */
 	capturedSamples: number;
 	analysedSamples: number;
-}
-
-export interface SnapshotSpectrum {
-	fftSize: number;
-	window: WindowName;
-	/** One compact spectrum per channel (dBV, log-spaced points; each channel its own x values). */
-	channels: CompactSpectrum[];
 }
 
 export interface CreatedSnapshot {
@@ -143,7 +106,7 @@ export interface CreatedSnapshot {
 }
 
 /** Parse the `meta` part: JSON text → validated meta, or a 400 naming the problem. */
-export function parseSnapshotMeta(raw: unknown): z.output<typeof snapshotMetaSchema> {
+export function parseSnapshotMeta(raw: unknown): SnapshotMeta {
 	let value = raw;
 	if (typeof raw === 'string') {
 		try {
@@ -162,70 +125,30 @@ export function parseSnapshotMeta(raw: unknown): z.output<typeof snapshotMetaSch
 	return parsed.data;
 }
 
-function largestPow2AtMost(n: number): number {
-	let p = 1;
-	while (p * 2 <= n) p *= 2;
-	return p;
+// ── storage quota ───────────────────────────────────────────────────────────
+
+/** Bytes of snapshot audio stored for one job and for the whole shop. */
+export function snapshotStorageUse(db: Db, jobId: number): { jobBytes: number; shopBytes: number } {
+	return storageUse(db.$client, jobId);
 }
 
-/**
- * Steadiness over the newest STEADINESS_MAX_SECONDS (at least one frame): frames of fftSize, the
- * bench's frame size, every fftSize/4 samples.
- */
-function steadinessOf(
-	capture: Float32Array,
-	index: number,
-	sampleRateHz: number,
-	fullScaleVolts: number,
-	fftSize: number,
-	options: AnalysisOptions
-): SteadinessResult {
-	const span = Math.min(capture.length, Math.max(fftSize, Math.ceil(STEADINESS_MAX_SECONDS * sampleRateHz)));
-	const channel = capture.subarray(capture.length - span);
-	const hop = fftSize / 4;
-	const frames = channel.length >= fftSize ? Math.floor((channel.length - fftSize) / hop) + 1 : 0;
-	const base = { channel: index, frames, durationS: channel.length / sampleRateHz };
-	if (frames < STEADINESS_MIN_FRAMES)
-		return { ...base, levelSpreadDb: null, thdnSpreadDb: null, levelStdDb: null, thdnStdDb: null };
-	const analyzer = new Analyzer(fftSize, sampleRateHz, { ...options, averaging: 'none', spectrum: false });
-	const tracker = new SteadinessTracker(frames);
-	// Frames end at the newest sample, like the live meter's window.
-	const start = channel.length - fftSize - (frames - 1) * hop;
-	for (let f = 0; f < frames; f++) {
-		const off = start + f * hop;
-		const r = analyzer.analyze(channel.subarray(off, off + fftSize), fullScaleVolts, index);
-		tracker.push(r.levelDbv, r.thdnDb);
-	}
-	const s = tracker.stats();
-	return {
-		...base,
-		levelSpreadDb: s.levelSpreadDb,
-		thdnSpreadDb: s.thdnSpreadDb,
-		levelStdDb: s.levelStdDb,
-		thdnStdDb: s.thdnStdDb
-	};
+/** A refused write as the answer it gets (404 / 409 / 413); anything else passes through. */
+function fromStoreRefusal(e: unknown): unknown {
+	return e instanceof StoreRefusal ? new DomainError(e.code, e.message, e.issues) : e;
 }
 
-function spectrumOf(
-	channels: Float32Array[],
-	sampleRateHz: number,
-	fsv: number[],
-	fftSize: number,
-	options: AnalysisOptions
-): SnapshotSpectrum {
-	const window = options.window ?? 'blackman-harris-7';
-	const out: CompactSpectrum[] = channels.map((c, i) => {
-		const a = new Analyzer(fftSize, sampleRateHz, { ...options, averaging: 'none', spectrum: true });
-		a.analyze(c.subarray(c.length - fftSize), fsv[i]);
-		const s = compactSpectrum(a.spectrumDbv, sampleRateHz, fftSize, SNAPSHOT_SPECTRUM_POINTS);
-		// Three decimals of a dB are plenty for plots and keep the JSON small.
-		return {
-			frequencyHz: s.frequencyHz.map((f) => Math.round(f * 1000) / 1000),
-			levelDbv: s.levelDbv.map((v) => Math.round(v * 1000) / 1000)
-		};
-	});
-	return { fftSize, window, channels: out };
+/** 413 when `bytes` more audio would pass the job's or the shop's cap, naming the cap and the use. */
+export function assertSnapshotStorageRoom(
+	db: Db,
+	jobId: number,
+	bytes: number,
+	limits: SnapshotStorageLimits
+): void {
+	const refusal = storageRefusal(storageUse(db.$client, jobId), bytes, limits);
+	if (refusal) throw fromStoreRefusal(refusal);
 }
+
+// ── creating ────────────────────────────────────────────────────────────────
 
 export interface CreateSnapshotInput {
 	jobId: number;
@@ -235,37 +158,35 @@ export interface CreateSnapshotInput {
 	meta: unknown;
 }
 
-/**
- * Analyse, judge and store a snapshot. Throws DomainError('invalid') for bad input (nothing stored) and
- * returns what the API answers with.
- */
-export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnapshot {
-	const meta = parseSnapshotMeta(input.meta);
+/** Everything settled before the audio is analysed. */
+export interface PreparedSnapshot {
+	jobId: number;
+	userId: string;
+	meta: SnapshotMeta;
+	profile: LimitProfileView | null;
+	sources: ConditionSources;
+	weighting: Weighting;
+	loadOhms: number | undefined;
+	referenceVrms: number | undefined;
+	storage: SnapshotStorageLimits;
+	/** What goes to the analysis (the WAV included). */
+	request: SnapshotAnalysisRequest;
+}
 
+/**
+ * The cheap checks and choices before analysis: meta (400), open job (404/409), profile (400) and
+ * storage room (413). Nothing is stored.
+ */
+export function prepareSnapshot(db: Db, input: CreateSnapshotInput): PreparedSnapshot {
+	const meta = parseSnapshotMeta(input.meta);
+	assertJobOpen(db, input.jobId);
 	if (input.wav.byteLength > SNAPSHOT_MAX_WAV_BYTES)
-		throw invalid('samples', `samples: the WAV file is larger than ${SNAPSHOT_MAX_WAV_BYTES} bytes`);
-	let decoded;
-	try {
-		decoded = decodeWav(input.wav);
-	} catch (e) {
-		if (e instanceof WavError) throw invalid('samples', `samples: ${e.message}`);
-		throw invalid('samples', 'samples: unreadable WAV file');
-	}
-	const { sampleRateHz, channels } = decoded;
-	const length = channels[0].length;
-	if (length < SNAPSHOT_MIN_SAMPLES)
-		throw invalid(
-			'samples',
-			`samples: the WAV file holds ${length} samples per channel; at least ${SNAPSHOT_MIN_SAMPLES} are needed`
+		throw new DomainError(
+			'too-large',
+			`samples: the WAV file is larger than ${SNAPSHOT_MAX_WAV_BYTES} bytes`
 		);
-	if (channels.length > 2)
-		throw invalid('samples', `samples: ${channels.length} channels; the bench captures one or two`);
-	for (const c of channels) {
-		for (let i = 0; i < c.length; i++) {
-			if (!Number.isFinite(c[i]))
-				throw invalid('samples', 'samples: the WAV file contains NaN or infinite samples');
-		}
-	}
+	const settings = getSettings(db);
+	assertSnapshotStorageRoom(db, input.jobId, input.wav.byteLength, settings.snapshotStorage);
 
 	let profile: LimitProfileView | null = null;
 	if (meta.profileId != null) {
@@ -275,12 +196,6 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 		if (profile.archived)
 			throw invalid('meta.profileId', `meta.profileId: the limit profile “${profile.name}” is archived`);
 	}
-
-	const fsv = channels.map((_, i) =>
-		Array.isArray(meta.fullScaleVolts)
-			? (meta.fullScaleVolts[i] ?? meta.fullScaleVolts[0])
-			: meta.fullScaleVolts
-	);
 
 	// Band and weighting are analysis choices: the profile's win, so its limits are judged the way
 	// they were written. Load and generator level are facts of the bench (the resistor on the
@@ -308,58 +223,62 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 	const weight = pick<Weighting>([pc?.weighting, 'profile'], [a.weighting, 'bench'], 'none');
 	const load = pick([meta.loadOhms, 'bench'], [pc?.loadOhms, 'profile']);
 	const reference = pick([meta.referenceVrms, 'bench'], [pc?.generatorLevelVrms, 'profile']);
-	const bandHz = band.value as [number, number];
 	const weighting = weight.value as Weighting;
-	const loadOhms = load.value;
-	const referenceVrms = reference.value;
-	const sources: ConditionSources = {
-		bandHz: band.source,
-		weighting: weight.source,
-		loadOhms: load.source,
-		referenceVrms: reference.source
-	};
-	const fftSize = Math.min(a.fftSize ?? 65_536, largestPow2AtMost(length));
-	const averages = Math.max(1, Math.min(a.averages ?? 1, Math.floor(length / fftSize)));
-	const window = a.window && isWindowName(a.window) ? a.window : undefined;
-	const nyquist = sampleRateHz / 2;
-	if (bandHz[0] >= nyquist)
-		throw invalid('meta', `meta: the band starts at ${bandHz[0]} Hz, above Nyquist (${nyquist} Hz)`);
-	const options: AnalysisOptions = {
-		fftSize,
-		window,
-		bandHz: [bandHz[0], Math.min(bandHz[1], nyquist)],
+	return {
+		jobId: input.jobId,
+		userId: input.userId,
+		meta,
+		profile,
+		sources: {
+			bandHz: band.source,
+			weighting: weight.source,
+			loadOhms: load.source,
+			referenceVrms: reference.source
+		},
 		weighting,
-		loadOhms,
-		referenceVrms,
-		averages
+		loadOhms: load.value,
+		referenceVrms: reference.value,
+		storage: settings.snapshotStorage,
+		request: {
+			wav: input.wav,
+			fullScaleVolts: meta.fullScaleVolts,
+			fftSize: a.fftSize,
+			averages: a.averages,
+			window: a.window,
+			bandHz: band.value as [number, number],
+			weighting,
+			loadOhms: load.value,
+			referenceVrms: reference.value,
+			stimulus: meta.stimulus,
+			mainsHz: settings.mainsHz
+		}
 	};
+}
 
-	// The newest `averages × fftSize` samples are "the frame the bench analysed".
-	const analysedSamples = averages * fftSize;
-	let analysis: AnalysisResult;
-	let steadinessResults: SteadinessResult[];
-	let spectrum: SnapshotSpectrum;
-	try {
-		analysis = analyzeFrames(
-			channels.map((c) => c.subarray(length - analysedSamples)),
-			sampleRateHz,
-			fsv,
-			options
-		);
-		steadinessResults = channels.map((c, i) => steadinessOf(c, i, sampleRateHz, fsv[i], fftSize, options));
-		spectrum = spectrumOf(channels, sampleRateHz, fsv, fftSize, options);
-	} catch (e) {
-		if (e instanceof RangeError) throw invalid('meta', `meta.analysis: ${e.message}`);
-		throw e;
-	}
+/** A worker's refusal as the 400 the API answers; anything else passes through. */
+export function asDomainError(e: unknown): unknown {
+	return e instanceof AnalysisRefusal ? invalid(e.path, e.message) : e;
+}
 
+interface JudgedSnapshot {
+	results: SnapshotResults;
+	verdict: Verdict;
+	checks: Check[];
+	/** The write: re-checks and the row's INSERT, for whichever connection performs it. */
+	plan: StorePlan;
+}
+
+/** Judge the analysed snapshot against its profile and build the write. */
+function judgeSnapshot(db: Db, p: PreparedSnapshot, out: SnapshotAnalysisOutput): JudgedSnapshot {
+	const { analysis, steadiness: steadinessResults, spectrum, fullScaleVolts: fsv } = out;
 	const results: SnapshotResults = {
 		...analysis,
-		conditions: { ...analysis.conditions, sources },
+		conditions: { ...analysis.conditions, sources: p.sources, stimulus: p.meta.stimulus },
 		steadiness: steadinessResults,
-		capturedSamples: length,
-		analysedSamples
+		capturedSamples: out.capturedSamples,
+		analysedSamples: out.analysedSamples
 	};
+	const profile = p.profile;
 	const checks = profile
 		? conditionChecks(
 				evaluateLimits(
@@ -368,51 +287,118 @@ export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnaps
 						analysis.channels,
 						{ balanceDb: analysis.balanceDb, crosstalkDb: analysis.crosstalkDb },
 						steadinessResults,
-						weighting
+						p.weighting
 					)
 				),
 				profile.conditions,
-				{ loadOhms: loadOhms ?? null, referenceVrms: referenceVrms ?? null }
+				{ loadOhms: p.loadOhms ?? null, referenceVrms: p.referenceVrms ?? null }
 			)
 		: [];
 	const verdict: Verdict = profile ? verdictOf(checks) : 'none';
-	const sha256 = createHash('sha256').update(input.wav).digest('hex');
+	const insert = db
+		.insert(table.snapshots)
+		.values({
+			jobId: p.jobId,
+			createdBy: p.userId,
+			label: p.meta.label,
+			stage: p.meta.stage,
+			profileId: profile?.id ?? null,
+			profile: profile
+				? { id: profile.id, name: profile.name, conditions: profile.conditions, limits: profile.limits }
+				: null,
+			sampleRateHz: out.sampleRateHz,
+			channelCount: out.channelCount,
+			sampleCount: out.capturedSamples,
+			fullScaleVolts: fsv[0],
+			loadOhms: p.loadOhms ?? null,
+			results,
+			verdict,
+			checks,
+			spectrum,
+			settings: {
+				...(p.meta.settings ?? {}),
+				analysis: p.meta.analysis ?? null,
+				fullScaleVolts: fsv,
+				stimulus: p.meta.stimulus
+			}
+		})
+		.returning({ id: table.snapshots.id })
+		.toSQL();
+	return {
+		results,
+		verdict,
+		checks,
+		plan: {
+			jobId: p.jobId,
+			lockedStatuses: LOCKED_STATUSES,
+			lockedMessage: JOB_LOCKED_MESSAGE,
+			storage: p.storage,
+			insert: { sql: insert.sql, params: insert.params },
+			sha256: out.sha256
+		}
+	};
+}
 
-	const id = db.transaction((tx) => {
-		const row = tx
-			.insert(table.snapshots)
-			.values({
-				jobId: input.jobId,
-				createdBy: input.userId,
-				label: meta.label,
-				stage: meta.stage,
-				profileId: profile?.id ?? null,
-				profile: profile
-					? { id: profile.id, name: profile.name, conditions: profile.conditions, limits: profile.limits }
-					: null,
-				sampleRateHz,
-				channelCount: channels.length,
-				sampleCount: length,
-				fullScaleVolts: fsv[0],
-				loadOhms: loadOhms ?? null,
-				results,
-				verdict,
-				checks,
-				spectrum,
-				settings: { ...(meta.settings ?? {}), analysis: meta.analysis ?? null, fullScaleVolts: fsv }
-			})
-			.returning({ id: table.snapshots.id })
-			.get();
-		tx.insert(table.snapshotAudio)
-			.values({
-				snapshotId: row.id,
-				sha256,
-				wav: Buffer.from(input.wav.buffer, input.wav.byteOffset, input.wav.byteLength)
-			})
-			.run();
-		return row.id;
-	});
+/** Judge the analysed snapshot and store it with its audio (one transaction, on this thread). */
+export function storeSnapshot(db: Db, p: PreparedSnapshot, out: SnapshotAnalysisOutput): CreatedSnapshot {
+	const { results, verdict, checks, plan } = judgeSnapshot(db, p, out);
+	let id: number;
+	try {
+		id = writeSnapshot(db.$client, plan, out.wav);
+	} catch (e) {
+		throw fromStoreRefusal(e);
+	}
 	return { id, results, verdict, checks };
+}
+
+let sqliteModule: string | undefined;
+
+/**
+ * Analyse (on this thread), judge and store a snapshot: for tests, fixtures and scripts. The server
+ * uses `createSnapshotInPool`. Throws DomainError for bad input (nothing stored).
+ */
+export function createSnapshot(db: Db, input: CreateSnapshotInput): CreatedSnapshot {
+	const prepared = prepareSnapshot(db, input);
+	let out: SnapshotAnalysisOutput;
+	try {
+		out = analyseSnapshotAudio(prepared.request);
+	} catch (e) {
+		throw asDomainError(e);
+	}
+	return storeSnapshot(db, prepared, out);
+}
+
+/**
+ * `createSnapshot` with the heavy parts on the pool's threads through `reservation`: the analysis,
+ * and for a database file also the write (a worker's own connection; an in-memory database can
+ * only be written here). Releases the reservation when done.
+ */
+export async function createSnapshotInPool(
+	db: Db,
+	input: CreateSnapshotInput,
+	reservation: Reservation
+): Promise<CreatedSnapshot> {
+	try {
+		const prepared = prepareSnapshot(db, input);
+		let out: SnapshotAnalysisOutput;
+		try {
+			out = await reservation.run(prepared.request);
+		} catch (e) {
+			throw asDomainError(e);
+		}
+		if (db.$client.memory) return storeSnapshot(db, prepared, out);
+		const { results, verdict, checks, plan } = judgeSnapshot(db, prepared, out);
+		sqliteModule ??= createRequire(import.meta.url).resolve('better-sqlite3');
+		let id: number;
+		try {
+			id = await reservation.store({ dbFile: resolve(db.$client.name), sqliteModule, plan, wav: out.wav });
+		} catch (e) {
+			throw fromStoreRefusal(e);
+		}
+		return { id, results, verdict, checks };
+	} finally {
+		reservation.release();
+	}
 }
 
 // ── reading ─────────────────────────────────────────────────────────────────

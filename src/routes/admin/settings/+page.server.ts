@@ -1,4 +1,4 @@
-// Admin: shop settings (name, bridge address, mains frequency, default soak limits).
+// Admin: shop settings (name, bridge address, mains frequency, default soak limits, snapshot storage caps).
 import { fail } from '@sveltejs/kit';
 import { db } from '$lib/server/db';
 import { requireAdmin } from '$lib/server/guards';
@@ -24,10 +24,14 @@ export const actions: Actions = formActions({
 			'maxHeatsinkC',
 			'maxRiseCPerMin',
 			'maxDiffC',
-			'thdnCeilingDb'
+			'thdnCeilingDb',
+			'perJobMiB',
+			'perShopGiB'
 		];
 		const values = Object.fromEntries(names.map((n) => [n, text(form, n)]));
 		const thdn = number(form, 'thdnCeilingDb');
+		// Storage caps left out of a post keep what is stored (the form always sends them).
+		const storage = getSettings(db).snapshotStorage;
 		const parsed = shopSettingsSchema.safeParse({
 			shopName: values.shopName,
 			bridgeUrl: values.bridgeUrl,
@@ -37,6 +41,10 @@ export const actions: Actions = formActions({
 				maxRiseCPerMin: number(form, 'maxRiseCPerMin'),
 				maxDiffC: number(form, 'maxDiffC'),
 				thdnCeilingDb: thdn === undefined ? null : thdn
+			},
+			snapshotStorage: {
+				perJobMiB: form.has('perJobMiB') ? number(form, 'perJobMiB') : storage.perJobMiB,
+				perShopGiB: form.has('perShopGiB') ? number(form, 'perShopGiB') : storage.perShopGiB
 			}
 		});
 		if (!parsed.success) {

@@ -1,0 +1,95 @@
+// Writing a snapshot: one transaction that re-checks the job lock and the storage caps, then
+// inserts the row and its audio. Plain SQL on a better-sqlite3 connection (the row's INSERT is
+// built by drizzle on the request thread), so the same function runs on the request thread's
+// connection (an in-memory database) and on a worker thread's own connection to the database file,
+// where writing 32 MiB and syncing it to disk (0.4 s and more) belongs. No framework imports.
+import type { Database } from 'better-sqlite3';
+
+export interface StorageLimits {
+	perJobMiB: number;
+	perShopGiB: number;
+}
+
+export interface StorePlan {
+	jobId: number;
+	/** Job statuses that mean signed off, and what to say then (the rule lives in jobs.ts). */
+	lockedStatuses: readonly string[];
+	lockedMessage: string;
+	storage: StorageLimits;
+	/** `INSERT INTO snapshots … RETURNING id`, as drizzle built it. */
+	insert: { sql: string; params: unknown[] };
+	sha256: string;
+}
+
+/** A refusal found inside the transaction; the caller answers it with its status. */
+export class StoreRefusal extends Error {
+	constructor(
+		readonly code: 'not-found' | 'conflict' | 'too-large',
+		message: string,
+		readonly issues?: { path: string; message: string }[]
+	) {
+		super(message);
+		this.name = 'StoreRefusal';
+	}
+}
+
+const MIB = 1024 * 1024;
+const GIB = 1024 * MIB;
+const mib = (bytes: number) => `${(bytes / MIB).toFixed(1)} MiB`;
+const gib = (bytes: number) => `${(bytes / GIB).toFixed(2)} GiB`;
+
+/** Bytes of snapshot audio stored for one job and for the whole shop. */
+export function snapshotStorageUse(client: Database, jobId: number): { jobBytes: number; shopBytes: number } {
+	// length() of a BLOB is read from the record header: the audio itself is not loaded.
+	const row = client
+		.prepare(
+			`select coalesce(sum(case when s.job_id = ? then length(a.wav) end), 0) as jobBytes,
+			        coalesce(sum(length(a.wav)), 0) as shopBytes
+			   from snapshot_audio a join snapshots s on s.id = a.snapshot_id`
+		)
+		.get(jobId) as { jobBytes: number; shopBytes: number };
+	return { jobBytes: Number(row.jobBytes), shopBytes: Number(row.shopBytes) };
+}
+
+/** The 413 for `bytes` more audio when it would pass the job's or the shop's cap, naming the cap and the use. */
+export function storageRefusal(
+	use: { jobBytes: number; shopBytes: number },
+	bytes: number,
+	limits: StorageLimits
+): StoreRefusal | null {
+	if (use.jobBytes + bytes > limits.perJobMiB * MIB)
+		return new StoreRefusal(
+			'too-large',
+			`samples: this job's snapshot audio cap is ${limits.perJobMiB} MiB and ${mib(use.jobBytes)} is stored; ` +
+				`this ${mib(bytes)} upload does not fit. An admin can raise “Snapshot audio per job” in Settings.`,
+			[{ path: 'samples', message: `per-job cap ${limits.perJobMiB} MiB, ${mib(use.jobBytes)} used` }]
+		);
+	if (use.shopBytes + bytes > limits.perShopGiB * GIB)
+		return new StoreRefusal(
+			'too-large',
+			`samples: the shop's snapshot audio cap is ${limits.perShopGiB} GiB and ${gib(use.shopBytes)} is stored; ` +
+				`this ${mib(bytes)} upload does not fit. An admin can raise “Snapshot audio for the shop” in Settings.`,
+			[{ path: 'samples', message: `per-shop cap ${limits.perShopGiB} GiB, ${gib(use.shopBytes)} used` }]
+		);
+	return null;
+}
+
+/** Insert the snapshot and its audio in one transaction; throws StoreRefusal (nothing stored). */
+export function writeSnapshot(client: Database, plan: StorePlan, wav: Uint8Array): number {
+	const write = client.transaction(() => {
+		// Checked again here: the job may have been signed off, or the room taken, while it was analysed.
+		const job = client.prepare('select status from jobs where id = ?').get(plan.jobId) as
+			{ status: string } | undefined;
+		if (!job) throw new StoreRefusal('not-found', 'No such job');
+		if (plan.lockedStatuses.includes(job.status)) throw new StoreRefusal('conflict', plan.lockedMessage);
+		const refusal = storageRefusal(snapshotStorageUse(client, plan.jobId), wav.byteLength, plan.storage);
+		if (refusal) throw refusal;
+		const row = client.prepare(plan.insert.sql).get(...plan.insert.params) as { id: number };
+		client
+			.prepare('insert into snapshot_audio (snapshot_id, sha256, wav) values (?, ?, ?)')
+			.run(row.id, plan.sha256, Buffer.from(wav.buffer, wav.byteOffset, wav.byteLength));
+		return row.id;
+	});
+	// IMMEDIATE: take the write lock first, so the checks and the inserts see one state.
+	return write.immediate();
+}
