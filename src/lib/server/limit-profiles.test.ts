@@ -110,8 +110,14 @@ describe('limit profile service', () => {
 		const all = listLimitProfiles(db);
 		for (const p of all) {
 			// The generator's frequency is the bench's, and a drive level is set, not measured.
-			expect(p.limits.map((l) => l.metric), p.name).not.toContain('frequencyHz');
-			expect(p.limits.map((l) => l.metric), p.name).not.toContain('powerW');
+			expect(
+				p.limits.map((l) => l.metric),
+				p.name
+			).not.toContain('frequencyHz');
+			expect(
+				p.limits.map((l) => l.metric),
+				p.name
+			).not.toContain('powerW');
 			// Every profile tells the technician how to set up, and keeps it through validation.
 			expect(p.conditions.setup, p.name).toMatch(/\S/);
 		}

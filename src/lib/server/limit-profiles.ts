@@ -183,34 +183,30 @@ export const SEED_LIMIT_PROFILES: ProfileInput[] = [
 			{ metric: 'balanceDb', channel: 'each', op: 'le', value: 1, unit: 'dB' }
 		]
 	},
-	...BALANCE_POINTS.map(
-		(b): ProfileInput => ({
-			name: `Channel balance, volume −${b.attenuationDb} dB`,
-			description: `Balance with the volume about ${b.attenuationDb} dB below maximum; one of three positions (−20, −40, −60 dB), since a worn volume pot tracks worst near the bottom. Tolerance is common practice.`,
-			conditions: {
-				generatorFrequencyHz: 1000,
-				bandLowHz: 20,
-				bandHighHz: 20_000,
-				weighting: 'none',
-				setup: `Both channels driven alike at 1 kHz, balance centred, tone controls flat. Keep the generator low enough that the unit stays well below rated output at full volume. Note the output level with the volume at maximum, then turn the volume down until the output is about ${b.attenuationDb} dB lower, and capture.`
-			},
-			limits: [{ metric: 'balanceDb', channel: 'each', op: 'le', value: b.limitDb, unit: 'dB' }]
-		})
-	),
-	...CROSSTALK_POINTS.map(
-		(c): ProfileInput => ({
-			name: `Crosstalk at ${c.label}, one channel driven`,
-			description: `Crosstalk at ${c.label}; one of three frequencies (100 Hz, 1 kHz, 10 kHz). Tolerance is common practice.`,
-			conditions: {
-				generatorFrequencyHz: c.frequencyHz,
-				bandLowHz: 20,
-				bandHighHz: 20_000,
-				weighting: 'none',
-				setup: `Drive one channel only (generator drive left or right) at ${c.label}. Terminate the undriven input with a shorting plug or a resistor near the source impedance: an open input picks up more than the unit leaks and reads worse than it is. Capture once with each channel driven.`
-			},
-			limits: [{ metric: 'crosstalkDb', channel: 'each', op: 'le', value: c.limitDb, unit: 'dB' }]
-		})
-	),
+	...BALANCE_POINTS.map((b): ProfileInput => ({
+		name: `Channel balance, volume −${b.attenuationDb} dB`,
+		description: `Balance with the volume about ${b.attenuationDb} dB below maximum; one of three positions (−20, −40, −60 dB), since a worn volume pot tracks worst near the bottom. Tolerance is common practice.`,
+		conditions: {
+			generatorFrequencyHz: 1000,
+			bandLowHz: 20,
+			bandHighHz: 20_000,
+			weighting: 'none',
+			setup: `Both channels driven alike at 1 kHz, balance centred, tone controls flat. Keep the generator low enough that the unit stays well below rated output at full volume. Note the output level with the volume at maximum, then turn the volume down until the output is about ${b.attenuationDb} dB lower, and capture.`
+		},
+		limits: [{ metric: 'balanceDb', channel: 'each', op: 'le', value: b.limitDb, unit: 'dB' }]
+	})),
+	...CROSSTALK_POINTS.map((c): ProfileInput => ({
+		name: `Crosstalk at ${c.label}, one channel driven`,
+		description: `Crosstalk at ${c.label}; one of three frequencies (100 Hz, 1 kHz, 10 kHz). Tolerance is common practice.`,
+		conditions: {
+			generatorFrequencyHz: c.frequencyHz,
+			bandLowHz: 20,
+			bandHighHz: 20_000,
+			weighting: 'none',
+			setup: `Drive one channel only (generator drive left or right) at ${c.label}. Terminate the undriven input with a shorting plug or a resistor near the source impedance: an open input picks up more than the unit leaks and reads worse than it is. Capture once with each channel driven.`
+		},
+		limits: [{ metric: 'crosstalkDb', channel: 'each', op: 'le', value: c.limitDb, unit: 'dB' }]
+	})),
 	{
 		name: 'Steadiness after control cleaning',
 		description:
