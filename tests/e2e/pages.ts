@@ -9,6 +9,8 @@ const ROUTES_DIR = join(process.cwd(), 'src', 'routes');
 
 /** Pages that are not pages to look at; each with the reason. */
 const SKIPPED: Record<string, string> = {
+	'/': 'only redirects (to the queue or the sign-in page)',
+	'/login': 'a signed-in visitor is sent on to the queue; checked signed out (PUBLIC_PAGES)',
 	'/logout': 'never rendered: GET redirects home and visiting it would sign the test out'
 };
 
