@@ -17,14 +17,18 @@ async function overflow(page: Page) {
 		for (const el of document.body.querySelectorAll<HTMLElement>('*')) {
 			const r = el.getBoundingClientRect();
 			if (r.right > vw + 0.5 && r.width > 0) {
-				// Only the outermost offender of each branch (its children overflow because it does),
-				// and nothing inside a box that scrolls or clips on its own.
-				const parent = el.parentElement?.getBoundingClientRect();
-				if (parent && parent.right > vw + 0.5) continue;
-				let boxed = false;
-				for (let a = el.parentElement; a && a !== document.body; a = a.parentElement)
-					if (getComputedStyle(a).overflowX !== 'visible') boxed = true;
-				if (boxed) continue;
+				// An absolutely positioned element escapes a scroll box that is not positioned itself (a
+				// visually hidden label in a scrolling table widens the page): those always count.
+				// Otherwise only the outermost offender of each branch (its children overflow because it
+				// does), and nothing inside a box that scrolls or clips on its own.
+				if (getComputedStyle(el).position !== 'absolute') {
+					const parent = el.parentElement?.getBoundingClientRect();
+					if (parent && parent.right > vw + 0.5) continue;
+					let boxed = false;
+					for (let a = el.parentElement; a && a !== document.body; a = a.parentElement)
+						if (getComputedStyle(a).overflowX !== 'visible') boxed = true;
+					if (boxed) continue;
+				}
 				const id = el.dataset.testid ? `[data-testid=${el.dataset.testid}]` : '';
 				offenders.push(
 					`${el.tagName.toLowerCase()}${id}.${[...el.classList].slice(0, 3).join('.')} → ${Math.round(r.right)} px`
