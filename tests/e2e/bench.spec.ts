@@ -68,12 +68,25 @@ test('bench: live gain, a fault and its repair, before/after snapshots with verd
 	await page.getByTestId('fault-noisy-selector').selectOption('');
 	await page.getByTestId('fault-weak-device').selectOption('');
 
+	// The caution is open until the generator is first turned on from this page.
+	const caution = page.getByTestId('caution');
+	await page.getByTestId('gen-kind').selectOption('off');
+	await page.getByTestId('gen-apply').click();
+	await expect(page.getByTestId('gen-state')).toHaveText('output off');
+	await expect(caution).toHaveAttribute('open', '');
+	await expect(caution).toContainText('attenuator');
+	await expect(caution).toContainText('floating-ground');
+
 	// ── a 1 kHz sine and a known gain ───────────────────────────────────────
 	await page.getByTestId('gen-kind').selectOption('sine');
 	await page.getByTestId('gen-frequency').fill('1000');
 	await page.getByTestId('gen-level').fill('0.3');
 	await page.getByTestId('gen-apply').click();
 	await expect(page.getByTestId('gen-state')).toHaveText('on: sine');
+	// Then it folds to its title, one tap from the full text.
+	await expect(caution).not.toHaveAttribute('open');
+	await page.getByTestId('show-caution').click();
+	await expect(caution).toHaveAttribute('open', '');
 	await page.getByTestId('sim-volume').fill('20');
 	await expect(page.getByTestId('sim-volume-value')).toHaveText('+20.0 dB');
 

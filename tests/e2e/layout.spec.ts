@@ -90,6 +90,25 @@ test('every signed-in page fits a 390 px wide phone without scrolling sideways',
 	expect(problems, 'pages that scroll sideways at 390 px').toEqual([]);
 });
 
+test('on a phone the bench shows the readings before the spectrum, the caution one tap away', async ({
+	page
+}) => {
+	await signIn(page, 'tech1@example.com');
+	const pages = await pagesToCheck(page.request);
+	const bench = pages.find((p) => p.routeId === '/jobs/[id]/bench')!;
+	await page.goto(bench.path);
+	await ready(page);
+	await expect(page.getByTestId('link-state')).toHaveText(/^Connected$/, { timeout: 30_000 });
+	const top = async (testId: string) => (await page.getByTestId(testId).boundingBox())!.y;
+	expect(await top('readouts')).toBeLessThan(await top('spectrum'));
+	// The link to the caution sits in the page header, above everything else.
+	const show = page.getByTestId('show-caution');
+	await expect(show).toBeInViewport();
+	await show.click();
+	await expect(page.getByTestId('caution')).toHaveAttribute('open', '');
+	await expect(page.getByTestId('caution')).toBeInViewport();
+});
+
 test('the public pages fit a 390 px wide phone signed out', async ({ page }) => {
 	const problems: string[] = [];
 	for (const path of PUBLIC_PAGES) {
