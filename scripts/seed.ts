@@ -456,7 +456,10 @@ const DEMO_JOBS: DemoJob[] = [
 				text: 'Left driver transistor open, bias resistor burnt. Replaced both; first power-up on the lamp limiter, then bias set to the service figure at full mains after warm-up.',
 				minutes: 95
 			},
-			{ text: 'One-hour soak at one-eighth power, watched at the bench: heatsink settled at 48 °C.', minutes: 70 }
+			{
+				text: 'One-hour soak at one-eighth power, watched at the bench: heatsink settled at 48 °C.',
+				minutes: 70
+			}
 		],
 		parts: [
 			{
