@@ -114,6 +114,8 @@ test('bench: live gain, a fault and its repair, before/after snapshots with verd
 
 	// A profile with a 0.05 % THD+N limit, judged live and again by the server.
 	await page.getByTestId('profile-select').selectOption({ label: 'Line preamp output, 1 kHz' });
+	// Its set-up conditions are shown above Capture, before anything is captured.
+	await expect(page.getByTestId('capture-setup')).toContainText('about 0.5 V rms at the output');
 	await expect(page.getByTestId('live-verdict')).toHaveText(/PASS/);
 
 	// ── a fault: crossover distortion from an under-biased output stage ─────
