@@ -204,7 +204,7 @@ async function main(): Promise<void> {
 
 		await page.goto(`${origin}/login`);
 		await page.locator('html[data-hydrated="true"]').waitFor({ state: 'attached' });
-		await page.getByLabel('Email').fill('tech1@example.com');
+		await page.getByLabel('E-mail').fill('tech1@example.com');
 		await page.getByLabel('Password').fill('bench-demo-2026');
 		await page.getByRole('button', { name: 'Sign in' }).click();
 		await page.waitForURL(/\/jobs$/);

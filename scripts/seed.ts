@@ -228,7 +228,10 @@ const DEMO_JOBS: DemoJob[] = [
 		ageDays: 12,
 		log: [
 			{ text: 'Multiplex decoder realigned, dial lamp replaced.', minutes: 90 },
-			{ text: 'Running on the bench overnight to check stereo lock stays stable.', minutes: 10 }
+			{
+				text: 'Played on the bench for two hours with someone at the bench throughout: stereo lock stayed stable. Switched off before leaving.',
+				minutes: 10
+			}
 		],
 		parts: [
 			{
@@ -450,10 +453,13 @@ const DEMO_JOBS: DemoJob[] = [
 		ageDays: 14,
 		log: [
 			{
-				text: 'Left driver transistor open, bias resistor burnt. Replaced both, bias set to service figure.',
+				text: 'Left driver transistor open, bias resistor burnt. Replaced both; first power-up on the lamp limiter, then bias set to the service figure at full mains after warm-up.',
 				minutes: 95
 			},
-			{ text: 'One-hour soak at one-eighth power: heatsink settled at 48 °C.', minutes: 70 }
+			{
+				text: 'One-hour soak at one-eighth power, watched at the bench: heatsink settled at 48 °C.',
+				minutes: 70
+			}
 		],
 		parts: [
 			{

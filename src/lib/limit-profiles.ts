@@ -192,7 +192,12 @@ export const conditionsSchema = z
 		bandHighHz: finite.min(1).max(200_000).default(20_000),
 		weighting: z.enum(WEIGHTINGS).default('none'),
 		/** Free text: which input, control positions, warm-up … */
-		notes: z.string().trim().max(500).optional()
+		notes: z.string().trim().max(500).optional(),
+		/**
+		 * What the technician sets up before capturing (drive level, control positions, which
+		 * input is terminated): shown on the bench above Capture, never judged as a limit.
+		 */
+		setup: z.string().trim().max(1000).optional()
 	})
 	.refine((c) => c.bandHighHz > c.bandLowHz, {
 		message: 'The band’s upper edge must be above its lower edge',

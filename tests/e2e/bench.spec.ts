@@ -33,7 +33,8 @@ async function capture(page: Page, label: string, stage: 'before' | 'after') {
 	// The keyboard shortcut, from outside any field.
 	await page.getByRole('heading', { name: 'Capture a snapshot' }).click();
 	await page.keyboard.press('c');
-	await expect(page.getByTestId('capture-result')).toContainText(`Saved “${label}” (${stage})`);
+	const stageLabel = stage === 'before' ? 'Before' : 'After';
+	await expect(page.getByTestId('capture-result')).toContainText(`Saved “${label}” (${stageLabel})`);
 }
 
 test('bench: live gain, a fault and its repair, before/after snapshots with verdicts', async ({ page }) => {
@@ -67,12 +68,25 @@ test('bench: live gain, a fault and its repair, before/after snapshots with verd
 	await page.getByTestId('fault-noisy-selector').selectOption('');
 	await page.getByTestId('fault-weak-device').selectOption('');
 
+	// The caution is open until the generator is first turned on from this page.
+	const caution = page.getByTestId('caution');
+	await page.getByTestId('gen-kind').selectOption('off');
+	await page.getByTestId('gen-apply').click();
+	await expect(page.getByTestId('gen-state')).toHaveText('output off');
+	await expect(caution).toHaveAttribute('open', '');
+	await expect(caution).toContainText('attenuator');
+	await expect(caution).toContainText('floating-ground');
+
 	// ── a 1 kHz sine and a known gain ───────────────────────────────────────
 	await page.getByTestId('gen-kind').selectOption('sine');
 	await page.getByTestId('gen-frequency').fill('1000');
 	await page.getByTestId('gen-level').fill('0.3');
 	await page.getByTestId('gen-apply').click();
 	await expect(page.getByTestId('gen-state')).toHaveText('on: sine');
+	// Then it folds to its title, one tap from the full text.
+	await expect(caution).not.toHaveAttribute('open');
+	await page.getByTestId('show-caution').click();
+	await expect(caution).toHaveAttribute('open', '');
 	await page.getByTestId('sim-volume').fill('20');
 	await expect(page.getByTestId('sim-volume-value')).toHaveText('+20.0 dB');
 
@@ -100,6 +114,8 @@ test('bench: live gain, a fault and its repair, before/after snapshots with verd
 
 	// A profile with a 0.05 % THD+N limit, judged live and again by the server.
 	await page.getByTestId('profile-select').selectOption({ label: 'Line preamp output, 1 kHz' });
+	// Its set-up conditions are shown above Capture, before anything is captured.
+	await expect(page.getByTestId('capture-setup')).toContainText('about 0.5 V rms at the output');
 	await expect(page.getByTestId('live-verdict')).toHaveText(/PASS/);
 
 	// ── a fault: crossover distortion from an under-biased output stage ─────
@@ -164,4 +180,78 @@ test('bench: live gain, a fault and its repair, before/after snapshots with verd
 	await page.getByTestId('gen-kind').selectOption('off');
 	await page.getByTestId('gen-apply').click();
 	await expect(page.getByTestId('gen-state')).toHaveText('output off');
+});
+
+test('bench: no capture while the stream is stalled or the link is down, and the page says why', async ({
+	page
+}) => {
+	// The page's socket to the bridge runs through this route, so the spec can stall the audio
+	// (binary frames held back, control messages still flowing) or refuse the link altogether.
+	let mode: 'live' | 'stall' | 'refuse' = 'live';
+	let current: { close: () => Promise<void> } | null = null;
+	await page.routeWebSocket(/\/stream\?token=/, (ws) => {
+		if (mode === 'refuse') {
+			void ws.close({ code: 1011, reason: 'bridge stopped (test)' });
+			return;
+		}
+		const server = ws.connectToServer();
+		server.onMessage((m) => {
+			if (mode === 'live' || typeof m === 'string') ws.send(m);
+		});
+		ws.onMessage((m) => server.send(m));
+		current = {
+			close: async () => {
+				await server.close();
+				await ws.close({ code: 1011, reason: 'bridge stopped (test)' });
+			}
+		};
+	});
+	let posts = 0;
+	page.on('request', (r) => {
+		if (r.method() === 'POST' && /\/api\/jobs\/\d+\/snapshots$/.test(r.url())) posts++;
+	});
+
+	await signIn(page, 'tech1@example.com');
+	await page.getByTestId('job-row').first().locator('a').first().click();
+	await expect(page).toHaveURL(/\/jobs\/\d+$/);
+	if (BRIDGE_OVERRIDE)
+		await page.evaluate((url) => localStorage.setItem('benchlight-bridge-url', url), BRIDGE_OVERRIDE);
+	await page.getByTestId('link-bench').click();
+	await ready(page);
+	await expect(page.getByTestId('link-state')).toHaveText(/^Connected$/, { timeout: 30_000 });
+
+	const button = page.getByTestId('capture-button');
+	const blocked = page.getByTestId('capture-blocked');
+	await expect(button).toBeEnabled({ timeout: 30_000 });
+	await expect(blocked).toHaveCount(0);
+	await page.getByTestId('capture-label').fill('Must never be saved');
+
+	// ── audio stalls, the link stays up ─────────────────────────────────────
+	mode = 'stall';
+	await expect(blocked).toContainText('the stream has stalled');
+	await expect(button).toBeDisabled();
+	await expect(page.getByTestId('link-state')).toHaveText(/^Connected$/);
+	await page.getByRole('heading', { name: 'Capture a snapshot' }).click();
+	await page.keyboard.press('c');
+	await button.click({ force: true });
+
+	// ── audio flows again: capture is back ──────────────────────────────────
+	mode = 'live';
+	await expect(blocked).toHaveCount(0);
+	await expect(button).toBeEnabled();
+
+	// ── the bridge goes away ────────────────────────────────────────────────
+	mode = 'refuse';
+	await current!.close();
+	await expect(page.getByTestId('link-state')).toHaveText(/Reconnecting/);
+	await expect(blocked).toContainText('the link to the bridge is down');
+	await expect(button).toBeDisabled();
+	await page.getByRole('heading', { name: 'Capture a snapshot' }).click();
+	await page.keyboard.press('c');
+	await button.click({ force: true });
+
+	// Nothing reached the server, and nothing claims to have been saved.
+	await page.waitForTimeout(1000);
+	expect(posts).toBe(0);
+	await expect(page.getByTestId('capture-result')).toHaveCount(0);
 });

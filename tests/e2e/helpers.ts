@@ -12,7 +12,7 @@ export async function ready(page: Page): Promise<void> {
 export async function signIn(page: Page, email: string): Promise<void> {
 	await page.goto('/login');
 	await ready(page);
-	await page.getByLabel('Email').fill(email);
+	await page.getByLabel('E-mail').fill(email);
 	await page.getByLabel('Password').fill(DEMO_PASSWORD);
 	await page.getByRole('button', { name: 'Sign in' }).click();
 	await expect(page).toHaveURL(/\/jobs$/);

@@ -104,4 +104,48 @@ describe('limit profile service', () => {
 			expect(p.limits).toHaveLength(src.limits.length);
 		}
 	});
+
+	it('seeds profiles that judge the unit, with the bench set-up stated before capture', () => {
+		seedLimitProfiles(db);
+		const all = listLimitProfiles(db);
+		for (const p of all) {
+			// The generator's frequency is the bench's, and a drive level is set, not measured.
+			expect(
+				p.limits.map((l) => l.metric),
+				p.name
+			).not.toContain('frequencyHz');
+			expect(
+				p.limits.map((l) => l.metric),
+				p.name
+			).not.toContain('powerW');
+			// Every profile tells the technician how to set up, and keeps it through validation.
+			expect(p.conditions.setup, p.name).toMatch(/\S/);
+		}
+		const power = all.find((p) => p.name.startsWith('Power amp'))!;
+		expect(power.conditions.setup).toMatch(/6\.3 V rms \(about 5 W/);
+		// Balance at three volume positions re maximum (common practice: −20, −40, −60 dB).
+		const balance = all.filter((p) => p.limits.every((l) => l.metric === 'balanceDb'));
+		expect(balance.map((p) => p.name)).toEqual([
+			'Channel balance, volume −20 dB',
+			'Channel balance, volume −40 dB',
+			'Channel balance, volume −60 dB'
+		]);
+		// Crosstalk at 100 Hz, 1 kHz and 10 kHz with the undriven input terminated.
+		const crosstalk = all.filter((p) => p.limits.every((l) => l.metric === 'crosstalkDb'));
+		expect(crosstalk.map((p) => p.conditions.generatorFrequencyHz).sort((a, b) => a! - b!)).toEqual([
+			100, 1000, 10_000
+		]);
+		for (const p of crosstalk) expect(p.conditions.setup).toMatch(/Terminate the undriven input/);
+	});
+
+	it('refuses a set-up text longer than 1000 characters and keeps one that fits', () => {
+		const long = { ...input, name: 'Long', conditions: { ...input.conditions, setup: 'x'.repeat(1001) } };
+		expect(() => createLimitProfile(db, long, 'u1')).toThrow();
+		const ok = createLimitProfile(
+			db,
+			{ ...input, name: 'Fits', conditions: { ...input.conditions, setup: ' Volume at −20 dB. ' } },
+			'u1'
+		);
+		expect(getLimitProfile(db, ok.id)?.conditions.setup).toBe('Volume at −20 dB.');
+	});
 });

@@ -121,7 +121,25 @@ export function deleteLimitProfile(db: Db, id: number): { outcome: 'deleted' | '
 	});
 }
 
-/** Invented shop profiles for the demo. Values are common bench practice, not any maker's spec. */
+/** Balance is checked where volume pots track worst: three positions re maximum (common practice). */
+const BALANCE_POINTS = [
+	{ attenuationDb: 20, limitDb: 1 },
+	{ attenuationDb: 40, limitDb: 1.5 },
+	{ attenuationDb: 60, limitDb: 3 }
+] as const;
+
+/** Crosstalk rises with frequency (stray capacitance), so it is checked low, mid and high (common practice). */
+const CROSSTALK_POINTS = [
+	{ frequencyHz: 100, label: '100 Hz', limitDb: -50 },
+	{ frequencyHz: 1000, label: '1 kHz', limitDb: -50 },
+	{ frequencyHz: 10_000, label: '10 kHz', limitDb: -40 }
+] as const;
+
+/**
+ * Invented shop profiles for the demo. Values are common bench practice, not any maker's spec.
+ * They judge the unit, never the bench: the generator's frequency and the drive level are set-up
+ * conditions the technician establishes (shown above Capture), not pass/fail limits.
+ */
 export const SEED_LIMIT_PROFILES: ProfileInput[] = [
 	{
 		name: 'Line preamp output, 1 kHz',
@@ -134,14 +152,14 @@ export const SEED_LIMIT_PROFILES: ProfileInput[] = [
 			bandLowHz: 20,
 			bandHighHz: 20_000,
 			weighting: 'none',
-			notes: 'Tone controls flat or defeated, loudness off.'
+			notes: 'Tone controls flat or defeated, loudness off.',
+			setup:
+				'Generator 1 kHz into a line input, both channels driven. Tone controls flat or defeated, loudness off, balance centred. Volume set for about 0.5 V rms at the output, into a 10 kΩ load.'
 		},
 		limits: [
 			{ metric: 'thdnPercent', channel: 'each', op: 'le', value: 0.05, unit: '%' },
 			{ metric: 'snrDb', channel: 'each', op: 'ge', value: 80, unit: 'dB' },
-			{ metric: 'balanceDb', channel: 'each', op: 'le', value: 0.5, unit: 'dB' },
-			{ metric: 'frequencyHz', channel: 'each', op: 'ge', value: 990, unit: 'Hz' },
-			{ metric: 'frequencyHz', channel: 'each', op: 'le', value: 1010, unit: 'Hz' }
+			{ metric: 'balanceDb', channel: 'each', op: 'le', value: 0.5, unit: 'dB' }
 		]
 	},
 	{
@@ -155,34 +173,52 @@ export const SEED_LIMIT_PROFILES: ProfileInput[] = [
 			bandLowHz: 20,
 			bandHighHz: 20_000,
 			weighting: 'none',
-			notes: 'Set the volume for about 6.3 V rms (5 W) per channel before capturing.'
+			setup:
+				'Both channels into resistive 8 Ω dummy loads rated well above 5 W. Raise the volume until each channel reads about 6.3 V rms (about 5 W, P = V²/R), then capture. The drive level is a set-up condition, not a pass mark. Keep an attenuator between the amplifier output and the interface input.'
 		},
 		limits: [
-			{ metric: 'powerW', channel: 'each', op: 'ge', value: 4.5, unit: 'W' },
 			{ metric: 'thdPercent', channel: 'each', op: 'le', value: 0.1, unit: '%' },
 			{ metric: 'thdnPercent', channel: 'each', op: 'le', value: 0.1, unit: '%' },
 			{ metric: 'snrDb', channel: 'each', op: 'ge', value: 75, unit: 'dB' },
 			{ metric: 'balanceDb', channel: 'each', op: 'le', value: 1, unit: 'dB' }
 		]
 	},
-	{
-		name: 'Channel balance',
-		description: 'Both channels driven alike, balance control centred. Common practice tolerance.',
-		conditions: { generatorFrequencyHz: 1000, bandLowHz: 20, bandHighHz: 20_000, weighting: 'none' },
-		limits: [{ metric: 'balanceDb', channel: 'each', op: 'le', value: 0.5, unit: 'dB' }]
-	},
-	{
-		name: 'Crosstalk, one channel driven',
-		description:
-			'Drive one channel only (generator drive left or right); the other is measured at the same frequency.',
-		conditions: { generatorFrequencyHz: 1000, bandLowHz: 20, bandHighHz: 20_000, weighting: 'none' },
-		limits: [{ metric: 'crosstalkDb', channel: 'each', op: 'le', value: -50, unit: 'dB' }]
-	},
+	...BALANCE_POINTS.map((b): ProfileInput => ({
+		name: `Channel balance, volume −${b.attenuationDb} dB`,
+		description: `Balance with the volume about ${b.attenuationDb} dB below maximum; one of three positions (−20, −40, −60 dB), since a worn volume pot tracks worst near the bottom. Tolerance is common practice.`,
+		conditions: {
+			generatorFrequencyHz: 1000,
+			bandLowHz: 20,
+			bandHighHz: 20_000,
+			weighting: 'none',
+			setup: `Both channels driven alike at 1 kHz, balance centred, tone controls flat. Keep the generator low enough that the unit stays well below rated output at full volume. Note the output level with the volume at maximum, then turn the volume down until the output is about ${b.attenuationDb} dB lower, and capture.`
+		},
+		limits: [{ metric: 'balanceDb', channel: 'each', op: 'le', value: b.limitDb, unit: 'dB' }]
+	})),
+	...CROSSTALK_POINTS.map((c): ProfileInput => ({
+		name: `Crosstalk at ${c.label}, one channel driven`,
+		description: `Crosstalk at ${c.label}; one of three frequencies (100 Hz, 1 kHz, 10 kHz). Tolerance is common practice.`,
+		conditions: {
+			generatorFrequencyHz: c.frequencyHz,
+			bandLowHz: 20,
+			bandHighHz: 20_000,
+			weighting: 'none',
+			setup: `Drive one channel only (generator drive left or right) at ${c.label}. Terminate the undriven input with a shorting plug or a resistor near the source impedance: an open input picks up more than the unit leaks and reads worse than it is. Capture once with each channel driven.`
+		},
+		limits: [{ metric: 'crosstalkDb', channel: 'each', op: 'le', value: c.limitDb, unit: 'dB' }]
+	})),
 	{
 		name: 'Steadiness after control cleaning',
 		description:
 			'Work the volume and balance controls, stop, and capture: a clean control settles within a few seconds.',
-		conditions: { generatorFrequencyHz: 1000, bandLowHz: 20, bandHighHz: 20_000, weighting: 'none' },
+		conditions: {
+			generatorFrequencyHz: 1000,
+			bandLowHz: 20,
+			bandHighHz: 20_000,
+			weighting: 'none',
+			setup:
+				'Generator on at 1 kHz. Work the volume, balance and selector through their travel a few times, leave them at a normal listening position, hands off, and capture after a few seconds.'
+		},
 		limits: [
 			{ metric: 'levelSpreadDb', channel: 'each', op: 'le', value: 0.2, unit: 'dB' },
 			{ metric: 'thdnSpreadDb', channel: 'each', op: 'le', value: 3, unit: 'dB' }
@@ -191,7 +227,13 @@ export const SEED_LIMIT_PROFILES: ProfileInput[] = [
 	{
 		name: 'Residual noise, A-weighted',
 		description: 'Input shorted or generator off, volume at minimum; measures hiss and hum at the output.',
-		conditions: { bandLowHz: 20, bandHighHz: 20_000, weighting: 'a', loadOhms: 8 },
+		conditions: {
+			bandLowHz: 20,
+			bandHighHz: 20_000,
+			weighting: 'a',
+			loadOhms: 8,
+			setup: 'Generator off, the input shorted or terminated, volume at minimum, outputs into the 8 Ω loads.'
+		},
 		limits: [{ metric: 'noiseVrms', channel: 'each', op: 'le', value: 500, unit: 'µV' }]
 	}
 ];

@@ -3,6 +3,12 @@
 import type { CompactSpectrum } from '$lib/dsp/spectrum';
 
 export type SnapshotStageView = 'before' | 'after' | 'other';
+/** The one name each stage has on screen; the stored values stay as they are. */
+export const SNAPSHOT_STAGE_LABELS: Record<SnapshotStageView, string> = {
+	before: 'Before',
+	after: 'After',
+	other: 'Other'
+};
 export type SnapshotVerdictView = 'pass' | 'fail' | 'none';
 
 /** Headline figures of one channel, for lists. */

@@ -1,0 +1,103 @@
+// Accessibility: axe-core (from npm, injected into the page) checks every page against WCAG 2.0,
+// 2.1 and 2.2 levels A and AA, in the dark and the light theme. Pages are found on disk
+// (tests/e2e/pages.ts), so a new page is checked without being listed here.
+import { expect, test, type Page } from '@playwright/test';
+import { createRequire } from 'node:module';
+import { pagesToCheck, PUBLIC_PAGES } from './pages';
+import { ready, signIn } from './helpers';
+
+const AXE_PATH = createRequire(import.meta.url).resolve('axe-core/axe.min.js');
+/** WCAG 2.2 AA as axe tags its rules (2.2 adds only AA rules of its own, tagged wcag22aa). */
+const WCAG_TAGS = ['wcag2a', 'wcag2aa', 'wcag21a', 'wcag21aa', 'wcag22aa'];
+const SCHEMES = ['dark', 'light'] as const;
+
+// The app's Content-Security-Policy (rightly) refuses an injected script; the checker is the
+// test's, not the page's, so the browser is told to let it in.
+test.use({ bypassCSP: true });
+
+interface AxeViolation {
+	id: string;
+	impact: string | null;
+	help: string;
+	nodes: { target: string[]; failureSummary?: string }[];
+}
+
+async function axeViolations(page: Page): Promise<AxeViolation[]> {
+	await page.addScriptTag({ path: AXE_PATH });
+	return page.evaluate(async (tags) => {
+		const axe = (
+			window as unknown as {
+				axe: { run: (ctx: unknown, opts: unknown) => Promise<{ violations: AxeViolation[] }> };
+			}
+		).axe;
+		const r = await axe.run(document, {
+			runOnly: { type: 'tag', values: tags },
+			resultTypes: ['violations']
+		});
+		return r.violations.map((v) => ({
+			id: v.id,
+			impact: v.impact,
+			help: v.help,
+			nodes: v.nodes.slice(0, 5).map((n) => ({ target: n.target, failureSummary: n.failureSummary }))
+		}));
+	}, WCAG_TAGS);
+}
+
+function describe(path: string, scheme: string, violations: AxeViolation[]): string[] {
+	return violations.map(
+		(v) =>
+			`${path} (${scheme}) ${v.id}: ${v.help} — ${v.nodes
+				.map(
+					(n) =>
+						`${n.target.join(' ')}${n.failureSummary ? ` [${n.failureSummary.replace(/\s+/g, ' ').slice(0, 160)}]` : ''}`
+				)
+				.join(' | ')}`
+	);
+}
+
+/** The app's own theme switch keeps its choice here (see src/app.html); pages read it before paint. */
+async function setTheme(page: Page, scheme: (typeof SCHEMES)[number]) {
+	await page.evaluate((t) => localStorage.setItem('benchlight-theme', t), scheme);
+}
+
+async function open(page: Page, path: string) {
+	await page.goto(path);
+	await ready(page);
+	await page.evaluate(() => new Promise((r) => requestAnimationFrame(() => requestAnimationFrame(r))));
+}
+
+/** Time per page: load, the bridge link on live pages, and axe itself on a busy page. */
+const PER_PAGE_MS = 20_000;
+
+for (const scheme of SCHEMES) {
+	test(`every signed-in page passes the WCAG 2.2 AA checks (${scheme} theme)`, async ({ page }) => {
+		await signIn(page, 'admin@example.com');
+		const pages = await pagesToCheck(page.request);
+		// Grows with the pages found, so a new page never turns this into a timeout.
+		test.setTimeout(60_000 + pages.length * PER_PAGE_MS);
+		await setTheme(page, scheme);
+		const problems: string[] = [];
+		for (const p of pages) {
+			await open(page, p.path);
+			if (/\/(bench|soak)$/.test(p.routeId))
+				await expect(page.getByTestId('link-state'))
+					.toHaveText(/^Connected$/, { timeout: 30_000 })
+					.catch(() => {});
+			problems.push(...describe(p.path, scheme, await axeViolations(page)));
+		}
+		expect(problems, 'WCAG 2.2 AA violations').toEqual([]);
+	});
+}
+
+test('the sign-in and safety pages pass the WCAG 2.2 AA checks signed out', async ({ page }) => {
+	const problems: string[] = [];
+	for (const scheme of SCHEMES) {
+		await page.goto('/login');
+		await setTheme(page, scheme);
+		for (const path of PUBLIC_PAGES) {
+			await open(page, path);
+			problems.push(...describe(path, scheme, await axeViolations(page)));
+		}
+	}
+	expect(problems, 'WCAG 2.2 AA violations').toEqual([]);
+});
