@@ -27,6 +27,10 @@ let db: Db;
 let ratedJob: number;
 let unratedJob: number;
 const T0 = 1_800_000_000_000;
+/** The server's clock in these tests: a day after T0, so every reading below lies in the past. */
+const NOW = T0 + 86_400_000;
+const add = (d: Db, id: number, readings: readonly unknown[], bootId?: string, nowMs = NOW) =>
+	addReadings(d, id, readings, bootId, nowMs);
 
 beforeEach(() => {
 	db = openDb(':memory:');
@@ -115,19 +119,19 @@ describe('readings', () => {
 			reading('heatsink-right', 1002, 31),
 			reading('transformer', 1003, 28)
 		];
-		const first = addReadings(db, id, batch, 'boot-a');
+		const first = add(db, id, batch, 'boot-a');
 		expect(first).toMatchObject({ stored: 3, duplicates: 0, rejected: [], lastSeq: 1003, readingCount: 3 });
-		const again = addReadings(db, id, batch, 'boot-a');
+		const again = add(db, id, batch, 'boot-a');
 		expect(again).toMatchObject({ stored: 0, duplicates: 3, rejected: [], readingCount: 3 });
 		// An overlapping batch stores only what is new.
-		const overlap = addReadings(db, id, [...batch.slice(1), reading('ambient', 1004, 22)]);
+		const overlap = add(db, id, [...batch.slice(1), reading('ambient', 1004, 22)]);
 		expect(overlap).toMatchObject({ stored: 1, duplicates: 2, readingCount: 4 });
 		expect(getRunDetail(db, id).readingCount).toBe(4);
 	});
 
 	it('keeps the valid rest of a mixed batch and names the rejected readings', () => {
 		const { id } = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
-		const res = addReadings(db, id, [
+		const res = add(db, id, [
 			reading('heatsink-left', 2001, 35),
 			reading('heatsink-left', 2002, 401), // above 400 °C
 			reading('heatsink-right', 2003, -50.5), // below −50 °C
@@ -163,7 +167,7 @@ describe('readings', () => {
 	it('a run that has ended refuses more readings and THD+N samples', () => {
 		const { id } = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
 		abortRun(db, id, { reason: 'operator stopped' }, T0 + 5000);
-		expect(() => addReadings(db, id, [reading('ambient', 5, 20)])).toThrow(/has ended/);
+		expect(() => add(db, id, [reading('ambient', 5, 20)])).toThrow(/has ended/);
 		expect(() => addEvents(db, id, [{ kind: 'thdn', at: T0, detail: { thdnPercent: 0.1 } }])).toThrow(
 			/has ended/
 		);
@@ -205,7 +209,7 @@ describe('ending a run', () => {
 			readings.push(reading('heatsink-left', 1000 + 4 * s, s === 60 ? peakLeftC : c, s * 1000));
 			readings.push(reading('heatsink-right', 1001 + 4 * s, c, s * 1000));
 		}
-		addReadings(db, id, readings, 'boot-a');
+		add(db, id, readings, 'boot-a');
 	}
 
 	it('refuses to finish before the duration', () => {
@@ -241,7 +245,7 @@ describe('ending a run', () => {
 		// Readings only for soak minutes 0..40 (wall seconds 0..40): 20 minutes are missing.
 		const readings = [];
 		for (let s = 0; s <= 40; s++) readings.push(reading('heatsink-left', 1000 + s, 30, s * 1000));
-		addReadings(db, id, readings);
+		add(db, id, readings);
 		const d = finishRun(db, id, T0 + 60_000);
 		expect(d.summary.coveredS).toBe(2400); // 40 wall s × 60
 		expect(d.summary.incomplete).toBe(true); // 2400 < 3600 − max(60, 3 × 60)
@@ -253,7 +257,7 @@ describe('ending a run', () => {
 		const id = fastRun();
 		heatUp(id, 55);
 		// The page came back late: the unit ran on and reached 90 °C at wall second 70 (soak minute 70).
-		addReadings(db, id, [
+		add(db, id, [
 			reading('heatsink-left', 2000, 90, 70_000),
 			reading('heatsink-right', 2001, 90, 70_000)
 		]);
@@ -275,7 +279,8 @@ describe('ending a run', () => {
 			message: 'too hot'
 		};
 		const d = abortRun(db, id, { reason: 'Limit breached: too hot', at: T0 + 42_000, breach }, T0 + 43_000);
-		expect(d.verdict).toBe('aborted');
+		// A limit breach fails the run, with the breach as the reason: aborted is a technician's stop.
+		expect(d.verdict).toBe('failed');
 		expect(d.run.endedAt).toBe(T0 + 42_000);
 		expect(d.run.abortReason).toBe('Limit breached: too hot');
 		expect(d.events.map((e) => e.kind)).toEqual(['start', 'breach', 'abort']);
@@ -360,7 +365,7 @@ describe('an abandoned run', () => {
 			readings.push(reading('heatsink-left', 1000 + 2 * s, 30 + s / 10, s * 1000));
 			readings.push(reading('heatsink-right', 1001 + 2 * s, 30 + s / 10, s * 1000));
 		}
-		addReadings(db, id, readings, 'boot-a');
+		add(db, id, readings, 'boot-a');
 		return id;
 	}
 
@@ -439,7 +444,7 @@ describe('a server restart', () => {
 				const batch = Array.from({ length: 100 }, (_, i) =>
 					reading('heatsink-left', 10_000 + b * 100 + i, 30 + i / 100)
 				);
-				acknowledged += addReadings(live, id, batch, 'boot-a').stored;
+				acknowledged += add(live, id, batch, 'boot-a').stored;
 			}
 			// The process dies here: no close, no checkpoint. Copy the files exactly as they are on disk.
 			const copy = join(dir, 'after-crash.db');
