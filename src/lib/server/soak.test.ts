@@ -460,3 +460,86 @@ describe('a server restart', () => {
 		}
 	});
 });
+
+describe('the summary kept as readings arrive', () => {
+	/**
+	 * An hour at time scale 1, three probes every 2 s: heating towards 48 °C then flat (steady
+	 * state), a bridge restart, a 40 s silence, a rise-rate spike on the transformer and a
+	 * left/right split late in the run.
+	 */
+	function record(): { probe: string; seq: number; t: number; celsius: number; bootId: string }[] {
+		const out = [];
+		let seq = 5000;
+		for (let s = 0; s <= 3600; s += 2) {
+			if (s > 1500 && s < 1540) continue; // silence
+			const boot = s < 1000 ? 'boot-a' : 'boot-b';
+			const base = 25 + 23 * (1 - Math.exp(-s / 400));
+			const spike = s >= 2200 && s < 2230 ? (s - 2200) * 0.6 : 0; // up to 17 °C in 30 s
+			const split = s > 3000 ? (s - 3000) / 40 : 0; // left pulls away by up to 15 °C
+			out.push({ probe: 'heatsink-left', seq: ++seq, t: T0 + s * 1000, celsius: base + split, bootId: boot });
+			out.push({ probe: 'heatsink-right', seq: ++seq, t: T0 + s * 1000, celsius: base, bootId: boot });
+			out.push({ probe: 'transformer', seq: ++seq, t: T0 + s * 1000, celsius: base - 5 + spike, bootId: boot });
+		}
+		return out;
+	}
+
+	it('equals the summary computed from the whole stored record, uploaded in uneven batches', async () => {
+		const { rebuildSummary } = await import('./soak-summary');
+		const { id } = createRun(
+			db,
+			ratedJob,
+			'u1',
+			{ preset: 'custom', custom: { watts: 10, frequencyHz: 1000, durationS: 3600, channels: ['left', 'right'] } },
+			T0
+		);
+		const all = record();
+		for (let i = 0, n = 1; i < all.length; i += n, n = (n * 7) % 61 + 1) add(db, id, all.slice(i, i + n));
+		const incremental = getRunDetail(db, id, T0 + 3_600_000).summary;
+		const row = db.select().from(table.soakRuns).where(eq(table.soakRuns.id, id)).get()!;
+		const full = rebuildSummary(db, row, getRunDetail(db, id, T0 + 3_600_000).limits).summary;
+		expect(incremental.probes).toEqual(full.probes);
+		expect(incremental.gaps).toEqual(full.gaps);
+		expect(incremental.breaches).toEqual(full.breaches);
+		expect(incremental.steadyStateS).toBe(full.steadyStateS);
+		expect(incremental.coveredS).toBe(full.coveredS);
+		// The record shows what it was built to show (so the comparison above compares something).
+		expect(full.gaps.map((g) => g.reason)).toEqual(['bridge-restart', 'silence']);
+		expect(full.breaches.map((b) => b.kind).sort()).toEqual(['left-right', 'rise-rate']);
+		expect(full.steadyStateS).not.toBeNull();
+	});
+
+	it('charts a run in at most 720 buckets per probe whatever the readings span', () => {
+		const { id } = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
+		// The earliest and the latest moments the window allows, and a day of readings between.
+		const readings = [];
+		for (let i = 0; i <= 2000; i++)
+			readings.push({ probe: 'heatsink-left', seq: 10 + i, t: T0 - 120_000 + i * 43_200, celsius: 30 + (i % 7) });
+		const res = add(db, id, readings, undefined, T0 + 86_400_000);
+		expect(res.rejected).toEqual([]);
+		const d = getRunDetail(db, id, T0 + 3_000_000);
+		const chart = d.series.probes['heatsink-left'];
+		expect(d.series.minutes.length).toBeLessThanOrEqual(720);
+		expect(chart.meanC.length).toBe(d.series.minutes.length);
+		// Every reading is counted once: the bucket means weigh back to the mean of the readings.
+		const rows = db.select().from(table.soakSeries).where(eq(table.soakSeries.runId, id)).all();
+		expect(rows.reduce((n, r) => n + r.n, 0)).toBe(2001);
+		expect(Math.max(...rows.map((r) => r.maxC))).toBe(36);
+	});
+
+	it('ends a technician\'s stop as aborted, but a stop over a stored breach as failed with the breach', () => {
+		const a = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0).id;
+		add(db, a, [reading('heatsink-left', 1001, 40, 1000), reading('heatsink-right', 1002, 40, 1000)]);
+		const stopped = abortRun(db, a, { reason: 'Customer collected early' }, T0 + 5000);
+		expect(stopped).toMatchObject({ verdict: 'aborted', run: { abortReason: 'Customer collected early' } });
+		// The stored figures are the summary's: readings count, max under the card.
+		expect(stopped.summary.probes['heatsink-left']).toMatchObject({ maxC: 40, readings: 1 });
+
+		const b = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0 + 10_000).id;
+		add(db, b, [reading('heatsink-left', 1011, 90, 11_000)]); // above the 70 °C default
+		const failed = abortRun(db, b, { reason: 'Stopped' }, T0 + 12_000);
+		expect(failed.verdict).toBe('failed');
+		// Probe names as a person reads them, never the id.
+		expect(failed.run.abortReason).toMatch(/^Limit breached: Heatsink L reached 90\.0 °C/);
+		expect(failed.run.abortReason).not.toMatch(/heatsink-left/);
+	});
+});
