@@ -322,7 +322,7 @@ export function rebuildSummary(tx: Tx, row: RunRow, limits: SoakLimits): { summa
 		summary,
 		state: {
 			readingCount: all.length,
-			lastSeq: all.length ? Math.max(...all.map((r) => r.seq)) : null,
+			lastSeq: all.reduce<number | null>((m, r) => (m === null || r.seq > m ? r.seq : m), null),
 			finalSeq,
 			steadyFromS: null,
 			thdnEndT: lastThdn?.t ?? null
