@@ -237,7 +237,13 @@ test('a one-eighth-power soak survives a reload, finishes, and stores every read
 
 	// The job page lists it with its verdict.
 	await page.goto(`/jobs/${jobId}`);
-	await expect(page.getByTestId('soak-run-item').first()).toHaveAttribute('data-verdict', 'passed');
+	const item = page.getByTestId('soak-run-item').first();
+	await expect(item).toHaveAttribute('data-verdict', 'passed');
+	// A readable thumbnail (one line per probe) and the counts from the stored summary.
+	await expect(item.getByTestId('soak-run-thumb').locator('path')).toHaveCount(d.run.probes.length);
+	await expect(item.getByTestId('soak-run-counts')).toContainText(`${d.readingCount.toLocaleString('en')} readings`);
+	await expect(item).toContainText('Heatsink L');
+	await expect(item).not.toContainText('heatsink-left');
 });
 
 test('a bridge restart mid-run shows as a marked gap, not as lost data', async ({ page }) => {
@@ -279,7 +285,7 @@ test('a bridge restart mid-run shows as a marked gap, not as lost data', async (
 	expect(newBootProduced.every((r) => seqs.has(r.seq))).toBe(true);
 });
 
-test('a breach sounds the alarm, turns the generator off and aborts the run', async ({ page }) => {
+test('a breach sounds the alarm, turns the generator off and fails the run with the breach as the reason', async ({ page }) => {
 	test.setTimeout(90_000);
 	await signIn(page, 'tech2@example.com');
 	const jobId = await newRatedJob(page.request, `SK-BREACH-${Date.now().toString(36)}`);
@@ -292,17 +298,20 @@ test('a breach sounds the alarm, turns the generator off and aborts the run', as
 
 	const alarm = page.getByTestId('soak-alarm');
 	await expect(alarm).toBeVisible({ timeout: 45_000 });
-	await expect(page.getByTestId('soak-alarm-message')).toContainText('heatsink');
+	// Probe names as a person reads them, never the id.
+	await expect(page.getByTestId('soak-alarm-message')).toContainText(/Heatsink [LR]/);
+	await expect(page.getByTestId('soak-alarm-message')).not.toContainText('heatsink-');
 	// Audible: the WebAudio alarm is sounding (Chromium runs with autoplay allowed here).
 	await expect(alarm).toHaveAttribute('data-sound', 'on');
 	await expect(page.getByTestId('soak-alarm-generator')).toHaveText('off', { timeout: 10_000 });
-	await expect(page.getByTestId('soak-run')).toHaveAttribute('data-status', 'aborted', { timeout: 20_000 });
+	// A limit breach is a failed run, not an aborted one: aborted is a technician's stop.
+	await expect(page.getByTestId('soak-run')).toHaveAttribute('data-status', 'failed', { timeout: 20_000 });
 
 	// The bridge itself reports the generator off.
 	expect((await askBridge(0)).generatorKind).toBe('off');
 	const d = await runDetail(page.request, runId);
-	expect(d.run.status).toBe('aborted');
-	expect(d.run.abortReason).toMatch(/^Limit breached: heatsink-(left|right) reached/);
+	expect(d.run.status).toBe('failed');
+	expect(d.run.abortReason).toMatch(/^Limit breached: Heatsink [LR] reached/);
 	expect(d.events.map((e) => e.kind)).toEqual(expect.arrayContaining(['breach', 'abort']));
 	expect(d.summary.breaches[0]?.kind).toBe('max-heatsink');
 });

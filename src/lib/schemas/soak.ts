@@ -39,6 +39,8 @@ export const createRunSchema = z
 		/** Any limit not given comes from the shop's `soakDefaultLimits`. */
 		limits: soakLimitsPatchSchema.optional(),
 		probes: z.array(z.enum(PROBE_IDS)).min(1).max(PROBE_IDS.length).optional(),
+		/** The technician confirmed the one-third-power caution (needed on old or unrestored units). */
+		confirmHeat: z.boolean().optional(),
 		/** What the page saw of the bridge at start; optional so `{ preset }` alone works. */
 		bridge: z
 			.object({

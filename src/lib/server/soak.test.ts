@@ -543,3 +543,49 @@ describe('the summary kept as readings arrive', () => {
 		expect(failed.run.abortReason).not.toMatch(/heatsink-left/);
 	});
 });
+
+describe('the one-third-power caution', () => {
+	it('asks for confirmation on a unit made before 1974, and the preset texts never claim compliance', async () => {
+		const { FIXED_PRESETS } = await import('$lib/soak/presets');
+		const c = db.insert(table.customers).values({ name: 'Old Unit Owner' }).returning().get();
+		const old = db
+			.insert(table.jobs)
+			.values({
+				customerId: c.id,
+				category: 'receiver',
+				make: 'Vellum',
+				model: 'R-70',
+				complaint: 'recap',
+				year: 1971,
+				ratedPowerW: 40,
+				ratedLoadOhms: 8
+			})
+			.returning()
+			.get().id;
+		expect(() => createRun(db, old, 'u1', { preset: 'third-power-60' }, T0)).toThrow(/Confirm the one-third-power caution/);
+		// ⅛ power needs no confirmation; ⅓ power does, and runs once given.
+		expect(createRun(db, old, 'u1', { preset: 'third-power-60', confirmHeat: true }, T0).id).toBeGreaterThan(0);
+		// A newer unit (the rated job has no year) starts without it.
+		expect(createRun(db, ratedJob, 'u1', { preset: 'third-power-60' }, T0).id).toBeGreaterThan(0);
+		for (const p of FIXED_PRESETS) {
+			expect(p.meaning).toMatch(/not a power-rating test and does not show compliance/);
+			expect(p.basis).toMatch(/preconditioning/);
+		}
+		expect(FIXED_PRESETS.find((p) => p.id === 'third-power-60')?.caution).toMatch(/worst-case heat of a class-AB/);
+	});
+
+	it('a signed-off job refuses a new soak (409), and takes one again once reopened', () => {
+		db.update(table.jobs).set({ status: 'approved' }).where(eq(table.jobs.id, ratedJob)).run();
+		let err: unknown;
+		try {
+			createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
+		} catch (e) {
+			err = e;
+		}
+		expect(err).toBeInstanceOf(DomainError);
+		expect((err as DomainError).code).toBe('conflict');
+		expect(listRuns(db, ratedJob, T0)).toHaveLength(0);
+		db.update(table.jobs).set({ status: 'diagnosing' }).where(eq(table.jobs.id, ratedJob)).run();
+		expect(createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0).id).toBeGreaterThan(0);
+	});
+});

@@ -7,7 +7,14 @@ import type { Db } from './db/open';
 import * as table from './db/schema';
 import { assertJobOpen, getJob } from './jobs';
 import { PROBE_IDS } from '$lib/bridge/protocol';
-import { computeDrive, PRESET_LABELS, type SoakChannel, type SoakPresetId } from '$lib/soak/presets';
+import {
+	computeDrive,
+	fixedPreset,
+	needsHeatConfirmation,
+	PRESET_LABELS,
+	type SoakChannel,
+	type SoakPresetId
+} from '$lib/soak/presets';
 import { runLimits, soakLimitsPatchSchema, soakLimitsSchema, type SoakLimits } from '$lib/soak/soak-limits';
 import { DomainError } from './errors';
 import { getSetting } from './settings';
@@ -253,6 +260,12 @@ export function createRun(
 		data.custom
 	);
 	if (!drive.ok) throw new DomainError('invalid', drive.message);
+	if (needsHeatConfirmation(data.preset, { year: job.year }) && data.confirmHeat !== true)
+		throw new DomainError(
+			'invalid',
+			`Confirm the one-third-power caution first (send confirmHeat: true): ${fixedPreset(data.preset)?.caution ?? ''}`,
+			[{ path: 'confirmHeat', message: `required for one-third power on a unit made before 1974 (this one: ${job.year})` }]
+		);
 	const timeScale = data.bridge?.timeScale ?? 1;
 	const simulated =
 		data.bridge?.source === 'sim' && (data.bridge.temps === undefined || data.bridge.temps === 'sim');

@@ -16,9 +16,17 @@ export interface FixedPreset {
 	powerFraction: number;
 	durationS: number;
 	frequencyHz: number;
-	/** Where the preset comes from, shown beside it. */
+	/** Where the drive level comes from, shown beside it. */
 	basis: string;
+	/** What a pass means (and does not), shown beside it and with the verdict. */
+	meaning: string;
+	/** A caution shown before starting, when the preset carries one. */
+	caution?: string;
 }
+
+/** What every borrowed-level preset says of its verdict. */
+const BURN_IN_MEANING =
+	'A shop burn-in at the rule\'s preconditioning level: a pass says the unit ran an hour at this level within the shop\'s limits. It is not a power-rating test and does not show compliance with the rule.';
 
 export const FIXED_PRESETS: readonly FixedPreset[] = [
 	{
@@ -27,7 +35,8 @@ export const FIXED_PRESETS: readonly FixedPreset[] = [
 		powerFraction: 1 / 8,
 		durationS: 3600,
 		frequencyHz: 1000,
-		basis: 'Preconditioning in the US FTC amplifier rule, 16 CFR Part 432 as amended in 2000'
+		basis: 'Drive level borrowed from the preconditioning step of the US FTC amplifier rule (16 CFR Part 432, as amended in 2000)',
+		meaning: BURN_IN_MEANING
 	},
 	{
 		id: 'third-power-60',
@@ -35,9 +44,27 @@ export const FIXED_PRESETS: readonly FixedPreset[] = [
 		powerFraction: 1 / 3,
 		durationS: 3600,
 		frequencyHz: 1000,
-		basis: 'Preconditioning in the original 1974 FTC amplifier rule (16 CFR Part 432)'
+		basis: 'Drive level borrowed from the preconditioning step of the original 1974 FTC amplifier rule (16 CFR Part 432)',
+		meaning: BURN_IN_MEANING,
+		caution:
+			'One-third power is close to the worst-case heat of a class-AB output stage (its dissipation peaks around a third to two-fifths of full power, common practice). On a unit marked unrestored or made before 1974 — old capacitors, dried thermal compound, tired bias — confirm before starting, and stay with it.'
 	}
 ];
+
+/** Units older than this (by the job's year) need the one-third-power caution confirmed. */
+export const HEAT_CONFIRM_BEFORE_YEAR = 1974;
+
+/**
+ * Whether a preset needs the technician's explicit confirmation on this unit: one-third power
+ * on a unit marked unrestored or made before 1974.
+ */
+export function needsHeatConfirmation(
+	preset: SoakPresetId,
+	unit: { year: number | null | undefined; unrestored?: boolean | null }
+): boolean {
+	if (preset !== 'third-power-60') return false;
+	return unit.unrestored === true || (typeof unit.year === 'number' && unit.year < HEAT_CONFIRM_BEFORE_YEAR);
+}
 
 export function fixedPreset(id: SoakPresetId): FixedPreset | undefined {
 	return FIXED_PRESETS.find((p) => p.id === id);

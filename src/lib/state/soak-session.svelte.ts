@@ -45,6 +45,8 @@ export interface StartParams {
 	preset: SoakPresetId;
 	custom?: CustomDrive;
 	limits: Partial<SoakLimits>;
+	/** The technician confirmed the one-third-power caution (old or unrestored units). */
+	confirmHeat?: boolean;
 }
 
 const key = (r: { probe: string; seq: number }) => `${r.probe}:${r.seq}`;
@@ -321,6 +323,7 @@ export class SoakSession {
 			preset: params.preset,
 			...(params.preset === 'custom' ? { custom: params.custom } : {}),
 			limits: params.limits,
+			...(params.confirmHeat ? { confirmHeat: true } : {}),
 			bridge: {
 				bootId: hello.bootId,
 				lastSeq: this.#link.lastTempSeq ?? hello.lastTempSeq,
