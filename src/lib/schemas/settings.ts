@@ -57,7 +57,9 @@ export const DEFAULT_SOAK_LIMITS: SoakLimits = {
 	maxHeatsinkC: 70,
 	maxRiseCPerMin: 8,
 	maxDiffC: 10,
-	thdnCeilingDb: null
+	// On by default: a unit whose distortion climbs past 1 % (−40 dB) while it heats is failing,
+	// whatever its temperatures say (common practice for a healthy solid-state amplifier at ⅛ power).
+	thdnCeilingDb: -40
 };
 
 export const SETTINGS_KEYS = ['shopName', 'bridgeUrl', 'mainsHz', 'soakDefaultLimits'] as const;

@@ -119,6 +119,20 @@ export const eventSchema = z.discriminatedUnion('kind', [
 		.strict(),
 	z
 		.object({
+			/** DC at the output, logged where the input is DC-coupled (the bridge says so). */
+			kind: z.literal('dc-offset'),
+			at,
+			key,
+			detail: z
+				.object({
+					channel: z.enum(['left', 'right']),
+					dcVolts: z.number().min(-100).max(100)
+				})
+				.strict()
+		})
+		.strict(),
+	z
+		.object({
 			kind: z.literal('note'),
 			at,
 			key,
@@ -131,7 +145,7 @@ export const eventsBodySchema = z.object({ events: z.array(eventSchema).min(1).m
 
 export const breachSchema = z
 	.object({
-		kind: z.enum(['max-heatsink', 'rise-rate', 'left-right', 'thdn']),
+		kind: z.enum(['max-heatsink', 'rise-rate', 'left-right', 'thdn', 'output-dropout']),
 		probe: z.string().max(80),
 		/** The reading's bridge time, ms since the epoch; the server also checks it lies within the run. */
 		t: z.number().min(0).max(8.64e15),

@@ -98,13 +98,15 @@ describe('temperature units', () => {
 
 describe('run limits from the shop setting', () => {
 	it('takes the shop defaults and the changes made for this run', () => {
+		// The THD+N ceiling is watched unless a shop or a run turns it off.
 		expect(runLimits(DEFAULT_SOAK_LIMITS)).toEqual({
 			...DEFAULT_SOAK_LIMITS,
-			thdnCeilingDb: null,
+			thdnCeilingDb: -40,
 			riseWindowS: 60
 		});
-		const l = runLimits(DEFAULT_SOAK_LIMITS, { maxHeatsinkC: 80, thdnCeilingDb: -40, maxDiffC: undefined });
-		expect(l).toMatchObject({ maxHeatsinkC: 80, thdnCeilingDb: -40, maxDiffC: DEFAULT_SOAK_LIMITS.maxDiffC });
+		const l = runLimits(DEFAULT_SOAK_LIMITS, { maxHeatsinkC: 80, thdnCeilingDb: -50, maxDiffC: undefined });
+		expect(l).toMatchObject({ maxHeatsinkC: 80, thdnCeilingDb: -50, maxDiffC: DEFAULT_SOAK_LIMITS.maxDiffC });
+		expect(runLimits(DEFAULT_SOAK_LIMITS, { thdnCeilingDb: null }).thdnCeilingDb).toBeNull();
 		expect(() => runLimits(DEFAULT_SOAK_LIMITS, { maxHeatsinkC: -5 })).toThrow();
 	});
 	it('converts a THD+N ceiling between dB and percent', () => {

@@ -49,7 +49,8 @@ export const isHeatsinkProbe = (probe: string) => probe.startsWith('heatsink');
 /** Ambient drifts with the room, not with the unit: it is logged but not judged. */
 export const isAmbientProbe = (probe: string) => probe.startsWith('ambient');
 
-export type BreachKind = 'max-heatsink' | 'rise-rate' | 'left-right' | 'thdn';
+/** `output-dropout`: the output level fell away suddenly while driven (a protection relay opening). */
+export type BreachKind = 'max-heatsink' | 'rise-rate' | 'left-right' | 'thdn' | 'output-dropout';
 
 export interface Breach {
 	kind: BreachKind;
