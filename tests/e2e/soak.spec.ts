@@ -144,6 +144,7 @@ interface RunDetail {
 		durationS: number;
 		timeScale: number;
 		abortReason: string | null;
+		probes: string[];
 	};
 	readingCount: number;
 	lastSeq: number | null;
