@@ -238,14 +238,16 @@ export class SoakSession {
 		const detail = await this.#fetchDetail(runId);
 		if (!detail) return;
 		this.#detail = detail;
-		await this.#loadServerReadings(runId);
 		const outbox = this.#newOutbox(runId);
 		if (detail.run.status !== 'running') {
+			// An ended run is shown from the server's stored summary and chart: no reading is loaded,
+			// so a day-long record opens at once.
 			this.#phase = 'ended';
 			outbox.close();
 			this.#bump();
 			return;
 		}
+		await this.#loadServerReadings(runId);
 		this.#watchFor(detail).seedThdn(
 			detail.events
 				.filter((e) => e.kind === 'thdn')
