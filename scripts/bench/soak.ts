@@ -212,6 +212,21 @@ async function runDay(
 			`upload median first hour ${median(uploadMs.slice(0, 28)).toFixed(1)} ms, last hour ${median(late).toFixed(1)} ms, max ${Math.max(...uploadMs).toFixed(1)} ms`
 	);
 
+	// What the page sends every few seconds late in the day: a THD+N sample and a DC reading.
+	const eventMs: number[] = [];
+	for (let k = 0; k < 10; k++) {
+		const at = t0 + (DAY_S - 100 + k) * 1000;
+		const start = performance.now();
+		soak.addEvents(db, id, [
+			{ kind: 'thdn', at, key: `late-thdn-${k}`, detail: { thdnPercent: 0.021, channel: 'left' } },
+			{ kind: 'dc-offset', at, key: `late-dc-${k}`, detail: { channel: 'left', dcVolts: 0.004 } }
+		]);
+		eventMs.push(performance.now() - start);
+	}
+	console.log(
+		`soak 24 h: an event upload late in the day (2 keyed events against ${soak.getRunDetail(db, id, t0 + (DAY_S + 4) * 1000).events.length} stored): median ${median(eventMs).toFixed(1)} ms`
+	);
+
 	const timed = (fn: () => unknown, n = 15) => {
 		const ms: number[] = [];
 		let bytes = 0;

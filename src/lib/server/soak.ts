@@ -571,20 +571,27 @@ export function addEvents(
 			throw new DomainError('conflict', `The run has ended (${row.status}); it takes no more measurements`);
 		let stored = 0;
 		const thdn: ThdnSample[] = [];
+		// The keys this batch names that are already stored: one pass over the run's events per
+		// batch (not one per event), so a day's worth of THD+N samples does not make uploads slow.
+		const keys = [...new Set(events.map((e) => e.key).filter((k): k is string => !!k))];
+		const seen = new Set<string>();
+		for (let i = 0; i < keys.length; i += 500) {
+			const rows = tx
+				.select({ kind: table.soakEvents.kind, key: sql<string>`json_extract(${table.soakEvents.detail}, '$.key')` })
+				.from(table.soakEvents)
+				.where(
+					and(
+						eq(table.soakEvents.runId, runId),
+						inArray(sql`json_extract(${table.soakEvents.detail}, '$.key')`, keys.slice(i, i + 500))
+					)
+				)
+				.all();
+			for (const r of rows) seen.add(`${r.kind}|${r.key}`);
+		}
 		for (const e of events) {
 			if (e.key) {
-				const dup = tx
-					.select({ id: table.soakEvents.id })
-					.from(table.soakEvents)
-					.where(
-						and(
-							eq(table.soakEvents.runId, runId),
-							eq(table.soakEvents.kind, e.kind),
-							sql`json_extract(${table.soakEvents.detail}, '$.key') = ${e.key}`
-						)
-					)
-					.get();
-				if (dup) continue;
+				if (seen.has(`${e.kind}|${e.key}`)) continue;
+				seen.add(`${e.kind}|${e.key}`);
 			}
 			tx.insert(table.soakEvents)
 				.values({
