@@ -161,7 +161,15 @@ async function runDay(
 	const c = db.insert(table.customers).values({ name: 'Bench' }).returning().get();
 	const jobId = db
 		.insert(table.jobs)
-		.values({ customerId: c.id, category: 'receiver', make: 'Vellum', model: 'D-1', complaint: 'bench', ratedPowerW: 100, ratedLoadOhms: 8 })
+		.values({
+			customerId: c.id,
+			category: 'receiver',
+			make: 'Vellum',
+			model: 'D-1',
+			complaint: 'bench',
+			ratedPowerW: 100,
+			ratedLoadOhms: 8
+		})
 		.returning()
 		.get().id;
 	const t0 = Date.now() - (DAY_S + 5) * 1000;
@@ -176,8 +184,14 @@ async function runDay(
 		},
 		t0
 	);
-	const steady = { 'heatsink-left': 62, 'heatsink-right': 61, transformer: 38, ambient: 23 } as Record<string, number>;
-	const tau = { 'heatsink-left': 480, 'heatsink-right': 480, transformer: 1500, ambient: 1 } as Record<string, number>;
+	const steady = { 'heatsink-left': 62, 'heatsink-right': 61, transformer: 38, ambient: 23 } as Record<
+		string,
+		number
+	>;
+	const tau = { 'heatsink-left': 480, 'heatsink-right': 480, transformer: 1500, ambient: 1 } as Record<
+		string,
+		number
+	>;
 	let seq = 1000;
 	let batch: { probe: string; seq: number; t: number; celsius: number }[] = [];
 	const uploadMs: number[] = [];

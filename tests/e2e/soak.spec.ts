@@ -242,7 +242,9 @@ test('a one-eighth-power soak survives a reload, finishes, and stores every read
 	await expect(item).toHaveAttribute('data-verdict', 'passed');
 	// A readable thumbnail (one line per probe) and the counts from the stored summary.
 	await expect(item.getByTestId('soak-run-thumb').locator('path')).toHaveCount(d.run.probes.length);
-	await expect(item.getByTestId('soak-run-counts')).toContainText(`${d.readingCount.toLocaleString('en')} readings`);
+	await expect(item.getByTestId('soak-run-counts')).toContainText(
+		`${d.readingCount.toLocaleString('en')} readings`
+	);
 	await expect(item).toContainText('Heatsink L');
 	await expect(item).not.toContainText('heatsink-left');
 });
@@ -286,7 +288,9 @@ test('a bridge restart mid-run shows as a marked gap, not as lost data', async (
 	expect(newBootProduced.every((r) => seqs.has(r.seq))).toBe(true);
 });
 
-test('a breach sounds the alarm, turns the generator off and fails the run with the breach as the reason', async ({ page }) => {
+test('a breach sounds the alarm, turns the generator off and fails the run with the breach as the reason', async ({
+	page
+}) => {
 	test.setTimeout(90_000);
 	await signIn(page, 'tech2@example.com');
 	const jobId = await newRatedJob(page.request, `SK-BREACH-${Date.now().toString(36)}`);

@@ -178,7 +178,7 @@ describe('soak API', () => {
 		expect((await call(readingsRoute.GET, { path: `${path}?after=x`, params })).status).toBe(400);
 	});
 
-	it('a reading outside the run\'s time window is a 400 naming it; the job list stays quick and bounded', async () => {
+	it("a reading outside the run's time window is a 400 naming it; the job list stays quick and bounded", async () => {
 		const path = `/api/soak-runs/${runId}/readings`;
 		const params = { id: String(runId) };
 		const decadesAhead = Date.now() + 30 * 365 * 86_400_000;
@@ -198,7 +198,10 @@ describe('soak API', () => {
 		expect(rejected.map((x) => x.seq)).toEqual([251, 252, 253, 254]);
 		for (const x of rejected) expect(x.reason).toMatch(/outside the run's time window/);
 		// The job's list reads the stored summary and chart: live counts, a thumbnail of at most 48 points.
-		const list = await call(runsRoute.GET, { path: `/api/jobs/${ratedJob}/soak-runs`, params: { id: String(ratedJob) } });
+		const list = await call(runsRoute.GET, {
+			path: `/api/jobs/${ratedJob}/soak-runs`,
+			params: { id: String(ratedJob) }
+		});
 		expect(list.status).toBe(200);
 		const item = (list.body.runs as { readingCount: number; thumb: { minutes: number[] } }[])[0];
 		expect(item.readingCount).toBe(6); // 3 + 2 + 1 stored by this suite so far
@@ -247,7 +250,13 @@ describe('soak API', () => {
 			body: { preset: 'eighth-power-60' }
 		});
 		expect(res.status).toBe(409);
-		expect(db.select().from(table.soakRuns).all().filter((x) => x.jobId === signedOff)).toHaveLength(0);
+		expect(
+			db
+				.select()
+				.from(table.soakRuns)
+				.all()
+				.filter((x) => x.jobId === signedOff)
+		).toHaveLength(0);
 	});
 
 	it('finish is refused before the duration; abort ends the run and later readings are refused', async () => {

@@ -83,7 +83,11 @@ function readingsBetween(tx: Tx, runId: number, fromT: number, toT: number): Soa
 		.select(readingColumns)
 		.from(table.soakReadings)
 		.where(
-			and(eq(table.soakReadings.runId, runId), gte(table.soakReadings.t, fromT), lte(table.soakReadings.t, toT))
+			and(
+				eq(table.soakReadings.runId, runId),
+				gte(table.soakReadings.t, fromT),
+				lte(table.soakReadings.t, toT)
+			)
 		)
 		.all();
 }
@@ -122,7 +126,10 @@ function mergeBreaches(into: Breach[], found: readonly Breach[]): Breach[] {
 /** Fold readings into the chart buckets: one upsert per touched bucket. */
 function foldSeries(tx: Tx, row: RunRow, readings: readonly SoakReadingIn[]): void {
 	const run = seriesRunOf(row);
-	const acc = new Map<string, { probe: string; bucket: number; n: number; sumC: number; minC: number; maxC: number }>();
+	const acc = new Map<
+		string,
+		{ probe: string; bucket: number; n: number; sumC: number; minC: number; maxC: number }
+	>();
 	for (const r of readings) {
 		const bucket = seriesBucket(run, r.t);
 		const k = `${r.probe}|${bucket}`;
@@ -152,7 +159,13 @@ function foldSeries(tx: Tx, row: RunRow, readings: readonly SoakReadingIn[]): vo
 }
 
 /** One row per bridge tick (seq) between two seqs, judged readings only: the input of the gap finder. */
-function ticksBetween(tx: Tx, runId: number, fromSeq: number, toSeq: number, untilMs: number): SoakReadingIn[] {
+function ticksBetween(
+	tx: Tx,
+	runId: number,
+	fromSeq: number,
+	toSeq: number,
+	untilMs: number
+): SoakReadingIn[] {
 	return tx
 		.select({
 			probe: sql<string>`''`,
@@ -175,7 +188,13 @@ function ticksBetween(tx: Tx, runId: number, fromSeq: number, toSeq: number, unt
 		.all();
 }
 
-function neighbourSeq(tx: Tx, runId: number, seq: number, side: 'before' | 'after', untilMs: number): number | null {
+function neighbourSeq(
+	tx: Tx,
+	runId: number,
+	seq: number,
+	side: 'before' | 'after',
+	untilMs: number
+): number | null {
 	const r = tx
 		.select({
 			seq:
@@ -309,9 +328,17 @@ export function foldThdn(
  * The summary and state of a run from everything stored: for a run stored before the summary
  * was kept incrementally (once), and for tests that compare the two.
  */
-export function rebuildSummary(tx: Tx, row: RunRow, limits: SoakLimits): { summary: SoakSummary; state: SummaryState } {
+export function rebuildSummary(
+	tx: Tx,
+	row: RunRow,
+	limits: SoakLimits
+): { summary: SoakSummary; state: SummaryState } {
 	const untilMs = plannedEndMs(row);
-	const all = tx.select(readingColumns).from(table.soakReadings).where(eq(table.soakReadings.runId, row.id)).all();
+	const all = tx
+		.select(readingColumns)
+		.from(table.soakReadings)
+		.where(eq(table.soakReadings.runId, row.id))
+		.all();
 	const judged = all.filter((r) => r.t <= untilMs);
 	const thdn = thdnSamples(tx, row.id).filter((x) => x.t <= untilMs);
 	const summary = summarize(judged, limits, clockOf(row), thdn);

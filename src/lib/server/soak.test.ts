@@ -257,10 +257,7 @@ describe('ending a run', () => {
 		const id = fastRun();
 		heatUp(id, 55);
 		// The page came back late: the unit ran on and reached 90 °C at wall second 70 (soak minute 70).
-		add(db, id, [
-			reading('heatsink-left', 2000, 90, 70_000),
-			reading('heatsink-right', 2001, 90, 70_000)
-		]);
+		add(db, id, [reading('heatsink-left', 2000, 90, 70_000), reading('heatsink-right', 2001, 90, 70_000)]);
 		const d = finishRun(db, id, T0 + 75_000);
 		expect(d.verdict).toBe('passed');
 		expect(d.summary.probes['heatsink-left'].maxC).toBe(55);
@@ -478,7 +475,13 @@ describe('the summary kept as readings arrive', () => {
 			const split = s > 3000 ? (s - 3000) / 40 : 0; // left pulls away by up to 15 °C
 			out.push({ probe: 'heatsink-left', seq: ++seq, t: T0 + s * 1000, celsius: base + split, bootId: boot });
 			out.push({ probe: 'heatsink-right', seq: ++seq, t: T0 + s * 1000, celsius: base, bootId: boot });
-			out.push({ probe: 'transformer', seq: ++seq, t: T0 + s * 1000, celsius: base - 5 + spike, bootId: boot });
+			out.push({
+				probe: 'transformer',
+				seq: ++seq,
+				t: T0 + s * 1000,
+				celsius: base - 5 + spike,
+				bootId: boot
+			});
 		}
 		return out;
 	}
@@ -489,11 +492,14 @@ describe('the summary kept as readings arrive', () => {
 			db,
 			ratedJob,
 			'u1',
-			{ preset: 'custom', custom: { watts: 10, frequencyHz: 1000, durationS: 3600, channels: ['left', 'right'] } },
+			{
+				preset: 'custom',
+				custom: { watts: 10, frequencyHz: 1000, durationS: 3600, channels: ['left', 'right'] }
+			},
 			T0
 		);
 		const all = record();
-		for (let i = 0, n = 1; i < all.length; i += n, n = (n * 7) % 61 + 1) add(db, id, all.slice(i, i + n));
+		for (let i = 0, n = 1; i < all.length; i += n, n = ((n * 7) % 61) + 1) add(db, id, all.slice(i, i + n));
 		const incremental = getRunDetail(db, id, T0 + 3_600_000).summary;
 		const row = db.select().from(table.soakRuns).where(eq(table.soakRuns.id, id)).get()!;
 		const full = rebuildSummary(db, row, getRunDetail(db, id, T0 + 3_600_000).limits).summary;
@@ -513,7 +519,12 @@ describe('the summary kept as readings arrive', () => {
 		// The earliest and the latest moments the window allows, and a day of readings between.
 		const readings = [];
 		for (let i = 0; i <= 2000; i++)
-			readings.push({ probe: 'heatsink-left', seq: 10 + i, t: T0 - 120_000 + i * 43_200, celsius: 30 + (i % 7) });
+			readings.push({
+				probe: 'heatsink-left',
+				seq: 10 + i,
+				t: T0 - 120_000 + i * 43_200,
+				celsius: 30 + (i % 7)
+			});
 		const res = add(db, id, readings, undefined, T0 + 86_400_000);
 		expect(res.rejected).toEqual([]);
 		const d = getRunDetail(db, id, T0 + 3_000_000);
@@ -526,7 +537,7 @@ describe('the summary kept as readings arrive', () => {
 		expect(Math.max(...rows.map((r) => r.maxC))).toBe(36);
 	});
 
-	it('ends a technician\'s stop as aborted, but a stop over a stored breach as failed with the breach', () => {
+	it("ends a technician's stop as aborted, but a stop over a stored breach as failed with the breach", () => {
 		const a = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0).id;
 		add(db, a, [reading('heatsink-left', 1001, 40, 1000), reading('heatsink-right', 1002, 40, 1000)]);
 		const stopped = abortRun(db, a, { reason: 'Customer collected early' }, T0 + 5000);
@@ -562,16 +573,22 @@ describe('the one-third-power caution', () => {
 			})
 			.returning()
 			.get().id;
-		expect(() => createRun(db, old, 'u1', { preset: 'third-power-60' }, T0)).toThrow(/Confirm the one-third-power caution/);
+		expect(() => createRun(db, old, 'u1', { preset: 'third-power-60' }, T0)).toThrow(
+			/Confirm the one-third-power caution/
+		);
 		// ⅛ power needs no confirmation; ⅓ power does, and runs once given.
-		expect(createRun(db, old, 'u1', { preset: 'third-power-60', confirmHeat: true }, T0).id).toBeGreaterThan(0);
+		expect(createRun(db, old, 'u1', { preset: 'third-power-60', confirmHeat: true }, T0).id).toBeGreaterThan(
+			0
+		);
 		// A newer unit (the rated job has no year) starts without it.
 		expect(createRun(db, ratedJob, 'u1', { preset: 'third-power-60' }, T0).id).toBeGreaterThan(0);
 		for (const p of FIXED_PRESETS) {
 			expect(p.meaning).toMatch(/not a power-rating test and does not show compliance/);
 			expect(p.basis).toMatch(/preconditioning/);
 		}
-		expect(FIXED_PRESETS.find((p) => p.id === 'third-power-60')?.caution).toMatch(/worst-case heat of a class-AB/);
+		expect(FIXED_PRESETS.find((p) => p.id === 'third-power-60')?.caution).toMatch(
+			/worst-case heat of a class-AB/
+		);
 	});
 
 	it('a signed-off job refuses a new soak (409), and takes one again once reopened', () => {

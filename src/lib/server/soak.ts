@@ -18,7 +18,13 @@ import {
 import { runLimits, soakLimitsPatchSchema, soakLimitsSchema, type SoakLimits } from '$lib/soak/soak-limits';
 import { DomainError } from './errors';
 import { getSetting } from './settings';
-import { soakSeconds, verdictOf, type SoakReadingIn, type SoakSummary, type ThdnSample } from '$lib/soak/verdict';
+import {
+	soakSeconds,
+	verdictOf,
+	type SoakReadingIn,
+	type SoakSummary,
+	type ThdnSample
+} from '$lib/soak/verdict';
 import { SERIES_BUCKETS, seriesOf, type SeriesBucketRow } from '$lib/soak/series';
 import { probeLabel } from '$lib/soak/probes';
 import {
@@ -148,7 +154,10 @@ function liveOf(tx: Tx, row: RunRow): { summary: SoakSummary; state: SummaryStat
 			.from(table.soakReadings)
 			.where(eq(table.soakReadings.runId, row.id))
 			.get();
-		return { summary: row.summary as SoakSummary, state: { readingCount: r?.count ?? 0, lastSeq: r?.lastSeq ?? null } };
+		return {
+			summary: row.summary as SoakSummary,
+			state: { readingCount: r?.count ?? 0, lastSeq: r?.lastSeq ?? null }
+		};
 	}
 	if (!state && row.status === 'running') {
 		const rebuilt = rebuildSummary(tx, row, limitsOf(row));
@@ -158,7 +167,10 @@ function liveOf(tx: Tx, row: RunRow): { summary: SoakSummary; state: SummaryStat
 			.run();
 		return rebuilt;
 	}
-	return { summary: (row.summary as SoakSummary | null) ?? emptySummary(), state: state ?? { readingCount: 0, lastSeq: null } };
+	return {
+		summary: (row.summary as SoakSummary | null) ?? emptySummary(),
+		state: state ?? { readingCount: 0, lastSeq: null }
+	};
 }
 
 /**
@@ -168,7 +180,8 @@ function liveOf(tx: Tx, row: RunRow): { summary: SoakSummary; state: SummaryStat
 function endingOf(summary: SoakSummary): { status: 'passed' | 'failed'; reason: string | null } {
 	const first = summary.breaches[0];
 	if (first) return { status: 'failed', reason: `Limit breached: ${first.message}` };
-	if (summary.incomplete) return { status: 'failed', reason: 'The record stops short of the planned duration' };
+	if (summary.incomplete)
+		return { status: 'failed', reason: 'The record stops short of the planned duration' };
 	return { status: verdictOf(summary), reason: null };
 }
 
@@ -179,7 +192,12 @@ function endingOf(summary: SoakSummary): { status: 'passed' | 'failed'; reason: 
  */
 function closeOverdueRuns(db: Db, where: { jobId: number } | { runId: number }, nowMs: number): void {
 	const rows = db
-		.select({ id: table.soakRuns.id, startedAt: table.soakRuns.startedAt, durationS: table.soakRuns.durationS, timeScale: table.soakRuns.timeScale })
+		.select({
+			id: table.soakRuns.id,
+			startedAt: table.soakRuns.startedAt,
+			durationS: table.soakRuns.durationS,
+			timeScale: table.soakRuns.timeScale
+		})
 		.from(table.soakRuns)
 		.where(
 			and(
@@ -210,7 +228,12 @@ function closeOverdueRuns(db: Db, where: { jobId: number } | { runId: number }, 
 				})
 				.run();
 			tx.update(table.soakRuns)
-				.set({ status: ending.status, endedAt: new Date(Math.round(endMs)), summary, abortReason: ending.reason })
+				.set({
+					status: ending.status,
+					endedAt: new Date(Math.round(endMs)),
+					summary,
+					abortReason: ending.reason
+				})
 				.where(eq(table.soakRuns.id, row.id))
 				.run();
 		});
@@ -264,7 +287,12 @@ export function createRun(
 		throw new DomainError(
 			'invalid',
 			`Confirm the one-third-power caution first (send confirmHeat: true): ${fixedPreset(data.preset)?.caution ?? ''}`,
-			[{ path: 'confirmHeat', message: `required for one-third power on a unit made before 1974 (this one: ${job.year})` }]
+			[
+				{
+					path: 'confirmHeat',
+					message: `required for one-third power on a unit made before 1974 (this one: ${job.year})`
+				}
+			]
 		);
 	const timeScale = data.bridge?.timeScale ?? 1;
 	const simulated =
@@ -346,7 +374,10 @@ export function listRuns(db: Db, jobId: number, nowMs = Date.now()): SoakRunList
 		.where(eq(table.soakRuns.jobId, jobId))
 		.orderBy(desc(table.soakRuns.startedAt), desc(table.soakRuns.id))
 		.all();
-	const series = seriesRows(db, rows.map((r) => r.run.id));
+	const series = seriesRows(
+		db,
+		rows.map((r) => r.run.id)
+	);
 	return rows.map(({ run, name }) => {
 		const view = runView(run, name);
 		const live = liveOf(db, run);
@@ -449,7 +480,10 @@ function checkReading(
 		return { ok: false, reason: 'not an object' };
 	const r = raw as Record<string, unknown>;
 	if (typeof r.probe !== 'string' || !probes.has(r.probe))
-		return { ok: false, reason: `unknown probe ${JSON.stringify(r.probe)} (this run logs ${[...probes].join(', ')})` };
+		return {
+			ok: false,
+			reason: `unknown probe ${JSON.stringify(r.probe)} (this run logs ${[...probes].join(', ')})`
+		};
 	if (typeof r.seq !== 'number' || !Number.isSafeInteger(r.seq) || r.seq < 0)
 		return { ok: false, reason: 'seq must be a non-negative integer' };
 	if (typeof r.t !== 'number' || !Number.isFinite(r.t))
@@ -577,7 +611,10 @@ export function addEvents(
 		const seen = new Set<string>();
 		for (let i = 0; i < keys.length; i += 500) {
 			const rows = tx
-				.select({ kind: table.soakEvents.kind, key: sql<string>`json_extract(${table.soakEvents.detail}, '$.key')` })
+				.select({
+					kind: table.soakEvents.kind,
+					key: sql<string>`json_extract(${table.soakEvents.detail}, '$.key')`
+				})
 				.from(table.soakEvents)
 				.where(
 					and(
@@ -601,7 +638,8 @@ export function addEvents(
 					detail: e.key ? { ...e.detail, key: e.key } : e.detail
 				})
 				.run();
-			if (e.kind === 'thdn') thdn.push({ t: e.at, thdnPercent: e.detail.thdnPercent, channel: e.detail.channel });
+			if (e.kind === 'thdn')
+				thdn.push({ t: e.at, thdnPercent: e.detail.thdnPercent, channel: e.detail.channel });
 			stored++;
 		}
 		if (thdn.length && row.status === 'running') {
@@ -670,9 +708,11 @@ export function abortRun(db: Db, runId: number, input: AbortInput, nowMs = Date.
 				message: `${data.breach.t} is outside the run (${iso(window.fromT)} to ${iso(window.toT)})`
 			});
 		if (data.at !== undefined && (data.at < window.fromT || data.at > window.toT))
-			issues.push({ path: 'at', message: `${data.at} is outside the run (${iso(window.fromT)} to ${iso(window.toT)})` });
-		if (issues.length)
-			throw new DomainError('invalid', 'The abort names a moment outside the run', issues);
+			issues.push({
+				path: 'at',
+				message: `${data.at} is outside the run (${iso(window.fromT)} to ${iso(window.toT)})`
+			});
+		if (issues.length) throw new DomainError('invalid', 'The abort names a moment outside the run', issues);
 		// The moment may not precede the start nor lie in the future.
 		const endedAtMs = Math.min(nowMs, Math.max(row.startedAt.getTime(), data.at ?? nowMs));
 		const summary = closeSummary(liveOf(tx, row).summary, row.durationS, false);

@@ -26,7 +26,7 @@ export interface FixedPreset {
 
 /** What every borrowed-level preset says of its verdict. */
 const BURN_IN_MEANING =
-	'A shop burn-in at the rule\'s preconditioning level: a pass says the unit ran an hour at this level within the shop\'s limits. It is not a power-rating test and does not show compliance with the rule.';
+	"A shop burn-in at the rule's preconditioning level: a pass says the unit ran an hour at this level within the shop's limits. It is not a power-rating test and does not show compliance with the rule.";
 
 export const FIXED_PRESETS: readonly FixedPreset[] = [
 	{
@@ -35,7 +35,8 @@ export const FIXED_PRESETS: readonly FixedPreset[] = [
 		powerFraction: 1 / 8,
 		durationS: 3600,
 		frequencyHz: 1000,
-		basis: 'Drive level borrowed from the preconditioning step of the US FTC amplifier rule (16 CFR Part 432, as amended in 2000)',
+		basis:
+			'Drive level borrowed from the preconditioning step of the US FTC amplifier rule (16 CFR Part 432, as amended in 2000)',
 		meaning: BURN_IN_MEANING
 	},
 	{
@@ -44,7 +45,8 @@ export const FIXED_PRESETS: readonly FixedPreset[] = [
 		powerFraction: 1 / 3,
 		durationS: 3600,
 		frequencyHz: 1000,
-		basis: 'Drive level borrowed from the preconditioning step of the original 1974 FTC amplifier rule (16 CFR Part 432)',
+		basis:
+			'Drive level borrowed from the preconditioning step of the original 1974 FTC amplifier rule (16 CFR Part 432)',
 		meaning: BURN_IN_MEANING,
 		caution:
 			'One-third power is close to the worst-case heat of a class-AB output stage (its dissipation peaks around a third to two-fifths of full power, common practice). On a unit marked unrestored or made before 1974 — old capacitors, dried thermal compound, tired bias — confirm before starting, and stay with it.'

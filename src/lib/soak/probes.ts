@@ -15,3 +15,12 @@ export const PROBE_LABELS: Record<string, string> = {
 export function probeLabel(probe: string): string {
 	return PROBE_LABELS[probe] ?? probe;
 }
+
+/** The colour (a CSS custom property) each probe is drawn in, on every chart and swatch. */
+export const PROBE_COLORS: Record<string, string> = {
+	'heatsink-left': '--ch-left',
+	'heatsink-right': '--ch-right',
+	transformer: '--info',
+	ambient: '--muted'
+};
+export const probeColor = (probe: string) => PROBE_COLORS[probe] ?? '--text';

@@ -48,7 +48,11 @@ export interface ReadingsPage<R> {
 	more: boolean;
 }
 
-export async function fetchReadings<R>(runId: number, afterSeq: number, limit = 20_000): Promise<ReadingsPage<R> | null> {
+export async function fetchReadings<R>(
+	runId: number,
+	afterSeq: number,
+	limit = 20_000
+): Promise<ReadingsPage<R> | null> {
 	const res = await fetch(`/api/soak-runs/${runId}/readings?after=${afterSeq}&limit=${limit}`, {
 		cache: 'no-store'
 	}).catch(() => null);

@@ -52,7 +52,8 @@ export const readingKey = (r: { probe: string; seq: number }) => `${r.probe}:${r
 
 export class ReadingOutbox<R extends StoredReadingLike = StoredReadingLike> {
 	readonly #runId: number;
-	readonly #o: Required<Omit<OutboxOptions, 'storage' | 'onChange'>> & Pick<OutboxOptions, 'storage' | 'onChange'>;
+	readonly #o: Required<Omit<OutboxOptions, 'storage' | 'onChange'>> &
+		Pick<OutboxOptions, 'storage' | 'onChange'>;
 	#pending = new Map<string, R>();
 	#events: PendingEvent[] = [];
 	#uploading = false;

@@ -9,7 +9,12 @@ import { runLimits } from '$lib/soak/soak-limits';
 
 const T0 = 1_800_000_000_000;
 const run = { startedAt: T0, timeScale: 1, driveVrms: 10, channels: ['left', 'right'] as const };
-const m = (atMs: number, left: number | null, right: number | null, extra: Partial<MeasuredOutput> = {}): MeasuredOutput => ({
+const m = (
+	atMs: number,
+	left: number | null,
+	right: number | null,
+	extra: Partial<MeasuredOutput> = {}
+): MeasuredOutput => ({
 	levelVrms: [left, right],
 	powerW: [left === null ? null : (left * left) / 8, right === null ? null : (right * right) / 8], // P = V²/R into 8 Ω
 	thdnPercent: [0.01, 0.01],
@@ -70,7 +75,11 @@ describe('THD+N', () => {
 		const w = new SoakWatch(run, runLimits(undefined, { thdnCeilingDb: -40 }));
 		const at = (ms: number, thdn: number) => m(T0 + ms, 10, 10, { thdnPercent: [thdn, thdn / 2] });
 		expect(w.thdnSample(at(0, 0.02), false, T0)).toBeNull(); // off target: nothing
-		expect(w.thdnSample(at(0, 0.02), true, T0)?.record).toMatchObject({ channel: 'left', thdnPercent: 0.02, outputW: 12.5 });
+		expect(w.thdnSample(at(0, 0.02), true, T0)?.record).toMatchObject({
+			channel: 'left',
+			thdnPercent: 0.02,
+			outputW: 12.5
+		});
 		expect(w.thdnSample(at(5000, 0.02), true, T0 + 5000)).toBeNull();
 		const over = w.thdnSample(at(6000, 1.2), true, T0 + 6000);
 		expect(over?.over).toBe(true);

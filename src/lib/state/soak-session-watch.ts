@@ -83,7 +83,11 @@ export class SoakWatch {
 	 * A THD+N sample to record (the worst driven channel), every few seconds while the output is
 	 * on target and at once when it is over the ceiling; null when there is nothing to record.
 	 */
-	thdnSample(m: MeasuredOutput, onTarget: boolean, nowMs: number): { record: ThdnRecord; over: boolean } | null {
+	thdnSample(
+		m: MeasuredOutput,
+		onTarget: boolean,
+		nowMs: number
+	): { record: ThdnRecord; over: boolean } | null {
 		if (!onTarget) return null;
 		const values = this.run.channels
 			.map((c) => ({
@@ -99,7 +103,13 @@ export class SoakWatch {
 		const over = ceilingDb !== null && worst.thdn > thdnDbToPercent(ceilingDb);
 		if (!over && nowMs - this.#lastThdnAt < THDN_SAMPLE_EVERY_MS) return null;
 		this.#lastThdnAt = nowMs;
-		const record = { t: nowMs, channel: worst.channel, thdnPercent: worst.thdn, outputW: worst.powerW, outputVrms: worst.vrms };
+		const record = {
+			t: nowMs,
+			channel: worst.channel,
+			thdnPercent: worst.thdn,
+			outputW: worst.powerW,
+			outputVrms: worst.vrms
+		};
 		this.noteThdn(record);
 		return { record, over };
 	}

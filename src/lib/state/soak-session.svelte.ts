@@ -627,7 +627,13 @@ export class SoakSession {
 			const i = run.channels[0] === 'right' ? 1 : 0;
 			const thdn = m.thdnPercent[i];
 			if (thdn !== null) {
-				const record = { t: Date.now(), channel: run.channels[0], thdnPercent: thdn, outputW: m.powerW[i], outputVrms: m.levelVrms[i] };
+				const record = {
+					t: Date.now(),
+					channel: run.channels[0],
+					thdnPercent: thdn,
+					outputW: m.powerW[i],
+					outputVrms: m.levelVrms[i]
+				};
 				this.#watch?.noteThdn(record);
 				this.#queueThdn(record);
 			}
