@@ -101,7 +101,7 @@ describe('run limits from the shop setting', () => {
 		// The THD+N ceiling is watched unless a shop or a run turns it off.
 		expect(runLimits(DEFAULT_SOAK_LIMITS)).toEqual({
 			...DEFAULT_SOAK_LIMITS,
-			thdnCeilingDb: -40,
+			thdnCeilingDb: -26,
 			riseWindowS: 60
 		});
 		const l = runLimits(DEFAULT_SOAK_LIMITS, { maxHeatsinkC: 80, thdnCeilingDb: -50, maxDiffC: undefined });
