@@ -110,6 +110,37 @@ async function askBridge(afterSeq: number): Promise<BridgeView> {
 	});
 }
 
+/** Change the bridge simulator's settings (a fault on or off) as a token-holding client. */
+async function patchSimulator(patch: Record<string, unknown>): Promise<void> {
+	const { token } = await mintBridgeToken(
+		process.env.BRIDGE_SECRET as string,
+		{ userId: 'e2e-soak-sim', role: 'technician' },
+		60
+	);
+	const ws = new WebSocket(`${BRIDGE_URL}/stream?token=${encodeURIComponent(token)}`, { origin: APP_ORIGIN });
+	await new Promise<void>((resolve, reject) => {
+		const timer = setTimeout(() => {
+			ws.terminate();
+			reject(new Error('bridge did not take the simulator patch'));
+		}, 15_000);
+		ws.on('error', reject);
+		ws.on('message', (data, isBinary) => {
+			if (isBinary) return;
+			const m = JSON.parse(String(data));
+			if (m.type === 'hello') ws.send(JSON.stringify({ v: 1, type: 'sim', id: 'e2e-sim', ...patch }));
+			else if (m.type === 'error' && m.replyTo === 'e2e-sim') {
+				clearTimeout(timer);
+				ws.close();
+				reject(new Error(`bridge refused the patch: ${m.message}`));
+			} else if (m.type === 'state' && m.replyTo === 'e2e-sim') {
+				clearTimeout(timer);
+				ws.close();
+				resolve();
+			}
+		});
+	});
+}
+
 // ── app helpers ─────────────────────────────────────────────────────────────
 
 async function signIn(page: Page, email: string): Promise<void> {
@@ -319,4 +350,26 @@ test('a breach sounds the alarm, turns the generator off and fails the run with 
 	expect(d.run.abortReason).toMatch(/^Limit breached: Heatsink [LR] reached/);
 	expect(d.events.map((e) => e.kind)).toEqual(expect.arrayContaining(['breach', 'abort']));
 	expect(d.summary.breaches[0]?.kind).toBe('max-heatsink');
+});
+
+test('an output dropout (the protection relay opening) fails the run with that reason', async ({ page }) => {
+	test.setTimeout(90_000);
+	await signIn(page, 'tech2@example.com');
+	const jobId = await newRatedJob(page.request, `SK-DROP-${Date.now().toString(36)}`);
+	await openSoak(page, jobId);
+	const runId = await startRun(page);
+	// Driven and on target before the fault: the output is at its level, readings are going up.
+	await expect(page.getByTestId('soak-generator')).toHaveAttribute('data-kind', 'sine', { timeout: 15_000 });
+	await expect.poll(() => storedCount(page), { timeout: 30_000 }).toBeGreaterThanOrEqual(12);
+	try {
+		// The relay opens at once: the output falls to the analyzer's floor (more than 80 dB down).
+		await patchSimulator({ faults: { protectionRelay: { enabled: true, tripAfterS: 0 } } });
+		await expect(page.getByTestId('soak-run')).toHaveAttribute('data-status', 'failed', { timeout: 30_000 });
+	} finally {
+		await patchSimulator({ faults: { protectionRelay: { enabled: false } } });
+	}
+	const d = await runDetail(page.request, runId);
+	expect(d.run.status).toBe('failed');
+	expect(d.run.abortReason).toMatch(/^Limit breached: (Left|Right) channel output fell \d+ dB within 2 s/);
+	expect(d.events.some((e) => e.kind === 'breach' && e.detail.kind === 'output-dropout')).toBe(true);
 });
