@@ -1,3 +1,4 @@
+// Sources named beside the checks are described in tests/REFERENCES.md § Heat soak.
 // The soak service on an in-memory database: runs from presets and the shop's limits,
 // idempotent and partly-rejecting reading batches, and the server's own verdict.
 import { beforeEach, describe, expect, it } from 'vitest';

@@ -12,6 +12,7 @@ import {
 	fixedPreset,
 	needsHeatConfirmation,
 	PRESET_LABELS,
+	ratingBasisProblem,
 	type SoakChannel,
 	type SoakPresetId
 } from '$lib/soak/presets';
@@ -277,6 +278,11 @@ export function createRun(
 	const data = createRunSchema.parse(input);
 	const job = getJob(db, jobId);
 	if (!job) throw new DomainError('not-found', 'No such job');
+	// The basis of the rating, where the job records one (a column the job record may carry).
+	const basis = (job as { ratedPowerBasis?: string | null }).ratedPowerBasis;
+	const basisProblem = data.preset === 'custom' ? null : ratingBasisProblem(basis);
+	if (basisProblem)
+		throw new DomainError('invalid', basisProblem, [{ path: 'preset', message: basisProblem }]);
 	const drive = computeDrive(
 		data.preset,
 		{ ratedPowerW: job.ratedPowerW, ratedLoadOhms: job.ratedLoadOhms },

@@ -53,6 +53,23 @@ export const FIXED_PRESETS: readonly FixedPreset[] = [
 	}
 ];
 
+/**
+ * What a rated power figure means. A soak's drive is a fraction of the continuous power per
+ * channel with the channels driven together, at a stated THD; a music (peak, dynamic) or a total
+ * (all channels added) figure would overdrive the unit, so it is refused until corrected.
+ */
+export const RATING_BASES = ['continuous-per-channel', 'music', 'total'] as const;
+export type RatingBasis = (typeof RATING_BASES)[number];
+
+/** Why a job's rated power cannot set a soak's drive, or null when it can (or no basis is recorded). */
+export function ratingBasisProblem(basis: string | null | undefined): string | null {
+	if (basis === 'music')
+		return "The job's rated power is a music-power (peak) figure: a soak needs the continuous power per channel, both channels driven, at a stated THD. Correct the rating on the job first.";
+	if (basis === 'total')
+		return "The job's rated power is a total for all channels: a soak needs the continuous power per channel, both channels driven, at a stated THD. Correct the rating on the job first.";
+	return null;
+}
+
 /** Units older than this (by the job's year) need the one-third-power caution confirmed. */
 export const HEAT_CONFIRM_BEFORE_YEAR = 1974;
 

@@ -1,3 +1,4 @@
+// Sources named beside the checks are described in tests/REFERENCES.md § Heat soak.
 // Soak presets, temperature units and the verdict logic on synthetic series whose answers are
 // worked out by hand in the comments beside each check.
 import { describe, expect, it } from 'vitest';
@@ -420,5 +421,17 @@ describe('gaps, summary and verdict', () => {
 		expect(
 			summarize(readings, { ...limits, maxRiseCPerMin: 20 }, clock, thdn, { durationS: 300 }).incomplete
 		).toBe(false);
+	});
+});
+
+describe('the basis of a rated power', () => {
+	it('refuses music-power and total-power figures as the basis of a soak, saying what is needed', async () => {
+		const { ratingBasisProblem } = await import('./presets');
+		expect(ratingBasisProblem('continuous-per-channel')).toBeNull();
+		expect(ratingBasisProblem(null)).toBeNull(); // no basis recorded: nothing to refuse
+		expect(ratingBasisProblem('music')).toMatch(
+			/music-power.*continuous power per channel, both channels driven, at a stated THD/
+		);
+		expect(ratingBasisProblem('total')).toMatch(/total for all channels.*Correct the rating/);
 	});
 });

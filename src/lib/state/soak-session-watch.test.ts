@@ -1,3 +1,4 @@
+// Sources named beside the checks are described in tests/REFERENCES.md § Heat soak.
 // The soak page's watch and drive servo without a browser: a relay opening (a sudden loss of
 // level) is a dropout breach while a servo step or the drive starting is not, DC offset is logged
 // only from a DC-coupled input, THD+N is sampled on target and judged against the ceiling, and
