@@ -56,3 +56,36 @@ describe('LiveGapFinder', () => {
 		}
 	});
 });
+
+describe('LiveSeriesBuilder', () => {
+	it('builds, reading by reading, the chart the server stores for the same readings', async () => {
+		const { LiveSeriesBuilder, seriesOf, seriesBucket, SERIES_BUCKETS } = await import('./series');
+		const run = { startedAtMs: 1_800_000_000_000, durationS: 3600, timeScale: 1 };
+		// Temperatures in quarter degrees: sums are exact in any order, so the comparison can be exact.
+		const all = record().map((r) => ({ ...r, celsius: 30 + (r.seq % 7) * 0.25 }));
+		const live = new LiveSeriesBuilder(run);
+		for (const r of [...all].reverse()) live.add(r); // any order
+		// The server's rows, summed independently per (probe, bucket).
+		const rows = new Map<
+			string,
+			{ probe: string; bucket: number; n: number; sumC: number; minC: number; maxC: number }
+		>();
+		for (const r of all) {
+			const bucket = seriesBucket(run, r.t);
+			const k = `${r.probe}|${bucket}`;
+			const x = rows.get(k) ?? { probe: r.probe, bucket, n: 0, sumC: 0, minC: Infinity, maxC: -Infinity };
+			x.n++;
+			x.sumC += r.celsius;
+			x.minC = Math.min(x.minC, r.celsius);
+			x.maxC = Math.max(x.maxC, r.celsius);
+			rows.set(k, x);
+		}
+		expect(live.series()).toEqual(seriesOf(run, [...rows.values()]));
+		expect(live.series().minutes.length).toBeLessThanOrEqual(SERIES_BUCKETS);
+		// 3600 s over 660 buckets: ceil(3600000 / 660) = 5455 ms a bucket.
+		expect(seriesBucket(run, run.startedAtMs + 5454)).toBe(0);
+		expect(seriesBucket(run, run.startedAtMs + 5455)).toBe(1);
+		expect(seriesBucket(run, run.startedAtMs - 1e12)).toBe(0); // clamped: never a negative bucket
+		expect(seriesBucket(run, 8.64e15)).toBe(SERIES_BUCKETS - 1); // nor past the last
+	});
+});

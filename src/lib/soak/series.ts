@@ -85,3 +85,34 @@ export function seriesOf(run: SeriesRun, rows: readonly SeriesBucketRow[], facto
 	}
 	return { minutes, probes };
 }
+
+/**
+ * The same downsampled chart built in the browser as readings arrive (one bucket update per
+ * reading), so a long running soak is drawn from at most SERIES_BUCKETS rows per probe instead of
+ * every reading. Answers what the server stores for the same readings.
+ */
+export class LiveSeriesBuilder {
+	readonly #rows = new Map<string, SeriesBucketRow>();
+	#cached: SoakSeries | null = null;
+
+	constructor(readonly run: SeriesRun) {}
+
+	add(r: { probe: string; t: number; celsius: number }): void {
+		const bucket = seriesBucket(this.run, r.t);
+		const k = `${r.probe}|${bucket}`;
+		const row = this.#rows.get(k);
+		if (row) {
+			row.n++;
+			row.sumC += r.celsius;
+			row.minC = Math.min(row.minC, r.celsius);
+			row.maxC = Math.max(row.maxC, r.celsius);
+		} else
+			this.#rows.set(k, { probe: r.probe, bucket, n: 1, sumC: r.celsius, minC: r.celsius, maxC: r.celsius });
+		this.#cached = null;
+	}
+
+	series(): SoakSeries {
+		this.#cached ??= seriesOf(this.run, [...this.#rows.values()]);
+		return this.#cached;
+	}
+}

@@ -7,6 +7,7 @@ import { SoakAlarmSound } from './soak-alarm';
 import type { HelloMessage } from '$lib/bridge/protocol';
 import { soakSeconds, type Breach, type Gap, type SoakReadingIn } from '$lib/soak/verdict';
 import { LiveGapFinder } from '$lib/soak/gaps';
+import { LiveSeriesBuilder, type SoakSeries } from '$lib/soak/series';
 import type { SoakRunDetail, SoakRunView } from '$lib/soak/types';
 import type { CustomDrive, SoakPresetId } from '$lib/soak/presets';
 import type { SoakLimits } from '$lib/soak/soak-limits';
@@ -77,6 +78,8 @@ export class SoakSession {
 	/** The same readings ordered by seq, kept as they arrive (inserted in place when late). */
 	#sorted: StoredReading[] = [];
 	#gapFinder = new LiveGapFinder();
+	/** The run's chart downsampled as readings arrive (built once the run is known). */
+	#series: LiveSeriesBuilder | null = null;
 	#outbox: ReadingOutbox<StoredReading> | null = null;
 	#watch: SoakWatch | null = null;
 	#endAction: EndAction | null = null;
@@ -193,6 +196,12 @@ export class SoakSession {
 		return this.#gapFinder.gaps();
 	}
 
+	/** The record downsampled to a fixed number of buckets per probe (a long run's chart). */
+	liveSeries(): SoakSeries | null {
+		void this.#version;
+		return this.#series?.series() ?? null;
+	}
+
 	/** Keep a reading (once per probe and seq); true when it is new. */
 	#store(r: StoredReading): boolean {
 		const k = key(r);
@@ -216,6 +225,7 @@ export class SoakSession {
 			list.splice(lo, 0, r);
 		}
 		this.#gapFinder.add(r);
+		this.#series?.add(r);
 		this.#watch?.addReading(r);
 		return true;
 	}
@@ -590,7 +600,16 @@ export class SoakSession {
 	#watchFor(detail: SoakRunDetail): SoakWatch {
 		if (this.#watch && this.#watch.run === detail.run) return this.#watch;
 		const watch = new SoakWatch(detail.run, detail.limits);
-		for (const r of this.#sorted) watch.addReading(r);
+		const series = new LiveSeriesBuilder({
+			startedAtMs: detail.run.startedAt,
+			durationS: detail.run.durationS,
+			timeScale: detail.run.timeScale
+		});
+		for (const r of this.#sorted) {
+			watch.addReading(r);
+			series.add(r);
+		}
+		this.#series = series;
 		this.#watch = watch;
 		return watch;
 	}
