@@ -177,6 +177,28 @@ describe('readings', () => {
 		);
 	});
 
+	it('logs DC offset events and keeps the closing THD+N in the summary as samples arrive', async () => {
+		const { eventsBodySchema } = await import('$lib/schemas/soak');
+		const { id } = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
+		const body = eventsBodySchema.parse({
+			events: [
+				{ kind: 'dc-offset', at: T0 + 1000, key: 'dc:left:1', detail: { channel: 'left', dcVolts: 0.012 } },
+				{ kind: 'thdn', at: T0 + 3000, key: 't3', detail: { thdnPercent: 0.05, channel: 'left' } },
+				{ kind: 'thdn', at: T0 + 2000, key: 't2', detail: { thdnPercent: 0.04, channel: 'left' } }
+			]
+		});
+		expect(addEvents(db, id, body.events)).toEqual({ stored: 3, duplicates: 0 });
+		const d = getRunDetail(db, id, T0 + 5000);
+		expect(d.events.map((e) => e.kind)).toEqual(['start', 'dc-offset', 'thdn', 'thdn']);
+		expect(d.summary.thdnEndPercent).toBe(0.05); // the latest by time, not the last posted
+		expect(d.summary.breaches).toEqual([]); // 0.05 % is far below the default ceiling
+		expect(() =>
+			eventsBodySchema.parse({
+				events: [{ kind: 'dc-offset', at: T0, detail: { channel: 'left', dcVolts: 1e6 } }]
+			})
+		).toThrow();
+	});
+
 	it('stores a keyed event once', () => {
 		const { id } = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
 		const gap = {
