@@ -149,7 +149,12 @@ async function signIn(page: Page, email: string): Promise<void> {
 }
 
 /** A fresh job with a rating, so each case has its own soak history. */
-async function newRatedJob(request: APIRequestContext, model: string, ratedPowerW = 100): Promise<number> {
+async function newRatedJob(
+	request: APIRequestContext,
+	model: string,
+	ratedPowerW = 100,
+	year?: number
+): Promise<number> {
 	const res = await request.post('/api/jobs', {
 		headers: { origin: APP_ORIGIN },
 		data: {
@@ -159,7 +164,8 @@ async function newRatedJob(request: APIRequestContext, model: string, ratedPower
 			model,
 			complaint: 'Shuts down after an hour of playing',
 			ratedPowerW,
-			ratedLoadOhms: 8
+			ratedLoadOhms: 8,
+			...(year ? { year } : {})
 		}
 	});
 	expect(res.status(), await res.text()).toBe(201);
@@ -374,4 +380,19 @@ test('an output dropout (the protection relay opening) fails the run with that r
 	expect(d.run.status).toBe('failed');
 	expect(d.run.abortReason).toMatch(/^Limit breached: (Left|Right) channel output fell \d+ dB within 2 s/);
 	expect(d.events.some((e) => e.kind === 'breach' && e.detail.kind === 'output-dropout')).toBe(true);
+});
+
+test('one-third power on a unit made before 1974 waits for the caution to be confirmed', async ({ page }) => {
+	await signIn(page, 'tech2@example.com');
+	const jobId = await newRatedJob(page.request, `SK-OLD-${Date.now().toString(36)}`, 60, 1971);
+	await openSoak(page, jobId);
+	await page.getByTestId('preset-third-power-60').check({ force: true });
+	await expect(page.getByTestId('preset-caution')).toContainText(
+		'worst-case heat of a class-AB output stage'
+	);
+	await expect(page.getByTestId('soak-start')).toBeDisabled();
+	await page.getByTestId('preset-confirm-heat').check();
+	await expect(page.getByTestId('soak-start')).toBeEnabled();
+	// The preset never reads as a rating test.
+	await expect(page.getByTestId('preset-meaning-third-power-60')).toContainText('not a power-rating test');
 });
