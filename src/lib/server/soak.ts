@@ -27,7 +27,6 @@ import {
 	type ThdnSample
 } from '$lib/soak/verdict';
 import { SERIES_BUCKETS, seriesOf, type SeriesBucketRow } from '$lib/soak/series';
-import { probeLabel } from '$lib/soak/probes';
 import {
 	CELSIUS_MAX,
 	CELSIUS_MIN,
@@ -740,6 +739,3 @@ export function abortRun(db: Db, runId: number, input: AbortInput, nowMs = Date.
 	});
 	return getRunDetail(db, runId, nowMs);
 }
-
-/** A probe's readable name for messages built here. */
-export { probeLabel };
