@@ -130,8 +130,146 @@ export async function run(): Promise<void> {
 			`soak: finish (read ${d.readingCount} readings, summary, verdict ${d.verdict}, one transaction): ${finishMs.toFixed(0)} ms`
 		);
 		db.$client.close();
+
+		await runDay(soak, server, dir);
 	} finally {
 		await server.close();
 		rmSync(dir, { recursive: true, force: true });
 	}
+}
+
+/**
+ * A 24 h real-time run, four probes at one reading a second (345,600 readings) and a THD+N
+ * sample every 10 s (8,640 events), uploaded in the page's 500-reading batches. Measures what
+ * a long run costs where it used to hurt: reading the run (`GET /api/soak-runs/{id}` is
+ * getRunDetail + JSON), the job's run list, an upload late in the day, and the full
+ * recomputation the server did on every read before the summary was kept incrementally.
+ */
+async function runDay(
+	soak: SoakModule,
+	server: { ssrLoadModule: (id: string) => Promise<Record<string, unknown>> },
+	dir: string
+): Promise<void> {
+	const summaryMod = (await server.ssrLoadModule(
+		'/src/lib/server/soak-summary.ts'
+	)) as typeof import('../../src/lib/server/soak-summary');
+	const DAY_S = 86_400;
+	const db: Db = openDb(join(dir, 'day.db'));
+	db.insert(table.users)
+		.values({ id: 'u1', email: 'd@example.com', name: 'Bench', role: 'technician', passwordHash: 'x' })
+		.run();
+	const c = db.insert(table.customers).values({ name: 'Bench' }).returning().get();
+	const jobId = db
+		.insert(table.jobs)
+		.values({
+			customerId: c.id,
+			category: 'receiver',
+			make: 'Vellum',
+			model: 'D-1',
+			complaint: 'bench',
+			ratedPowerW: 100,
+			ratedLoadOhms: 8
+		})
+		.returning()
+		.get().id;
+	const t0 = Date.now() - (DAY_S + 5) * 1000;
+	const { id } = soak.createRun(
+		db,
+		jobId,
+		'u1',
+		{
+			preset: 'custom',
+			custom: { watts: 12.5, frequencyHz: 1000, durationS: DAY_S, channels: ['left', 'right'] },
+			limits: { maxRiseCPerMin: 10, thdnCeilingDb: -40 }
+		},
+		t0
+	);
+	const steady = { 'heatsink-left': 62, 'heatsink-right': 61, transformer: 38, ambient: 23 } as Record<
+		string,
+		number
+	>;
+	const tau = { 'heatsink-left': 480, 'heatsink-right': 480, transformer: 1500, ambient: 1 } as Record<
+		string,
+		number
+	>;
+	let seq = 1000;
+	let batch: { probe: string; seq: number; t: number; celsius: number }[] = [];
+	const uploadMs: number[] = [];
+	const wallStart = performance.now();
+	for (let s = 1; s <= DAY_S; s++) {
+		for (const p of PROBES) {
+			const drift = Math.sin((2 * Math.PI * s) / 86_400) * 1.5; // the room over a day
+			const c = steady[p] + drift + (23 - steady[p]) * Math.exp(-s / tau[p]) + (Math.random() - 0.5) * 0.06;
+			batch.push({ probe: p, seq: ++seq, t: t0 + s * 1000, celsius: Math.round(c * 100) / 100 });
+		}
+		if (batch.length >= BATCH || s === DAY_S) {
+			const start = performance.now();
+			soak.addReadings(db, id, batch, 'boot-day');
+			uploadMs.push(performance.now() - start);
+			batch = [];
+		}
+		if (s % 10 === 0 && s % 1000 === 0) {
+			// THD+N samples go up in small batches too: one every 10 s.
+			const events = Array.from({ length: 100 }, (_, k) => ({
+				kind: 'thdn' as const,
+				at: t0 + (s - 1000 + (k + 1) * 10) * 1000,
+				key: `thdn-${s}-${k}`,
+				detail: { thdnPercent: 0.02 + Math.random() * 0.002, channel: 'left' as const }
+			}));
+			soak.addEvents(db, id, events);
+		}
+	}
+	const loadS = (performance.now() - wallStart) / 1000;
+	const late = uploadMs.slice(-50);
+	console.log(
+		`soak 24 h: ${seq - 1000} readings in ${uploadMs.length} uploads of ${BATCH} (${loadS.toFixed(1)} s in all); ` +
+			`upload median first hour ${median(uploadMs.slice(0, 28)).toFixed(1)} ms, last hour ${median(late).toFixed(1)} ms, max ${Math.max(...uploadMs).toFixed(1)} ms`
+	);
+
+	// What the page sends every few seconds late in the day: a THD+N sample and a DC reading.
+	const eventMs: number[] = [];
+	for (let k = 0; k < 10; k++) {
+		const at = t0 + (DAY_S - 100 + k) * 1000;
+		const start = performance.now();
+		soak.addEvents(db, id, [
+			{ kind: 'thdn', at, key: `late-thdn-${k}`, detail: { thdnPercent: 0.021, channel: 'left' } },
+			{ kind: 'dc-offset', at, key: `late-dc-${k}`, detail: { channel: 'left', dcVolts: 0.004 } }
+		]);
+		eventMs.push(performance.now() - start);
+	}
+	console.log(
+		`soak 24 h: an event upload late in the day (2 keyed events against ${soak.getRunDetail(db, id, t0 + (DAY_S + 4) * 1000).events.length} stored): median ${median(eventMs).toFixed(1)} ms`
+	);
+
+	const timed = (fn: () => unknown, n = 15) => {
+		const ms: number[] = [];
+		let bytes = 0;
+		for (let k = 0; k < n; k++) {
+			const start = performance.now();
+			bytes = JSON.stringify(fn()).length;
+			ms.push(performance.now() - start);
+		}
+		return { median: median(ms), max: Math.max(...ms), bytes };
+	};
+	const nowMs = t0 + (DAY_S + 4) * 1000;
+	const running = timed(() => soak.getRunDetail(db, id, nowMs));
+	const list = timed(() => soak.listRuns(db, jobId, nowMs));
+	const row = db.select().from(table.soakRuns).all()[0];
+	const fullStart = performance.now();
+	summaryMod.rebuildSummary(db, row, soak.getRunDetail(db, id, nowMs).limits);
+	const fullMs = performance.now() - fullStart;
+	const finishStart = performance.now();
+	const d = soak.finishRun(db, id, nowMs);
+	const finishMs = performance.now() - finishStart;
+	const ended = timed(() => soak.getRunDetail(db, id, nowMs));
+	console.log(
+		`soak 24 h: GET /api/soak-runs/{id} (detail + JSON, ${(running.bytes / 1024).toFixed(0)} KiB, ${d.events.length} events, ` +
+			`${d.series.minutes.length} chart buckets) running: median ${running.median.toFixed(1)} ms, max ${running.max.toFixed(1)} ms; ` +
+			`ended: median ${ended.median.toFixed(1)} ms (target ≤ 200 ms)`
+	);
+	console.log(
+		`soak 24 h: GET /api/jobs/{id}/soak-runs median ${list.median.toFixed(1)} ms; finish ${finishMs.toFixed(0)} ms (verdict ${d.verdict}); ` +
+			`the full recomputation a read used to do: ${fullMs.toFixed(0)} ms (${(fullMs / running.median).toFixed(0)}× the read now)`
+	);
+	db.$client.close();
 }

@@ -110,6 +110,37 @@ async function askBridge(afterSeq: number): Promise<BridgeView> {
 	});
 }
 
+/** Change the bridge simulator's settings (a fault on or off) as a token-holding client. */
+async function patchSimulator(patch: Record<string, unknown>): Promise<void> {
+	const { token } = await mintBridgeToken(
+		process.env.BRIDGE_SECRET as string,
+		{ userId: 'e2e-soak-sim', role: 'technician' },
+		60
+	);
+	const ws = new WebSocket(`${BRIDGE_URL}/stream?token=${encodeURIComponent(token)}`, { origin: APP_ORIGIN });
+	await new Promise<void>((resolve, reject) => {
+		const timer = setTimeout(() => {
+			ws.terminate();
+			reject(new Error('bridge did not take the simulator patch'));
+		}, 15_000);
+		ws.on('error', reject);
+		ws.on('message', (data, isBinary) => {
+			if (isBinary) return;
+			const m = JSON.parse(String(data));
+			if (m.type === 'hello') ws.send(JSON.stringify({ v: 1, type: 'sim', id: 'e2e-sim', ...patch }));
+			else if (m.type === 'error' && m.replyTo === 'e2e-sim') {
+				clearTimeout(timer);
+				ws.close();
+				reject(new Error(`bridge refused the patch: ${m.message}`));
+			} else if (m.type === 'state' && m.replyTo === 'e2e-sim') {
+				clearTimeout(timer);
+				ws.close();
+				resolve();
+			}
+		});
+	});
+}
+
 // ── app helpers ─────────────────────────────────────────────────────────────
 
 async function signIn(page: Page, email: string): Promise<void> {
@@ -118,7 +149,12 @@ async function signIn(page: Page, email: string): Promise<void> {
 }
 
 /** A fresh job with a rating, so each case has its own soak history. */
-async function newRatedJob(request: APIRequestContext, model: string, ratedPowerW = 100): Promise<number> {
+async function newRatedJob(
+	request: APIRequestContext,
+	model: string,
+	ratedPowerW = 100,
+	year?: number
+): Promise<number> {
 	const res = await request.post('/api/jobs', {
 		headers: { origin: APP_ORIGIN },
 		data: {
@@ -128,7 +164,8 @@ async function newRatedJob(request: APIRequestContext, model: string, ratedPower
 			model,
 			complaint: 'Shuts down after an hour of playing',
 			ratedPowerW,
-			ratedLoadOhms: 8
+			ratedLoadOhms: 8,
+			...(year ? { year } : {})
 		}
 	});
 	expect(res.status(), await res.text()).toBe(201);
@@ -144,6 +181,7 @@ interface RunDetail {
 		durationS: number;
 		timeScale: number;
 		abortReason: string | null;
+		probes: string[];
 	};
 	readingCount: number;
 	lastSeq: number | null;
@@ -220,6 +258,8 @@ test('a one-eighth-power soak survives a reload, finishes, and stores every read
 	await expect(run).toHaveAttribute('data-phase', 'ended', { timeout: 90_000 });
 	await expect(run).toHaveAttribute('data-status', 'passed');
 	await expect(page.getByTestId('soak-verdict')).toHaveAttribute('data-verdict', 'passed');
+	// A pass is a shop burn-in at the rule's preconditioning level, never a claim of compliance.
+	await expect(page.getByTestId('soak-verdict-meaning')).toContainText('does not show compliance');
 	await expect(page.getByTestId('soak-generator')).toHaveAttribute('data-kind', 'off');
 
 	// No loss: every reading the bridge logged from the start to the last stored one is stored.
@@ -237,7 +277,15 @@ test('a one-eighth-power soak survives a reload, finishes, and stores every read
 
 	// The job page lists it with its verdict.
 	await page.goto(`/jobs/${jobId}`);
-	await expect(page.getByTestId('soak-run-item').first()).toHaveAttribute('data-verdict', 'passed');
+	const item = page.getByTestId('soak-run-item').first();
+	await expect(item).toHaveAttribute('data-verdict', 'passed');
+	// A readable thumbnail (one line per probe) and the counts from the stored summary.
+	await expect(item.getByTestId('soak-run-thumb').locator('path')).toHaveCount(d.run.probes.length);
+	await expect(item.getByTestId('soak-run-counts')).toContainText(
+		`${d.readingCount.toLocaleString('en')} readings`
+	);
+	await expect(item).toContainText('Heatsink L');
+	await expect(item).not.toContainText('heatsink-left');
 });
 
 test('a bridge restart mid-run shows as a marked gap, not as lost data', async ({ page }) => {
@@ -279,7 +327,9 @@ test('a bridge restart mid-run shows as a marked gap, not as lost data', async (
 	expect(newBootProduced.every((r) => seqs.has(r.seq))).toBe(true);
 });
 
-test('a breach sounds the alarm, turns the generator off and aborts the run', async ({ page }) => {
+test('a breach sounds the alarm, turns the generator off and fails the run with the breach as the reason', async ({
+	page
+}) => {
 	test.setTimeout(90_000);
 	await signIn(page, 'tech2@example.com');
 	const jobId = await newRatedJob(page.request, `SK-BREACH-${Date.now().toString(36)}`);
@@ -292,17 +342,57 @@ test('a breach sounds the alarm, turns the generator off and aborts the run', as
 
 	const alarm = page.getByTestId('soak-alarm');
 	await expect(alarm).toBeVisible({ timeout: 45_000 });
-	await expect(page.getByTestId('soak-alarm-message')).toContainText('heatsink');
+	// Probe names as a person reads them, never the id.
+	await expect(page.getByTestId('soak-alarm-message')).toContainText(/Heatsink [LR]/);
+	await expect(page.getByTestId('soak-alarm-message')).not.toContainText('heatsink-');
 	// Audible: the WebAudio alarm is sounding (Chromium runs with autoplay allowed here).
 	await expect(alarm).toHaveAttribute('data-sound', 'on');
 	await expect(page.getByTestId('soak-alarm-generator')).toHaveText('off', { timeout: 10_000 });
-	await expect(page.getByTestId('soak-run')).toHaveAttribute('data-status', 'aborted', { timeout: 20_000 });
+	// A limit breach is a failed run, not an aborted one: aborted is a technician's stop.
+	await expect(page.getByTestId('soak-run')).toHaveAttribute('data-status', 'failed', { timeout: 20_000 });
 
 	// The bridge itself reports the generator off.
 	expect((await askBridge(0)).generatorKind).toBe('off');
 	const d = await runDetail(page.request, runId);
-	expect(d.run.status).toBe('aborted');
-	expect(d.run.abortReason).toMatch(/^Limit breached: heatsink-(left|right) reached/);
+	expect(d.run.status).toBe('failed');
+	expect(d.run.abortReason).toMatch(/^Limit breached: Heatsink [LR] reached/);
 	expect(d.events.map((e) => e.kind)).toEqual(expect.arrayContaining(['breach', 'abort']));
 	expect(d.summary.breaches[0]?.kind).toBe('max-heatsink');
+});
+
+test('an output dropout (the protection relay opening) fails the run with that reason', async ({ page }) => {
+	test.setTimeout(90_000);
+	await signIn(page, 'tech2@example.com');
+	const jobId = await newRatedJob(page.request, `SK-DROP-${Date.now().toString(36)}`);
+	await openSoak(page, jobId);
+	const runId = await startRun(page);
+	// Driven and on target before the fault: the output is at its level, readings are going up.
+	await expect(page.getByTestId('soak-generator')).toHaveAttribute('data-kind', 'sine', { timeout: 15_000 });
+	await expect.poll(() => storedCount(page), { timeout: 30_000 }).toBeGreaterThanOrEqual(12);
+	try {
+		// The relay opens at once: the output falls to the analyzer's floor (more than 80 dB down).
+		await patchSimulator({ faults: { protectionRelay: { enabled: true, tripAfterS: 0 } } });
+		await expect(page.getByTestId('soak-run')).toHaveAttribute('data-status', 'failed', { timeout: 30_000 });
+	} finally {
+		await patchSimulator({ faults: { protectionRelay: { enabled: false } } });
+	}
+	const d = await runDetail(page.request, runId);
+	expect(d.run.status).toBe('failed');
+	expect(d.run.abortReason).toMatch(/^Limit breached: (Left|Right) channel output fell \d+ dB within 2 s/);
+	expect(d.events.some((e) => e.kind === 'breach' && e.detail.kind === 'output-dropout')).toBe(true);
+});
+
+test('one-third power on a unit made before 1974 waits for the caution to be confirmed', async ({ page }) => {
+	await signIn(page, 'tech2@example.com');
+	const jobId = await newRatedJob(page.request, `SK-OLD-${Date.now().toString(36)}`, 60, 1971);
+	await openSoak(page, jobId);
+	await page.getByTestId('preset-third-power-60').check({ force: true });
+	await expect(page.getByTestId('preset-caution')).toContainText(
+		'worst-case heat of a class-AB output stage'
+	);
+	await expect(page.getByTestId('soak-start')).toBeDisabled();
+	await page.getByTestId('preset-confirm-heat').check();
+	await expect(page.getByTestId('soak-start')).toBeEnabled();
+	// The preset never reads as a rating test.
+	await expect(page.getByTestId('preset-meaning-third-power-60')).toContainText('not a power-rating test');
 });

@@ -178,6 +178,87 @@ describe('soak API', () => {
 		expect((await call(readingsRoute.GET, { path: `${path}?after=x`, params })).status).toBe(400);
 	});
 
+	it("a reading outside the run's time window is a 400 naming it; the job list stays quick and bounded", async () => {
+		const path = `/api/soak-runs/${runId}/readings`;
+		const params = { id: String(runId) };
+		const decadesAhead = Date.now() + 30 * 365 * 86_400_000;
+		const body = {
+			readings: [
+				{ probe: 'heatsink-left', seq: 251, t: 0, celsius: 30 }, // 1970: long before the run
+				{ probe: 'heatsink-left', seq: 252, t: decadesAhead, celsius: 30 }, // decades ahead
+				{ probe: 'heatsink-left', seq: 253, t: 1e300, celsius: 30 }, // not a time at all
+				{ probe: 'heatsink-left', seq: 254, t: -1e300, celsius: 30 },
+				r('heatsink-left', 255, 32) // inside: stored
+			]
+		};
+		const res = await call(readingsRoute.POST, { method: 'POST', path, params, body });
+		expect(res.status).toBe(400);
+		expect(res.body.stored).toBe(1);
+		const rejected = res.body.rejected as { seq: number; reason: string }[];
+		expect(rejected.map((x) => x.seq)).toEqual([251, 252, 253, 254]);
+		for (const x of rejected) expect(x.reason).toMatch(/outside the run's time window/);
+		// The job's list reads the stored summary and chart: live counts, a thumbnail of at most 48 points.
+		const list = await call(runsRoute.GET, {
+			path: `/api/jobs/${ratedJob}/soak-runs`,
+			params: { id: String(ratedJob) }
+		});
+		expect(list.status).toBe(200);
+		const item = (list.body.runs as { readingCount: number; thumb: { minutes: number[] } }[])[0];
+		expect(item.readingCount).toBe(6); // 3 + 2 + 1 stored by this suite so far
+		expect(item.thumb.minutes.length).toBeLessThanOrEqual(48);
+	});
+
+	it('an abort naming a breach moment outside the run (±1e300) is a 400, and the run keeps running', async () => {
+		const params = { id: String(runId) };
+		for (const t of [1e300, -1e300, 0]) {
+			const res = await call(abortRoute.POST, {
+				method: 'POST',
+				path: `/api/soak-runs/${runId}/abort`,
+				params,
+				body: {
+					reason: 'Limit breached',
+					breach: { kind: 'max-heatsink', probe: 'heatsink-left', t, value: 90, limit: 75, message: 'hot' }
+				}
+			});
+			expect(res.status).toBe(400);
+			expect(JSON.stringify(res.body)).toMatch(/breach/);
+		}
+		const detail = await call(runRoute.GET, { path: `/api/soak-runs/${runId}`, params });
+		expect(detail.body.verdict).toBeNull();
+	});
+
+	it('a signed-off job refuses a new soak with 409', async () => {
+		const c = db.insert(table.customers).values({ name: 'C. Customer' }).returning().get();
+		const signedOff = db
+			.insert(table.jobs)
+			.values({
+				customerId: c.id,
+				category: 'power-amplifier',
+				make: 'Orrin',
+				model: 'PA-3',
+				complaint: 'done',
+				ratedPowerW: 80,
+				ratedLoadOhms: 8,
+				status: 'returned'
+			})
+			.returning()
+			.get().id;
+		const res = await call(runsRoute.POST, {
+			method: 'POST',
+			path: `/api/jobs/${signedOff}/soak-runs`,
+			params: { id: String(signedOff) },
+			body: { preset: 'eighth-power-60' }
+		});
+		expect(res.status).toBe(409);
+		expect(
+			db
+				.select()
+				.from(table.soakRuns)
+				.all()
+				.filter((x) => x.jobId === signedOff)
+		).toHaveLength(0);
+	});
+
 	it('finish is refused before the duration; abort ends the run and later readings are refused', async () => {
 		const params = { id: String(runId) };
 		const early = await call(finishRoute.POST, {
@@ -206,6 +287,6 @@ describe('soak API', () => {
 		});
 		const runs = list.body.runs as { verdict: string; maxC: Record<string, number> }[];
 		expect(runs[0].verdict).toBe('aborted');
-		expect(runs[0].maxC['heatsink-left']).toBe(31);
+		expect(runs[0].maxC['heatsink-left']).toBe(32);
 	});
 });

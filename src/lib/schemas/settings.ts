@@ -78,7 +78,10 @@ export const DEFAULT_SOAK_LIMITS: SoakLimits = {
 	maxHeatsinkC: 70,
 	maxRiseCPerMin: 8,
 	maxDiffC: 10,
-	thdnCeilingDb: null
+	// On by default as a gross-fault ceiling: THD+N past 5 % (−26 dB) at a fraction of rated power
+	// means the unit is clipping or failing while it heats, whatever its temperatures say (common
+	// practice); a shop or a run tightens it for a unit whose healthy figure is known.
+	thdnCeilingDb: -26
 };
 
 export const SETTINGS_KEYS = [

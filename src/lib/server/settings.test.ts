@@ -28,7 +28,7 @@ describe('settings', () => {
 			bridgeUrl: env.BRIDGE_URL,
 			mainsHz: 50,
 			// common practice for a consumer amplifier heat soak
-			soakDefaultLimits: { maxHeatsinkC: 70, maxRiseCPerMin: 8, maxDiffC: 10, thdnCeilingDb: null },
+			soakDefaultLimits: { maxHeatsinkC: 70, maxRiseCPerMin: 8, maxDiffC: 10, thdnCeilingDb: -26 },
 			snapshotStorage: { perJobMiB: 500, perShopGiB: 20 }
 		});
 	});

@@ -1,3 +1,4 @@
+// Sources named beside the checks are described in tests/REFERENCES.md § Heat soak.
 // The soak service on an in-memory database: runs from presets and the shop's limits,
 // idempotent and partly-rejecting reading batches, and the server's own verdict.
 import { beforeEach, describe, expect, it } from 'vitest';
@@ -27,6 +28,10 @@ let db: Db;
 let ratedJob: number;
 let unratedJob: number;
 const T0 = 1_800_000_000_000;
+/** The server's clock in these tests: a day after T0, so every reading below lies in the past. */
+const NOW = T0 + 86_400_000;
+const add = (d: Db, id: number, readings: readonly unknown[], bootId?: string, nowMs = NOW) =>
+	addReadings(d, id, readings, bootId, nowMs);
 
 beforeEach(() => {
 	db = openDb(':memory:');
@@ -115,19 +120,19 @@ describe('readings', () => {
 			reading('heatsink-right', 1002, 31),
 			reading('transformer', 1003, 28)
 		];
-		const first = addReadings(db, id, batch, 'boot-a');
+		const first = add(db, id, batch, 'boot-a');
 		expect(first).toMatchObject({ stored: 3, duplicates: 0, rejected: [], lastSeq: 1003, readingCount: 3 });
-		const again = addReadings(db, id, batch, 'boot-a');
+		const again = add(db, id, batch, 'boot-a');
 		expect(again).toMatchObject({ stored: 0, duplicates: 3, rejected: [], readingCount: 3 });
 		// An overlapping batch stores only what is new.
-		const overlap = addReadings(db, id, [...batch.slice(1), reading('ambient', 1004, 22)]);
+		const overlap = add(db, id, [...batch.slice(1), reading('ambient', 1004, 22)]);
 		expect(overlap).toMatchObject({ stored: 1, duplicates: 2, readingCount: 4 });
 		expect(getRunDetail(db, id).readingCount).toBe(4);
 	});
 
 	it('keeps the valid rest of a mixed batch and names the rejected readings', () => {
 		const { id } = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
-		const res = addReadings(db, id, [
+		const res = add(db, id, [
 			reading('heatsink-left', 2001, 35),
 			reading('heatsink-left', 2002, 401), // above 400 °C
 			reading('heatsink-right', 2003, -50.5), // below −50 °C
@@ -163,13 +168,35 @@ describe('readings', () => {
 	it('a run that has ended refuses more readings and THD+N samples', () => {
 		const { id } = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
 		abortRun(db, id, { reason: 'operator stopped' }, T0 + 5000);
-		expect(() => addReadings(db, id, [reading('ambient', 5, 20)])).toThrow(/has ended/);
+		expect(() => add(db, id, [reading('ambient', 5, 20)])).toThrow(/has ended/);
 		expect(() => addEvents(db, id, [{ kind: 'thdn', at: T0, detail: { thdnPercent: 0.1 } }])).toThrow(
 			/has ended/
 		);
 		expect(addEvents(db, id, [{ kind: 'note', at: T0 + 6000, detail: { text: 'let it cool' } }]).stored).toBe(
 			1
 		);
+	});
+
+	it('logs DC offset events and keeps the closing THD+N in the summary as samples arrive', async () => {
+		const { eventsBodySchema } = await import('$lib/schemas/soak');
+		const { id } = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
+		const body = eventsBodySchema.parse({
+			events: [
+				{ kind: 'dc-offset', at: T0 + 1000, key: 'dc:left:1', detail: { channel: 'left', dcVolts: 0.012 } },
+				{ kind: 'thdn', at: T0 + 3000, key: 't3', detail: { thdnPercent: 0.05, channel: 'left' } },
+				{ kind: 'thdn', at: T0 + 2000, key: 't2', detail: { thdnPercent: 0.04, channel: 'left' } }
+			]
+		});
+		expect(addEvents(db, id, body.events)).toEqual({ stored: 3, duplicates: 0 });
+		const d = getRunDetail(db, id, T0 + 5000);
+		expect(d.events.map((e) => e.kind)).toEqual(['start', 'dc-offset', 'thdn', 'thdn']);
+		expect(d.summary.thdnEndPercent).toBe(0.05); // the latest by time, not the last posted
+		expect(d.summary.breaches).toEqual([]); // 0.05 % is far below the default ceiling
+		expect(() =>
+			eventsBodySchema.parse({
+				events: [{ kind: 'dc-offset', at: T0, detail: { channel: 'left', dcVolts: 1e6 } }]
+			})
+		).toThrow();
 	});
 
 	it('stores a keyed event once', () => {
@@ -205,7 +232,7 @@ describe('ending a run', () => {
 			readings.push(reading('heatsink-left', 1000 + 4 * s, s === 60 ? peakLeftC : c, s * 1000));
 			readings.push(reading('heatsink-right', 1001 + 4 * s, c, s * 1000));
 		}
-		addReadings(db, id, readings, 'boot-a');
+		add(db, id, readings, 'boot-a');
 	}
 
 	it('refuses to finish before the duration', () => {
@@ -241,7 +268,7 @@ describe('ending a run', () => {
 		// Readings only for soak minutes 0..40 (wall seconds 0..40): 20 minutes are missing.
 		const readings = [];
 		for (let s = 0; s <= 40; s++) readings.push(reading('heatsink-left', 1000 + s, 30, s * 1000));
-		addReadings(db, id, readings);
+		add(db, id, readings);
 		const d = finishRun(db, id, T0 + 60_000);
 		expect(d.summary.coveredS).toBe(2400); // 40 wall s × 60
 		expect(d.summary.incomplete).toBe(true); // 2400 < 3600 − max(60, 3 × 60)
@@ -253,10 +280,7 @@ describe('ending a run', () => {
 		const id = fastRun();
 		heatUp(id, 55);
 		// The page came back late: the unit ran on and reached 90 °C at wall second 70 (soak minute 70).
-		addReadings(db, id, [
-			reading('heatsink-left', 2000, 90, 70_000),
-			reading('heatsink-right', 2001, 90, 70_000)
-		]);
+		add(db, id, [reading('heatsink-left', 2000, 90, 70_000), reading('heatsink-right', 2001, 90, 70_000)]);
 		const d = finishRun(db, id, T0 + 75_000);
 		expect(d.verdict).toBe('passed');
 		expect(d.summary.probes['heatsink-left'].maxC).toBe(55);
@@ -275,7 +299,8 @@ describe('ending a run', () => {
 			message: 'too hot'
 		};
 		const d = abortRun(db, id, { reason: 'Limit breached: too hot', at: T0 + 42_000, breach }, T0 + 43_000);
-		expect(d.verdict).toBe('aborted');
+		// A limit breach fails the run, with the breach as the reason: aborted is a technician's stop.
+		expect(d.verdict).toBe('failed');
 		expect(d.run.endedAt).toBe(T0 + 42_000);
 		expect(d.run.abortReason).toBe('Limit breached: too hot');
 		expect(d.events.map((e) => e.kind)).toEqual(['start', 'breach', 'abort']);
@@ -360,7 +385,7 @@ describe('an abandoned run', () => {
 			readings.push(reading('heatsink-left', 1000 + 2 * s, 30 + s / 10, s * 1000));
 			readings.push(reading('heatsink-right', 1001 + 2 * s, 30 + s / 10, s * 1000));
 		}
-		addReadings(db, id, readings, 'boot-a');
+		add(db, id, readings, 'boot-a');
 		return id;
 	}
 
@@ -439,7 +464,7 @@ describe('a server restart', () => {
 				const batch = Array.from({ length: 100 }, (_, i) =>
 					reading('heatsink-left', 10_000 + b * 100 + i, 30 + i / 100)
 				);
-				acknowledged += addReadings(live, id, batch, 'boot-a').stored;
+				acknowledged += add(live, id, batch, 'boot-a').stored;
 			}
 			// The process dies here: no close, no checkpoint. Copy the files exactly as they are on disk.
 			const copy = join(dir, 'after-crash.db');
@@ -453,5 +478,154 @@ describe('a server restart', () => {
 		} finally {
 			rmSync(dir, { recursive: true, force: true });
 		}
+	});
+});
+
+describe('the summary kept as readings arrive', () => {
+	/**
+	 * An hour at time scale 1, three probes every 2 s: heating towards 48 °C then flat (steady
+	 * state), a bridge restart, a 40 s silence, a rise-rate spike on the transformer and a
+	 * left/right split late in the run.
+	 */
+	function record(): { probe: string; seq: number; t: number; celsius: number; bootId: string }[] {
+		const out = [];
+		let seq = 5000;
+		for (let s = 0; s <= 3600; s += 2) {
+			if (s > 1500 && s < 1540) continue; // silence
+			const boot = s < 1000 ? 'boot-a' : 'boot-b';
+			const base = 25 + 23 * (1 - Math.exp(-s / 400));
+			const spike = s >= 2200 && s < 2230 ? (s - 2200) * 0.6 : 0; // up to 17 °C in 30 s
+			const split = s > 3000 ? (s - 3000) / 40 : 0; // left pulls away by up to 15 °C
+			out.push({ probe: 'heatsink-left', seq: ++seq, t: T0 + s * 1000, celsius: base + split, bootId: boot });
+			out.push({ probe: 'heatsink-right', seq: ++seq, t: T0 + s * 1000, celsius: base, bootId: boot });
+			out.push({
+				probe: 'transformer',
+				seq: ++seq,
+				t: T0 + s * 1000,
+				celsius: base - 5 + spike,
+				bootId: boot
+			});
+		}
+		return out;
+	}
+
+	it('equals the summary computed from the whole stored record, uploaded in uneven batches', async () => {
+		const { rebuildSummary } = await import('./soak-summary');
+		const { id } = createRun(
+			db,
+			ratedJob,
+			'u1',
+			{
+				preset: 'custom',
+				custom: { watts: 10, frequencyHz: 1000, durationS: 3600, channels: ['left', 'right'] }
+			},
+			T0
+		);
+		const all = record();
+		for (let i = 0, n = 1; i < all.length; i += n, n = ((n * 7) % 61) + 1) add(db, id, all.slice(i, i + n));
+		const incremental = getRunDetail(db, id, T0 + 3_600_000).summary;
+		const row = db.select().from(table.soakRuns).where(eq(table.soakRuns.id, id)).get()!;
+		const full = rebuildSummary(db, row, getRunDetail(db, id, T0 + 3_600_000).limits).summary;
+		expect(incremental.probes).toEqual(full.probes);
+		expect(incremental.gaps).toEqual(full.gaps);
+		expect(incremental.breaches).toEqual(full.breaches);
+		expect(incremental.steadyStateS).toBe(full.steadyStateS);
+		expect(incremental.coveredS).toBe(full.coveredS);
+		// The record shows what it was built to show (so the comparison above compares something).
+		expect(full.gaps.map((g) => g.reason)).toEqual(['bridge-restart', 'silence']);
+		expect(full.breaches.map((b) => b.kind).sort()).toEqual(['left-right', 'rise-rate']);
+		expect(full.steadyStateS).not.toBeNull();
+	});
+
+	it('charts a run in at most 720 buckets per probe whatever the readings span', () => {
+		const { id } = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
+		// The earliest and the latest moments the window allows, and a day of readings between.
+		const readings = [];
+		for (let i = 0; i <= 2000; i++)
+			readings.push({
+				probe: 'heatsink-left',
+				seq: 10 + i,
+				t: T0 - 120_000 + i * 43_200,
+				celsius: 30 + (i % 7)
+			});
+		const res = add(db, id, readings, undefined, T0 + 86_400_000);
+		expect(res.rejected).toEqual([]);
+		const d = getRunDetail(db, id, T0 + 3_000_000);
+		const chart = d.series.probes['heatsink-left'];
+		expect(d.series.minutes.length).toBeLessThanOrEqual(720);
+		expect(chart.meanC.length).toBe(d.series.minutes.length);
+		// Every reading is counted once: the bucket means weigh back to the mean of the readings.
+		const rows = db.select().from(table.soakSeries).where(eq(table.soakSeries.runId, id)).all();
+		expect(rows.reduce((n, r) => n + r.n, 0)).toBe(2001);
+		expect(Math.max(...rows.map((r) => r.maxC))).toBe(36);
+	});
+
+	it("ends a technician's stop as aborted, but a stop over a stored breach as failed with the breach", () => {
+		const a = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0).id;
+		add(db, a, [reading('heatsink-left', 1001, 40, 1000), reading('heatsink-right', 1002, 40, 1000)]);
+		const stopped = abortRun(db, a, { reason: 'Customer collected early' }, T0 + 5000);
+		expect(stopped).toMatchObject({ verdict: 'aborted', run: { abortReason: 'Customer collected early' } });
+		// The stored figures are the summary's: readings count, max under the card.
+		expect(stopped.summary.probes['heatsink-left']).toMatchObject({ maxC: 40, readings: 1 });
+
+		const b = createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0 + 10_000).id;
+		add(db, b, [reading('heatsink-left', 1011, 90, 11_000)]); // above the 70 °C default
+		const failed = abortRun(db, b, { reason: 'Stopped' }, T0 + 12_000);
+		expect(failed.verdict).toBe('failed');
+		// Probe names as a person reads them, never the id.
+		expect(failed.run.abortReason).toMatch(/^Limit breached: Heatsink L reached 90\.0 °C/);
+		expect(failed.run.abortReason).not.toMatch(/heatsink-left/);
+	});
+});
+
+describe('the one-third-power caution', () => {
+	it('asks for confirmation on a unit made before 1974, and the preset texts never claim compliance', async () => {
+		const { FIXED_PRESETS } = await import('$lib/soak/presets');
+		const c = db.insert(table.customers).values({ name: 'Old Unit Owner' }).returning().get();
+		const old = db
+			.insert(table.jobs)
+			.values({
+				customerId: c.id,
+				category: 'receiver',
+				make: 'Vellum',
+				model: 'R-70',
+				complaint: 'recap',
+				year: 1971,
+				ratedPowerW: 40,
+				ratedLoadOhms: 8
+			})
+			.returning()
+			.get().id;
+		expect(() => createRun(db, old, 'u1', { preset: 'third-power-60' }, T0)).toThrow(
+			/Confirm the one-third-power caution/
+		);
+		// ⅛ power needs no confirmation; ⅓ power does, and runs once given.
+		expect(createRun(db, old, 'u1', { preset: 'third-power-60', confirmHeat: true }, T0).id).toBeGreaterThan(
+			0
+		);
+		// A newer unit (the rated job has no year) starts without it.
+		expect(createRun(db, ratedJob, 'u1', { preset: 'third-power-60' }, T0).id).toBeGreaterThan(0);
+		for (const p of FIXED_PRESETS) {
+			expect(p.meaning).toMatch(/not a power-rating test and does not show compliance/);
+			expect(p.basis).toMatch(/preconditioning/);
+		}
+		expect(FIXED_PRESETS.find((p) => p.id === 'third-power-60')?.caution).toMatch(
+			/worst-case heat of a class-AB/
+		);
+	});
+
+	it('a signed-off job refuses a new soak (409), and takes one again once reopened', () => {
+		db.update(table.jobs).set({ status: 'approved' }).where(eq(table.jobs.id, ratedJob)).run();
+		let err: unknown;
+		try {
+			createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0);
+		} catch (e) {
+			err = e;
+		}
+		expect(err).toBeInstanceOf(DomainError);
+		expect((err as DomainError).code).toBe('conflict');
+		expect(listRuns(db, ratedJob, T0)).toHaveLength(0);
+		db.update(table.jobs).set({ status: 'diagnosing' }).where(eq(table.jobs.id, ratedJob)).run();
+		expect(createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' }, T0).id).toBeGreaterThan(0);
 	});
 });

@@ -1,17 +1,18 @@
 // Heat-soak runs in the database: create a run from a preset and the job's rating, store
-// readings idempotently (run + probe + seq), record events, and end the run with a verdict the
-// server computes from what it stored. Every write is one transaction.
-import { and, asc, desc, eq, gt, sql } from 'drizzle-orm';
-import { z } from 'zod';
+// readings idempotently (run + probe + seq) and fold them into the run's summary and chart as
+// they arrive (soak-summary.ts), record events, and end the run with a verdict the server takes
+// from what it stored. Every write is one transaction.
+import { and, asc, desc, eq, gt, inArray, sql } from 'drizzle-orm';
 import type { Db } from './db/open';
 import * as table from './db/schema';
-import { getJob } from './jobs';
-import { PROBE_IDS, SOURCE_KINDS, TEMPS_KINDS } from '$lib/bridge/protocol';
+import { assertJobOpen, getJob } from './jobs';
+import { PROBE_IDS } from '$lib/bridge/protocol';
 import {
 	computeDrive,
-	customDriveSchema,
+	fixedPreset,
+	needsHeatConfirmation,
 	PRESET_LABELS,
-	SOAK_PRESET_IDS,
+	ratingBasisProblem,
 	type SoakChannel,
 	type SoakPresetId
 } from '$lib/soak/presets';
@@ -19,13 +20,33 @@ import { runLimits, soakLimitsPatchSchema, soakLimitsSchema, type SoakLimits } f
 import { DomainError } from './errors';
 import { getSetting } from './settings';
 import {
-	summarize,
-	verdictOf,
 	soakSeconds,
+	verdictOf,
 	type SoakReadingIn,
 	type SoakSummary,
 	type ThdnSample
 } from '$lib/soak/verdict';
+import { SERIES_BUCKETS, seriesOf, type SeriesBucketRow } from '$lib/soak/series';
+import {
+	CELSIUS_MAX,
+	CELSIUS_MIN,
+	MAX_ACCELERATED_TIME_SCALE,
+	abortSchema,
+	createRunSchema,
+	type AbortInput,
+	type CreateRunInput,
+	type SoakEventInput
+} from '$lib/schemas/soak';
+import {
+	closeSummary,
+	emptySummary,
+	foldReadings,
+	foldThdn,
+	plannedEndMs,
+	rebuildSummary,
+	seriesRunOf,
+	type SummaryState
+} from './soak-summary';
 import type {
 	SoakEventView,
 	SoakRunDetail,
@@ -34,142 +55,37 @@ import type {
 	SoakVerdict
 } from '$lib/soak/types';
 export type { SoakEventView, SoakRunDetail, SoakRunListItem, SoakRunView, SoakVerdict };
+export { plannedEndMs };
 
-export const CELSIUS_MIN = -50;
-export const CELSIUS_MAX = 400;
-export const READINGS_MAX_PER_BATCH = 5000;
-export const READINGS_BODY_MAX_BYTES = 1024 * 1024;
-/**
- * The fastest simulator thermal time the server accepts: at ×120 the hour-long preset takes
- * 30 s, enough for a demo, while a faster clock would turn the record into a handful of readings.
- */
-export const MAX_ACCELERATED_TIME_SCALE = 120;
+export {
+	CELSIUS_MAX,
+	CELSIUS_MIN,
+	MAX_ACCELERATED_TIME_SCALE,
+	READINGS_BODY_MAX_BYTES,
+	READINGS_MAX_PER_BATCH,
+	abortSchema,
+	breachSchema,
+	createRunSchema,
+	eventSchema,
+	eventsBodySchema,
+	readingsBodySchema,
+	type AbortInput,
+	type CreateRunInput,
+	type SoakEventInput
+} from '$lib/schemas/soak';
 /**
  * Wall time past a run's planned end after which the server closes it itself (the page that
  * should have finished it is gone), so an abandoned run cannot block the job's next soak.
  */
 export const OVERDUE_GRACE_MS = 10 * 60 * 1000;
+/**
+ * How far a reading's bridge time may lie before the run's start or after the server's now:
+ * the bridge's and the server's clocks differ a little, and the first readings of a run may
+ * have been logged just before the server stored its start.
+ */
+export const READING_CLOCK_SLACK_MS = 2 * 60 * 1000;
 
-// ── inputs ───────────────────────────────────────────────────────────────────
-
-export const createRunSchema = z
-	.object({
-		preset: z.enum(SOAK_PRESET_IDS),
-		/** Required for the custom preset: watts or volts into the load, frequency, duration, channels. */
-		custom: customDriveSchema.optional(),
-		/** Any limit not given comes from the shop's `soakDefaultLimits`. */
-		limits: soakLimitsPatchSchema.optional(),
-		probes: z.array(z.enum(PROBE_IDS)).min(1).max(PROBE_IDS.length).optional(),
-		/** What the page saw of the bridge at start; optional so `{ preset }` alone works. */
-		bridge: z
-			.object({
-				bootId: z.string().max(64).optional(),
-				lastSeq: z.number().int().min(-1).nullable().optional(),
-				/** The hello's audio source and temperature source: only the simulator may run accelerated. */
-				source: z.enum(SOURCE_KINDS).optional(),
-				temps: z.enum(TEMPS_KINDS).optional(),
-				timeScale: z.number().positive().max(MAX_ACCELERATED_TIME_SCALE).optional()
-			})
-			.strict()
-			.optional()
-	})
-	.strict();
-export type CreateRunInput = z.infer<typeof createRunSchema>;
-
-export const readingsBodySchema = z
-	.object({
-		readings: z.array(z.unknown()).min(1).max(READINGS_MAX_PER_BATCH),
-		/** The bridge boot the readings came from, when not given per reading. */
-		bootId: z.string().max(64).optional()
-	})
-	.strict();
-
-const at = z.number().int().min(0).max(8.64e15);
-const key = z.string().min(1).max(80).optional();
-export const eventSchema = z.discriminatedUnion('kind', [
-	z
-		.object({
-			kind: z.literal('gap'),
-			at,
-			key,
-			detail: z
-				.object({
-					reason: z.enum(['bridge-restart', 'disconnected', 'history-lost']),
-					fromT: z.number().nullable().optional(),
-					toT: z.number().nullable().optional(),
-					fromSeq: z.number().int().nullable().optional(),
-					toSeq: z.number().int().nullable().optional(),
-					fromBootId: z.string().max(64).nullable().optional(),
-					toBootId: z.string().max(64).nullable().optional()
-				})
-				.strict()
-		})
-		.strict(),
-	z
-		.object({
-			kind: z.literal('thdn'),
-			at,
-			key,
-			detail: z
-				.object({
-					thdnPercent: z.number().min(0).max(1000),
-					outputW: z.number().min(0).max(100_000).nullable().optional(),
-					outputVrms: z.number().min(0).max(1000).nullable().optional(),
-					channel: z.enum(['left', 'right']).optional()
-				})
-				.strict()
-		})
-		.strict(),
-	z
-		.object({
-			kind: z.literal('generator'),
-			at,
-			key,
-			detail: z
-				.object({
-					state: z.enum(['on', 'off']),
-					levelVrms: z.number().min(0).max(100).optional(),
-					frequencyHz: z.number().min(0).max(100_000).optional(),
-					note: z.string().max(300).optional()
-				})
-				.strict()
-		})
-		.strict(),
-	z
-		.object({
-			kind: z.literal('note'),
-			at,
-			key,
-			detail: z.object({ text: z.string().min(1).max(1000) }).strict()
-		})
-		.strict()
-]);
-export type SoakEventInput = z.infer<typeof eventSchema>;
-export const eventsBodySchema = z.object({ events: z.array(eventSchema).min(1).max(500) }).strict();
-
-export const breachSchema = z
-	.object({
-		kind: z.enum(['max-heatsink', 'rise-rate', 'left-right', 'thdn']),
-		probe: z.string().max(80),
-		t: z.number(),
-		atS: z.number().optional(),
-		value: z.number(),
-		limit: z.number(),
-		message: z.string().max(500)
-	})
-	.strict();
-
-export const abortSchema = z
-	.object({
-		reason: z.string().trim().min(1).max(500),
-		/** The moment the run ended (a breach's reading time), ms since the epoch; default now. */
-		at: z.number().int().min(0).optional(),
-		breach: breachSchema.optional()
-	})
-	.strict();
-export type AbortInput = z.infer<typeof abortSchema>;
-
-// ── views ────────────────────────────────────────────────────────────────────
+// ── views
 
 type RunRow = typeof table.soakRuns.$inferSelect;
 
@@ -207,7 +123,7 @@ function limitsOf(row: RunRow): SoakLimits {
 
 // ── helpers ──────────────────────────────────────────────────────────────────
 
-type Tx = Pick<Db, 'select' | 'insert' | 'update'>;
+type Tx = Pick<Db, 'select' | 'insert' | 'update' | 'delete'>;
 
 function getRow(db: Tx, runId: number): RunRow {
 	const row = db.select().from(table.soakRuns).where(eq(table.soakRuns.id, runId)).get();
@@ -215,7 +131,7 @@ function getRow(db: Tx, runId: number): RunRow {
 	return row;
 }
 
-/** The columns a reading is read back with (verdict input and backfill alike). */
+/** The columns a reading is read back with. */
 const readingColumns = {
 	probe: table.soakReadings.probe,
 	seq: table.soakReadings.seq,
@@ -224,69 +140,64 @@ const readingColumns = {
 	bootId: table.soakReadings.bootId
 };
 
-function storedReadings(db: Tx, runId: number): SoakReadingIn[] {
-	return db
-		.select(readingColumns)
-		.from(table.soakReadings)
-		.where(eq(table.soakReadings.runId, runId))
-		.orderBy(asc(table.soakReadings.seq))
-		.all();
-}
-
-function thdnSamples(db: Tx, runId: number): ThdnSample[] {
-	const rows = db
-		.select({ at: table.soakEvents.at, detail: table.soakEvents.detail })
-		.from(table.soakEvents)
-		.where(and(eq(table.soakEvents.runId, runId), eq(table.soakEvents.kind, 'thdn')))
-		.all();
-	const out: ThdnSample[] = [];
-	for (const r of rows) {
-		const d = r.detail as { thdnPercent?: unknown; channel?: unknown } | null;
-		if (d && typeof d.thdnPercent === 'number')
-			out.push({
-				t: r.at.getTime(),
-				thdnPercent: d.thdnPercent,
-				channel: typeof d.channel === 'string' ? d.channel : undefined
-			});
+/**
+ * The run's stored summary and its bookkeeping. A running run stored before the summary was
+ * kept incrementally has none: it is rebuilt from its readings once and stored.
+ */
+function liveOf(tx: Tx, row: RunRow): { summary: SoakSummary; state: SummaryState } {
+	const state = row.summaryState as SummaryState | null;
+	if (state && row.summary) return { summary: row.summary as SoakSummary, state };
+	if (row.status !== 'running' && row.summary) {
+		// An ended run from before: its summary is final; count what is stored once.
+		const r = tx
+			.select({ count: sql<number>`count(*)`, lastSeq: sql<number | null>`max(${table.soakReadings.seq})` })
+			.from(table.soakReadings)
+			.where(eq(table.soakReadings.runId, row.id))
+			.get();
+		return {
+			summary: row.summary as SoakSummary,
+			state: { readingCount: r?.count ?? 0, lastSeq: r?.lastSeq ?? null }
+		};
 	}
-	return out;
+	if (!state && row.status === 'running') {
+		const rebuilt = rebuildSummary(tx, row, limitsOf(row));
+		tx.update(table.soakRuns)
+			.set({ summary: rebuilt.summary, summaryState: rebuilt.state })
+			.where(eq(table.soakRuns.id, row.id))
+			.run();
+		return rebuilt;
+	}
+	return {
+		summary: (row.summary as SoakSummary | null) ?? emptySummary(),
+		state: state ?? { readingCount: 0, lastSeq: null }
+	};
 }
 
 /**
- * The summary of what is stored, judged up to `untilMs` (the planned end for a finished run, the
- * abort moment for an aborted one): readings the bridge logged after that are kept but not judged.
+ * How a run ends from its stored summary: a limit breach is a failed run with the breach as the
+ * reason; a record that stops short of a completed run's duration fails too.
  */
-function computeSummary(db: Tx, row: RunRow, end?: { untilMs: number; complete: boolean }): SoakSummary {
-	const startedAtMs = row.startedAt.getTime();
-	const clock = { startedAtMs, timeScale: row.timeScale };
-	const untilMs = end ? end.untilMs : Infinity;
-	const readings = storedReadings(db, row.id).filter((r) => r.t <= untilMs);
-	const thdn = thdnSamples(db, row.id).filter((x) => x.t <= untilMs);
-	return summarize(readings, limitsOf(row), clock, thdn, end?.complete ? { durationS: row.durationS } : {});
-}
-
-/** Wall-clock ms at which a run's planned duration ends. */
-function plannedEndMs(row: RunRow): number {
-	return row.startedAt.getTime() + (row.durationS * 1000) / row.timeScale;
-}
-
-function readingStats(db: Tx, runId: number): { count: number; lastSeq: number | null } {
-	const r = db
-		.select({ count: sql<number>`count(*)`, lastSeq: sql<number | null>`max(${table.soakReadings.seq})` })
-		.from(table.soakReadings)
-		.where(eq(table.soakReadings.runId, runId))
-		.get();
-	return { count: r?.count ?? 0, lastSeq: r?.lastSeq ?? null };
+function endingOf(summary: SoakSummary): { status: 'passed' | 'failed'; reason: string | null } {
+	const first = summary.breaches[0];
+	if (first) return { status: 'failed', reason: `Limit breached: ${first.message}` };
+	if (summary.incomplete)
+		return { status: 'failed', reason: 'The record stops short of the planned duration' };
+	return { status: verdictOf(summary), reason: null };
 }
 
 /**
  * Finish every run (of one job, or one run) still `running` more than the grace period past its
- * planned end by the wall clock: the verdict comes from what is stored, judged to the planned
- * end (a record that stops short fails as incomplete), and an event says the server closed it.
+ * planned end by the wall clock: the verdict comes from the stored summary, judged to the
+ * planned end (a record that stops short fails as incomplete), and an event says the server closed it.
  */
 function closeOverdueRuns(db: Db, where: { jobId: number } | { runId: number }, nowMs: number): void {
 	const rows = db
-		.select()
+		.select({
+			id: table.soakRuns.id,
+			startedAt: table.soakRuns.startedAt,
+			durationS: table.soakRuns.durationS,
+			timeScale: table.soakRuns.timeScale
+		})
 		.from(table.soakRuns)
 		.where(
 			and(
@@ -302,30 +213,60 @@ function closeOverdueRuns(db: Db, where: { jobId: number } | { runId: number }, 
 			const row = getRow(tx, stale.id);
 			if (row.status !== 'running') return;
 			const endMs = plannedEndMs(row);
-			const summary = computeSummary(tx, row, { untilMs: endMs, complete: true });
-			const verdict = verdictOf(summary);
+			const live = liveOf(tx, row);
+			const summary = closeSummary(live.summary, row.durationS, true);
+			const ending = endingOf(summary);
 			tx.insert(table.soakEvents)
 				.values({
 					runId: row.id,
 					kind: 'server-closed',
 					at: new Date(nowMs),
 					detail: {
-						text: `Closed by the server ${Math.round((nowMs - endMs) / 60_000)} min after the planned end: no page finished the run. Verdict from the stored readings: ${verdict}.`,
+						text: `Closed by the server ${Math.round((nowMs - endMs) / 60_000)} min after the planned end: no page finished the run. Verdict from the stored readings: ${ending.status}.`,
 						plannedEndMs: endMs
 					}
 				})
 				.run();
 			tx.update(table.soakRuns)
-				.set({ status: verdict, endedAt: new Date(Math.round(endMs)), summary })
+				.set({
+					status: ending.status,
+					endedAt: new Date(Math.round(endMs)),
+					summary,
+					abortReason: ending.reason
+				})
 				.where(eq(table.soakRuns.id, row.id))
 				.run();
 		});
 	}
 }
 
+function seriesRows(db: Tx, runIds: readonly number[]): Map<number, SeriesBucketRow[]> {
+	const out = new Map<number, SeriesBucketRow[]>();
+	if (!runIds.length) return out;
+	const rows = db
+		.select({
+			runId: table.soakSeries.runId,
+			probe: table.soakSeries.probe,
+			bucket: table.soakSeries.bucket,
+			n: table.soakSeries.n,
+			sumC: table.soakSeries.sumC,
+			minC: table.soakSeries.minC,
+			maxC: table.soakSeries.maxC
+		})
+		.from(table.soakSeries)
+		.where(inArray(table.soakSeries.runId, [...runIds]))
+		.all();
+	for (const r of rows) {
+		let list = out.get(r.runId);
+		if (!list) out.set(r.runId, (list = []));
+		list.push(r);
+	}
+	return out;
+}
+
 // ── service ──────────────────────────────────────────────────────────────────
 
-/** Start a run on a job. One running soak per job at a time. */
+/** Start a run on a job. One running soak per job at a time; a signed-off job takes none. */
 export function createRun(
 	db: Db,
 	jobId: number,
@@ -336,12 +277,28 @@ export function createRun(
 	const data = createRunSchema.parse(input);
 	const job = getJob(db, jobId);
 	if (!job) throw new DomainError('not-found', 'No such job');
+	// The basis of the rating, where the job records one (a column the job record may carry).
+	const basis = (job as { ratedPowerBasis?: string | null }).ratedPowerBasis;
+	const basisProblem = data.preset === 'custom' ? null : ratingBasisProblem(basis);
+	if (basisProblem)
+		throw new DomainError('invalid', basisProblem, [{ path: 'preset', message: basisProblem }]);
 	const drive = computeDrive(
 		data.preset,
 		{ ratedPowerW: job.ratedPowerW, ratedLoadOhms: job.ratedLoadOhms },
 		data.custom
 	);
 	if (!drive.ok) throw new DomainError('invalid', drive.message);
+	if (needsHeatConfirmation(data.preset, { year: job.year }) && data.confirmHeat !== true)
+		throw new DomainError(
+			'invalid',
+			`Confirm the one-third-power caution first (send confirmHeat: true): ${fixedPreset(data.preset)?.caution ?? ''}`,
+			[
+				{
+					path: 'confirmHeat',
+					message: `required for one-third power on a unit made before 1974 (this one: ${job.year})`
+				}
+			]
+		);
 	const timeScale = data.bridge?.timeScale ?? 1;
 	const simulated =
 		data.bridge?.source === 'sim' && (data.bridge.temps === undefined || data.bridge.temps === 'sim');
@@ -352,9 +309,13 @@ export function createRun(
 			'invalid',
 			'A time scale other than 1 is only accepted from the bridge simulator (source and temperatures "sim")'
 		);
+	if (timeScale > MAX_ACCELERATED_TIME_SCALE)
+		throw new DomainError('invalid', `A time scale above ×${MAX_ACCELERATED_TIME_SCALE} is not accepted`);
 	closeOverdueRuns(db, { jobId }, nowMs);
 	const limits = runLimits(getSetting(db, 'soakDefaultLimits'), data.limits ?? {});
 	return db.transaction((tx) => {
+		// A signed-off job is a finished record: no new soak on it (409) until it is reopened.
+		assertJobOpen(tx, jobId);
 		const running = tx
 			.select({ id: table.soakRuns.id })
 			.from(table.soakRuns)
@@ -378,7 +339,9 @@ export function createRun(
 				timeScale,
 				startSeq: data.bridge?.lastSeq ?? null,
 				status: 'running',
-				startedAt: new Date(nowMs)
+				startedAt: new Date(nowMs),
+				summary: emptySummary(),
+				summaryState: { readingCount: 0, lastSeq: null } satisfies SummaryState
 			})
 			.returning({ id: table.soakRuns.id })
 			.get();
@@ -400,7 +363,14 @@ export function createRun(
 	});
 }
 
-export function listRuns(db: Db, jobId: number, nowMs = Date.now(), thumbPoints = 48): SoakRunListItem[] {
+/** Points in a job-page thumbnail: the stored chart's buckets merged this many at a time. */
+const THUMB_FACTOR = Math.ceil(SERIES_BUCKETS / 48);
+
+/**
+ * A job's runs, newest first, each with its counts and a thumbnail read from the stored
+ * summary and chart: a bounded amount of work per run, however many readings it holds.
+ */
+export function listRuns(db: Db, jobId: number, nowMs = Date.now()): SoakRunListItem[] {
 	closeOverdueRuns(db, { jobId }, nowMs);
 	const rows = db
 		.select({ run: table.soakRuns, name: table.users.name })
@@ -409,43 +379,25 @@ export function listRuns(db: Db, jobId: number, nowMs = Date.now(), thumbPoints 
 		.where(eq(table.soakRuns.jobId, jobId))
 		.orderBy(desc(table.soakRuns.startedAt), desc(table.soakRuns.id))
 		.all();
+	const series = seriesRows(
+		db,
+		rows.map((r) => r.run.id)
+	);
 	return rows.map(({ run, name }) => {
 		const view = runView(run, name);
-		const startedAtMs = view.startedAt;
-		// Bucket width in bridge milliseconds so the whole planned duration spans the thumbnail.
-		const bucketMs = Math.max(1, Math.ceil((view.durationS * 1000) / view.timeScale / thumbPoints));
-		const agg = db
-			.select({
-				probe: table.soakReadings.probe,
-				bucket: sql<number>`cast((${table.soakReadings.t} - ${startedAtMs}) / ${bucketMs} as integer)`,
-				meanC: sql<number>`avg(${table.soakReadings.celsius})`,
-				maxC: sql<number>`max(${table.soakReadings.celsius})`
-			})
-			.from(table.soakReadings)
-			.where(eq(table.soakReadings.runId, run.id))
-			.groupBy(sql`1, 2`)
-			.orderBy(sql`2`)
-			.all();
-		// Every bucket from the first to the last, so a stretch without readings breaks the line.
-		const present = agg.map((a) => a.bucket);
-		const first = present.length ? Math.min(...present) : 0;
-		const last = present.length ? Math.max(...present) : -1;
-		const buckets = Array.from({ length: Math.max(0, last - first + 1) }, (_, i) => first + i);
-		const index = new Map(buckets.map((b, i) => [b, i]));
-		const probes: Record<string, (number | null)[]> = {};
+		const live = liveOf(db, run);
 		const maxC: Record<string, number> = {};
-		for (const a of agg) {
-			(probes[a.probe] ??= buckets.map(() => null))[index.get(a.bucket) as number] = a.meanC;
-			maxC[a.probe] = Math.max(maxC[a.probe] ?? -Infinity, a.maxC);
-		}
-		const minutes = buckets.map(
-			(b) => soakSeconds(startedAtMs + (b + 0.5) * bucketMs, { startedAtMs, timeScale: view.timeScale }) / 60
-		);
+		for (const [p, s] of Object.entries(live.summary.probes)) maxC[p] = s.maxC;
+		const chart = seriesOf(seriesRunOf(run), series.get(run.id) ?? [], THUMB_FACTOR);
+		const probes: Record<string, (number | null)[]> = {};
+		for (const [p, s] of Object.entries(chart.probes)) probes[p] = s.meanC;
 		return {
 			run: view,
 			verdict: view.status === 'running' ? null : view.status,
 			maxC,
-			thumb: { minutes, probes }
+			readingCount: live.state.readingCount,
+			coveredS: live.summary.coveredS,
+			thumb: { minutes: chart.minutes, probes }
 		};
 	});
 }
@@ -460,8 +412,7 @@ export function getRunDetail(db: Db, runId: number, nowMs = Date.now()): SoakRun
 		.get();
 	if (!found) throw new DomainError('not-found', 'No such soak run');
 	const row = found.run;
-	const stats = readingStats(db, runId);
-	const stored = row.summary as SoakSummary | null;
+	const live = liveOf(db, row);
 	const events = db
 		.select({
 			id: table.soakEvents.id,
@@ -477,10 +428,11 @@ export function getRunDetail(db: Db, runId: number, nowMs = Date.now()): SoakRun
 	return {
 		run: runView(row, found.name),
 		limits: limitsOf(row),
-		readingCount: stats.count,
-		lastSeq: stats.lastSeq,
+		readingCount: live.state.readingCount,
+		lastSeq: live.state.lastSeq,
 		verdict: row.status === 'running' ? null : row.status,
-		summary: row.status !== 'running' && stored ? stored : computeSummary(db, row),
+		summary: live.summary,
+		series: seriesOf(seriesRunOf(row), seriesRows(db, [runId]).get(runId) ?? []),
 		events
 	};
 }
@@ -517,48 +469,67 @@ export interface AddReadingsResult {
 	readingCount: number;
 }
 
+/** The bridge times a run's readings may carry: its start to now, each with a little clock slack. */
+export function readingWindow(row: Pick<RunRow, 'startedAt'>, nowMs: number): { fromT: number; toT: number } {
+	return { fromT: row.startedAt.getTime() - READING_CLOCK_SLACK_MS, toT: nowMs + READING_CLOCK_SLACK_MS };
+}
+
+const iso = (ms: number) => new Date(ms).toISOString();
+
 function checkReading(
 	raw: unknown,
-	probes: ReadonlySet<string>
+	probes: ReadonlySet<string>,
+	window: { fromT: number; toT: number }
 ): { ok: true } | { ok: false; reason: string } {
 	if (typeof raw !== 'object' || raw === null || Array.isArray(raw))
 		return { ok: false, reason: 'not an object' };
 	const r = raw as Record<string, unknown>;
 	if (typeof r.probe !== 'string' || !probes.has(r.probe))
-		return { ok: false, reason: `unknown probe ${JSON.stringify(r.probe)}` };
+		return {
+			ok: false,
+			reason: `unknown probe ${JSON.stringify(r.probe)} (this run logs ${[...probes].join(', ')})`
+		};
 	if (typeof r.seq !== 'number' || !Number.isSafeInteger(r.seq) || r.seq < 0)
 		return { ok: false, reason: 'seq must be a non-negative integer' };
-	if (typeof r.t !== 'number' || !Number.isFinite(r.t) || r.t < 0)
+	if (typeof r.t !== 'number' || !Number.isFinite(r.t))
 		return { ok: false, reason: 't must be ms since the epoch' };
+	if (r.t < window.fromT || r.t > window.toT)
+		return {
+			ok: false,
+			reason: `t ${r.t} is outside the run's time window (${iso(window.fromT)} to ${iso(window.toT)}: the run's start to now, with ${READING_CLOCK_SLACK_MS / 1000} s of clock slack)`
+		};
 	if (typeof r.celsius !== 'number' || !Number.isFinite(r.celsius))
 		return { ok: false, reason: 'celsius is not a number' };
 	if (r.celsius < CELSIUS_MIN || r.celsius > CELSIUS_MAX)
 		return { ok: false, reason: `celsius ${r.celsius} out of range (${CELSIUS_MIN} to ${CELSIUS_MAX} °C)` };
 	if (r.bootId !== undefined && r.bootId !== null && (typeof r.bootId !== 'string' || r.bootId.length > 64))
-		return { ok: false, reason: 'bootId must be a string' };
+		return { ok: false, reason: 'bootId must be a string of at most 64 characters' };
 	return { ok: true };
 }
 
 /**
  * Store a batch of readings. Valid readings are stored (INSERT OR IGNORE on run + probe + seq,
  * so a repeated upload is harmless) even when others in the batch are rejected; the rejected
- * ones are named in the answer. A run that has ended takes no more readings.
+ * ones are named in the answer. The new ones are folded into the run's summary and chart in the
+ * same transaction. A run that has ended takes no more readings.
  */
 export function addReadings(
 	db: Db,
 	runId: number,
 	readings: readonly unknown[],
-	batchBootId?: string
+	batchBootId?: string,
+	nowMs = Date.now()
 ): AddReadingsResult {
 	return db.transaction((tx) => {
 		const row = getRow(tx, runId);
 		if (row.status !== 'running')
 			throw new DomainError('conflict', `The run has ended (${row.status}); it takes no more readings`);
 		const probes = new Set(row.probes as string[]);
+		const window = readingWindow(row, nowMs);
 		const rejected: RejectedReading[] = [];
 		const valid: (typeof table.soakReadings.$inferInsert)[] = [];
 		readings.forEach((raw, index) => {
-			const check = checkReading(raw, probes);
+			const check = checkReading(raw, probes, window);
 			const r = (typeof raw === 'object' && raw !== null ? raw : {}) as Record<string, unknown>;
 			if (!check.ok) {
 				rejected.push({ index, probe: r.probe ?? null, seq: r.seq ?? null, reason: check.reason });
@@ -573,22 +544,34 @@ export function addReadings(
 				bootId: (r.bootId as string | undefined) ?? batchBootId ?? null
 			});
 		});
-		let stored = 0;
+		// RETURNING with DO NOTHING names exactly the rows that were new: only they are folded in.
+		const byKey = new Map(valid.map((v) => [`${v.probe}|${v.seq}`, v]));
+		const added: SoakReadingIn[] = [];
 		for (let i = 0; i < valid.length; i += 1000) {
-			const res = tx
+			const rows = tx
 				.insert(table.soakReadings)
 				.values(valid.slice(i, i + 1000))
 				.onConflictDoNothing()
-				.run();
-			stored += res.changes;
+				.returning({ probe: table.soakReadings.probe, seq: table.soakReadings.seq })
+				.all();
+			for (const k of rows) {
+				const v = byKey.get(`${k.probe}|${k.seq}`) as (typeof valid)[number];
+				added.push({ probe: v.probe, seq: v.seq, t: v.t, celsius: v.celsius, bootId: v.bootId ?? null });
+			}
 		}
-		const stats = readingStats(tx, runId);
+		const live = liveOf(tx, row);
+		const next = foldReadings(tx, row, limitsOf(row), live, added);
+		if (added.length)
+			tx.update(table.soakRuns)
+				.set({ summary: next.summary, summaryState: next.state })
+				.where(eq(table.soakRuns.id, runId))
+				.run();
 		return {
-			stored,
-			duplicates: valid.length - stored,
+			stored: added.length,
+			duplicates: valid.length - added.length,
 			rejected,
-			lastSeq: stats.lastSeq,
-			readingCount: stats.count
+			lastSeq: next.state.lastSeq,
+			readingCount: next.state.readingCount
 		};
 	});
 }
@@ -626,20 +609,31 @@ export function addEvents(
 		if (row.status !== 'running' && events.some((e) => e.kind === 'thdn' || e.kind === 'gap'))
 			throw new DomainError('conflict', `The run has ended (${row.status}); it takes no more measurements`);
 		let stored = 0;
+		const thdn: ThdnSample[] = [];
+		// The keys this batch names that are already stored: one pass over the run's events per
+		// batch (not one per event), so a day's worth of THD+N samples does not make uploads slow.
+		const keys = [...new Set(events.map((e) => e.key).filter((k): k is string => !!k))];
+		const seen = new Set<string>();
+		for (let i = 0; i < keys.length; i += 500) {
+			const rows = tx
+				.select({
+					kind: table.soakEvents.kind,
+					key: sql<string>`json_extract(${table.soakEvents.detail}, '$.key')`
+				})
+				.from(table.soakEvents)
+				.where(
+					and(
+						eq(table.soakEvents.runId, runId),
+						inArray(sql`json_extract(${table.soakEvents.detail}, '$.key')`, keys.slice(i, i + 500))
+					)
+				)
+				.all();
+			for (const r of rows) seen.add(`${r.kind}|${r.key}`);
+		}
 		for (const e of events) {
 			if (e.key) {
-				const dup = tx
-					.select({ id: table.soakEvents.id })
-					.from(table.soakEvents)
-					.where(
-						and(
-							eq(table.soakEvents.runId, runId),
-							eq(table.soakEvents.kind, e.kind),
-							sql`json_extract(${table.soakEvents.detail}, '$.key') = ${e.key}`
-						)
-					)
-					.get();
-				if (dup) continue;
+				if (seen.has(`${e.kind}|${e.key}`)) continue;
+				seen.add(`${e.kind}|${e.key}`);
 			}
 			tx.insert(table.soakEvents)
 				.values({
@@ -649,7 +643,16 @@ export function addEvents(
 					detail: e.key ? { ...e.detail, key: e.key } : e.detail
 				})
 				.run();
+			if (e.kind === 'thdn')
+				thdn.push({ t: e.at, thdnPercent: e.detail.thdnPercent, channel: e.detail.channel });
 			stored++;
+		}
+		if (thdn.length && row.status === 'running') {
+			const next = foldThdn(row, limitsOf(row), liveOf(tx, row), thdn);
+			tx.update(table.soakRuns)
+				.set({ summary: next.summary, summaryState: next.state })
+				.where(eq(table.soakRuns.id, runId))
+				.run();
 		}
 		return { stored, duplicates: events.length - stored };
 	});
@@ -664,8 +667,8 @@ export function remainingS(
 }
 
 /**
- * End a run that reached its duration: the verdict comes from the stored readings and THD+N
- * samples (passed, or failed on any breach), never from what a browser claimed.
+ * End a run that reached its duration: the verdict comes from the stored summary (passed, or
+ * failed on any breach or a record that stops short), never from what a browser claimed.
  */
 export function finishRun(db: Db, runId: number, nowMs = Date.now()): SoakRunDetail {
 	db.transaction((tx) => {
@@ -682,35 +685,55 @@ export function finishRun(db: Db, runId: number, nowMs = Date.now()): SoakRunDet
 				'conflict',
 				`The run has ${Math.ceil(left / 60)} min of soak time left; abort it to stop early`
 			);
-		const summary = computeSummary(tx, row, { untilMs: plannedEndMs(row), complete: true });
+		const summary = closeSummary(liveOf(tx, row).summary, row.durationS, true);
+		const ending = endingOf(summary);
 		tx.update(table.soakRuns)
-			.set({ status: verdictOf(summary), endedAt: new Date(nowMs), summary })
+			.set({ status: ending.status, endedAt: new Date(nowMs), summary, abortReason: ending.reason })
 			.where(eq(table.soakRuns.id, runId))
 			.run();
 	});
 	return getRunDetail(db, runId, nowMs);
 }
 
-/** End a run early: a breach seen by the page, or the technician stopping it. */
+/**
+ * End a run early. A limit breach (the page's, or one the stored record shows) ends it as
+ * failed with the breach as the reason; only a technician's stop without one is aborted.
+ */
 export function abortRun(db: Db, runId: number, input: AbortInput, nowMs = Date.now()): SoakRunDetail {
 	const data = abortSchema.parse(input);
 	db.transaction((tx) => {
 		const row = getRow(tx, runId);
 		if (row.status !== 'running')
 			throw new DomainError('conflict', `The run has already ended (${row.status})`);
+		const window = readingWindow(row, nowMs);
+		const issues: { path: string; message: string }[] = [];
+		if (data.breach && (data.breach.t < window.fromT || data.breach.t > window.toT))
+			issues.push({
+				path: 'breach.t',
+				message: `${data.breach.t} is outside the run (${iso(window.fromT)} to ${iso(window.toT)})`
+			});
+		if (data.at !== undefined && (data.at < window.fromT || data.at > window.toT))
+			issues.push({
+				path: 'at',
+				message: `${data.at} is outside the run (${iso(window.fromT)} to ${iso(window.toT)})`
+			});
+		if (issues.length) throw new DomainError('invalid', 'The abort names a moment outside the run', issues);
 		// The moment may not precede the start nor lie in the future.
 		const endedAtMs = Math.min(nowMs, Math.max(row.startedAt.getTime(), data.at ?? nowMs));
-		const summary = computeSummary(tx, row, { untilMs: endedAtMs, complete: false });
+		const summary = closeSummary(liveOf(tx, row).summary, row.durationS, false);
 		if (data.breach) {
 			tx.insert(table.soakEvents)
 				.values({ runId, kind: 'breach', at: new Date(Math.round(data.breach.t)), detail: data.breach })
 				.run();
 		}
+		const breach = data.breach ?? summary.breaches[0];
+		const status = breach ? 'failed' : 'aborted';
+		const reason = breach ? `Limit breached: ${breach.message}` : data.reason;
 		tx.insert(table.soakEvents)
-			.values({ runId, kind: 'abort', at: new Date(endedAtMs), detail: { reason: data.reason } })
+			.values({ runId, kind: 'abort', at: new Date(endedAtMs), detail: { reason, verdict: status } })
 			.run();
 		tx.update(table.soakRuns)
-			.set({ status: 'aborted', endedAt: new Date(endedAtMs), abortReason: data.reason, summary })
+			.set({ status, endedAt: new Date(endedAtMs), abortReason: reason, summary })
 			.where(eq(table.soakRuns.id, runId))
 			.run();
 	});

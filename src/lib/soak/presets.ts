@@ -16,9 +16,17 @@ export interface FixedPreset {
 	powerFraction: number;
 	durationS: number;
 	frequencyHz: number;
-	/** Where the preset comes from, shown beside it. */
+	/** Where the drive level comes from, shown beside it. */
 	basis: string;
+	/** What a pass means (and does not), shown beside it and with the verdict. */
+	meaning: string;
+	/** A caution shown before starting, when the preset carries one. */
+	caution?: string;
 }
+
+/** What every borrowed-level preset says of its verdict. */
+const BURN_IN_MEANING =
+	"A shop burn-in at the rule's preconditioning level: a pass says the unit ran an hour at this level within the shop's limits. It is not a power-rating test and does not show compliance with the rule.";
 
 export const FIXED_PRESETS: readonly FixedPreset[] = [
 	{
@@ -27,7 +35,9 @@ export const FIXED_PRESETS: readonly FixedPreset[] = [
 		powerFraction: 1 / 8,
 		durationS: 3600,
 		frequencyHz: 1000,
-		basis: 'Preconditioning in the US FTC amplifier rule, 16 CFR Part 432 as amended in 2000'
+		basis:
+			'Drive level borrowed from the preconditioning step of the US FTC amplifier rule (16 CFR Part 432, as amended in 2000)',
+		meaning: BURN_IN_MEANING
 	},
 	{
 		id: 'third-power-60',
@@ -35,9 +45,45 @@ export const FIXED_PRESETS: readonly FixedPreset[] = [
 		powerFraction: 1 / 3,
 		durationS: 3600,
 		frequencyHz: 1000,
-		basis: 'Preconditioning in the original 1974 FTC amplifier rule (16 CFR Part 432)'
+		basis:
+			'Drive level borrowed from the preconditioning step of the original 1974 FTC amplifier rule (16 CFR Part 432)',
+		meaning: BURN_IN_MEANING,
+		caution:
+			'One-third power is close to the worst-case heat of a class-AB output stage (its dissipation peaks around a third to two-fifths of full power, common practice). On a unit marked unrestored or made before 1974 — old capacitors, dried thermal compound, tired bias — confirm before starting, and stay with it.'
 	}
 ];
+
+/**
+ * What a rated power figure means. A soak's drive is a fraction of the continuous power per
+ * channel with the channels driven together, at a stated THD; a music (peak, dynamic) or a total
+ * (all channels added) figure would overdrive the unit, so it is refused until corrected.
+ */
+export const RATING_BASES = ['continuous-per-channel', 'music', 'total'] as const;
+export type RatingBasis = (typeof RATING_BASES)[number];
+
+/** Why a job's rated power cannot set a soak's drive, or null when it can (or no basis is recorded). */
+export function ratingBasisProblem(basis: string | null | undefined): string | null {
+	if (basis === 'music')
+		return "The job's rated power is a music-power (peak) figure: a soak needs the continuous power per channel, both channels driven, at a stated THD. Correct the rating on the job first.";
+	if (basis === 'total')
+		return "The job's rated power is a total for all channels: a soak needs the continuous power per channel, both channels driven, at a stated THD. Correct the rating on the job first.";
+	return null;
+}
+
+/** Units older than this (by the job's year) need the one-third-power caution confirmed. */
+export const HEAT_CONFIRM_BEFORE_YEAR = 1974;
+
+/**
+ * Whether a preset needs the technician's explicit confirmation on this unit: one-third power
+ * on a unit marked unrestored or made before 1974.
+ */
+export function needsHeatConfirmation(
+	preset: SoakPresetId,
+	unit: { year: number | null | undefined; unrestored?: boolean | null }
+): boolean {
+	if (preset !== 'third-power-60') return false;
+	return unit.unrestored === true || (typeof unit.year === 'number' && unit.year < HEAT_CONFIRM_BEFORE_YEAR);
+}
 
 export function fixedPreset(id: SoakPresetId): FixedPreset | undefined {
 	return FIXED_PRESETS.find((p) => p.id === id);

@@ -1,3 +1,4 @@
+// Sources named beside the checks are described in tests/REFERENCES.md § Heat soak.
 // Soak presets, temperature units and the verdict logic on synthetic series whose answers are
 // worked out by hand in the comments beside each check.
 import { describe, expect, it } from 'vitest';
@@ -98,13 +99,15 @@ describe('temperature units', () => {
 
 describe('run limits from the shop setting', () => {
 	it('takes the shop defaults and the changes made for this run', () => {
+		// The THD+N ceiling is watched unless a shop or a run turns it off.
 		expect(runLimits(DEFAULT_SOAK_LIMITS)).toEqual({
 			...DEFAULT_SOAK_LIMITS,
-			thdnCeilingDb: null,
+			thdnCeilingDb: -26,
 			riseWindowS: 60
 		});
-		const l = runLimits(DEFAULT_SOAK_LIMITS, { maxHeatsinkC: 80, thdnCeilingDb: -40, maxDiffC: undefined });
-		expect(l).toMatchObject({ maxHeatsinkC: 80, thdnCeilingDb: -40, maxDiffC: DEFAULT_SOAK_LIMITS.maxDiffC });
+		const l = runLimits(DEFAULT_SOAK_LIMITS, { maxHeatsinkC: 80, thdnCeilingDb: -50, maxDiffC: undefined });
+		expect(l).toMatchObject({ maxHeatsinkC: 80, thdnCeilingDb: -50, maxDiffC: DEFAULT_SOAK_LIMITS.maxDiffC });
+		expect(runLimits(DEFAULT_SOAK_LIMITS, { thdnCeilingDb: null }).thdnCeilingDb).toBeNull();
 		expect(() => runLimits(DEFAULT_SOAK_LIMITS, { maxHeatsinkC: -5 })).toThrow();
 	});
 	it('converts a THD+N ceiling between dB and percent', () => {
@@ -418,5 +421,17 @@ describe('gaps, summary and verdict', () => {
 		expect(
 			summarize(readings, { ...limits, maxRiseCPerMin: 20 }, clock, thdn, { durationS: 300 }).incomplete
 		).toBe(false);
+	});
+});
+
+describe('the basis of a rated power', () => {
+	it('refuses music-power and total-power figures as the basis of a soak, saying what is needed', async () => {
+		const { ratingBasisProblem } = await import('./presets');
+		expect(ratingBasisProblem('continuous-per-channel')).toBeNull();
+		expect(ratingBasisProblem(null)).toBeNull(); // no basis recorded: nothing to refuse
+		expect(ratingBasisProblem('music')).toMatch(
+			/music-power.*continuous power per channel, both channels driven, at a stated THD/
+		);
+		expect(ratingBasisProblem('total')).toMatch(/total for all channels.*Correct the rating/);
 	});
 });

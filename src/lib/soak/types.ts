@@ -2,6 +2,7 @@
 import type { SoakChannel, SoakPresetId } from './presets';
 import type { SoakLimits } from './soak-limits';
 import type { SoakSummary } from './verdict';
+import type { SoakSeries } from './series';
 
 export type SoakStatus = 'running' | 'passed' | 'failed' | 'aborted';
 export type SoakVerdict = 'passed' | 'failed' | 'aborted';
@@ -42,7 +43,10 @@ export interface SoakRunDetail {
 	/** Highest seq stored (any probe); backfill from the bridge asks for readings after it. */
 	lastSeq: number | null;
 	verdict: SoakVerdict | null;
+	/** Kept up to date as readings arrive; final once the run has ended. Every figure of the run reads from it. */
 	summary: SoakSummary;
+	/** The run's chart downsampled to a fixed number of buckets (mean, min, max °C per probe). */
+	series: SoakSeries;
 	events: SoakEventView[];
 }
 
@@ -51,6 +55,10 @@ export interface SoakRunListItem {
 	verdict: SoakVerdict | null;
 	/** Maximum °C per probe (from the stored summary, or live while running). */
 	maxC: Record<string, number>;
-	/** A small chart: soak minutes and mean °C per probe in up to `thumbPoints` buckets. */
+	/** Readings stored so far (live while the run is going). */
+	readingCount: number;
+	/** Soak seconds the judged record covers. */
+	coveredS: number;
+	/** A small chart: soak minutes and mean °C per probe in about 48 buckets. */
 	thumb: { minutes: number[]; probes: Record<string, (number | null)[]> };
 }

@@ -4,6 +4,7 @@
 import type { SoakLimits, SteadyCriterion } from './soak-limits';
 import { STEADY_CRITERION, thdnDbToPercent } from './soak-limits';
 import { formatSoakTime } from './temperature';
+import { probeLabel } from './probes';
 
 export interface SoakReadingIn {
 	probe: string;
@@ -48,7 +49,8 @@ export const isHeatsinkProbe = (probe: string) => probe.startsWith('heatsink');
 /** Ambient drifts with the room, not with the unit: it is logged but not judged. */
 export const isAmbientProbe = (probe: string) => probe.startsWith('ambient');
 
-export type BreachKind = 'max-heatsink' | 'rise-rate' | 'left-right' | 'thdn';
+/** `output-dropout`: the output level fell away suddenly while driven (a protection relay opening). */
+export type BreachKind = 'max-heatsink' | 'rise-rate' | 'left-right' | 'thdn' | 'output-dropout';
 
 export interface Breach {
 	kind: BreachKind;
@@ -79,7 +81,7 @@ function maxHeatsinkBreach(probe: string, p: Pt, limits: SoakLimits): Breach | n
 		atS: p.s,
 		value: p.c,
 		limit: limits.maxHeatsinkC,
-		message: `${probe} reached ${fmt(p.c)} °C (limit ${fmt(limits.maxHeatsinkC)} °C) at ${formatSoakTime(p.s)}`
+		message: `${probeLabel(probe)} reached ${fmt(p.c)} °C (limit ${fmt(limits.maxHeatsinkC)} °C) at ${formatSoakTime(p.s)}`
 	};
 }
 
@@ -98,7 +100,7 @@ function riseRateBreach(probe: string, list: readonly Pt[], i: number, limits: S
 		atS: list[i].s,
 		value: rate,
 		limit: limits.maxRiseCPerMin,
-		message: `${probe} rose ${fmt(rate, 2)} °C/min (limit ${fmt(limits.maxRiseCPerMin, 2)} °C/min) at ${formatSoakTime(list[i].s)}`
+		message: `${probeLabel(probe)} rose ${fmt(rate, 2)} °C/min (limit ${fmt(limits.maxRiseCPerMin, 2)} °C/min) at ${formatSoakTime(list[i].s)}`
 	};
 }
 
@@ -143,7 +145,7 @@ function thdnBreach(thdn: readonly ThdnSample[], limits: SoakLimits, clock: Soak
 		atS,
 		value: hit.thdnPercent,
 		limit: ceiling,
-		message: `THD+N ${fmt(hit.thdnPercent, 3)} % (ceiling ${fmt(ceiling, 3)} % = ${fmt(ceilingDb)} dB) at ${formatSoakTime(atS)}`
+		message: `${hit.channel ? probeLabel(hit.channel) + ' ' : ''}THD+N ${fmt(hit.thdnPercent, 3)} % (ceiling ${fmt(ceiling, 3)} % = ${fmt(ceilingDb)} dB) at ${formatSoakTime(atS)}`
 	};
 }
 
@@ -484,7 +486,7 @@ export interface SummaryOptions {
 }
 
 /** Median spacing between one probe's readings, soak seconds (0 with fewer than two). */
-function medianIntervalS(byProbe: Map<string, Pt[]>): number {
+export function medianIntervalS(byProbe: Map<string, Pt[]>): number {
 	const list = [...byProbe.values()].sort((a, b) => b.length - a.length)[0] ?? [];
 	const d = list
 		.slice(1)

@@ -4,33 +4,23 @@
 // watches the limits (alarm, generator off, abort) and finishes the run at its duration.
 import type { BridgeLink, RestartEvent, TempsEvent } from './bridge-link.svelte';
 import { SoakAlarmSound } from './soak-alarm';
-import { GENERATOR_MAX_VRMS, type HelloMessage } from '$lib/bridge/protocol';
-import {
-	LiveBreachWatch,
-	findGaps,
-	soakSeconds,
-	type Breach,
-	type Gap,
-	type SoakReadingIn,
-	type ThdnSample
-} from '$lib/soak/verdict';
+import type { HelloMessage } from '$lib/bridge/protocol';
+import { soakSeconds, type Breach, type Gap, type SoakReadingIn } from '$lib/soak/verdict';
+import { LiveGapFinder } from '$lib/soak/gaps';
+import { LiveSeriesBuilder, type SoakSeries } from '$lib/soak/series';
 import type { SoakRunDetail, SoakRunView } from '$lib/soak/types';
 import type { CustomDrive, SoakPresetId } from '$lib/soak/presets';
 import type { SoakLimits } from '$lib/soak/soak-limits';
 import { LiveAnalysis, type LiveReadouts } from './live-analysis.svelte';
+import * as api from './soak-session-api';
+import { outboxKeys, readingKey as key, ReadingOutbox, type PendingEvent } from './soak-session-outbox';
+import { estimateLevelVrms, isOnTarget, servoNextLevel } from './soak-session-drive';
+import { SoakWatch, type ThdnRecord } from './soak-session-watch';
+import type { StoredReadingLike } from './soak-session-types';
 
 export type SoakPhase = 'idle' | 'loading' | 'starting' | 'running' | 'ending' | 'ended' | 'error';
 
-export interface StoredReading extends SoakReadingIn {
-	bootId: string | null;
-}
-
-interface PendingEvent {
-	kind: 'gap' | 'thdn' | 'generator' | 'note';
-	at: number;
-	key: string;
-	detail: Record<string, unknown>;
-}
+export type StoredReading = StoredReadingLike;
 
 type EndAction = { kind: 'finish' } | { kind: 'abort'; reason: string; at: number; breach?: Breach };
 
@@ -38,6 +28,7 @@ export interface Measured {
 	levelVrms: (number | null)[];
 	powerW: (number | null)[];
 	thdnPercent: (number | null)[];
+	dcVolts: (number | null)[];
 	atMs: number;
 }
 
@@ -45,60 +36,20 @@ export interface StartParams {
 	preset: SoakPresetId;
 	custom?: CustomDrive;
 	limits: Partial<SoakLimits>;
+	/** The technician confirmed the one-third-power caution (old or unrestored units). */
+	confirmHeat?: boolean;
 }
 
-const key = (r: { probe: string; seq: number }) => `${r.probe}:${r.seq}`;
-const store = {
-	pending: (id: number) => `benchlight-soak-pending:${id}`,
-	events: (id: number) => `benchlight-soak-events:${id}`,
-	end: (id: number) => `benchlight-soak-end:${id}`,
-	gen: (id: number) => `benchlight-soak-gen:${id}`
-};
-
-function readStore<T>(k: string): T | null {
-	try {
-		const v = localStorage.getItem(k);
-		return v ? (JSON.parse(v) as T) : null;
-	} catch {
-		return null;
-	}
-}
-function writeStore(k: string, v: unknown): boolean {
-	try {
-		if (v === null) localStorage.removeItem(k);
-		else localStorage.setItem(k, JSON.stringify(v));
-		return true;
-	} catch {
-		// Quota or privacy mode: the readings stay in memory and keep being retried.
-		return false;
-	}
-}
-
-const UPLOAD_BATCH = 500;
-const MAX_BACKOFF_MS = 15_000;
-/** Output level within this fraction of the target counts as on target. */
-const LEVEL_TOLERANCE = 0.03;
-const THDN_SAMPLE_EVERY_MS = 10_000;
 /** Wall seconds past the planned end before the bridge's deadman stops the drive on its own. */
 const DEADMAN_MARGIN_S = 30;
 
-async function postJson(url: string, body: unknown): Promise<Response> {
-	return fetch(url, {
-		method: 'POST',
-		headers: { 'content-type': 'application/json', accept: 'application/json' },
-		body: JSON.stringify(body ?? {})
-	});
-}
+const browserStorage = () => (typeof localStorage === 'undefined' ? null : localStorage);
 
-async function messageOf(res: Response): Promise<string> {
-	try {
-		const j = (await res.json()) as { message?: string };
-		return j.message ?? `HTTP ${res.status}`;
-	} catch {
-		return `HTTP ${res.status}`;
-	}
-}
-
+/**
+ * One run on the soak page. Composes the reading outbox (persist, upload, backoff), the drive
+ * servo, the watch over temperatures and output, the gap finder and the client API; this class
+ * holds the page's state and the order things happen in.
+ */
 export class SoakSession {
 	#phase = $state<SoakPhase>('idle');
 	#detail = $state.raw<SoakRunDetail | null>(null);
@@ -108,7 +59,8 @@ export class SoakSession {
 	#version = $state(0);
 	#pendingCount = $state(0);
 	#pendingEvents = $state(0);
-	#uploadError = $state<string | null>(null);
+	#outboxError = $state<string | null>(null);
+	#endError = $state<string | null>(null);
 	#rejectedCount = $state(0);
 	#breach = $state.raw<Breach | null>(null);
 	#alarmActive = $state(false);
@@ -123,21 +75,16 @@ export class SoakSession {
 	// Deliberately not reactive: thousands of readings; views follow the `version` counter instead.
 	// eslint-disable-next-line svelte/prefer-svelte-reactivity
 	#all = new Map<string, StoredReading>();
-	// eslint-disable-next-line svelte/prefer-svelte-reactivity
-	#pending = new Map<string, StoredReading>();
 	/** The same readings ordered by seq, kept as they arrive (inserted in place when late). */
 	#sorted: StoredReading[] = [];
-	/** The live limit check over the run's readings; built on the first check. */
-	#watch: { runId: number; watch: LiveBreachWatch } | null = null;
-	#events: PendingEvent[] = [];
-	#thdn: ThdnSample[] = [];
+	#gapFinder = new LiveGapFinder();
+	/** The run's chart downsampled as readings arrive (built once the run is known). */
+	#series: LiveSeriesBuilder | null = null;
+	#outbox: ReadingOutbox<StoredReading> | null = null;
+	#watch: SoakWatch | null = null;
 	#endAction: EndAction | null = null;
 	#unsubs: (() => void)[] = [];
 	#tick: ReturnType<typeof setInterval> | null = null;
-	#uploading = false;
-	#backoffMs = 1000;
-	#nextUploadAt = 0;
-	#persistDue = false;
 	#ending = false;
 	#wantDrive = false;
 	#lastDriveSentAt = 0;
@@ -145,7 +92,6 @@ export class SoakSession {
 	#offConfirmed = false;
 	#lastServoAt = 0;
 	#initialLevelVrms: number | null = null;
-	#lastThdnPostAt = 0;
 	#helloSeen = false;
 	/** A temps-after request whose last chunk has not arrived yet. */
 	#backfillOutstanding = false;
@@ -209,7 +155,7 @@ export class SoakSession {
 		return this.#pendingEvents;
 	}
 	get uploadError(): string | null {
-		return this.#uploadError;
+		return this.#endError ?? this.#outboxError;
 	}
 	get rejectedCount(): number {
 		return this.#rejectedCount;
@@ -232,10 +178,28 @@ export class SoakSession {
 	get restarts(): RestartEvent[] {
 		return this.#restarts;
 	}
+	/** True when the measured output is within tolerance of the target. */
+	get onTarget(): boolean {
+		const run = this.run;
+		const m = this.#measured;
+		return !!run && !!m && isOnTarget(run, m.levelVrms);
+	}
 
 	/** Every reading, ordered by seq (a fresh array, so derived views see a change). */
 	readings(): StoredReading[] {
 		return this.#sorted.slice();
+	}
+
+	/** Breaks in the record (bridge restarts, long silences), kept as readings arrive. */
+	gaps(): Gap[] {
+		void this.#version;
+		return this.#gapFinder.gaps();
+	}
+
+	/** The record downsampled to a fixed number of buckets per probe (a long run's chart). */
+	liveSeries(): SoakSeries | null {
+		void this.#version;
+		return this.#series?.series() ?? null;
 	}
 
 	/** Keep a reading (once per probe and seq); true when it is new. */
@@ -260,17 +224,23 @@ export class SoakSession {
 			}
 			list.splice(lo, 0, r);
 		}
-		this.#watch?.watch.add(r);
+		this.#gapFinder.add(r);
+		this.#series?.add(r);
+		this.#watch?.addReading(r);
 		return true;
 	}
 
-	/** Breaks in the record (bridge restarts, long silences), from the readings themselves. */
-	gaps(): Gap[] {
-		void this.#version;
-		return findGaps(this.readings());
-	}
-
 	// ── lifecycle ────────────────────────────────────────────────────────────
+
+	#newOutbox(runId: number): ReadingOutbox<StoredReading> {
+		const outbox = new ReadingOutbox<StoredReading>(runId, {
+			storage: browserStorage(),
+			transport: { postReadings: api.postReadings, postEvents: api.postEvents },
+			onChange: () => this.#syncCounts()
+		});
+		this.#outbox = outbox;
+		return outbox;
+	}
 
 	/** Open an existing run: a running one resumes (backfill, generator, limits), an ended one is shown. */
 	async open(runId: number): Promise<void> {
@@ -278,23 +248,25 @@ export class SoakSession {
 		const detail = await this.#fetchDetail(runId);
 		if (!detail) return;
 		this.#detail = detail;
-		await this.#loadServerReadings(runId);
+		const outbox = this.#newOutbox(runId);
 		if (detail.run.status !== 'running') {
+			// An ended run is shown from the server's stored summary and chart: no reading is loaded,
+			// so a day-long record opens at once.
 			this.#phase = 'ended';
-			this.#clearStore(runId);
+			outbox.close();
 			this.#bump();
 			return;
 		}
-		this.#thdn = detail.events
-			.filter((e) => e.kind === 'thdn')
-			.map((e) => ({ t: e.at, thdnPercent: (e.detail as { thdnPercent: number }).thdnPercent }));
-		// Readings the last page had not yet got acknowledged.
-		for (const r of readStore<StoredReading[]>(store.pending(runId)) ?? []) {
-			if (this.#store(r)) this.#pending.set(key(r), r);
-		}
-		this.#events = readStore<PendingEvent[]>(store.events(runId)) ?? [];
-		this.#endAction = readStore<EndAction>(store.end(runId));
-		this.#initialLevelVrms = readStore<number>(store.gen(runId));
+		await this.#loadServerReadings(runId);
+		this.#watchFor(detail).seedThdn(
+			detail.events
+				.filter((e) => e.kind === 'thdn')
+				.map((e) => ({ t: e.at, thdnPercent: (e.detail as { thdnPercent: number }).thdnPercent }))
+		);
+		// Readings and events the last page had not yet got acknowledged.
+		for (const r of outbox.restore().readings) this.#store(r);
+		this.#endAction = outbox.read<EndAction>(outboxKeys.end(runId));
+		this.#initialLevelVrms = outbox.read<number>(outboxKeys.gen(runId));
 		this.#generatorLevelVrms = this.#initialLevelVrms;
 		this.#syncCounts();
 		this.#bump();
@@ -317,10 +289,11 @@ export class SoakSession {
 		this.#alarm.unlock();
 		this.#phase = 'starting';
 		this.#error = null;
-		const res = await postJson(`/api/jobs/${this.#jobId}/soak-runs`, {
+		const created = await api.createRun(this.#jobId, {
 			preset: params.preset,
 			...(params.preset === 'custom' ? { custom: params.custom } : {}),
 			limits: params.limits,
+			...(params.confirmHeat ? { confirmHeat: true } : {}),
 			bridge: {
 				bootId: hello.bootId,
 				lastSeq: this.#link.lastTempSeq ?? hello.lastTempSeq,
@@ -329,16 +302,17 @@ export class SoakSession {
 				temps: hello.temps,
 				timeScale: hello.timeScale
 			}
-		}).catch(() => null);
-		if (!res || !res.ok) {
-			this.#error = res ? await messageOf(res) : 'The server did not answer; nothing was started';
+		});
+		if (!created.ok) {
+			this.#error = created.message;
 			this.#phase = 'idle';
 			return;
 		}
-		const { id } = (await res.json()) as { id: number };
-		const detail = await this.#fetchDetail(id);
+		const detail = await this.#fetchDetail(created.value.id);
 		if (!detail) return;
 		this.#detail = detail;
+		this.#newOutbox(detail.run.id);
+		this.#watchFor(detail);
 		this.#phase = 'running';
 		this.#attach();
 		this.#wantDrive = true;
@@ -373,7 +347,7 @@ export class SoakSession {
 		this.#unsubs = [];
 		if (this.#tick) clearInterval(this.#tick);
 		this.#tick = null;
-		this.#persist();
+		if (this.#phase !== 'ended') this.#outbox?.persist();
 		this.#alarm.dispose();
 		this.#analysis?.stop();
 		this.#analysis = null;
@@ -415,16 +389,18 @@ export class SoakSession {
 		const levelVrms: (number | null)[] = [null, null];
 		const powerW: (number | null)[] = [null, null];
 		const thdnPercent: (number | null)[] = [null, null];
+		const dcVolts: (number | null)[] = [null, null];
 		r.results.forEach((res, i) => {
 			const ch = r.channelIndex[i];
 			if (ch > 1) return;
 			levelVrms[ch] = res.levelVrms;
 			powerW[ch] = res.powerW ?? null;
 			thdnPercent[ch] = res.thdnPercent;
+			dcVolts[ch] = res.dcVolts ?? null;
 		});
-		this.#measured = { levelVrms, powerW, thdnPercent, atMs: Date.now() };
+		this.#measured = { levelVrms, powerW, thdnPercent, dcVolts, atMs: Date.now() };
 		this.#servo();
-		this.#watchThdn();
+		this.#watchOutput();
 	}
 
 	#onHello(h: HelloMessage): void {
@@ -476,8 +452,7 @@ export class SoakSession {
 			if (!probes.has(r.probe)) continue;
 			// Readings after the bridge's seq at the start belong to the run; without that seq, by time.
 			if (run.startSeq !== null ? r.seq <= run.startSeq : r.t < run.startedAt) continue;
-			const k = key(r);
-			if (this.#all.has(k)) continue;
+			if (this.#all.has(key(r))) continue;
 			const stored: StoredReading = {
 				probe: r.probe,
 				seq: r.seq,
@@ -486,15 +461,14 @@ export class SoakSession {
 				bootId: e.bootId
 			};
 			this.#store(stored);
-			if (!this.#endedOnServer()) this.#pending.set(k, stored);
+			if (!this.#endedOnServer()) this.#outbox?.addReading(stored);
 			added++;
 			const prev = latest[r.probe];
 			if (!prev || r.seq > prev.seq) latest[r.probe] = stored;
 		}
 		if (!added) return;
 		this.#latest = latest;
-		this.#persistDue = true;
-		this.#syncCounts();
+		this.#outbox?.touched();
 		this.#bump();
 		this.#checkLimits();
 	}
@@ -505,8 +479,8 @@ export class SoakSession {
 
 	#onTick(): void {
 		this.#nowMs = Date.now();
-		if (this.#persistDue) this.#persist();
-		void this.#uploadSome();
+		if (this.#phase !== 'ended') this.#outbox?.persistIfDue();
+		void this.#outbox?.uploadSome();
 		const run = this.run;
 		if (!run) return;
 		if (this.#phase === 'running' && !this.#ending && this.elapsedS >= run.durationS) {
@@ -528,13 +502,10 @@ export class SoakSession {
 
 	// ── drive ────────────────────────────────────────────────────────────────
 
-	/** The generator level that should give the target output: the simulator's gain when known. */
 	#estimateLevel(): number {
 		const run = this.run as SoakRunView;
 		const sim = this.#link.simulator ?? this.#link.hello?.simulator ?? null;
-		// Real hardware: start 40 dB below the target and let the level servo bring it up.
-		const gainDb = sim ? sim.volumeDb : 40;
-		return Math.min(GENERATOR_MAX_VRMS, run.driveVrms / 10 ** (gainDb / 20));
+		return estimateLevelVrms(run.driveVrms, sim ? sim.volumeDb : null);
 	}
 
 	#drive(): void {
@@ -543,7 +514,7 @@ export class SoakSession {
 		const level = this.#generatorLevelVrms ?? this.#estimateLevel();
 		this.#initialLevelVrms ??= level;
 		this.#generatorLevelVrms = level;
-		writeStore(store.gen(run.id), level);
+		this.#outbox?.write(outboxKeys.gen(run.id), level);
 		this.#lastDriveSentAt = Date.now();
 		const drive = run.channels.length === 2 ? 'both' : run.channels[0];
 		this.#link.send({ type: 'load', loadOhms: run.loadOhms });
@@ -588,91 +559,65 @@ export class SoakSession {
 		const m = this.#measured;
 		if (!run || !m || !this.#wantDrive || this.#link.generator?.kind !== 'sine') return;
 		if (Date.now() - this.#lastServoAt < 1500 || Date.now() - this.#lastDriveSentAt < 1500) return;
-		const driven = run.channels
-			.map((c) => m.levelVrms[c === 'left' ? 0 : 1])
-			.filter((v): v is number => v !== null);
-		if (!driven.length) return;
-		const measured = driven.reduce((a, b) => a + b, 0) / driven.length;
-		if (measured < 1e-3) return;
-		const ratio = run.driveVrms / measured;
-		if (Math.abs(ratio - 1) <= LEVEL_TOLERANCE) return;
 		const current = this.#generatorLevelVrms ?? this.#estimateLevel();
-		// Never more than 12 dB above the first estimate: a dead channel must not be chased to full scale.
-		const ceiling = Math.min(GENERATOR_MAX_VRMS, (this.#initialLevelVrms ?? current) * 4);
-		const next = Math.min(ceiling, current * Math.min(2, Math.max(0.5, ratio)));
-		if (Math.abs(next - current) / current < 0.005) return;
+		const next = servoNextLevel(run, m.levelVrms, current, this.#initialLevelVrms ?? current);
+		if (next === null) return;
 		this.#lastServoAt = Date.now();
 		this.#generatorLevelVrms = next;
 		this.#drive();
 	}
 
-	/** THD+N: sampled into the record every few seconds once the output is on target, and judged. */
-	#watchThdn(): void {
+	/** THD+N into the record and against the ceiling; the output dropping out; DC offset drift. */
+	#watchOutput(): void {
 		const run = this.run;
 		const m = this.#measured;
-		if (!run || !m || !this.#wantDrive || this.#phase !== 'running') return;
-		if (!this.onTarget) return;
-		const values = run.channels
-			.map((c) => ({
-				channel: c,
-				thdn: m.thdnPercent[c === 'left' ? 0 : 1],
-				powerW: m.powerW[c === 'left' ? 0 : 1],
-				vrms: m.levelVrms[c === 'left' ? 0 : 1]
-			}))
-			.filter((v) => v.thdn !== null);
-		if (!values.length) return;
-		const worst = values.reduce((a, b) => ((b.thdn as number) > (a.thdn as number) ? b : a));
-		const ceilingDb = this.limits?.thdnCeilingDb ?? null;
-		const t = Date.now();
-		const over = ceilingDb !== null && (worst.thdn as number) > 100 * 10 ** (ceilingDb / 20);
-		if (!over && t - this.#lastThdnPostAt < THDN_SAMPLE_EVERY_MS) return;
-		this.#lastThdnPostAt = t;
-		this.#recordThdn(t, worst.channel, worst.thdn as number, worst.powerW, worst.vrms);
-		if (over) this.#checkLimits();
+		const watch = this.#watch;
+		if (!run || !m || !watch || this.#phase !== 'running' || this.#ending || this.#breach) return;
+		const driving = this.#wantDrive && this.#link.generator?.kind === 'sine';
+		const dropout = watch.dropout(m, driving);
+		if (dropout) return this.#onBreach(dropout);
+		for (const dc of watch.dcOffset(m, this.#link.dcCoupled))
+			this.#queueEvent({ kind: 'dc-offset', at: m.atMs, key: `dc:${dc.channel}:${m.atMs}`, detail: dc });
+		if (!this.#wantDrive) return;
+		const sample = watch.thdnSample(m, this.onTarget, Date.now());
+		if (!sample) return;
+		this.#queueThdn(sample.record);
+		if (sample.over) this.#checkLimits();
 	}
 
-	#recordThdn(
-		t: number,
-		channel: string,
-		thdnPercent: number,
-		outputW: number | null,
-		outputVrms: number | null
-	): void {
-		this.#thdn.push({ t, thdnPercent, channel });
+	#queueThdn(r: ThdnRecord): void {
 		this.#queueEvent({
 			kind: 'thdn',
-			at: t,
-			key: `thdn:${t}`,
-			detail: { thdnPercent, outputW, outputVrms, channel }
+			at: r.t,
+			key: `thdn:${r.t}`,
+			detail: { thdnPercent: r.thdnPercent, outputW: r.outputW, outputVrms: r.outputVrms, channel: r.channel }
 		});
-	}
-
-	/** True when the measured output is within tolerance of the target. */
-	get onTarget(): boolean {
-		const run = this.run;
-		const m = this.#measured;
-		if (!run || !m) return false;
-		const driven = run.channels
-			.map((c) => m.levelVrms[c === 'left' ? 0 : 1])
-			.filter((v): v is number => v !== null);
-		if (!driven.length) return false;
-		const measured = driven.reduce((a, b) => a + b, 0) / driven.length;
-		return Math.abs(measured / run.driveVrms - 1) <= LEVEL_TOLERANCE * 2;
 	}
 
 	// ── limits ───────────────────────────────────────────────────────────────
 
+	/** The watch over this run, built once from what is held; afterwards each reading is judged as it arrives. */
+	#watchFor(detail: SoakRunDetail): SoakWatch {
+		if (this.#watch && this.#watch.run === detail.run) return this.#watch;
+		const watch = new SoakWatch(detail.run, detail.limits);
+		const series = new LiveSeriesBuilder({
+			startedAtMs: detail.run.startedAt,
+			durationS: detail.run.durationS,
+			timeScale: detail.run.timeScale
+		});
+		for (const r of this.#sorted) {
+			watch.addReading(r);
+			series.add(r);
+		}
+		this.#series = series;
+		this.#watch = watch;
+		return watch;
+	}
+
 	#checkLimits(): void {
 		const run = this.run;
-		const limits = this.limits;
-		if (!run || !limits || this.#phase !== 'running' || this.#ending || this.#breach) return;
-		if (this.#watch?.runId !== run.id) {
-			// Built once per run from what is held; afterwards each reading is judged as it arrives.
-			const watch = new LiveBreachWatch(limits, { startedAtMs: run.startedAt, timeScale: run.timeScale });
-			for (const r of this.#sorted) watch.add(r);
-			this.#watch = { runId: run.id, watch };
-		}
-		const breaches = this.#watch.watch.check(this.#thdn);
+		if (!run || !this.#watch || this.#phase !== 'running' || this.#ending || this.#breach) return;
+		const breaches = this.#watch.check();
 		if (breaches.length) this.#onBreach(breaches[0]);
 	}
 
@@ -689,29 +634,39 @@ export class SoakSession {
 
 	async #end(action: EndAction): Promise<void> {
 		const run = this.run;
-		if (!run || this.#ending) return;
+		const outbox = this.#outbox;
+		if (!run || !outbox || this.#ending) return;
 		this.#ending = true;
 		this.#endAction = action;
-		writeStore(store.end(run.id), action);
+		outbox.write(outboxKeys.end(run.id), action);
 		this.#phase = 'ending';
 		// The distortion at the end goes into the record before the drive stops.
 		const m = this.#measured;
 		if (action.kind === 'finish' && m && this.#wantDrive && this.onTarget) {
 			const i = run.channels[0] === 'right' ? 1 : 0;
 			const thdn = m.thdnPercent[i];
-			if (thdn !== null) this.#recordThdn(Date.now(), run.channels[0], thdn, m.powerW[i], m.levelVrms[i]);
+			if (thdn !== null) {
+				const record = {
+					t: Date.now(),
+					channel: run.channels[0],
+					thdnPercent: thdn,
+					outputW: m.powerW[i],
+					outputVrms: m.levelVrms[i]
+				};
+				this.#watch?.noteThdn(record);
+				this.#queueThdn(record);
+			}
 		}
 		this.#driveOff();
 		// Nothing is dropped: the bridge hands over what it logged while this page was away, and
 		// every reading and event is acknowledged before the run is closed.
 		await this.#awaitBridgeHandover();
-		await this.#flush();
-		const url = `/api/soak-runs/${run.id}/${action.kind}`;
+		await outbox.flush(() => this.#disposed);
 		const body =
 			action.kind === 'abort' ? { reason: action.reason, at: action.at, breach: action.breach } : {};
 		for (;;) {
 			if (this.#disposed) return;
-			const res = await postJson(url, body).catch(() => null);
+			const res = await api.postEnd(run.id, action.kind, body);
 			if (res?.ok) {
 				this.#detail = (await res.json()) as SoakRunDetail;
 				break;
@@ -724,15 +679,12 @@ export class SoakSession {
 					break;
 				}
 			}
-			this.#uploadError = res ? await messageOf(res) : 'The server did not answer; retrying';
+			this.#endError = res ? await api.messageOf(res) : 'The server did not answer; retrying';
 			await new Promise((r) => setTimeout(r, 1000));
 		}
-		this.#uploadError = null;
+		this.#endError = null;
 		this.#phase = 'ended';
-		this.#pending.clear();
-		this.#events = [];
-		this.#syncCounts();
-		this.#clearStore(run.id);
+		outbox.close();
 		this.#bump();
 	}
 
@@ -749,90 +701,16 @@ export class SoakSession {
 		}
 	}
 
-	async #flush(): Promise<void> {
-		while (!this.#disposed && (this.#pending.size || this.#events.length)) {
-			const progressed = await this.#uploadSome(true);
-			if (!progressed) await new Promise((r) => setTimeout(r, Math.min(this.#backoffMs, 2000)));
-		}
-	}
-
-	// ── uploads ──────────────────────────────────────────────────────────────
-
 	#queueEvent(e: PendingEvent): void {
-		this.#events.push(e);
-		this.#persistDue = true;
-		this.#syncCounts();
-	}
-
-	/** Send one batch of readings (and the queued events). Returns true when something was acknowledged. */
-	async #uploadSome(force = false): Promise<boolean> {
-		const run = this.run;
-		if (!run || this.#uploading) return false;
-		if (!this.#pending.size && !this.#events.length) return false;
-		if (!force && Date.now() < this.#nextUploadAt) return false;
-		this.#uploading = true;
-		let progressed = false;
-		try {
-			if (this.#pending.size) {
-				const batch = [...this.#pending.values()].sort((a, b) => a.seq - b.seq).slice(0, UPLOAD_BATCH);
-				const res = await postJson(`/api/soak-runs/${run.id}/readings`, { readings: batch }).catch(
-					() => null
-				);
-				if (res && (res.ok || res.status === 400 || res.status === 409)) {
-					// 200: stored or already there. 400: the valid ones are stored, the rest never can be.
-					// 409: the run has ended, nothing more can be stored. Either way this batch is settled.
-					if (res.status === 400) {
-						const j = (await res.json().catch(() => ({}))) as { rejected?: unknown[]; message?: string };
-						if (!j.rejected) throw new Error(j.message ?? 'bad batch');
-						this.#rejectedCount += j.rejected.length;
-					}
-					for (const r of batch) this.#pending.delete(key(r));
-					progressed = true;
-				} else {
-					throw new Error(res ? await messageOf(res) : 'The server did not answer');
-				}
-			}
-			if (this.#events.length) {
-				const batch = this.#events.slice(0, 100);
-				const res = await postJson(`/api/soak-runs/${run.id}/events`, { events: batch }).catch(() => null);
-				if (res && (res.ok || res.status === 409 || res.status === 400)) {
-					this.#events.splice(0, batch.length);
-					progressed = true;
-				} else {
-					throw new Error(res ? await messageOf(res) : 'The server did not answer');
-				}
-			}
-			this.#uploadError = null;
-			this.#backoffMs = 1000;
-			// Batches: wait a moment for more readings unless a backlog is waiting.
-			this.#nextUploadAt = Date.now() + (this.#pending.size > UPLOAD_BATCH ? 0 : 1500);
-		} catch (e) {
-			this.#uploadError = `${e instanceof Error ? e.message : String(e)}; keeping ${this.#pending.size} reading(s) and retrying`;
-			this.#nextUploadAt = Date.now() + this.#backoffMs;
-			this.#backoffMs = Math.min(MAX_BACKOFF_MS, this.#backoffMs * 2);
-		} finally {
-			this.#uploading = false;
-			this.#syncCounts();
-			this.#persist();
-		}
-		return progressed;
-	}
-
-	#persist(): void {
-		const run = this.run;
-		if (!run || this.#phase === 'ended') return;
-		this.#persistDue = false;
-		writeStore(store.pending(run.id), this.#pending.size ? [...this.#pending.values()] : null);
-		writeStore(store.events(run.id), this.#events.length ? this.#events : null);
-	}
-
-	#clearStore(runId: number): void {
-		for (const k of Object.values(store)) writeStore(k(runId), null);
+		this.#outbox?.addEvent(e);
 	}
 
 	#syncCounts(): void {
-		this.#pendingCount = this.#pending.size;
-		this.#pendingEvents = this.#events.length;
+		const o = this.#outbox;
+		this.#pendingCount = o?.pendingCount ?? 0;
+		this.#pendingEvents = o?.pendingEvents ?? 0;
+		this.#outboxError = o?.error ?? null;
+		this.#rejectedCount = o?.rejectedCount ?? 0;
 	}
 
 	#bump(): void {
@@ -842,29 +720,21 @@ export class SoakSession {
 	// ── server reads ─────────────────────────────────────────────────────────
 
 	async #fetchDetail(runId: number, fatal = true): Promise<SoakRunDetail | null> {
-		const res = await fetch(`/api/soak-runs/${runId}`, {
-			headers: { accept: 'application/json' },
-			cache: 'no-store'
-		}).catch(() => null);
-		if (!res || !res.ok) {
-			if (fatal) {
-				this.#error = res ? await messageOf(res) : 'The server did not answer';
-				this.#phase = 'error';
-			}
-			return null;
+		const got = await api.fetchDetail(runId);
+		if (got.ok) return got.value;
+		if (fatal) {
+			this.#error = got.message;
+			this.#phase = 'error';
 		}
-		return (await res.json()) as SoakRunDetail;
+		return null;
 	}
 
 	async #loadServerReadings(runId: number): Promise<void> {
 		let after = -1;
 		const latest: Record<string, StoredReading> = {};
 		for (;;) {
-			const res = await fetch(`/api/soak-runs/${runId}/readings?after=${after}&limit=20000`, {
-				cache: 'no-store'
-			}).catch(() => null);
-			if (!res || !res.ok) break;
-			const page = (await res.json()) as { readings: StoredReading[]; lastSeq: number | null; more: boolean };
+			const page = await api.fetchReadings<StoredReading>(runId, after);
+			if (!page) break;
 			for (const r of page.readings) {
 				this.#store(r);
 				const prev = latest[r.probe];
@@ -876,3 +746,5 @@ export class SoakSession {
 		this.#latest = latest;
 	}
 }
+
+export type { SoakReadingIn };

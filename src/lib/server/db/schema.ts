@@ -257,7 +257,13 @@ export const soakRuns = sqliteTable(
 		startedAt: integer('started_at', { mode: 'timestamp_ms' }).notNull(),
 		endedAt: integer('ended_at', { mode: 'timestamp_ms' }),
 		abortReason: text('abort_reason'),
+		/** The run's summary, kept up to date as readings arrive (final once the run has ended). */
 		summary: text('summary', { mode: 'json' }),
+		/**
+		 * Bookkeeping behind the incremental summary (readings stored, last seq, the last tick, where
+		 * the steady-state search resumes); null for a run stored before it existed (rebuilt once).
+		 */
+		summaryState: text('summary_state', { mode: 'json' }),
 		createdAt: createdAt()
 	},
 	(t) => [index('soak_runs_job_idx').on(t.jobId)]
@@ -282,8 +288,30 @@ export const soakReadings = sqliteTable(
 	},
 	(t) => [
 		primaryKey({ columns: [t.runId, t.probe, t.seq] }),
-		index('soak_readings_run_seq_idx').on(t.runId, t.seq)
+		index('soak_readings_run_seq_idx').on(t.runId, t.seq),
+		// The incremental breach check reads the readings around a new batch by time.
+		index('soak_readings_run_t_idx').on(t.runId, t.t)
 	]
+);
+
+/**
+ * A run's chart, downsampled as readings arrive: a fixed number of time buckets per probe (see
+ * SERIES_BUCKETS in $lib/soak/series), so a day-long run charts from at most a few thousand rows.
+ */
+export const soakSeries = sqliteTable(
+	'soak_series',
+	{
+		runId: integer('run_id')
+			.notNull()
+			.references(() => soakRuns.id, { onDelete: 'cascade' }),
+		probe: text('probe').notNull(),
+		bucket: integer('bucket').notNull(),
+		n: integer('n').notNull(),
+		sumC: real('sum_c').notNull(),
+		minC: real('min_c').notNull(),
+		maxC: real('max_c').notNull()
+	},
+	(t) => [primaryKey({ columns: [t.runId, t.probe, t.bucket] })]
 );
 
 /** Things that happened during a run: gaps, breaches, alarms, THD+N samples, notes. */

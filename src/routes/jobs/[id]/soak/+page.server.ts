@@ -32,7 +32,8 @@ export const load: PageServerLoad = pageLoad((event) => {
 			category: job.category,
 			customerName: job.customer.name,
 			ratedPowerW: job.ratedPowerW,
-			ratedLoadOhms: job.ratedLoadOhms
+			ratedLoadOhms: job.ratedLoadOhms,
+			year: job.year
 		},
 		shopLimits: getSetting(db, 'soakDefaultLimits'),
 		runningRunId: runningRunId(db, id),
