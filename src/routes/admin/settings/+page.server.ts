@@ -1,4 +1,5 @@
-// Admin: shop settings (name, bridge address, mains frequency, default soak limits).
+// Admin: shop settings (name, bridge address, mains frequency, default soak limits, what a
+// sign-off requires).
 import { fail } from '@sveltejs/kit';
 import { db } from '$lib/server/db';
 import { requireAdmin } from '$lib/server/guards';
@@ -13,9 +14,16 @@ export const load: PageServerLoad = pageLoad((event) => {
 	return { settings: getSettings(db) };
 });
 
+const SIGN_OFF_BOXES = [
+	'requireAfterSnapshotPass',
+	'requirePassedSoak',
+	'countAcceleratedSoak',
+	'allowSelfSignOff'
+] as const;
+
 export const actions: Actions = formActions({
 	default: async (event) => {
-		requireAdmin(event);
+		const admin = requireAdmin(event);
 		const form = await event.request.formData();
 		const names = [
 			'shopName',
@@ -27,6 +35,9 @@ export const actions: Actions = formActions({
 			'thdnCeilingDb'
 		];
 		const values = Object.fromEntries(names.map((n) => [n, text(form, n)]));
+		// Checkboxes: present when ticked.
+		const ticked = (name: string) => form.get(name) !== null;
+		for (const n of SIGN_OFF_BOXES) values[n] = ticked(n) ? 'on' : '';
 		const thdn = number(form, 'thdnCeilingDb');
 		const parsed = shopSettingsSchema.safeParse({
 			shopName: values.shopName,
@@ -37,6 +48,12 @@ export const actions: Actions = formActions({
 				maxRiseCPerMin: number(form, 'maxRiseCPerMin'),
 				maxDiffC: number(form, 'maxDiffC'),
 				thdnCeilingDb: thdn === undefined ? null : thdn
+			},
+			signOff: {
+				requireAfterSnapshotPass: ticked('requireAfterSnapshotPass'),
+				requirePassedSoak: ticked('requirePassedSoak'),
+				countAcceleratedSoak: ticked('countAcceleratedSoak'),
+				allowSelfSignOff: ticked('allowSelfSignOff')
 			}
 		});
 		if (!parsed.success) {
@@ -48,7 +65,7 @@ export const actions: Actions = formActions({
 			}
 			return fail(400, { values, errors, ok: false });
 		}
-		updateSettings(db, parsed.data);
+		updateSettings(db, parsed.data, admin.id);
 		return { ok: true };
 	}
 });

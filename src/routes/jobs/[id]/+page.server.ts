@@ -80,10 +80,10 @@ export const actions: Actions = formActions({
 	},
 
 	assign: async (event) => {
-		requireUser(event);
+		const user = requireUser(event);
 		const id = idParam(event.params.id, 'job');
 		const form = await event.request.formData();
-		updateJob(db, id, { technicianId: optionalText(form, 'technicianId') });
+		updateJob(db, id, { technicianId: optionalText(form, 'technicianId') }, user.id);
 		return { action: 'assign', ok: true };
 	},
 
@@ -99,7 +99,7 @@ export const actions: Actions = formActions({
 	},
 
 	addPart: async (event) => {
-		requireUser(event);
+		const user = requireUser(event);
 		const id = idParam(event.params.id, 'job');
 		const form = await event.request.formData();
 		const names = [
@@ -130,12 +130,12 @@ export const actions: Actions = formActions({
 		if (unitCostCents === null) errors.unitCost = ['Enter an amount like 12.50'];
 		if (errors.unitCostCents) errors.unitCost = errors.unitCostCents;
 		if (!parsed.success || unitCostCents === null) return fail(400, { action: 'addPart', values, errors });
-		addPart(db, id, parsed.data);
+		addPart(db, id, parsed.data, user.id);
 		return { action: 'addPart', ok: true };
 	},
 
 	partState: async (event) => {
-		requireUser(event);
+		const user = requireUser(event);
 		const id = idParam(event.params.id, 'job');
 		const form = await event.request.formData();
 		const partId = partIdFrom(form);
@@ -143,17 +143,17 @@ export const actions: Actions = formActions({
 		if (!partId) return fail(404, { action: 'partState', message: 'No such part on this job' });
 		if (!(PART_STATES as readonly string[]).includes(state))
 			return fail(400, { action: 'partState', message: 'Choose ordered, received or fitted' });
-		updatePart(db, id, partId, { state: state as (typeof PART_STATES)[number] });
+		updatePart(db, id, partId, { state: state as (typeof PART_STATES)[number] }, user.id);
 		return { action: 'partState', ok: true };
 	},
 
 	deletePart: async (event) => {
-		requireUser(event);
+		const user = requireUser(event);
 		const id = idParam(event.params.id, 'job');
 		const form = await event.request.formData();
 		const partId = partIdFrom(form);
 		if (!partId) return fail(404, { action: 'deletePart', message: 'No such part on this job' });
-		deletePart(db, id, partId);
+		deletePart(db, id, partId, user.id);
 		return { action: 'deletePart', ok: true };
 	}
 });
