@@ -28,7 +28,14 @@ describe('settings', () => {
 			bridgeUrl: env.BRIDGE_URL,
 			mainsHz: 50,
 			// common practice for a consumer amplifier heat soak
-			soakDefaultLimits: { maxHeatsinkC: 70, maxRiseCPerMin: 8, maxDiffC: 10, thdnCeilingDb: null }
+			soakDefaultLimits: { maxHeatsinkC: 70, maxRiseCPerMin: 8, maxDiffC: 10, thdnCeilingDb: null },
+			// A shop starts strict: proof required, simulated soaks not proof, four eyes.
+			signOff: {
+				requireAfterSnapshotPass: true,
+				requirePassedSoak: true,
+				countAcceleratedSoak: false,
+				allowSelfSignOff: false
+			}
 		});
 	});
 
