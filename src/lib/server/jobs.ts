@@ -228,9 +228,12 @@ export function assertJobOpen(db: Conn, jobId: number): table.Job {
 	return job;
 }
 
-/** The statuses `role` may move a job to from `from`, with the lock applied (what the UI offers). */
+/**
+ * The statuses `role` may move a job to from `from`, with the lock applied (what the UI offers).
+ * Never `approved`: a job is approved only by a signature (the review page).
+ */
 export function statusMoves(from: JobStatus, role: Role): JobStatus[] {
-	const moves = allowedNextStatuses(from, role);
+	const moves = allowedNextStatuses(from, role).filter((s) => s !== 'approved');
 	return isLockedStatus(from) ? moves.filter((s) => LOCKED_MOVES[from]?.includes(s)) : moves;
 }
 

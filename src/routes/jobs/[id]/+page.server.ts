@@ -20,12 +20,21 @@ import {
 	updatePart
 } from '$lib/server/jobs';
 import { listAssignableUsers } from '$lib/server/users';
+import { listAudit } from '$lib/server/audit';
+import { listSignOffs, standingSignOff } from '$lib/server/sign-off';
 import { reopenSchema } from '$lib/schemas/job-lock';
 import { logEntrySchema, partSchema, PART_STATES, statusChangeSchema } from '$lib/schemas/jobs';
 import { fieldErrors, number, optionalText, text } from '$lib/forms';
 import { parseMoneyToCents } from '$lib/format';
 import { pageLoad, formActions } from '$lib/server/handlers';
 import type { Actions, PageServerLoad } from './$types';
+
+/** The job's own audit trail is shown a page at a time (`?trail=2`). */
+const TRAIL_PAGE_SIZE = 20;
+function trailPage(url: URL): number {
+	const n = Number(url.searchParams.get('trail') ?? '1');
+	return Number.isSafeInteger(n) && n >= 1 && n <= 100_000 ? n : 1;
+}
 
 export const load: PageServerLoad = pageLoad((event) => {
 	const user = requireUser(event);
@@ -38,7 +47,12 @@ export const load: PageServerLoad = pageLoad((event) => {
 		locked: isLockedStatus(job.status),
 		canReopen: isLockedStatus(job.status) && (user.role === 'supervisor' || user.role === 'admin'),
 		technicians: listAssignableUsers(db),
-		me: user
+		me: user,
+		// Sign-off: the standing approval with its hash recomputed now, and every signature.
+		standingSignOff: standingSignOff(db, id),
+		signOffs: listSignOffs(db, id),
+		canSignOff: job.status === 'awaiting-review' && (user.role === 'supervisor' || user.role === 'admin'),
+		trail: listAudit(db, { job: id, page: trailPage(event.url), pageSize: TRAIL_PAGE_SIZE })
 	};
 });
 
