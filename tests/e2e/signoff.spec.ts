@@ -21,6 +21,12 @@ function capture(third: number): Buffer {
 	return Buffer.from(encodeWav([ch, ch], 48000));
 }
 
+/** Sign out (the browser forgets its session) and sign in as someone else. */
+async function switchTo(page: Page, email: string) {
+	await page.context().clearCookies();
+	await signIn(page, email);
+}
+
 async function demoJobId(request: APIRequestContext): Promise<number> {
 	const res = await request.get(`/api/jobs?q=${DEMO.model}`);
 	const list = (await res.json()) as { items: { id: number; make: string }[] };
@@ -28,10 +34,9 @@ async function demoJobId(request: APIRequestContext): Promise<number> {
 }
 
 async function uploadAfter(page: Page, baseURL: string, jobId: number, third: number, label: string) {
-	const profiles = (await (await page.request.get('/api/limit-profiles')).json()) as {
-		id: number;
-		name: string;
-	}[];
+	const { profiles } = (await (await page.request.get('/api/limit-profiles')).json()) as {
+		profiles: { id: number; name: string }[];
+	};
 	const profileId = profiles.find((p) => p.name === PROFILE)!.id;
 	const res = await page.request.post(`/api/jobs/${jobId}/snapshots`, {
 		headers: { origin: baseURL },
@@ -72,7 +77,7 @@ test('a supervisor is refused while a requirement is missing, then signs off wit
 	await uploadAfter(page, baseURL!, id, 0.02, 'After: recheck at 1 kHz');
 
 	// ── the supervisor reviews: one requirement missing, approval refused with the list ─
-	await signIn(page, 'supervisor@example.com');
+	await switchTo(page, 'supervisor@example.com');
 	await page.goto(`/jobs/${id}`);
 	await ready(page);
 	await page.getByTestId('link-review').click();
@@ -98,11 +103,11 @@ test('a supervisor is refused while a requirement is missing, then signs off wit
 	await expect(page.getByTestId('sign-comment')).toHaveValue('Looks fine to me');
 
 	// ── the technician fixes it: a passing after snapshot ──────────────────
-	await signIn(page, 'tech1@example.com');
+	await switchTo(page, 'tech1@example.com');
 	await uploadAfter(page, baseURL!, id, 0.0002, 'After: bias reset, 1 kHz');
 
 	// ── the supervisor signs: a wrong password first, then the right one ───
-	await signIn(page, 'supervisor@example.com');
+	await switchTo(page, 'supervisor@example.com');
 	await page.goto(`/jobs/${id}/review`);
 	await ready(page);
 	await expect(page.locator('[data-testid="requirement"][data-met="false"]')).toHaveCount(0);
