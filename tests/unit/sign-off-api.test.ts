@@ -42,18 +42,34 @@ beforeAll(async () => {
 });
 
 const sign = (jobId: number, user: RouteUser | null, json: unknown) =>
-	callRoute(signRoute.POST, { method: 'POST', path: `/api/jobs/${jobId}/sign-off`, params: { id: String(jobId) }, user, json });
+	callRoute(signRoute.POST, {
+		method: 'POST',
+		path: `/api/jobs/${jobId}/sign-off`,
+		params: { id: String(jobId) },
+		user,
+		json
+	});
 
 describe('POST /api/jobs/{id}/sign-off', () => {
 	it('refuses a technician (403) and a bad body (400, every problem listed)', async () => {
-		expect((await sign(demoJob, technician, { decision: 'approve', comment: '', password: DEMO_PASSWORD })).status).toBe(403);
+		expect(
+			(await sign(demoJob, technician, { decision: 'approve', comment: '', password: DEMO_PASSWORD })).status
+		).toBe(403);
 		const bad = await sign(demoJob, supervisor, { decision: 'maybe', comment: 5 });
 		expect(bad.status).toBe(400);
-		expect((bad.body.issues as { path: string }[]).map((i) => i.path).sort()).toEqual(['comment', 'decision', 'password']);
+		expect((bad.body.issues as { path: string }[]).map((i) => i.path).sort()).toEqual([
+			'comment',
+			'decision',
+			'password'
+		]);
 	});
 
 	it('409 lists what is missing on a job without evidence', async () => {
-		const res = await sign(otherReviewJob, supervisor, { decision: 'approve', comment: '', password: DEMO_PASSWORD });
+		const res = await sign(otherReviewJob, supervisor, {
+			decision: 'approve',
+			comment: '',
+			password: DEMO_PASSWORD
+		});
 		expect(res.status).toBe(409);
 		expect((res.body.issues as { path: string }[]).map((i) => i.path)).toEqual([
 			'requirements.after-snapshot-pass',
@@ -62,7 +78,11 @@ describe('POST /api/jobs/{id}/sign-off', () => {
 	});
 
 	it('401 with a clear message for a wrong password; nothing is signed', async () => {
-		const res = await sign(demoJob, supervisor, { decision: 'approve', comment: '', password: 'not the password' });
+		const res = await sign(demoJob, supervisor, {
+			decision: 'approve',
+			comment: '',
+			password: 'not the password'
+		});
 		expect(res.status).toBe(401);
 		expect(res.body.message).toBe('That password is not right: re-enter your own password to sign');
 		expect(db.select().from(table.signOffs).all()).toEqual([]);
@@ -77,7 +97,11 @@ describe('POST /api/jobs/{id}/sign-off', () => {
 			json: { status: 'approved' }
 		});
 		expect(viaStatus.status).toBe(409);
-		const res = await sign(demoJob, supervisor, { decision: 'approve', comment: 'Both channels well inside limits', password: DEMO_PASSWORD });
+		const res = await sign(demoJob, supervisor, {
+			decision: 'approve',
+			comment: 'Both channels well inside limits',
+			password: DEMO_PASSWORD
+		});
 		expect(res.status).toBe(201);
 		expect(res.body).toMatchObject({
 			jobId: demoJob,
@@ -87,10 +111,18 @@ describe('POST /api/jobs/{id}/sign-off', () => {
 			selfSignOff: false
 		});
 		expect(db.select().from(table.jobs).where(eq(table.jobs.id, demoJob)).get()!.status).toBe('approved');
-		const again = await sign(demoJob, supervisor, { decision: 'approve', comment: '', password: DEMO_PASSWORD });
+		const again = await sign(demoJob, supervisor, {
+			decision: 'approve',
+			comment: '',
+			password: DEMO_PASSWORD
+		});
 		expect(again.status).toBe(409);
 
-		const list = await callRoute(listRoute.GET, { path: `/api/jobs/${demoJob}/sign-offs`, params: { id: String(demoJob) }, user: technician });
+		const list = await callRoute(listRoute.GET, {
+			path: `/api/jobs/${demoJob}/sign-offs`,
+			params: { id: String(demoJob) },
+			user: technician
+		});
 		expect(list.status).toBe(200);
 		expect((list.body.items as unknown[]).length).toBe(1);
 		expect(list.body.standing).toMatchObject({ intact: true, differences: [] });
@@ -113,6 +145,11 @@ describe('GET /api/audit', () => {
 	it('400 naming every bad filter at once', async () => {
 		const res = await audit('?job=abc&from=2026-13-01&to=2025-01-01&action=nope&pageSize=999');
 		expect(res.status).toBe(400);
-		expect((res.body.issues as { path: string }[]).map((i) => i.path).sort()).toEqual(['action', 'from', 'job', 'pageSize']);
+		expect((res.body.issues as { path: string }[]).map((i) => i.path).sort()).toEqual([
+			'action',
+			'from',
+			'job',
+			'pageSize'
+		]);
 	});
 });

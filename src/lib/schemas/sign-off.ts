@@ -105,7 +105,9 @@ export interface SignOffEvaluation {
 }
 
 const latest = <T extends { createdAt?: number; startedAt?: number; id: number }>(rows: T[]): T | undefined =>
-	[...rows].sort((a, b) => (a.createdAt ?? a.startedAt ?? 0) - (b.createdAt ?? b.startedAt ?? 0) || a.id - b.id).at(-1);
+	[...rows]
+		.sort((a, b) => (a.createdAt ?? a.startedAt ?? 0) - (b.createdAt ?? b.startedAt ?? 0) || a.id - b.id)
+		.at(-1);
 
 /**
  * What the shop's settings require before `signerId` may approve, judged on the job's
@@ -122,7 +124,8 @@ export function evaluateSignOff(
 
 	if (settings.requireAfterSnapshotPass) {
 		const label = 'An after snapshot with a passing verdict';
-		if (!after) requirements.push({ key: 'after-snapshot-pass', label, met: false, detail: 'No after snapshot yet' });
+		if (!after)
+			requirements.push({ key: 'after-snapshot-pass', label, met: false, detail: 'No after snapshot yet' });
 		else
 			requirements.push({
 				key: 'after-snapshot-pass',

@@ -52,13 +52,19 @@ export function audit(tx: AuditConn, input: AuditInput): void {
 }
 
 /** Fields that changed between two records, as `{ field: { from, to } }` (only the given keys). */
-export function changes<T extends object>(before: T, after: Partial<T>): Record<string, { from: unknown; to: unknown }> {
+export function changes<T extends object>(
+	before: T,
+	after: Partial<T>
+): Record<string, { from: unknown; to: unknown }> {
 	const out: Record<string, { from: unknown; to: unknown }> = {};
 	for (const key of Object.keys(after) as (keyof T)[]) {
 		const a = before[key];
 		const b = after[key];
 		if (b === undefined) continue;
-		const same = a instanceof Date && b instanceof Date ? a.getTime() === b.getTime() : JSON.stringify(a) === JSON.stringify(b);
+		const same =
+			a instanceof Date && b instanceof Date
+				? a.getTime() === b.getTime()
+				: JSON.stringify(a) === JSON.stringify(b);
 		if (!same) out[key as string] = { from: a ?? null, to: b ?? null };
 	}
 	return out;

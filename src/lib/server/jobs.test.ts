@@ -251,7 +251,9 @@ describe('edits', () => {
  * status route refuses.
  */
 function approve(db: Db, id: number, actorId: string, note: string | null = null) {
-	db.transaction((tx) => recordStatusChange(tx, id, { from: 'awaiting-review', to: 'approved', actorId, note }));
+	db.transaction((tx) =>
+		recordStatusChange(tx, id, { from: 'awaiting-review', to: 'approved', actorId, note })
+	);
 	return getJob(db, id)!;
 }
 

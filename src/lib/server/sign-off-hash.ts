@@ -87,7 +87,8 @@ export function describeDifferences(signed: CoveredRecord, now: CoveredRecord): 
 	for (const [noun, key] of sections) {
 		const before = new Map((signed[key] ?? []).map((x) => [x.id, x] as const));
 		const after = new Map((now[key] ?? []).map((x) => [x.id, x] as const));
-		const name = (x: { id: number; refDes?: string }) => `${noun} #${x.id}${x.refDes ? ` (${x.refDes})` : ''}`;
+		const name = (x: { id: number; refDes?: string }) =>
+			`${noun} #${x.id}${x.refDes ? ` (${x.refDes})` : ''}`;
 		for (const [id, was] of before) {
 			const is = after.get(id);
 			if (!is) out.push(`${name(was)} is no longer there`);

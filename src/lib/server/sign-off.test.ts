@@ -25,11 +25,14 @@ const PASSWORD = 'correct horse battery staple';
 let db: Db;
 let passwordHash: string;
 
-async function refusal(fn: () => Promise<unknown>): Promise<{ status: number; message: string; issues?: unknown }> {
+async function refusal(
+	fn: () => Promise<unknown>
+): Promise<{ status: number; message: string; issues?: unknown }> {
 	try {
 		await fn();
 	} catch (e) {
-		if (isDomainError(e)) return { status: e.status, message: e.message, ...(e.issues ? { issues: e.issues } : {}) };
+		if (isDomainError(e))
+			return { status: e.status, message: e.message, ...(e.issues ? { issues: e.issues } : {}) };
 		throw e;
 	}
 	throw new Error('expected a refusal');
@@ -40,12 +43,20 @@ const SUP2 = { id: 'sup2', role: 'supervisor' as const };
 const TECH = { id: 'tech', role: 'technician' as const };
 
 function addUser(id: string, name: string, role: 'technician' | 'supervisor' | 'admin') {
-	db.insert(table.users).values({ id, email: `${id}@example.com`, name, role, passwordHash }).run();
+	db.insert(table.users)
+		.values({ id, email: `${id}@example.com`, name, role, passwordHash })
+		.run();
 }
 
 let wavSeq = 0;
 /** A stored snapshot (rows written directly: the snapshot service's analysis is not under test here). */
-function snapshot(jobId: number, stage: 'before' | 'after', verdict: 'pass' | 'fail', by = 'tech', thdnPercent = 0.01) {
+function snapshot(
+	jobId: number,
+	stage: 'before' | 'after',
+	verdict: 'pass' | 'fail',
+	by = 'tech',
+	thdnPercent = 0.01
+) {
 	const s = db
 		.insert(table.snapshots)
 		.values({
@@ -95,7 +106,9 @@ function soak(jobId: number, status: 'passed' | 'failed' | 'running', timeScale 
 		.returning()
 		.get();
 	for (let i = 0; i < readings; i++)
-		db.insert(table.soakReadings).values({ runId: r.id, probe: 'hs-left', seq: i, t: i * 1000, celsius: 30 + i }).run();
+		db.insert(table.soakReadings)
+			.values({ runId: r.id, probe: 'hs-left', seq: i, t: i * 1000, celsius: 30 + i })
+			.run();
 	return r.id;
 }
 
@@ -103,7 +116,13 @@ function soak(jobId: number, status: 'passed' | 'failed' | 'running', timeScale 
 function reviewJob(): number {
 	const job = createJob(
 		db,
-		{ customerName: 'Ilse Fernwhistle', category: 'power-amplifier', make: 'Quorvane', model: 'PA-220', complaint: 'Hum' },
+		{
+			customerName: 'Ilse Fernwhistle',
+			category: 'power-amplifier',
+			make: 'Quorvane',
+			model: 'PA-220',
+			complaint: 'Hum'
+		},
 		'tech'
 	);
 	for (const s of ['diagnosing', 'repairing', 'testing', 'awaiting-review'] as const)
@@ -117,7 +136,12 @@ function readyJob(): number {
 	snapshot(id, 'before', 'fail');
 	snapshot(id, 'after', 'pass');
 	soak(id, 'passed');
-	addPart(db, id, partSchema.parse({ refDes: 'C12', description: 'Filter capacitor', value: '4700 µF 63 V' }), 'tech');
+	addPart(
+		db,
+		id,
+		partSchema.parse({ refDes: 'C12', description: 'Filter capacitor', value: '4700 µF 63 V' }),
+		'tech'
+	);
 	return id;
 }
 
@@ -175,7 +199,11 @@ describe('canonical hash of the covered record', () => {
 			Array.isArray(v)
 				? v.map(reverse)
 				: v && typeof v === 'object'
-					? Object.fromEntries(Object.entries(v).reverse().map(([k, x]) => [k, reverse(x)]))
+					? Object.fromEntries(
+							Object.entries(v)
+								.reverse()
+								.map(([k, x]) => [k, reverse(x)])
+						)
 					: v;
 		const b = reverse(a) as CoveredRecord;
 		expect(JSON.stringify(a)).not.toBe(JSON.stringify(b));
@@ -220,7 +248,12 @@ describe('canonical hash of the covered record', () => {
 // ── requirements and four-eyes ──────────────────────────────────────────────
 
 describe('requirement evaluation', () => {
-	const snap = (id: number, stage: 'before' | 'after', verdict: 'pass' | 'fail' | 'none', createdBy = 'tech'): EvidenceSnapshot => ({
+	const snap = (
+		id: number,
+		stage: 'before' | 'after',
+		verdict: 'pass' | 'fail' | 'none',
+		createdBy = 'tech'
+	): EvidenceSnapshot => ({
 		id,
 		stage,
 		verdict,
@@ -233,19 +266,27 @@ describe('requirement evaluation', () => {
 		timeScale,
 		startedAt: id * 1000
 	});
-	const evalWith = (snapshots: EvidenceSnapshot[], soakRuns: EvidenceSoakRun[], settings = DEFAULT_SIGN_OFF_SETTINGS, signer = 'sup') =>
-		evaluateSignOff(settings, { snapshots, soakRuns }, signer);
+	const evalWith = (
+		snapshots: EvidenceSnapshot[],
+		soakRuns: EvidenceSoakRun[],
+		settings = DEFAULT_SIGN_OFF_SETTINGS,
+		signer = 'sup'
+	) => evaluateSignOff(settings, { snapshots, soakRuns }, signer);
 
 	it('needs an after snapshot, and the latest one must pass', () => {
 		expect(evalWith([], [run(1, 'passed')]).missing.map((m) => [m.key, m.detail])).toEqual([
 			['after-snapshot-pass', 'No after snapshot yet']
 		]);
 		const failedLater = evalWith([snap(1, 'after', 'pass'), snap(2, 'after', 'fail')], [run(1, 'passed')]);
-		expect(failedLater.missing.map((m) => m.detail)).toEqual(['The latest after snapshot, #2, failed a limit check']);
+		expect(failedLater.missing.map((m) => m.detail)).toEqual([
+			'The latest after snapshot, #2, failed a limit check'
+		]);
 		const noProfile = evalWith([snap(1, 'after', 'none')], [run(1, 'passed')]);
 		expect(noProfile.missing[0].detail).toMatch(/#1, has no verdict/);
 		// A passing before snapshot is not an after snapshot.
-		expect(evalWith([snap(1, 'before', 'pass')], [run(1, 'passed')]).missing[0].key).toBe('after-snapshot-pass');
+		expect(evalWith([snap(1, 'before', 'pass')], [run(1, 'passed')]).missing[0].key).toBe(
+			'after-snapshot-pass'
+		);
 		const ok = evalWith([snap(1, 'before', 'fail'), snap(2, 'after', 'pass')], [run(1, 'passed')]);
 		expect(ok.missing).toEqual([]);
 		expect([ok.latestBefore, ok.latestAfter]).toEqual([1, 2]);
@@ -254,15 +295,22 @@ describe('requirement evaluation', () => {
 	it('needs a passed soak; an accelerated-simulator run is not proof unless the shop says so', () => {
 		const after = [snap(1, 'after', 'pass')];
 		expect(evalWith(after, []).missing.map((m) => m.detail)).toEqual(['No soak run yet']);
-		expect(evalWith(after, [run(1, 'running')]).missing.map((m) => m.detail)).toEqual(['The soak run has not finished']);
-		expect(evalWith(after, [run(1, 'passed'), run(2, 'failed')]).missing[0].detail).toBe('The latest soak run, #2, failed');
+		expect(evalWith(after, [run(1, 'running')]).missing.map((m) => m.detail)).toEqual([
+			'The soak run has not finished'
+		]);
+		expect(evalWith(after, [run(1, 'passed'), run(2, 'failed')]).missing[0].detail).toBe(
+			'The latest soak run, #2, failed'
+		);
 		const fast = evalWith(after, [run(4, 'passed', 60)]);
 		expect(fast.missing[0].detail).toBe(
 			'Soak run #4 ran on the accelerated simulator (×60), which the shop does not count as proof'
 		);
 		// A real run passed earlier still counts when a later one was accelerated.
 		expect(evalWith(after, [run(1, 'passed'), run(2, 'failed', 60)]).missing).toEqual([]);
-		const counted = evalWith(after, [run(4, 'passed', 60)], { ...DEFAULT_SIGN_OFF_SETTINGS, countAcceleratedSoak: true });
+		const counted = evalWith(after, [run(4, 'passed', 60)], {
+			...DEFAULT_SIGN_OFF_SETTINGS,
+			countAcceleratedSoak: true
+		});
 		expect(counted.missing).toEqual([]);
 	});
 
@@ -273,14 +321,23 @@ describe('requirement evaluation', () => {
 
 	it('four-eyes: the supervisor who captured the latest after snapshot may not approve unless allowed', () => {
 		const mine = [snap(1, 'after', 'pass', 'sup')];
-		expect(evalWith(mine, [run(1, 'passed')]).fourEyes).toEqual({ signerCapturedAfter: true, allowed: false, ok: false });
+		expect(evalWith(mine, [run(1, 'passed')]).fourEyes).toEqual({
+			signerCapturedAfter: true,
+			allowed: false,
+			ok: false
+		});
 		expect(evalWith(mine, [run(1, 'passed')], DEFAULT_SIGN_OFF_SETTINGS, 'sup2').fourEyes.ok).toBe(true);
 		const alone = { ...DEFAULT_SIGN_OFF_SETTINGS, allowSelfSignOff: true };
-		expect(evalWith(mine, [run(1, 'passed')], alone).fourEyes).toEqual({ signerCapturedAfter: true, allowed: true, ok: true });
+		expect(evalWith(mine, [run(1, 'passed')], alone).fourEyes).toEqual({
+			signerCapturedAfter: true,
+			allowed: true,
+			ok: true
+		});
 		// Capturing an older after snapshot does not count: the latest one is what is signed.
-		expect(evalWith([snap(1, 'after', 'pass', 'sup'), snap(2, 'after', 'pass', 'tech')], [run(1, 'passed')]).fourEyes.ok).toBe(
-			true
-		);
+		expect(
+			evalWith([snap(1, 'after', 'pass', 'sup'), snap(2, 'after', 'pass', 'tech')], [run(1, 'passed')])
+				.fourEyes.ok
+		).toBe(true);
 	});
 });
 
@@ -289,7 +346,13 @@ describe('requirement evaluation', () => {
 describe('signing a job off', () => {
 	it('approves with the password: 201-shaped record, job signed off, history and audit written together', async () => {
 		const id = readyJob();
-		const signed = await signOffJob(db, id, { decision: 'approve', comment: 'Figures within limits', password: PASSWORD }, SUP, '10.0.0.5');
+		const signed = await signOffJob(
+			db,
+			id,
+			{ decision: 'approve', comment: 'Figures within limits', password: PASSWORD },
+			SUP,
+			'10.0.0.5'
+		);
 		expect(signed).toMatchObject({
 			jobId: id,
 			signerId: 'sup',
@@ -321,8 +384,14 @@ describe('signing a job off', () => {
 			await refusal(() => signOffJob(db, id, { ...input, password: 'not my password' }, SUP, '10.0.0.6'))
 		).toMatchObject({ status: 401, message: expect.stringMatching(/password is not right/) });
 		expect(db.select().from(table.signOffs).all()).toEqual([]);
-		const other = createJob(db, { customerName: 'X', category: 'tuner', make: 'Orlund', model: 'T1', complaint: 'Drift' }, 'tech');
-		expect(await refusal(() => signOffJob(db, other.id, input, SUP, '10.0.0.6'))).toMatchObject({ status: 409 });
+		const other = createJob(
+			db,
+			{ customerName: 'X', category: 'tuner', make: 'Orlund', model: 'T1', complaint: 'Drift' },
+			'tech'
+		);
+		expect(await refusal(() => signOffJob(db, other.id, input, SUP, '10.0.0.6'))).toMatchObject({
+			status: 409
+		});
 		expect(await refusal(() => signOffJob(db, 99999, input, SUP, '10.0.0.6'))).toMatchObject({ status: 404 });
 	});
 
@@ -330,7 +399,8 @@ describe('signing a job off', () => {
 		const id = readyJob();
 		const wrong = { decision: 'approve' as const, comment: '', password: 'wrong' };
 		// SIGN_IN_LIMITS.pair.free = 3: three failures are free, the fourth starts a wait.
-		for (let i = 0; i < 4; i++) expect((await refusal(() => signOffJob(db, id, wrong, SUP, '10.0.0.7'))).status).toBe(401);
+		for (let i = 0; i < 4; i++)
+			expect((await refusal(() => signOffJob(db, id, wrong, SUP, '10.0.0.7'))).status).toBe(401);
 		expect(
 			await refusal(() => signOffJob(db, id, { ...wrong, password: PASSWORD }, SUP, '10.0.0.7'))
 		).toMatchObject({ status: 429, message: expect.stringMatching(/try again in/) });
@@ -339,10 +409,15 @@ describe('signing a job off', () => {
 	it('409 lists every missing requirement at once; sending back needs none of them but a comment', async () => {
 		const id = reviewJob();
 		soak(id, 'passed', 60);
-		const refused = await refusal(() => signOffJob(db, id, { decision: 'approve', comment: '', password: PASSWORD }, SUP, '10.0.0.8'));
+		const refused = await refusal(() =>
+			signOffJob(db, id, { decision: 'approve', comment: '', password: PASSWORD }, SUP, '10.0.0.8')
+		);
 		expect(refused.status).toBe(409);
 		expect(refused.issues).toEqual([
-			{ path: 'requirements.after-snapshot-pass', message: 'An after snapshot with a passing verdict — No after snapshot yet' },
+			{
+				path: 'requirements.after-snapshot-pass',
+				message: 'An after snapshot with a passing verdict — No after snapshot yet'
+			},
 			{
 				path: 'requirements.passed-soak',
 				message:
@@ -350,9 +425,17 @@ describe('signing a job off', () => {
 			}
 		]);
 		expect(
-			await refusal(() => signOffJob(db, id, { decision: 'send-back', comment: '', password: PASSWORD }, SUP, '10.0.0.8'))
+			await refusal(() =>
+				signOffJob(db, id, { decision: 'send-back', comment: '', password: PASSWORD }, SUP, '10.0.0.8')
+			)
 		).toMatchObject({ status: 400 });
-		const back = await signOffJob(db, id, { decision: 'send-back', comment: 'Needs a real soak', password: PASSWORD }, SUP, '10.0.0.8');
+		const back = await signOffJob(
+			db,
+			id,
+			{ decision: 'send-back', comment: 'Needs a real soak', password: PASSWORD },
+			SUP,
+			'10.0.0.8'
+		);
 		expect(back.meaning).toBe('sent back');
 		expect(db.select().from(table.jobs).where(eq(table.jobs.id, id)).get()!.status).toBe('repairing');
 	});
@@ -378,7 +461,9 @@ describe('signing a job off', () => {
 			status: 409,
 			message: expect.stringMatching(/sign-off/)
 		});
-		expect(await refusal(async () => changeStatus(db, id, { status: 'approved' }, TECH))).toMatchObject({ status: 403 });
+		expect(await refusal(async () => changeStatus(db, id, { status: 'approved' }, TECH))).toMatchObject({
+			status: 403
+		});
 	});
 });
 
@@ -400,7 +485,13 @@ describe('a signed job', () => {
 
 	it('opening it recomputes the hash: intact, then names what changed', async () => {
 		const id = readyJob();
-		const signed = await signOffJob(db, id, { decision: 'approve', comment: '', password: PASSWORD }, SUP2, '10.0.1.2');
+		const signed = await signOffJob(
+			db,
+			id,
+			{ decision: 'approve', comment: '', password: PASSWORD },
+			SUP2,
+			'10.0.1.2'
+		);
 		expect(standingSignOff(db, id)!.check).toMatchObject({ intact: true, differences: [] });
 		// Tampering behind the app's back (the triggers guard snapshots, not parts or readings).
 		const partId = db.select().from(table.parts).where(eq(table.parts.jobId, id)).get()!.id;
@@ -410,22 +501,37 @@ describe('a signed job', () => {
 		const check = checkSignOff(db, signed.id);
 		expect(check.intact).toBe(false);
 		expect(check.sha256Now).not.toBe(signed.sha256);
-		expect(check.differences).toEqual([`soak run #${runId} changed (readingCount)`, `part #${partId} (C12) changed (quantity)`]);
+		expect(check.differences).toEqual([
+			`soak run #${runId} changed (readingCount)`,
+			`part #${partId} (C12) changed (quantity)`
+		]);
 	});
 
 	it('reopening supersedes the sign-off (kept, marked) and writes the audit trail; the job takes edits again', async () => {
 		const id = readyJob();
-		const signed = await signOffJob(db, id, { decision: 'approve', comment: '', password: PASSWORD }, SUP2, '10.0.1.3');
+		const signed = await signOffJob(
+			db,
+			id,
+			{ decision: 'approve', comment: '', password: PASSWORD },
+			SUP2,
+			'10.0.1.3'
+		);
 		reopenJob(db, id, { reason: 'Customer reports hum again' }, SUP);
 		const [again] = listSignOffs(db, id);
 		expect(again.id).toBe(signed.id);
-		expect(again.superseded).toMatchObject({ byName: 'Rowan Thistlewood', reason: 'Customer reports hum again' });
+		expect(again.superseded).toMatchObject({
+			byName: 'Rowan Thistlewood',
+			reason: 'Customer reports hum again'
+		});
 		expect(standingSignOff(db, id)).toBeNull();
 		const trail = listAudit(db, { job: id, pageSize: 2 }).items.map((e) => e.action);
 		expect(trail.sort()).toEqual(['job.reopened', 'sign-off.superseded']);
 		const partId = db.select().from(table.parts).where(eq(table.parts.jobId, id)).get()!.id;
 		updatePart(db, id, partId, { state: 'fitted' }, 'tech');
-		expect(listAudit(db, { job: id, action: 'part.' }).items.map((e) => e.action)).toEqual(['part.updated', 'part.added']);
+		expect(listAudit(db, { job: id, action: 'part.' }).items.map((e) => e.action)).toEqual([
+			'part.updated',
+			'part.added'
+		]);
 	});
 });
 

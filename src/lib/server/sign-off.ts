@@ -154,7 +154,12 @@ export interface ReviewSnapshot {
 	createdAt: string;
 	createdByName: string;
 	profileName: string | null;
-	channels: { channel: number; frequencyHz: number | null; levelVrms: number | null; thdnPercent: number | null }[];
+	channels: {
+		channel: number;
+		frequencyHz: number | null;
+		levelVrms: number | null;
+		thdnPercent: number | null;
+	}[];
 	checksPassed: number;
 	checksTotal: number;
 	failedChecks: string[];
@@ -196,7 +201,11 @@ function reviewSnapshot(db: Db, id: number | null): ReviewSnapshot | null {
 	const { s, name } = row;
 	// Read defensively: the results shape belongs to the snapshot service.
 	const results = (s.results ?? {}) as { channels?: Record<string, unknown>[] };
-	const checks = (Array.isArray(s.checks) ? s.checks : []) as { pass?: boolean; label?: string; metric?: string }[];
+	const checks = (Array.isArray(s.checks) ? s.checks : []) as {
+		pass?: boolean;
+		label?: string;
+		metric?: string;
+	}[];
 	const profile = s.profile as { name?: unknown } | null;
 	return {
 		id: s.id,
@@ -225,7 +234,8 @@ export function getReview(db: Db, jobId: number, signerId: string): Review {
 	const soakRuns = record.soakRuns.map((r) => {
 		const summary = (r.summary ?? {}) as { probes?: Record<string, { maxC?: number }>; breaches?: unknown[] };
 		const maxC: Record<string, number> = {};
-		for (const [probe, p] of Object.entries(summary.probes ?? {})) if (num(p?.maxC) !== null) maxC[probe] = p.maxC!;
+		for (const [probe, p] of Object.entries(summary.probes ?? {}))
+			if (num(p?.maxC) !== null) maxC[probe] = p.maxC!;
 		return {
 			id: r.id,
 			status: r.status,
@@ -304,9 +314,11 @@ export async function signOffJob(
 				undefined,
 				{ 'retry-after': String(confirmed.retryAfterS) }
 			);
-		throw new DomainError('unauthenticated', 'That password is not right: re-enter your own password to sign', [
-			{ path: 'password', message: 'Wrong password' }
-		]);
+		throw new DomainError(
+			'unauthenticated',
+			'That password is not right: re-enter your own password to sign',
+			[{ path: 'password', message: 'Wrong password' }]
+		);
 	}
 
 	const id = db.transaction((tx) => {
@@ -392,7 +404,9 @@ export function listSignOffs(db: Conn, jobId: number): SignOffView[] {
 		requirements: s.requirements as RequirementResult[],
 		selfSignOff: s.selfSignOff,
 		sha256: s.sha256,
-		superseded: sup ? { at: sup.supersededAt.toISOString(), byName: byName ?? null, reason: sup.reason } : null
+		superseded: sup
+			? { at: sup.supersededAt.toISOString(), byName: byName ?? null, reason: sup.reason }
+			: null
 	}));
 }
 

@@ -81,7 +81,11 @@ function emailTaken(db: Db, email: string): boolean {
 }
 
 /** Create an account (409 when the e-mail is in use). */
-export async function createUser(db: Db, input: UserCreate, actorId: string | null = null): Promise<UserSummary> {
+export async function createUser(
+	db: Db,
+	input: UserCreate,
+	actorId: string | null = null
+): Promise<UserSummary> {
 	const data = validate(userCreateSchema, input);
 	if (emailTaken(db, data.email))
 		throw new DomainError('conflict', 'That e-mail address already has an account');

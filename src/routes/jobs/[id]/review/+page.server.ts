@@ -42,7 +42,13 @@ export const actions: Actions = formActions({
 		} catch (e) {
 			// Keep what was typed (never the password) beside the refusal.
 			if (!isDomainError(e)) throw e;
-			return fail(e.status, { action: 'sign', message: e.message, issues: e.issues ?? [], values, errors: {} });
+			return fail(e.status, {
+				action: 'sign',
+				message: e.message,
+				issues: e.issues ?? [],
+				values,
+				errors: {}
+			});
 		}
 		redirect(303, `/jobs/${id}`);
 	}
