@@ -164,4 +164,15 @@ test('a supervisor is refused while a requirement is missing, then signs off wit
 		page.getByTestId('job-audit-trail').locator('[data-action="sign-off.superseded"]')
 	).toBeVisible();
 	await expect(page.getByTestId('log-form')).toBeVisible();
+
+	// ── the review and audit pages fit a 390 px phone without sideways scrolling ─
+	await page.setViewportSize({ width: 390, height: 844 });
+	for (const path of [`/jobs/${id}/review`, '/audit']) {
+		await page.goto(path);
+		await ready(page);
+		const overflowPx = await page.evaluate(
+			() => document.documentElement.scrollWidth - document.documentElement.clientWidth
+		);
+		expect({ path, overflowPx }).toEqual({ path, overflowPx: 0 });
+	}
 });
