@@ -208,12 +208,12 @@ describe('canonical hash of the covered record', () => {
 		const b = reverse(a) as CoveredRecord;
 		expect(JSON.stringify(a)).not.toBe(JSON.stringify(b));
 		expect(fingerprint(b).sha256).toBe(fingerprint(a).sha256);
-		// RFC 8785 §3.2.3: members sorted by key; no whitespace.
+		// RFC 8785 §3.2.3 (tests/REFERENCES.md, Sign-off fingerprints): members sorted by key; no whitespace.
 		expect(canonicalJson({ b: 1, a: [2, { d: 'x', c: null }] })).toBe('{"a":[2,{"c":null,"d":"x"}],"b":1}');
 	});
 
 	it('is the SHA-256 of the canonical text (FIPS 180-4 test vector for "abc")', () => {
-		// FIPS 180-4 / NIST example: SHA-256("abc").
+		// FIPS 180-4 / NIST example: SHA-256("abc") (tests/REFERENCES.md, Sign-off fingerprints).
 		expect(sha256Hex('abc')).toBe('ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad');
 		const { covered, sha256 } = fingerprint(record());
 		expect(sha256).toBe(sha256Hex(covered));
