@@ -205,6 +205,7 @@ function reviewSnapshot(db: Db, id: number | null): ReviewSnapshot | null {
 		pass?: boolean;
 		label?: string;
 		metric?: string;
+		channel?: string | null;
 	}[];
 	const profile = s.profile as { name?: unknown } | null;
 	return {
@@ -223,7 +224,9 @@ function reviewSnapshot(db: Db, id: number | null): ReviewSnapshot | null {
 		})),
 		checksPassed: checks.filter((c) => c.pass).length,
 		checksTotal: checks.length,
-		failedChecks: checks.filter((c) => !c.pass).map((c) => String(c.label ?? c.metric ?? 'check'))
+		failedChecks: checks
+			.filter((c) => !c.pass)
+			.map((c) => `${String(c.label ?? c.metric ?? 'check')}${c.channel ? ` (${c.channel})` : ''}`)
 	};
 }
 
