@@ -382,13 +382,19 @@ describe('the sign-off lock', () => {
 		expect(refusal(() => changeStatus(db, id, { status: 'on-hold' }, ADMIN))).toEqual(LOCKED);
 	});
 
-	it('offers only the moves the lock allows', () => {
+	it('offers only the moves the lock allows, and never approval (the review page signs)', () => {
 		for (const role of ['technician', 'supervisor', 'admin'] as const) {
 			expect(statusMoves('approved', role)).toEqual(['returned']);
 			expect(statusMoves('returned', role)).toEqual([]);
 			for (const s of JOB_STATUSES.filter((x) => x !== 'approved' && x !== 'returned'))
-				expect(statusMoves(s, role)).toEqual(allowedNextStatuses(s, role));
+				expect(statusMoves(s, role)).toEqual(allowedNextStatuses(s, role).filter((x) => x !== 'approved'));
 		}
+		expect(statusMoves('awaiting-review', 'supervisor')).toEqual([
+			'repairing',
+			'testing',
+			'on-hold',
+			'declined'
+		]);
 	});
 
 	it('lets only a supervisor or admin reopen, with a reason of 3–500 characters, recorded in the history', () => {
