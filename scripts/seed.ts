@@ -7,7 +7,9 @@ import * as table from '../src/lib/server/db/schema';
 import type { JobStatus, PartState, Role, UnitCategory } from '../src/lib/server/db/schema';
 import { hashPassword } from '../src/lib/server/auth';
 import { defaultSettings, updateSettings } from '../src/lib/server/settings';
-import { seedLimitProfiles } from '../src/lib/server/limit-profiles';
+import { createLimitProfile, seedLimitProfiles } from '../src/lib/server/limit-profiles';
+import { createSnapshot } from '../src/lib/server/snapshots';
+import { encodeWav } from '../src/lib/dsp/wav';
 import { env } from '../src/lib/server/env';
 import { UNIT_CATEGORIES } from '../src/lib/schemas/enums';
 
@@ -643,7 +645,222 @@ export async function seedDemo(db: Db, options: { now?: Date } = {}): Promise<bo
 
 	updateSettings(db, { ...defaultSettings(), shopName: DEMO_SHOP_NAME });
 	seedLimitProfiles(db, userIds.supervisor);
+	seedSignOffDemo(db, userIds, nowMs);
 	return true;
+}
+
+/** The demo job a supervisor can sign off: its make and model, so tests and people can find it. */
+export const SIGN_OFF_DEMO = { make: 'Pellowmere', model: 'SA-150' } as const;
+
+/** A 1 kHz tone (0.5 of full scale) with a little third harmonic, as a bench capture would hold it. */
+function demoCapture(thirdHarmonic: number): Uint8Array {
+	const rateHz = 48000;
+	const n = 16384;
+	const left = new Float32Array(n);
+	const right = new Float32Array(n);
+	for (let i = 0; i < n; i++) {
+		const w = (2 * Math.PI * 1000 * i) / rateHz;
+		left[i] = 0.5 * Math.sin(w) + 0.5 * thirdHarmonic * Math.sin(3 * w);
+		right[i] = 0.49 * Math.sin(w) + 0.49 * thirdHarmonic * Math.sin(3 * w);
+	}
+	return encodeWav([left, right], rateHz);
+}
+
+/**
+ * One power amplifier awaiting sign-off, with what the shop requires: a before snapshot that
+ * failed (3 % third harmonic), an after snapshot that passes, and a one-hour soak at real time
+ * that passed, so a supervisor can review and sign it from `npm start`.
+ */
+function seedSignOffDemo(db: Db, userIds: Record<string, string>, nowMs: number): void {
+	const tech = userIds.tech1;
+	const startMs = nowMs - 2 * DAY_MS;
+	const jobId = db.transaction((tx) => {
+		const customerId = tx
+			.insert(table.customers)
+			.values({
+				name: 'Agathe Lindqvist-Oyelaran',
+				email: 'agathe.lo@example.net',
+				createdAt: new Date(startMs)
+			})
+			.returning({ id: table.customers.id })
+			.get().id;
+		const id = tx
+			.insert(table.jobs)
+			.values({
+				customerId,
+				category: 'power-amplifier',
+				make: SIGN_OFF_DEMO.make,
+				model: SIGN_OFF_DEMO.model,
+				serial: 'PM-40417',
+				year: 1979,
+				complaint: 'Right channel distorts at moderate volume; hum after warm-up',
+				ratedPowerW: 75,
+				ratedLoadOhms: 8,
+				status: 'awaiting-review',
+				technicianId: tech,
+				promisedDate: isoDay(nowMs + 3 * DAY_MS),
+				createdAt: new Date(startMs),
+				updatedAt: new Date(nowMs - HOUR_MS)
+			})
+			.returning({ id: table.jobs.id })
+			.get().id;
+		const path: JobStatus[] = ['received', 'diagnosing', 'repairing', 'testing', 'awaiting-review'];
+		path.forEach((status, i) =>
+			tx
+				.insert(table.jobStatusHistory)
+				.values({
+					jobId: id,
+					userId: i === 0 ? userIds.admin : tech,
+					fromStatus: i === 0 ? null : path[i - 1],
+					toStatus: status,
+					note: i === 0 ? 'Taken in' : null,
+					createdAt: new Date(startMs + i * 8 * HOUR_MS)
+				})
+				.run()
+		);
+		tx.insert(table.workLog)
+			.values([
+				{
+					jobId: id,
+					authorId: tech,
+					text: 'Replaced both main filter capacitors; rails now clean.',
+					minutes: 55,
+					createdAt: new Date(startMs + 9 * HOUR_MS)
+				},
+				{
+					jobId: id,
+					authorId: tech,
+					text: 'Reset bias to 22 mA per side after the recap.',
+					minutes: 25,
+					createdAt: new Date(startMs + 10 * HOUR_MS)
+				}
+			])
+			.run();
+		tx.insert(table.parts)
+			.values([
+				{
+					jobId: id,
+					refDes: 'C401, C402',
+					description: 'Main filter capacitor',
+					value: '10000 µF 63 V',
+					quantity: 2,
+					unitCostCents: 1890,
+					supplier: 'Fennick Components',
+					state: 'fitted',
+					verificationNote: 'Weight and sleeve print match the maker’s datasheet',
+					createdAt: new Date(startMs + 8 * HOUR_MS),
+					updatedAt: new Date(startMs + 9 * HOUR_MS)
+				},
+				{
+					jobId: id,
+					refDes: 'VR601',
+					description: 'Bias trimmer',
+					value: '500 Ω',
+					quantity: 1,
+					unitCostCents: 240,
+					supplier: 'Fennick Components',
+					state: 'fitted',
+					verificationNote: null,
+					createdAt: new Date(startMs + 8 * HOUR_MS),
+					updatedAt: new Date(startMs + 10 * HOUR_MS)
+				}
+			])
+			.run();
+		return id;
+	});
+
+	// A profile of its own, so the demo verdicts do not hang on the bench profiles' conditions.
+	const profile = createLimitProfile(
+		db,
+		{
+			name: 'Sign-off demo: THD+N at 1 kHz',
+			description:
+				'THD+N at most 0.1 % on each channel at 1 kHz. Common practice for a healthy solid-state amplifier.',
+			conditions: { generatorFrequencyHz: 1000 },
+			limits: [{ metric: 'thdnPercent', channel: 'each', op: 'le', value: 0.1, unit: '%' }]
+		},
+		userIds.supervisor
+	);
+	createSnapshot(db, {
+		jobId,
+		userId: tech,
+		wav: demoCapture(0.03),
+		meta: { label: 'Before: as received, 1 kHz', stage: 'before', profileId: profile.id }
+	});
+	createSnapshot(db, {
+		jobId,
+		userId: tech,
+		wav: demoCapture(0.0002),
+		meta: { label: 'After: recap and bias, 1 kHz', stage: 'after', profileId: profile.id }
+	});
+
+	// A one-hour soak at real time (time scale 1) at one-eighth power, readings every 30 s.
+	const runStartMs = nowMs - 5 * HOUR_MS;
+	const durationS = 3600;
+	const probes = { 'heatsink-left': 47, 'heatsink-right': 48.5, transformer: 41, ambient: 23 } as const;
+	const readings: { probe: string; seq: number; t: number; celsius: number }[] = [];
+	let seq = 1;
+	for (let s = 0; s <= durationS; s += 30) {
+		for (const [probe, finalC] of Object.entries(probes)) {
+			// First-order warm-up from 23 °C with a 12-minute time constant.
+			const c = 23 + (finalC - 23) * (1 - Math.exp(-s / 720));
+			readings.push({ probe, seq: seq++, t: runStartMs + s * 1000, celsius: Math.round(c * 10) / 10 });
+		}
+	}
+	const summaryProbes: Record<
+		string,
+		{ maxC: number; maxAtS: number; finalC: number; finalAtS: number; readings: number }
+	> = {};
+	for (const probe of Object.keys(probes)) {
+		const mine = readings.filter((r) => r.probe === probe);
+		const last = mine[mine.length - 1];
+		const max = mine.reduce((a, b) => (b.celsius > a.celsius ? b : a));
+		summaryProbes[probe] = {
+			maxC: max.celsius,
+			maxAtS: (max.t - runStartMs) / 1000,
+			finalC: last.celsius,
+			finalAtS: (last.t - runStartMs) / 1000,
+			readings: mine.length
+		};
+	}
+	db.transaction((tx) => {
+		const runId = tx
+			.insert(table.soakRuns)
+			.values({
+				jobId,
+				createdBy: tech,
+				preset: 'eighth-power-60',
+				frequencyHz: 1000,
+				loadOhms: 8,
+				drivePowerW: 75 / 8,
+				driveVrms: Math.sqrt((75 / 8) * 8),
+				durationS,
+				timeScale: 1,
+				startSeq: 0,
+				channels: ['left', 'right'],
+				limits: { ...defaultSettings().soakDefaultLimits },
+				probes: Object.keys(probes),
+				status: 'passed',
+				startedAt: new Date(runStartMs),
+				endedAt: new Date(runStartMs + durationS * 1000),
+				summary: {
+					probes: summaryProbes,
+					steadyStateS: 2700,
+					thdnEndPercent: null,
+					breaches: [],
+					gaps: [],
+					coveredS: durationS,
+					incomplete: false
+				},
+				createdAt: new Date(runStartMs)
+			})
+			.returning({ id: table.soakRuns.id })
+			.get().id;
+		for (const r of readings)
+			tx.insert(table.soakReadings)
+				.values({ runId, bootId: 'demo', ...r })
+				.run();
+	});
 }
 
 /** A small deterministic generator (mulberry32) so the large seed is the same every time. */

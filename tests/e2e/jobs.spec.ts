@@ -1,6 +1,7 @@
 // The job queue end to end: a technician takes a unit in (after one refused submission),
 // finds it through the filtered table, logs work and a part, moves it to review and cannot
-// approve it; a supervisor then approves it, which locks the job until they reopen it with a reason.
+// approve it; a supervisor is pointed to the review (signing, locking and reopening are in
+// signoff.spec.ts).
 import { expect, test, type Page } from '@playwright/test';
 import { ready, signIn } from './helpers';
 
@@ -100,7 +101,7 @@ test('technician takes a unit in and works it; only a supervisor approves', asyn
 	await moveTo(page, 'diagnosing', 'Diagnosing');
 	await moveTo(page, 'repairing', 'Repairing');
 	await moveTo(page, 'testing', 'Testing');
-	await moveTo(page, 'awaiting-review', 'Awaiting review');
+	await moveTo(page, 'awaiting-review', 'Awaiting sign-off');
 
 	// A technician sees no approve control, and the server refuses a direct request.
 	await expect(page.getByTestId('status-to-approved')).toHaveCount(0);
@@ -117,35 +118,20 @@ test('technician takes a unit in and works it; only a supervisor approves', asyn
 	expect(await viaAction.json()).toMatchObject({ type: 'failure', status: 403 });
 	await page.reload();
 	await ready(page);
-	await expect(page.getByTestId('job-status').getByTestId('status-badge')).toHaveText('Awaiting review');
+	await expect(page.getByTestId('job-status').getByTestId('status-badge')).toHaveText('Awaiting sign-off');
 
-	// ── a supervisor approves ───────────────────────────────────────────────
+	// ── a supervisor is sent to the review: the status route never approves ─
 	await page.getByTestId('sign-out').click();
 	await expect(page).toHaveURL(/\/login$/);
 	await signIn(page, 'supervisor@example.com');
 	await page.goto(`/jobs/${jobId}`);
 	await ready(page);
-	await page.getByLabel('Note (optional)').fill('Figures within limits; heat soak clean.');
-	await moveTo(page, 'approved', 'Approved');
-	const latest = page.getByTestId('history-entry').first();
-	await expect(latest).toContainText('Awaiting review → Approved');
-	await expect(latest).toContainText('heat soak clean');
-	await expect(page.getByTestId('status-history').getByTestId('history-entry')).toHaveCount(6);
-
-	// ── signed off: locked until a supervisor reopens it with a reason ──────
-	await expect(page.getByTestId('job-locked')).toBeVisible();
-	await expect(page.getByTestId('log-form')).toHaveCount(0);
-	const late = await page.request.post(`/api/jobs/${jobId}/log`, {
+	await expect(page.getByTestId('status-to-approved')).toHaveCount(0);
+	await expect(page.getByTestId('link-review')).toBeVisible();
+	const bySupervisor = await page.request.post(`/api/jobs/${jobId}/status`, {
 		headers: { origin: baseURL!, 'content-type': 'application/json' },
-		data: { text: 'Late entry', minutes: 1 }
+		data: { status: 'approved' }
 	});
-	expect(late.status()).toBe(409);
-	await page.getByLabel('Reason for reopening').fill('Customer reports the hum is back');
-	await page.getByTestId('reopen-submit').click();
-	await expect(page.getByTestId('job-status').getByTestId('status-badge')).toHaveText('Awaiting review');
-	await expect(page.getByTestId('history-entry').first()).toContainText(
-		'Reopened: Customer reports the hum is back'
-	);
-	await expect(page.getByTestId('job-locked')).toHaveCount(0);
-	await expect(page.getByTestId('log-form')).toBeVisible();
+	expect(bySupervisor.status()).toBe(409);
+	expect((await bySupervisor.json()).message).toMatch(/Review and sign off/);
 });

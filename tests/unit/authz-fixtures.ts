@@ -8,7 +8,7 @@ import { join, relative, resolve, sep } from 'node:path';
 import type { Cookies } from '@sveltejs/kit';
 import { db } from '$lib/server/db';
 import { createSession, type SessionInfo, type SessionUser } from '$lib/server/auth';
-import { seedDemo } from '../../scripts/seed';
+import { SIGN_OFF_DEMO, seedDemo } from '../../scripts/seed';
 
 export const ROLES = ['signed-out', 'technician', 'supervisor', 'admin'] as const;
 export type Caller = (typeof ROLES)[number];
@@ -28,6 +28,8 @@ export interface Fixtures {
 	reviewJobId: number;
 	/** A signed-off (`approved`, so locked) job: the one reopening is tried on. */
 	approvedJobId: number;
+	/** The seeded demo job awaiting sign-off that meets the shop's requirements (after snapshot by a technician). */
+	signOffJobId: number;
 	/** A part and the job it belongs to (an open job, so the part may change). */
 	partJobId: number;
 	partId: number;
@@ -103,6 +105,11 @@ export async function setupFixtures(): Promise<{ fx: Fixtures; callers: Record<C
 		jobId: jobIn('received'),
 		reviewJobId: jobIn('awaiting-review'),
 		approvedJobId: jobIn('approved'),
+		signOffJobId: (
+			sqlite
+				.prepare('SELECT id FROM jobs WHERE make = ? AND model = ?')
+				.get(SIGN_OFF_DEMO.make, SIGN_OFF_DEMO.model) as { id: number }
+		).id,
 		partJobId: part.jobId,
 		partId: part.id
 	};

@@ -156,13 +156,37 @@ const MATRIX: Row[] = [
 		})
 	},
 	{
+		// A job awaiting sign-off goes back to testing (anyone); approval is the sign-off's, below.
 		route: '/api/jobs/[id]/status',
 		method: 'POST',
-		expect: [401, 403, 200, 200],
+		expect: [401, 200, 200, 200],
 		request: (fx) => ({
 			params: { id: String(fx.reviewJobId) },
-			body: { status: 'approved', note: 'Signed off' }
+			body: { status: 'testing', note: 'One more run at full power' }
 		})
+	},
+	// sign-off: supervisors and admins sign with their password; everyone reads the signatures
+	{
+		route: '/api/jobs/[id]/sign-off',
+		method: 'POST',
+		expect: [401, 403, 201, 201],
+		request: (fx) => ({
+			params: { id: String(fx.signOffJobId) },
+			body: { decision: 'approve', comment: 'Within limits', password: DEMO_PASSWORD }
+		})
+	},
+	{
+		route: '/api/jobs/[id]/sign-offs',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: String(fx.signOffJobId) } })
+	},
+	// the audit trail: supervisors and admins
+	{
+		route: '/api/audit',
+		method: 'GET',
+		expect: [401, 403, 200, 200],
+		request: () => ({ query: '?action=job.&pageSize=10' })
 	},
 	{
 		route: '/api/jobs/[id]/reopen',
@@ -613,19 +637,19 @@ describe('jobs and accounts API input handling', () => {
 		).toBe(404);
 	});
 
-	it('409 for a status move the path does not allow; the approval is recorded', async () => {
+	it('409 for a status move the path does not allow, and for approval (a sign-off approves)', async () => {
 		const status = discovered.find((d) => d.routeId === '/api/jobs/[id]/status')!;
 		const skip = await callHandler(status, 'POST', admin(), {
 			params: { id: String(fx.jobId) },
 			body: { status: 'testing' }
 		});
 		expect(skip.status).toBe(409);
-		const ok = await callHandler(status, 'POST', callers.supervisor, {
+		const approve = await callHandler(status, 'POST', callers.supervisor, {
 			params: { id: String(fx.reviewJobId) },
 			body: { status: 'approved' }
 		});
-		const history = (ok.body as { history: { toStatus: string; userId: string }[] }).history;
-		expect(history.at(-1)).toMatchObject({ toStatus: 'approved', userId: fx.users.supervisor });
+		expect(approve.status).toBe(409);
+		expect((approve.body as { message: string }).message).toMatch(/Review and sign off/);
 	});
 
 	it('409 for every edit of a signed-off job, saying how to reopen it; a reopened job takes edits again', async () => {

@@ -96,6 +96,13 @@ const LOADS: LoadRow[] = [
 		expect: ['login', OK, OK, OK],
 		request: (fx) => ({ params: { id: snapshotIn(fx) } })
 	},
+	// Review and sign off, and the audit trail: supervisors and admins.
+	{
+		route: '/jobs/[id]/review',
+		expect: ['login', 403, OK, OK],
+		request: (fx) => ({ params: { id: String(fx.signOffJobId) } })
+	},
+	{ route: '/audit', expect: ['login', 403, OK, OK], request: () => ({ query: '?action=job.' }) },
 	{ route: '/limit-profiles', expect: ['login', OK, OK, OK] },
 	{ route: '/admin/users', expect: ['login', 403, 403, OK] },
 	{ route: '/admin/settings', expect: ['login', 403, 403, OK] }
@@ -141,6 +148,15 @@ const ACTIONS: ActionRow[] = [
 		action: 'status',
 		expect: ['login', OK, OK, OK],
 		request: (fx) => ({ ...job(fx), form: { status: 'diagnosing', note: 'Bench time' } })
+	},
+	{
+		route: '/jobs/[id]/review',
+		action: 'sign',
+		expect: ['login', 403, '→ /jobs/[id]', '→ /jobs/[id]'],
+		request: (fx) => ({
+			params: { id: String(fx.signOffJobId) },
+			form: { decision: 'approve', comment: 'Within limits', password: DEMO_PASSWORD }
+		})
 	},
 	{
 		route: '/jobs/[id]',
@@ -230,7 +246,9 @@ const ACTIONS: ActionRow[] = [
 				maxHeatsinkC: '70',
 				maxRiseCPerMin: '2',
 				maxDiffC: '10',
-				thdnCeilingDb: ''
+				thdnCeilingDb: '',
+				requireAfterSnapshotPass: 'on',
+				requirePassedSoak: 'on'
 			}
 		})
 	}

@@ -37,7 +37,13 @@ export async function callRoute(
 		body = JSON.stringify(opts.json);
 	} else if (opts.contentType && !(body instanceof FormData)) headers.set('content-type', opts.contentType);
 	const request = new Request(url, { method, headers, body });
-	const event = { request, url, params: opts.params, locals: { user: opts.user, session: null } };
+	const event = {
+		request,
+		url,
+		params: opts.params,
+		locals: { user: opts.user, session: null },
+		getClientAddress: () => '127.0.0.1'
+	};
 	try {
 		const res = await handler(event as never);
 		const isJson = (res.headers.get('content-type') ?? '').includes('json');

@@ -53,8 +53,9 @@ export const JOB_STATUS_LABELS: Record<JobStatus, string> = {
 	'awaiting-parts': 'Awaiting parts',
 	repairing: 'Repairing',
 	testing: 'Testing',
-	'awaiting-review': 'Awaiting review',
-	approved: 'Approved',
+	'awaiting-review': 'Awaiting sign-off',
+	// "Signed off", not "Approved": a customer's estimate approval is another thing.
+	approved: 'Signed off',
 	returned: 'Returned to customer',
 	'on-hold': 'On hold',
 	declined: 'Declined'

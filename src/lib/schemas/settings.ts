@@ -1,6 +1,10 @@
 // Shop settings: their zod schemas and defaults. Shared by the server (stored as JSON per
 // key) and the admin settings form.
 import { z } from 'zod';
+import { DEFAULT_SIGN_OFF_SETTINGS, signOffSettingsSchema } from './sign-off';
+
+export { DEFAULT_SIGN_OFF_SETTINGS, signOffSettingsSchema };
+export type { SignOffSettings } from './sign-off';
 
 export const soakLimitsSchema = z.object({
 	/** Heatsink temperature that stops a soak run. */
@@ -59,7 +63,9 @@ export const shopSettingsSchema = z.object({
 	/** Local mains frequency: where hum shows up in the spectrum. */
 	mainsHz: z.union([z.literal(50), z.literal(60)], 'Mains is 50 Hz or 60 Hz'),
 	soakDefaultLimits: soakLimitsSchema,
-	snapshotStorage: snapshotStorageSchema
+	snapshotStorage: snapshotStorageSchema,
+	/** What a supervisor's approval needs (after snapshot passing, passed soak, four-eyes). */
+	signOff: signOffSettingsSchema
 });
 export type ShopSettings = z.infer<typeof shopSettingsSchema>;
 
@@ -89,6 +95,7 @@ export const SETTINGS_KEYS = [
 	'bridgeUrl',
 	'mainsHz',
 	'soakDefaultLimits',
-	'snapshotStorage'
+	'snapshotStorage',
+	'signOff'
 ] as const;
 export type SettingsKey = (typeof SETTINGS_KEYS)[number];

@@ -683,6 +683,37 @@ export async function signIn(
 	};
 }
 
+// ── signature ───────────────────────────────────────────────────────────────
+
+export type ConfirmPasswordResult =
+	| { ok: true; user: SessionUser }
+	| { ok: false; reason: 'invalid' }
+	| { ok: false; reason: 'rate-limited'; retryAfterS: number };
+
+/**
+ * A signed-in user re-enters their password to sign (an electronic signature). A wrong password
+ * counts exactly like a failed sign-in for the same e-mail from the same address (the same
+ * waits, account ceiling and owner alert), so signing cannot be used to guess around sign-in.
+ */
+export async function confirmPassword(
+	db: Db,
+	input: { userId: string; password: string; ip: string }
+): Promise<ConfirmPasswordResult> {
+	const ctx = context(db);
+	const user = db.select().from(table.users).where(eq(table.users.id, input.userId)).get();
+	if (!user || !user.active) return { ok: false, reason: 'invalid' };
+	const accountKey = user.email.trim().toLowerCase();
+	const address = addressKey(input.ip || 'unknown');
+	const waitS = await signInWaitS(ctx, accountKey, address);
+	if (waitS > 0) return { ok: false, reason: 'rate-limited', retryAfterS: waitS };
+	if (!(await verifyPassword(user.passwordHash, input.password))) {
+		await recordSignInFailure(db, ctx, accountKey, address, user);
+		return { ok: false, reason: 'invalid' };
+	}
+	await ctx.pair.clear(`${accountKey} ${address}`);
+	return { ok: true, user: { id: user.id, email: user.email, name: user.name, role: user.role } };
+}
+
 // ── password change ─────────────────────────────────────────────────────────
 
 export type ChangePasswordResult =

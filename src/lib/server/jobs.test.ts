@@ -17,6 +17,8 @@ import {
 	deletePart,
 	getJob,
 	listJobs,
+	recordStatusChange,
+	SIGN_OFF_IS_THE_WAY,
 	reopenJob,
 	statusMoves,
 	updateJob,
@@ -244,12 +246,23 @@ describe('edits', () => {
 	});
 });
 
+/**
+ * Approve as a sign-off does (sign-off.test.ts covers the signature itself): the one move the
+ * status route refuses.
+ */
+function approve(db: Db, id: number, actorId: string, note: string | null = null) {
+	db.transaction((tx) =>
+		recordStatusChange(tx, id, { from: 'awaiting-review', to: 'approved', actorId, note })
+	);
+	return getJob(db, id)!;
+}
+
 describe('status changes', () => {
 	it('walks the path, recording who moved it from what to what', () => {
 		const job = createJob(db, intake(), 'tech');
 		for (const s of ['diagnosing', 'repairing', 'testing', 'awaiting-review'] as const)
 			changeStatus(db, job.id, { status: s }, TECH);
-		const approved = changeStatus(db, job.id, { status: 'approved', note: 'Figures within limits' }, SUP);
+		const approved = approve(db, job.id, 'sup', 'Figures within limits');
 		expect(approved.status).toBe('approved');
 		expect(approved.history.map((h) => [h.fromStatus, h.toStatus, h.userName])).toEqual([
 			[null, 'received', 'Tamsin Oakridge'],
@@ -263,14 +276,16 @@ describe('status changes', () => {
 		expect(changeStatus(db, job.id, { status: 'returned' }, TECH).status).toBe('returned');
 	});
 
-	it('lets only supervisors and admins approve (403), writing nothing for a refusal', () => {
+	it('never approves through a status move: 403 for a technician, 409 (sign-off is the way) for others', () => {
 		const job = createJob(db, intake(), 'tech');
 		for (const s of ['diagnosing', 'repairing', 'testing', 'awaiting-review'] as const)
 			changeStatus(db, job.id, { status: s }, TECH);
 		expect(statusOf(() => changeStatus(db, job.id, { status: 'approved' }, TECH))).toBe(403);
+		for (const actor of [SUP, ADMIN]) {
+			expect(() => changeStatus(db, job.id, { status: 'approved' }, actor)).toThrow(SIGN_OFF_IS_THE_WAY);
+		}
 		expect(getJob(db, job.id)!.status).toBe('awaiting-review');
 		expect(getJob(db, job.id)!.history).toHaveLength(5);
-		expect(changeStatus(db, job.id, { status: 'approved' }, ADMIN).status).toBe('approved');
 	});
 
 	it('refuses moves the path does not allow (409)', () => {
@@ -322,7 +337,7 @@ describe('the sign-off lock', () => {
 		const part = addPart(db, job.id, partSchema.parse({ refDes: 'C1', description: 'Filter cap' }));
 		for (const s of ['diagnosing', 'repairing', 'testing', 'awaiting-review'] as const)
 			changeStatus(db, job.id, { status: s }, TECH);
-		changeStatus(db, job.id, { status: 'approved', note: 'Signed off' }, SUP);
+		approve(db, job.id, 'sup', 'Signed off');
 		return { id: job.id, partId: part.id };
 	}
 
@@ -367,13 +382,19 @@ describe('the sign-off lock', () => {
 		expect(refusal(() => changeStatus(db, id, { status: 'on-hold' }, ADMIN))).toEqual(LOCKED);
 	});
 
-	it('offers only the moves the lock allows', () => {
+	it('offers only the moves the lock allows, and never approval (the review page signs)', () => {
 		for (const role of ['technician', 'supervisor', 'admin'] as const) {
 			expect(statusMoves('approved', role)).toEqual(['returned']);
 			expect(statusMoves('returned', role)).toEqual([]);
 			for (const s of JOB_STATUSES.filter((x) => x !== 'approved' && x !== 'returned'))
-				expect(statusMoves(s, role)).toEqual(allowedNextStatuses(s, role));
+				expect(statusMoves(s, role)).toEqual(allowedNextStatuses(s, role).filter((x) => x !== 'approved'));
 		}
+		expect(statusMoves('awaiting-review', 'supervisor')).toEqual([
+			'repairing',
+			'testing',
+			'on-hold',
+			'declined'
+		]);
 	});
 
 	it('lets only a supervisor or admin reopen, with a reason of 3–500 characters, recorded in the history', () => {

@@ -11,6 +11,7 @@ import type { JobStatus, PartState, Role, UnitCategory } from './db/schema';
 import { badRequest } from './api';
 import { DomainError } from './errors';
 import { validate } from './validate';
+import { audit, changes as diff } from './audit';
 import { reopenSchema, type ReopenInput } from '../schemas/job-lock';
 import {
 	JOB_STATUSES,
@@ -161,6 +162,37 @@ function checkTechnician(db: Conn, technicianId: string | null): void {
 	}
 }
 
+/**
+ * Move a job from `from` to `to` inside `tx`: the job row, its history row and the audit entry
+ * together. The status route and the sign-off service both go through here.
+ */
+export function recordStatusChange(
+	tx: Conn,
+	jobId: number,
+	move: { from: JobStatus; to: JobStatus; actorId: string | null; note: string | null; at?: Date }
+): void {
+	const now = move.at ?? new Date();
+	tx.update(table.jobs).set({ status: move.to, updatedAt: now }).where(eq(table.jobs.id, jobId)).run();
+	tx.insert(table.jobStatusHistory)
+		.values({
+			jobId,
+			userId: move.actorId,
+			fromStatus: move.from,
+			toStatus: move.to,
+			note: move.note,
+			createdAt: now
+		})
+		.run();
+	audit(tx, {
+		actorId: move.actorId,
+		action: 'job.status-changed',
+		jobId,
+		subject: `job #${jobId}`,
+		detail: { from: move.from, to: move.to, note: move.note },
+		at: now
+	});
+}
+
 // ── sign-off lock ───────────────────────────────────────────────────────────
 
 /** Statuses that mean the job is signed off: its record is locked until a supervisor reopens it. */
@@ -196,9 +228,12 @@ export function assertJobOpen(db: Conn, jobId: number): table.Job {
 	return job;
 }
 
-/** The statuses `role` may move a job to from `from`, with the lock applied (what the UI offers). */
+/**
+ * The statuses `role` may move a job to from `from`, with the lock applied (what the UI offers).
+ * Never `approved`: a job is approved only by a signature (the review page).
+ */
 export function statusMoves(from: JobStatus, role: Role): JobStatus[] {
-	const moves = allowedNextStatuses(from, role);
+	const moves = allowedNextStatuses(from, role).filter((s) => s !== 'approved');
 	return isLockedStatus(from) ? moves.filter((s) => LOCKED_MOVES[from]?.includes(s)) : moves;
 }
 
@@ -227,8 +262,47 @@ export function reopenJob(db: Db, id: number, input: ReopenInput, actor: Actor):
 				createdAt: now
 			})
 			.run();
+		audit(tx, {
+			actorId: actor.id,
+			action: 'job.reopened',
+			jobId: id,
+			subject: `job #${id}`,
+			detail: { from: job.status, to, reason: data.reason },
+			at: now
+		});
+		// The sign-off stays in the record; a supersession row says it no longer stands.
+		supersedeSignOffs(tx, id, actor.id, data.reason, now);
 	});
 	return getJob(db, id)!;
+}
+
+/** Mark every standing approval of the job superseded (sign-offs themselves never change). */
+function supersedeSignOffs(tx: Conn, jobId: number, actorId: string, reason: string, at: Date): void {
+	const standing = tx
+		.select({ id: table.signOffs.id })
+		.from(table.signOffs)
+		.leftJoin(table.signOffSupersessions, eq(table.signOffSupersessions.signOffId, table.signOffs.id))
+		.where(
+			and(
+				eq(table.signOffs.jobId, jobId),
+				eq(table.signOffs.decision, 'approve'),
+				isNull(table.signOffSupersessions.signOffId)
+			)
+		)
+		.all();
+	for (const { id } of standing) {
+		tx.insert(table.signOffSupersessions)
+			.values({ signOffId: id, supersededAt: at, supersededBy: actorId, reason })
+			.run();
+		audit(tx, {
+			actorId,
+			action: 'sign-off.superseded',
+			jobId,
+			subject: `sign-off #${id} of job #${jobId}`,
+			detail: { signOffId: id, reason },
+			at
+		});
+	}
 }
 
 // ── list ────────────────────────────────────────────────────────────────────
@@ -571,16 +645,24 @@ export function createJob(db: Db, input: JobIntake, userId: string): JobDetail {
 				createdAt: now
 			})
 			.run();
+		audit(tx, {
+			actorId: userId,
+			action: 'job.created',
+			jobId: job.id,
+			subject: `job #${job.id}`,
+			detail: { make: data.make, model: data.model, customerId },
+			at: now
+		});
 		return job.id;
 	});
 	return getJob(db, id)!;
 }
 
 /** Edit unit details, complaint, assignment or promised date (not the status). */
-export function updateJob(db: Db, id: number, patch: JobPatch): JobDetail {
+export function updateJob(db: Db, id: number, patch: JobPatch, actorId: string | null = null): JobDetail {
 	const data = validate(jobPatchSchema, patch);
 	db.transaction((tx) => {
-		assertJobOpen(tx, id);
+		const before = assertJobOpen(tx, id);
 		const changes: Partial<typeof table.jobs.$inferInsert> = { updatedAt: new Date() };
 		if (data.category !== undefined) changes.category = data.category;
 		if (data.make !== undefined) changes.make = data.make;
@@ -596,17 +678,27 @@ export function updateJob(db: Db, id: number, patch: JobPatch): JobDetail {
 			checkTechnician(tx, changes.technicianId);
 		}
 		tx.update(table.jobs).set(changes).where(eq(table.jobs.id, id)).run();
+		const edited = { ...changes };
+		delete edited.updatedAt;
+		const changed = diff(before, edited);
+		if (Object.keys(changed).length)
+			audit(tx, { actorId, action: 'job.updated', jobId: id, subject: `job #${id}`, detail: changed });
 	});
 	return getJob(db, id)!;
 }
 
 // ── status ──────────────────────────────────────────────────────────────────
 
+/** Why the status route will not approve: a signature with the password does. */
+export const SIGN_OFF_IS_THE_WAY =
+	'A job is signed off, not moved to approved: open “Review and sign off” (POST /api/jobs/{id}/sign-off) and sign with your password';
+
 /**
  * Move a job to another status. 403 when the role may not enter it (approval), 409 when
- * the move is not allowed from the current status or the job is signed off (an approved job
- * may only be returned; anything else needs `reopenJob`). The job and its history row are
- * written in one transaction.
+ * the move is not allowed from the current status, when it is `approved` (only a sign-off
+ * approves), or the job is signed off (an approved job may only be returned; anything else
+ * needs `reopenJob`). The job, its history row and the audit entry are written in one
+ * transaction.
  */
 export function changeStatus(db: Db, id: number, input: StatusChange, actor: Actor): JobDetail {
 	const data = validate(statusChangeSchema, input);
@@ -616,22 +708,17 @@ export function changeStatus(db: Db, id: number, input: StatusChange, actor: Act
 		if (isLockedStatus(job.status) && !LOCKED_MOVES[job.status]?.includes(data.status))
 			throw new DomainError('conflict', JOB_LOCKED_MESSAGE);
 		if (!roleMayEnter(data.status, actor.role))
-			throw new DomainError('forbidden', 'Only a supervisor or admin may approve a job');
+			throw new DomainError('forbidden', 'Only a supervisor or admin may sign a job off');
+		if (data.status === 'approved') throw new DomainError('conflict', SIGN_OFF_IS_THE_WAY);
 		if (!nextStatuses(job.status).includes(data.status)) {
 			throw new DomainError('conflict', `A job cannot move from ${job.status} to ${data.status}`);
 		}
-		const now = new Date();
-		tx.update(table.jobs).set({ status: data.status, updatedAt: now }).where(eq(table.jobs.id, id)).run();
-		tx.insert(table.jobStatusHistory)
-			.values({
-				jobId: id,
-				userId: actor.id,
-				fromStatus: job.status,
-				toStatus: data.status,
-				note: blank(data.note),
-				createdAt: now
-			})
-			.run();
+		recordStatusChange(tx, id, {
+			from: job.status,
+			to: data.status,
+			actorId: actor.id,
+			note: blank(data.note)
+		});
 	});
 	return getJob(db, id)!;
 }
@@ -649,6 +736,14 @@ export function addLogEntry(db: Db, jobId: number, input: LogEntryInput, authorI
 			.returning()
 			.get();
 		tx.update(table.jobs).set({ updatedAt: now }).where(eq(table.jobs.id, jobId)).run();
+		audit(tx, {
+			actorId: authorId,
+			action: 'log.added',
+			jobId,
+			subject: `job #${jobId}`,
+			detail: { entryId: entry.id, text: data.text, minutes: data.minutes },
+			at: now
+		});
 		const author = tx
 			.select({ name: table.users.name })
 			.from(table.users)
@@ -667,7 +762,7 @@ export function addLogEntry(db: Db, jobId: number, input: LogEntryInput, authorI
 
 // ── parts ───────────────────────────────────────────────────────────────────
 
-export function addPart(db: Db, jobId: number, input: PartInput): PartItem {
+export function addPart(db: Db, jobId: number, input: PartInput, actorId: string | null = null): PartItem {
 	const data = validate(partSchema, input);
 	return db.transaction((tx) => {
 		assertJobOpen(tx, jobId);
@@ -690,8 +785,30 @@ export function addPart(db: Db, jobId: number, input: PartInput): PartItem {
 			.returning()
 			.get();
 		touchJob(tx, jobId, now);
-		return toPartItem(part);
+		const item = toPartItem(part);
+		audit(tx, {
+			actorId,
+			action: 'part.added',
+			jobId,
+			subject: `part ${part.refDes} on job #${jobId}`,
+			detail: partFacts(item),
+			at: now
+		});
+		return item;
 	});
+}
+
+/** The facts of a part worth keeping in the trail. */
+function partFacts(p: PartItem) {
+	return {
+		partId: p.id,
+		refDes: p.refDes,
+		description: p.description,
+		value: p.value,
+		quantity: p.quantity,
+		unitCostCents: p.unitCostCents,
+		state: p.state
+	};
 }
 
 /** A part of an open job (404 for another job's part, 409 when the job is signed off). */
@@ -706,10 +823,16 @@ function requirePart(db: Conn, jobId: number, partId: number): table.Part {
 	return part;
 }
 
-export function updatePart(db: Db, jobId: number, partId: number, patch: PartPatch): PartItem {
+export function updatePart(
+	db: Db,
+	jobId: number,
+	partId: number,
+	patch: PartPatch,
+	actorId: string | null = null
+): PartItem {
 	const data = validate(partPatchSchema, patch);
 	return db.transaction((tx) => {
-		requirePart(tx, jobId, partId);
+		const before = requirePart(tx, jobId, partId);
 		const now = new Date();
 		const changes: Partial<typeof table.parts.$inferInsert> = { updatedAt: now };
 		if (data.refDes !== undefined) changes.refDes = data.refDes;
@@ -722,15 +845,32 @@ export function updatePart(db: Db, jobId: number, partId: number, patch: PartPat
 		if (data.verificationNote !== undefined) changes.verificationNote = blank(data.verificationNote);
 		const part = tx.update(table.parts).set(changes).where(eq(table.parts.id, partId)).returning().get();
 		touchJob(tx, jobId, now);
+		const edited = { ...changes };
+		delete edited.updatedAt;
+		audit(tx, {
+			actorId,
+			action: 'part.updated',
+			jobId,
+			subject: `part ${part.refDes} on job #${jobId}`,
+			detail: { partId, ...diff(before, edited) },
+			at: now
+		});
 		return toPartItem(part);
 	});
 }
 
-export function deletePart(db: Db, jobId: number, partId: number): void {
+export function deletePart(db: Db, jobId: number, partId: number, actorId: string | null = null): void {
 	db.transaction((tx) => {
-		requirePart(tx, jobId, partId);
+		const part = requirePart(tx, jobId, partId);
 		tx.delete(table.parts).where(eq(table.parts.id, partId)).run();
 		touchJob(tx, jobId);
+		audit(tx, {
+			actorId,
+			action: 'part.removed',
+			jobId,
+			subject: `part ${part.refDes} on job #${jobId}`,
+			detail: partFacts(toPartItem(part))
+		});
 	});
 }
 

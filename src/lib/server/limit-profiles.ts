@@ -14,6 +14,7 @@ import {
 } from '../limit-profiles';
 import { z } from 'zod';
 import { DomainError } from './errors';
+import { audit, changes } from './audit';
 
 type Row = typeof table.limitProfiles.$inferSelect;
 
@@ -57,21 +58,34 @@ export function createLimitProfile(db: Db, input: ProfileInputRaw, userId: strin
 	const data = profileInputSchema.parse(input);
 	if (nameTaken(db, data.name))
 		throw new DomainError('conflict', `A profile named “${data.name}” already exists`);
-	const row = db
-		.insert(table.limitProfiles)
-		.values({
-			name: data.name,
-			description: data.description ?? null,
-			conditions: data.conditions,
-			limits: data.limits,
-			createdBy: userId
-		})
-		.returning()
-		.get();
-	return view(row);
+	return db.transaction((tx) => {
+		const row = tx
+			.insert(table.limitProfiles)
+			.values({
+				name: data.name,
+				description: data.description ?? null,
+				conditions: data.conditions,
+				limits: data.limits,
+				createdBy: userId
+			})
+			.returning()
+			.get();
+		audit(tx, {
+			actorId: userId,
+			action: 'limit-profile.created',
+			subject: `limit profile “${row.name}”`,
+			detail: { profileId: row.id, conditions: row.conditions, limits: row.limits }
+		});
+		return view(row);
+	});
 }
 
-export function updateLimitProfile(db: Db, id: number, patch: ProfilePatch): LimitProfileView {
+export function updateLimitProfile(
+	db: Db,
+	id: number,
+	patch: ProfilePatch,
+	actorId: string | null = null
+): LimitProfileView {
 	return db.transaction((tx) => {
 		const existing = tx.select().from(table.limitProfiles).where(eq(table.limitProfiles.id, id)).get();
 		if (!existing) throw new DomainError('not-found', 'No such limit profile');
@@ -91,6 +105,20 @@ export function updateLimitProfile(db: Db, id: number, patch: ProfilePatch): Lim
 			.where(eq(table.limitProfiles.id, id))
 			.returning()
 			.get();
+		const changed = changes(existing, {
+			name: row.name,
+			description: row.description,
+			conditions: row.conditions,
+			limits: row.limits,
+			archived: row.archived
+		});
+		if (Object.keys(changed).length)
+			audit(tx, {
+				actorId,
+				action: 'limit-profile.updated',
+				subject: `limit profile “${row.name}”`,
+				detail: { profileId: id, ...changed }
+			});
 		return view(row);
 	});
 }
@@ -99,7 +127,11 @@ export function updateLimitProfile(db: Db, id: number, patch: ProfilePatch): Lim
  * Delete a profile nobody has used; archive one that snapshots refer to (they keep their own
  * copy of the profile, but the foreign key and the audit trail need the row).
  */
-export function deleteLimitProfile(db: Db, id: number): { outcome: 'deleted' | 'archived' } {
+export function deleteLimitProfile(
+	db: Db,
+	id: number,
+	actorId: string | null = null
+): { outcome: 'deleted' | 'archived' } {
 	return db.transaction((tx) => {
 		const existing = tx.select().from(table.limitProfiles).where(eq(table.limitProfiles.id, id)).get();
 		if (!existing) throw new DomainError('not-found', 'No such limit profile');
@@ -114,9 +146,21 @@ export function deleteLimitProfile(db: Db, id: number): { outcome: 'deleted' | '
 				.set({ archived: true, updatedAt: new Date() })
 				.where(eq(table.limitProfiles.id, id))
 				.run();
+			audit(tx, {
+				actorId,
+				action: 'limit-profile.archived',
+				subject: `limit profile “${existing.name}”`,
+				detail: { profileId: id, reason: 'snapshots refer to it' }
+			});
 			return { outcome: 'archived' as const };
 		}
 		tx.delete(table.limitProfiles).where(eq(table.limitProfiles.id, id)).run();
+		audit(tx, {
+			actorId,
+			action: 'limit-profile.deleted',
+			subject: `limit profile “${existing.name}”`,
+			detail: { profileId: id, conditions: existing.conditions, limits: existing.limits }
+		});
 		return { outcome: 'deleted' as const };
 	});
 }

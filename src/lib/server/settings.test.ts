@@ -29,7 +29,14 @@ describe('settings', () => {
 			mainsHz: 50,
 			// common practice for a consumer amplifier heat soak
 			soakDefaultLimits: { maxHeatsinkC: 70, maxRiseCPerMin: 8, maxDiffC: 10, thdnCeilingDb: -26 },
-			snapshotStorage: { perJobMiB: 500, perShopGiB: 20 }
+			snapshotStorage: { perJobMiB: 500, perShopGiB: 20 },
+			// A shop starts strict: proof required, simulated soaks not proof, four eyes.
+			signOff: {
+				requireAfterSnapshotPass: true,
+				requirePassedSoak: true,
+				countAcceleratedSoak: false,
+				allowSelfSignOff: false
+			}
 		});
 	});
 

@@ -5,8 +5,10 @@ import type { Db } from './db/open';
 import * as table from './db/schema';
 import { env } from './env';
 import { validate } from './validate';
+import { audit, changes } from './audit';
 import {
 	DEFAULT_SNAPSHOT_STORAGE,
+	DEFAULT_SIGN_OFF_SETTINGS,
 	DEFAULT_SOAK_LIMITS,
 	SETTINGS_KEYS,
 	settingsPatchSchema,
@@ -22,7 +24,8 @@ export function defaultSettings(): ShopSettings {
 		bridgeUrl: env.BRIDGE_URL,
 		mainsHz: 50,
 		soakDefaultLimits: { ...DEFAULT_SOAK_LIMITS },
-		snapshotStorage: { ...DEFAULT_SNAPSHOT_STORAGE }
+		snapshotStorage: { ...DEFAULT_SNAPSHOT_STORAGE },
+		signOff: { ...DEFAULT_SIGN_OFF_SETTINGS }
 	};
 }
 
@@ -46,11 +49,18 @@ export function getSetting<K extends SettingsKey>(db: Db, key: K): ShopSettings[
 	return getSettings(db)[key];
 }
 
-/** Store the given settings (validated; 400 on bad input) and answer the full set. */
-export function updateSettings(db: Db, patch: SettingsPatch): ShopSettings {
+/**
+ * Store the given settings (validated; 400 on bad input) and answer the full set. What changed
+ * goes into the audit trail in the same transaction (`actorId` null: the system, e.g. the seed).
+ */
+export function updateSettings(db: Db, patch: SettingsPatch, actorId: string | null = null): ShopSettings {
 	const data = validate(settingsPatchSchema, patch);
 	const now = new Date();
+	const before = getSettings(db);
 	db.transaction((tx) => {
+		const changed = changes(before, data);
+		if (Object.keys(changed).length)
+			audit(tx, { actorId, action: 'settings.changed', subject: 'shop settings', detail: changed, at: now });
 		for (const key of SETTINGS_KEYS) {
 			if (data[key] === undefined) continue;
 			tx.insert(table.settings)

@@ -10,6 +10,7 @@ import { assertStrongPassword, endUserSessions, hashPassword, setPassword } from
 import { userCreateSchema, userPatchSchema, type UserCreate, type UserPatch } from '../schemas/users';
 import { DomainError } from './errors';
 import { validate } from './validate';
+import { audit } from './audit';
 
 /** A user as the admin pages and API see them (never the password hash). */
 export interface UserSummary {
@@ -80,7 +81,11 @@ function emailTaken(db: Db, email: string): boolean {
 }
 
 /** Create an account (409 when the e-mail is in use). */
-export async function createUser(db: Db, input: UserCreate): Promise<UserSummary> {
+export async function createUser(
+	db: Db,
+	input: UserCreate,
+	actorId: string | null = null
+): Promise<UserSummary> {
 	const data = validate(userCreateSchema, input);
 	if (emailTaken(db, data.email))
 		throw new DomainError('conflict', 'That e-mail address already has an account');
@@ -89,17 +94,26 @@ export async function createUser(db: Db, input: UserCreate): Promise<UserSummary
 	const id = generateIdFromEntropySize(10);
 	const now = new Date();
 	try {
-		db.insert(table.users)
-			.values({
-				id,
-				email: data.email,
-				name: data.name,
-				role: data.role,
-				passwordHash,
-				createdAt: now,
-				updatedAt: now
-			})
-			.run();
+		db.transaction((tx) => {
+			tx.insert(table.users)
+				.values({
+					id,
+					email: data.email,
+					name: data.name,
+					role: data.role,
+					passwordHash,
+					createdAt: now,
+					updatedAt: now
+				})
+				.run();
+			audit(tx, {
+				actorId,
+				action: 'user.created',
+				subject: `user ${data.name}`,
+				detail: { userId: id, email: data.email, role: data.role },
+				at: now
+			});
+		});
 	} catch (e) {
 		// Two admins racing for the same e-mail: the unique index decides.
 		if (e instanceof Error && /UNIQUE/.test(e.message))
@@ -124,7 +138,12 @@ function activeAdminCount(db: Db): number {
  * bridge tokens are minted only for live sessions). The last active admin cannot be demoted or
  * deactivated (409), so the shop never locks itself out of user management.
  */
-export async function updateUser(db: Db, id: string, patch: UserPatch): Promise<UserSummary> {
+export async function updateUser(
+	db: Db,
+	id: string,
+	patch: UserPatch,
+	actorId: string | null = null
+): Promise<UserSummary> {
 	const data = validate(userPatchSchema, patch);
 	const current = db.select().from(table.users).where(eq(table.users.id, id)).get();
 	if (!current) throw new DomainError('not-found', 'No such user');
@@ -143,11 +162,24 @@ export async function updateUser(db: Db, id: string, patch: UserPatch): Promise<
 	if (data.name !== undefined) changes.name = data.name;
 	if (data.role !== undefined) changes.role = data.role;
 	if (data.active !== undefined) changes.active = data.active;
-	if (Object.keys(changes).length) {
-		changes.updatedAt = new Date();
-		db.update(table.users).set(changes).where(eq(table.users.id, id)).run();
-	}
 	const roleChanged = data.role !== undefined && data.role !== current.role;
+	const now = new Date();
+	const subject = `user ${data.name ?? current.name}`;
+	db.transaction((tx) => {
+		if (Object.keys(changes).length) {
+			changes.updatedAt = now;
+			tx.update(table.users).set(changes).where(eq(table.users.id, id)).run();
+		}
+		const entry = (action: Parameters<typeof audit>[1]['action'], detail: Record<string, unknown>) =>
+			audit(tx, { actorId, action, subject, detail: { userId: id, ...detail }, at: now });
+		if (data.name !== undefined && data.name !== current.name)
+			entry('user.updated', { name: { from: current.name, to: data.name } });
+		if (roleChanged) entry('user.role-changed', { role: { from: current.role, to: data.role } });
+		if (data.active !== undefined && data.active !== current.active)
+			entry(data.active ? 'user.reactivated' : 'user.deactivated', {});
+		// The password itself never goes into the trail; only that an admin set a new one.
+		if (data.password !== undefined) entry('user.password-reset', {});
+	});
 	if (data.active === false || roleChanged) await endUserSessions(db, id);
 	if (data.password !== undefined) await setPassword(db, id, data.password, null);
 	return getUser(db, id)!;

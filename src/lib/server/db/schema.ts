@@ -6,6 +6,7 @@ import { sqliteTable, text, integer, real, blob, index, primaryKey } from 'drizz
 // Roles, unit categories, job statuses and part states live in $lib/schemas/enums so the
 // browser can use them too (a relative import: drizzle-kit and scripts do not know `$lib`).
 import { ROLES, UNIT_CATEGORIES, JOB_STATUSES, PART_STATES } from '../../schemas/enums';
+import { SIGN_OFF_DECISIONS } from '../../schemas/sign-off';
 export { ROLES, UNIT_CATEGORIES, JOB_STATUSES, PART_STATES };
 export type { Role, UnitCategory, JobStatus, PartState } from '../../schemas/enums';
 
@@ -330,6 +331,86 @@ export const soakEvents = sqliteTable(
 	(t) => [index('soak_events_run_idx').on(t.runId)]
 );
 
+// ── audit and sign-off ──────────────────────────────────────────────────────
+
+/**
+ * Append-only record of who did what and when, written in the same transaction as the action.
+ * Triggers in the migration refuse UPDATE and DELETE. `action` is one of AUDIT_ACTIONS in
+ * $lib/schemas/audit; `subject` names the thing acted on ("job #12", "part C12", "user …").
+ */
+export const auditLog = sqliteTable(
+	'audit_log',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		at: integer('at', { mode: 'timestamp_ms' })
+			.notNull()
+			.default(sql`(unixepoch('subsec') * 1000)`),
+		/** Null for the system itself (seed, housekeeping). */
+		actorId: text('actor_id').references(() => users.id),
+		action: text('action').notNull(),
+		/** The job the action concerns, when it concerns one (no foreign key: the trail outlives nothing). */
+		jobId: integer('job_id'),
+		subject: text('subject').notNull(),
+		detail: text('detail', { mode: 'json' })
+	},
+	(t) => [
+		index('audit_log_at_idx').on(t.at),
+		index('audit_log_job_idx').on(t.jobId, t.at),
+		index('audit_log_actor_idx').on(t.actorId, t.at),
+		index('audit_log_action_idx').on(t.action, t.at)
+	]
+);
+
+export { SIGN_OFF_DECISIONS };
+export type SignOffDecision = (typeof SIGN_OFF_DECISIONS)[number];
+
+/**
+ * An electronic signature on a job: who (with the printed name as it was), when, what it means,
+ * the comment, and a SHA-256 over the canonical JSON of everything it covers (kept beside it).
+ * Immutable: triggers refuse UPDATE and DELETE; a reopening adds a row to sign_off_supersessions.
+ */
+export const signOffs = sqliteTable(
+	'sign_offs',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		jobId: integer('job_id')
+			.notNull()
+			.references(() => jobs.id),
+		signerId: text('signer_id')
+			.notNull()
+			.references(() => users.id),
+		/** The signer's name as printed at signing (a later rename does not change the record). */
+		signerName: text('signer_name').notNull(),
+		signerRole: text('signer_role', { enum: ROLES }).notNull(),
+		decision: text('decision', { enum: SIGN_OFF_DECISIONS }).notNull(),
+		/** "approved for return to the customer" or "sent back". */
+		meaning: text('meaning').notNull(),
+		comment: text('comment').notNull(),
+		signedAt: integer('signed_at', { mode: 'timestamp_ms' }).notNull(),
+		/** The requirement evaluation at signing (met and missing items). */
+		requirements: text('requirements', { mode: 'json' }).notNull(),
+		/** True when the signer captured the after snapshot and the shop setting allowed it. */
+		selfSignOff: integer('self_sign_off', { mode: 'boolean' }).notNull().default(false),
+		/** The canonical JSON (RFC 8785) of what the signature covers, exactly as hashed. */
+		covered: text('covered').notNull(),
+		/** SHA-256 (hex) of `covered`. */
+		sha256: text('sha256').notNull()
+	},
+	(t) => [index('sign_offs_job_idx').on(t.jobId, t.signedAt)]
+);
+
+/** A sign-off withdrawn by a reopening. Sign-offs are immutable, so supersession is its own row. */
+export const signOffSupersessions = sqliteTable('sign_off_supersessions', {
+	signOffId: integer('sign_off_id')
+		.primaryKey()
+		.references(() => signOffs.id),
+	supersededAt: integer('superseded_at', { mode: 'timestamp_ms' }).notNull(),
+	supersededBy: text('superseded_by')
+		.notNull()
+		.references(() => users.id),
+	reason: text('reason').notNull()
+});
+
 export type User = typeof users.$inferSelect;
 export type Session = typeof sessions.$inferSelect;
 export type Customer = typeof customers.$inferSelect;
@@ -343,3 +424,7 @@ export type Snapshot = typeof snapshots.$inferSelect;
 export type SoakRun = typeof soakRuns.$inferSelect;
 export type SoakReading = typeof soakReadings.$inferSelect;
 export type SoakEvent = typeof soakEvents.$inferSelect;
+
+export type AuditEntry = typeof auditLog.$inferSelect;
+export type SignOff = typeof signOffs.$inferSelect;
+export type SignOffSupersession = typeof signOffSupersessions.$inferSelect;

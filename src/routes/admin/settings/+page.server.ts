@@ -1,4 +1,5 @@
-// Admin: shop settings (name, bridge address, mains frequency, default soak limits, snapshot storage caps).
+// Admin: shop settings (name, bridge address, mains frequency, default soak limits, snapshot
+// storage caps, what a sign-off requires).
 import { fail } from '@sveltejs/kit';
 import { db } from '$lib/server/db';
 import { requireAdmin } from '$lib/server/guards';
@@ -13,9 +14,16 @@ export const load: PageServerLoad = pageLoad((event) => {
 	return { settings: getSettings(db) };
 });
 
+const SIGN_OFF_BOXES = [
+	'requireAfterSnapshotPass',
+	'requirePassedSoak',
+	'countAcceleratedSoak',
+	'allowSelfSignOff'
+] as const;
+
 export const actions: Actions = formActions({
 	default: async (event) => {
-		requireAdmin(event);
+		const admin = requireAdmin(event);
 		const form = await event.request.formData();
 		const names = [
 			'shopName',
@@ -29,6 +37,9 @@ export const actions: Actions = formActions({
 			'perShopGiB'
 		];
 		const values = Object.fromEntries(names.map((n) => [n, text(form, n)]));
+		// Checkboxes: present when ticked.
+		const ticked = (name: string) => form.get(name) !== null;
+		for (const n of SIGN_OFF_BOXES) values[n] = ticked(n) ? 'on' : '';
 		const thdn = number(form, 'thdnCeilingDb');
 		// Storage caps left out of a post keep what is stored (the form always sends them).
 		const storage = getSettings(db).snapshotStorage;
@@ -45,6 +56,12 @@ export const actions: Actions = formActions({
 			snapshotStorage: {
 				perJobMiB: form.has('perJobMiB') ? number(form, 'perJobMiB') : storage.perJobMiB,
 				perShopGiB: form.has('perShopGiB') ? number(form, 'perShopGiB') : storage.perShopGiB
+			},
+			signOff: {
+				requireAfterSnapshotPass: ticked('requireAfterSnapshotPass'),
+				requirePassedSoak: ticked('requirePassedSoak'),
+				countAcceleratedSoak: ticked('countAcceleratedSoak'),
+				allowSelfSignOff: ticked('allowSelfSignOff')
 			}
 		});
 		if (!parsed.success) {
@@ -56,7 +73,7 @@ export const actions: Actions = formActions({
 			}
 			return fail(400, { values, errors, ok: false });
 		}
-		updateSettings(db, parsed.data);
+		updateSettings(db, parsed.data, admin.id);
 		return { ok: true };
 	}
 });

@@ -21,13 +21,13 @@ function targetId(form: FormData): string | null {
 
 export const actions: Actions = formActions({
 	create: async (event) => {
-		requireAdmin(event);
+		const admin = requireAdmin(event);
 		const form = await event.request.formData();
 		const values = { email: text(form, 'email'), name: text(form, 'name'), role: text(form, 'role') };
 		const parsed = userCreateSchema.safeParse({ ...values, password: text(form, 'password') });
 		if (!parsed.success) return fail(400, { action: 'create', values, errors: fieldErrors(parsed.error) });
 		try {
-			await createUser(db, parsed.data);
+			await createUser(db, parsed.data, admin.id);
 		} catch (e) {
 			// Keep what was typed (but the password) when the service refuses, e.g. an e-mail in use.
 			if (!isDomainError(e)) throw e;
@@ -38,13 +38,13 @@ export const actions: Actions = formActions({
 	},
 
 	role: async (event) => {
-		requireAdmin(event);
+		const admin = requireAdmin(event);
 		const form = await event.request.formData();
 		const id = targetId(form);
 		if (!id) return fail(404, { action: 'role', message: 'No such user' });
 		const parsed = userPatchSchema.safeParse({ role: text(form, 'role') });
 		if (!parsed.success) return fail(400, { action: 'role', message: 'Choose a role' });
-		await updateUser(db, id, parsed.data);
+		await updateUser(db, id, parsed.data, admin.id);
 		return {
 			action: 'role',
 			ok: true,
@@ -60,7 +60,7 @@ export const actions: Actions = formActions({
 		const active = text(form, 'active') === 'true';
 		if (!active && id === me.id)
 			return fail(409, { action: 'active', message: 'You cannot deactivate your own account' });
-		await updateUser(db, id, { active });
+		await updateUser(db, id, { active }, me.id);
 		return {
 			action: 'active',
 			ok: true,

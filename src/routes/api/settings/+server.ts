@@ -13,7 +13,7 @@ export const GET: RequestHandler = endpoint((event) => {
 });
 
 export const PATCH: RequestHandler = endpoint(async (event) => {
-	requireAdmin(event);
+	const admin = requireAdmin(event);
 	const patch = await readJson(event, settingsPatchSchema);
-	return json(updateSettings(db, patch));
+	return json(updateSettings(db, patch, admin.id));
 });

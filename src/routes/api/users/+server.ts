@@ -12,7 +12,7 @@ export const GET: RequestHandler = endpoint((event) => {
 });
 
 export const POST: RequestHandler = endpoint(async (event) => {
-	requireAdmin(event);
+	const admin = requireAdmin(event);
 	const input = await readJson(event, userCreateSchema);
-	return json(await createUser(db, input), { status: 201 });
+	return json(await createUser(db, input, admin.id), { status: 201 });
 });

@@ -20,12 +20,21 @@ import {
 	updatePart
 } from '$lib/server/jobs';
 import { listAssignableUsers } from '$lib/server/users';
+import { listAudit } from '$lib/server/audit';
+import { listSignOffs, standingSignOff } from '$lib/server/sign-off';
 import { reopenSchema } from '$lib/schemas/job-lock';
 import { logEntrySchema, partSchema, PART_STATES, statusChangeSchema } from '$lib/schemas/jobs';
 import { fieldErrors, number, optionalText, text } from '$lib/forms';
 import { parseMoneyToCents } from '$lib/format';
 import { pageLoad, formActions } from '$lib/server/handlers';
 import type { Actions, PageServerLoad } from './$types';
+
+/** The job's own audit trail is shown a page at a time (`?trail=2`). */
+const TRAIL_PAGE_SIZE = 20;
+function trailPage(url: URL): number {
+	const n = Number(url.searchParams.get('trail') ?? '1');
+	return Number.isSafeInteger(n) && n >= 1 && n <= 100_000 ? n : 1;
+}
 
 export const load: PageServerLoad = pageLoad((event) => {
 	const user = requireUser(event);
@@ -38,7 +47,12 @@ export const load: PageServerLoad = pageLoad((event) => {
 		locked: isLockedStatus(job.status),
 		canReopen: isLockedStatus(job.status) && (user.role === 'supervisor' || user.role === 'admin'),
 		technicians: listAssignableUsers(db),
-		me: user
+		me: user,
+		// Sign-off: the standing approval with its hash recomputed now, and every signature.
+		standingSignOff: standingSignOff(db, id),
+		signOffs: listSignOffs(db, id),
+		canSignOff: job.status === 'awaiting-review' && (user.role === 'supervisor' || user.role === 'admin'),
+		trail: listAudit(db, { job: id, page: trailPage(event.url), pageSize: TRAIL_PAGE_SIZE })
 	};
 });
 
@@ -80,10 +94,10 @@ export const actions: Actions = formActions({
 	},
 
 	assign: async (event) => {
-		requireUser(event);
+		const user = requireUser(event);
 		const id = idParam(event.params.id, 'job');
 		const form = await event.request.formData();
-		updateJob(db, id, { technicianId: optionalText(form, 'technicianId') });
+		updateJob(db, id, { technicianId: optionalText(form, 'technicianId') }, user.id);
 		return { action: 'assign', ok: true };
 	},
 
@@ -99,7 +113,7 @@ export const actions: Actions = formActions({
 	},
 
 	addPart: async (event) => {
-		requireUser(event);
+		const user = requireUser(event);
 		const id = idParam(event.params.id, 'job');
 		const form = await event.request.formData();
 		const names = [
@@ -130,12 +144,12 @@ export const actions: Actions = formActions({
 		if (unitCostCents === null) errors.unitCost = ['Enter an amount like 12.50'];
 		if (errors.unitCostCents) errors.unitCost = errors.unitCostCents;
 		if (!parsed.success || unitCostCents === null) return fail(400, { action: 'addPart', values, errors });
-		addPart(db, id, parsed.data);
+		addPart(db, id, parsed.data, user.id);
 		return { action: 'addPart', ok: true };
 	},
 
 	partState: async (event) => {
-		requireUser(event);
+		const user = requireUser(event);
 		const id = idParam(event.params.id, 'job');
 		const form = await event.request.formData();
 		const partId = partIdFrom(form);
@@ -143,17 +157,17 @@ export const actions: Actions = formActions({
 		if (!partId) return fail(404, { action: 'partState', message: 'No such part on this job' });
 		if (!(PART_STATES as readonly string[]).includes(state))
 			return fail(400, { action: 'partState', message: 'Choose ordered, received or fitted' });
-		updatePart(db, id, partId, { state: state as (typeof PART_STATES)[number] });
+		updatePart(db, id, partId, { state: state as (typeof PART_STATES)[number] }, user.id);
 		return { action: 'partState', ok: true };
 	},
 
 	deletePart: async (event) => {
-		requireUser(event);
+		const user = requireUser(event);
 		const id = idParam(event.params.id, 'job');
 		const form = await event.request.formData();
 		const partId = partIdFrom(form);
 		if (!partId) return fail(404, { action: 'deletePart', message: 'No such part on this job' });
-		deletePart(db, id, partId);
+		deletePart(db, id, partId, user.id);
 		return { action: 'deletePart', ok: true };
 	}
 });

@@ -15,8 +15,8 @@ export const GET: RequestHandler = endpoint((event) => {
 });
 
 export const PATCH: RequestHandler = endpoint(async (event) => {
-	requireUser(event);
+	const user = requireUser(event);
 	const id = idParam(event.params.id, 'job');
 	const patch = await readJson(event, jobPatchSchema);
-	return json(updateJob(db, id, patch));
+	return json(updateJob(db, id, patch, user.id));
 });

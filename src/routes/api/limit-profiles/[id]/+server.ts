@@ -16,15 +16,15 @@ export const GET: RequestHandler = endpoint((event) => {
 });
 
 export const PATCH: RequestHandler = endpoint(async (event) => {
-	requireSupervisor(event);
+	const user = requireSupervisor(event);
 	const id = idParam(event.params.id, 'limit profile');
 	const patch = await readJson(event, profilePatchSchema);
-	return json(updateLimitProfile(db, id, patch));
+	return json(updateLimitProfile(db, id, patch, user.id));
 });
 
 export const DELETE: RequestHandler = endpoint((event) => {
-	requireSupervisor(event);
+	const user = requireSupervisor(event);
 	requireSameOrigin(event);
 	const id = idParam(event.params.id, 'limit profile');
-	return json(deleteLimitProfile(db, id));
+	return json(deleteLimitProfile(db, id, user.id));
 });

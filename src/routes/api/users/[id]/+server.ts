@@ -15,5 +15,5 @@ export const PATCH: RequestHandler = endpoint(async (event) => {
 	const patch = await readJson(event, userPatchSchema);
 	if (id === admin.id && patch.active === false)
 		throw new DomainError('conflict', 'You cannot deactivate your own account');
-	return json(await updateUser(db, id, patch));
+	return json(await updateUser(db, id, patch, admin.id));
 });

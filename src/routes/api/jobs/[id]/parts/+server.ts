@@ -7,8 +7,8 @@ import { partSchema } from '$lib/schemas/jobs';
 import type { RequestHandler } from './$types';
 
 export const POST: RequestHandler = endpoint(async (event) => {
-	requireUser(event);
+	const user = requireUser(event);
 	const id = idParam(event.params.id, 'job');
 	const input = await readJson(event, partSchema);
-	return json(addPart(db, id, input), { status: 201 });
+	return json(addPart(db, id, input, user.id), { status: 201 });
 });

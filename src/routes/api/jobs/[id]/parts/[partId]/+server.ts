@@ -7,16 +7,16 @@ import { partPatchSchema } from '$lib/schemas/jobs';
 import type { RequestHandler } from './$types';
 
 export const PATCH: RequestHandler = endpoint(async (event) => {
-	requireUser(event);
+	const user = requireUser(event);
 	const jobId = idParam(event.params.id, 'job');
 	const partId = idParam(event.params.partId, 'part');
 	const patch = await readJson(event, partPatchSchema);
-	return json(updatePart(db, jobId, partId, patch));
+	return json(updatePart(db, jobId, partId, patch, user.id));
 });
 
 export const DELETE: RequestHandler = endpoint((event) => {
-	requireUser(event);
+	const user = requireUser(event);
 	requireSameOrigin(event);
-	deletePart(db, idParam(event.params.id, 'job'), idParam(event.params.partId, 'part'));
+	deletePart(db, idParam(event.params.id, 'job'), idParam(event.params.partId, 'part'), user.id);
 	return new Response(null, { status: 204 });
 });
