@@ -163,7 +163,8 @@ function parseCli(argv: string[]): Cli {
 	options.expectedFrequencyHz = positiveNumber('expect-hz', values['expect-hz']);
 	if (values['tone-margin'] !== undefined) {
 		const m = Number(values['tone-margin']);
-		if (!Number.isFinite(m)) usageError(`--tone-margin must be a number of dB, got "${values['tone-margin']}"`);
+		if (!Number.isFinite(m))
+			usageError(`--tone-margin must be a number of dB, got "${values['tone-margin']}"`);
 		options.toneMarginDb = m;
 	}
 	const snRef = positiveNumber('sn-ref', values['sn-ref']);
@@ -234,10 +235,7 @@ function table(file: string, wav: ReturnType<typeof decodeWav>, result: Analysis
 		['ENOB', 'bits', (r) => fmt(r.enob, 2)]
 	);
 	if (c.snReference)
-		rows.push(
-			['S/N', 'dB', (r) => fmt(r.snDb, 1)],
-			['S/N (A)', 'dB', (r) => fmt(r.snWeightedDb, 1)]
-		);
+		rows.push(['S/N', 'dB', (r) => fmt(r.snDb, 1)], ['S/N (A)', 'dB', (r) => fmt(r.snWeightedDb, 1)]);
 	rows.push(['DC', 'V', (r) => r.dcVolts.toPrecision(3)]);
 	const orders = new Set<number>();
 	for (const r of chs) for (const h of r.harmonics) orders.add(h.order);
@@ -252,10 +250,7 @@ function table(file: string, wav: ReturnType<typeof decodeWav>, result: Analysis
 			(r) => prec(r.hum.find((h) => h.order === order)?.levelVrms, 3)
 		]);
 	if (chs.some((r) => r.imd))
-		rows.push(
-			['IMD', '%', (r) => prec(r.imd?.imdPercent, 3)],
-			['IMD', 'dB', (r) => fmt(r.imd?.imdDb, 1)]
-		);
+		rows.push(['IMD', '%', (r) => prec(r.imd?.imdPercent, 3)], ['IMD', 'dB', (r) => fmt(r.imd?.imdDb, 1)]);
 
 	const labelW = 16;
 	const unitW = 7;

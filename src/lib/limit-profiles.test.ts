@@ -210,13 +210,19 @@ describe('limits on figures that need no tone', () => {
 	});
 	it('DC offset is not a reading from an AC-coupled input', () => {
 		const m = measurementsFromResults([base], {}, [], 'none');
-		const [c] = evaluateLimits([{ metric: 'dcOffsetV', channel: 'left', op: 'le', value: 50, unit: 'mV' }], m);
+		const [c] = evaluateLimits(
+			[{ metric: 'dcOffsetV', channel: 'left', op: 'le', value: 50, unit: 'mV' }],
+			m
+		);
 		expect(c.pass).toBe(false);
 		expect(c.measured).toBeNull();
 	});
 	it('IMD limits read the IMD result', () => {
 		const m = measurementsFromResults([{ ...base, imd: { imdPercent: 0.02, imdDb: -74 } }], {}, [], 'none');
-		const [c] = evaluateLimits([{ metric: 'imdPercent', channel: 'left', op: 'le', value: 0.05, unit: '%' }], m);
+		const [c] = evaluateLimits(
+			[{ metric: 'imdPercent', channel: 'left', op: 'le', value: 0.05, unit: '%' }],
+			m
+		);
 		expect(c.pass).toBe(true);
 	});
 });

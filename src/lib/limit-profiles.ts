@@ -3,6 +3,7 @@
 // stored snapshots) and the bench page (live pass/fail), so both judge the same way.
 import { z } from 'zod';
 import { hzLabel } from './measure-format';
+import { stimulusSchema } from './dsp/schema';
 
 // ── metrics and units ───────────────────────────────────────────────────────
 
@@ -197,7 +198,9 @@ export const conditionsSchema = z
 		 * What the technician sets up before capturing (drive level, control positions, which
 		 * input is terminated): shown on the bench above Capture, never judged as a limit.
 		 */
-		setup: z.string().trim().max(1000).optional()
+		setup: z.string().trim().max(1000).optional(),
+		/** A profile that only makes sense with one stimulus fixes it (residual noise: none). */
+		stimulus: stimulusSchema.optional()
 	})
 	.refine((c) => c.bandHighHz > c.bandLowHz, {
 		message: 'The band’s upper edge must be above its lower edge',

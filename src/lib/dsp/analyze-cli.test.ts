@@ -176,7 +176,16 @@ describe('scripts/analyze.ts', () => {
 			}
 			const hum = join(dir, 'hum-hiss.wav');
 			writeFileSync(hum, encodeWav([x], rate));
-			const r = analyze([hum, '--json', '--stimulus', 'none', '--mains', '50', '--full-scale-volts', String(fs)]);
+			const r = analyze([
+				hum,
+				'--json',
+				'--stimulus',
+				'none',
+				'--mains',
+				'50',
+				'--full-scale-volts',
+				String(fs)
+			]);
 			expect(r.stderr).toBe('');
 			expect(r.status).toBe(0);
 			const doc = JSON.parse(r.stdout) as {

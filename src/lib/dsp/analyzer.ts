@@ -138,12 +138,15 @@ function resolveConditions(sampleRateHz: number, options: AnalysisOptions): Reso
 	if (!['tone', 'none', 'smpte', 'twin-tone'].includes(stimulus))
 		throw new RangeError(`unknown stimulus "${stimulus}" (allowed: tone, none, smpte, twin-tone)`);
 	const mainsHz = options.mainsHz ?? 50;
-	if (mainsHz !== 50 && mainsHz !== 60) throw new RangeError(`mains frequency must be 50 or 60 Hz, got ${mainsHz}`);
+	if (mainsHz !== 50 && mainsHz !== 60)
+		throw new RangeError(`mains frequency must be 50 or 60 Hz, got ${mainsHz}`);
 	const ref = options.snReference;
 	return {
 		stimulus,
 		mainsHz,
-		toneMarginDb: Number.isFinite(options.toneMarginDb) ? (options.toneMarginDb as number) : DEFAULT_TONE_MARGIN_DB,
+		toneMarginDb: Number.isFinite(options.toneMarginDb)
+			? (options.toneMarginDb as number)
+			: DEFAULT_TONE_MARGIN_DB,
 		expectedFrequencyHz:
 			options.expectedFrequencyHz && options.expectedFrequencyHz > 0 ? options.expectedFrequencyHz : null,
 		imdF1Hz: options.imdF1Hz && options.imdF1Hz > 0 ? options.imdF1Hz : null,
@@ -773,7 +776,10 @@ export class Analyzer {
 		cur[V_MNU] = 0;
 
 		// DC (and, with no stimulus, the hum series jointly with it: their lobes may overlap DC's).
-		const top = Math.min(half, reach + 1 + (c.stimulus === 'none' ? Math.ceil(((HUM_ORDERS * c.mainsHz) / this.binHz) + reach) : 0));
+		const top = Math.min(
+			half,
+			reach + 1 + (c.stimulus === 'none' ? Math.ceil((HUM_ORDERS * c.mainsHz) / this.binHz + reach) : 0)
+		);
 		for (let j = 0; j <= top; j++) {
 			resid[2 * j] = spec[2 * j];
 			resid[2 * j + 1] = spec[2 * j + 1];

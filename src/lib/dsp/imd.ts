@@ -156,7 +156,8 @@ export function imdOnSpectrum(
 	}
 	const f1n = f1Hz ?? 19000;
 	const f2n = f2Hz ?? 20000;
-	if (Math.max(f1n, f2n) >= (n / 2) * binHz) throw new RangeError(`the ${Math.max(f1n, f2n)} Hz tone is above Nyquist`);
+	if (Math.max(f1n, f2n) >= (n / 2) * binHz)
+		throw new RangeError(`the ${Math.max(f1n, f2n)} Hz tone is above Nyquist`);
 	checkSpacing(n, binHz, Math.abs(f2n - f1n));
 	return twinOn(p, f1n, f2n, 1, n);
 }

@@ -44,7 +44,14 @@ export {
 } from './analyzer';
 export { ToneFitter } from './tonefit';
 export { compactSpectrum, type CompactSpectrum } from './spectrum';
-export { smpteImd, twinToneImd, imdOnSpectrum, type ImdResult, type ImdProduct, type ImdOptions } from './imd';
+export {
+	smpteImd,
+	twinToneImd,
+	imdOnSpectrum,
+	type ImdResult,
+	type ImdProduct,
+	type ImdOptions
+} from './imd';
 export { steadiness, SteadinessTracker, type SteadinessSample, type SteadinessStats } from './steadiness';
 export {
 	analysisResultSchema,

@@ -2,11 +2,7 @@
 // cannot pass more than WEAK_DEVICE_MAX_CURRENT_A clips one half of the wave at I·R (P = V²/R, §5),
 // which the analysis must flag at 12 W into 8 Ω where THD alone said little before (REFERENCES.md §14).
 import { describe, expect, it } from 'vitest';
-import {
-	DEFAULT_SIMULATOR_STATE,
-	WEAK_DEVICE_MAX_CURRENT_A,
-	applySimPatch
-} from '$lib/bridge/protocol';
+import { DEFAULT_SIMULATOR_STATE, WEAK_DEVICE_MAX_CURRENT_A, applySimPatch } from '$lib/bridge/protocol';
 import { analyzeFrames } from './analyzer';
 import { Simulator, SIM_FULL_SCALE_VOLTS } from '../../../bridge/sim/simulator';
 

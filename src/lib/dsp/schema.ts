@@ -122,7 +122,10 @@ export const analysisConditionsSchema = z.object({
 	mainsHz: mainsHzSchema.optional(),
 	toneMarginDb: finite.optional(),
 	expectedFrequencyHz: finite.positive().nullable().optional(),
-	snReference: z.object({ vrms: finite.positive(), label: z.string().max(80) }).nullable().optional()
+	snReference: z
+		.object({ vrms: finite.positive(), label: z.string().max(80) })
+		.nullable()
+		.optional()
 });
 
 export const analysisResultSchema = z.object({

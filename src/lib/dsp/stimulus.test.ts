@@ -47,7 +47,8 @@ const F4 = 12194.217;
 const A1000_DB = -2.0;
 function iecAPowerGain(f: number): number {
 	const f2 = f * f;
-	const ra = (F4 * F4 * f2 * f2) / ((f2 + F1 * F1) * Math.sqrt((f2 + F2 * F2) * (f2 + F3 * F3)) * (f2 + F4 * F4));
+	const ra =
+		(F4 * F4 * f2 * f2) / ((f2 + F1 * F1) * Math.sqrt((f2 + F2 * F2) * (f2 + F3 * F3)) * (f2 + F4 * F4));
 	return ra * ra * 10 ** (-A1000_DB / 10);
 }
 
@@ -73,7 +74,8 @@ function iecAIntegral(fLo: number, fHi: number): number {
 	const B = b ** 4 / ((a - b) ** 2 * (c - b) * (d - b) ** 2);
 	const C = c ** 4 / ((a - c) ** 2 * (b - c) * (d - c) ** 2);
 	const i1 = (p: number, f: number) => Math.atan(f / Math.sqrt(p)) / Math.sqrt(p);
-	const i2 = (p: number, f: number) => f / (2 * p * (f * f + p)) + Math.atan(f / Math.sqrt(p)) / (2 * p * Math.sqrt(p));
+	const i2 = (p: number, f: number) =>
+		f / (2 * p * (f * f + p)) + Math.atan(f / Math.sqrt(p)) / (2 * p * Math.sqrt(p));
 	const F = (f: number) =>
 		A2 * i2(a, f) + A1 * i1(a, f) + B * i1(b, f) + C * i1(c, f) + D2 * i2(d, f) + D1 * i1(d, f);
 	return d * d * (F(fHi) - F(fLo)) * 10 ** (-A1000_DB / 10);
@@ -267,7 +269,12 @@ describe('two-tone stimuli: IMD per channel, THD hidden (REFERENCES.md §7)', ()
 		const p3 = A * 0.0005; // 18 kHz and 21 kHz each
 		const x = new Float32Array(n);
 		for (let i = 0; i < n; i++)
-			x[i] = tone(19000, A, i) + tone(20000, A, i, 0.7) + tone(1000, p2, i) + tone(18000, p3, i) + tone(21000, p3, i, 1);
+			x[i] =
+				tone(19000, A, i) +
+				tone(20000, A, i, 0.7) +
+				tone(1000, p2, i) +
+				tone(18000, p3, i) +
+				tone(21000, p3, i, 1);
 		const r = analyzeFrames([x, x], RATE, [1, 2], { stimulus: 'twin-tone' });
 		for (const [i, ch] of r.channels.entries()) {
 			const d2 = p2 / (2 * A);

@@ -276,6 +276,7 @@ export const SEED_LIMIT_PROFILES: ProfileInput[] = [
 			bandHighHz: 20_000,
 			weighting: 'a',
 			loadOhms: 8,
+			stimulus: 'none',
 			setup: 'Generator off, the input shorted or terminated, volume at minimum, outputs into the 8 Ω loads.'
 		},
 		limits: [{ metric: 'noiseVrms', channel: 'each', op: 'le', value: 500, unit: 'µV' }]

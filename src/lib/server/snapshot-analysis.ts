@@ -364,9 +364,11 @@ export function analyseSnapshotAudio(req: SnapshotAnalysisRequest): SnapshotAnal
 		weighting: req.weighting,
 		loadOhms: req.loadOhms,
 		referenceVrms: req.referenceVrms,
-		averages
-		// stimulus: the lead wires `stimulus: req.stimulus, mainsHz: req.mainsHz` in here once $lib/dsp
-		// takes them (the dsp helper's branch); both already arrive in the request.
+		averages,
+		// What the generator played decides what the figures mean: with none, noise is the whole
+		// in-band residual and the tone figures are absent; mains sets the hum orders.
+		stimulus: req.stimulus,
+		mainsHz: req.mainsHz
 	};
 
 	// The newest `averages × fftSize` samples are "the frame the bench analysed".

@@ -19,6 +19,8 @@ export interface StorePlan {
 	/** `INSERT INTO snapshots … RETURNING id`, as drizzle built it. */
 	insert: { sql: string; params: unknown[] };
 	sha256: string;
+	/** The audit entry written in the same transaction ('snapshot.captured'). */
+	audit: { actorId: string | null; label: string; detail: unknown };
 }
 
 /** A refusal found inside the transaction; the caller answers it with its status. */
@@ -88,6 +90,19 @@ export function writeSnapshot(client: Database, plan: StorePlan, wav: Uint8Array
 		client
 			.prepare('insert into snapshot_audio (snapshot_id, sha256, wav) values (?, ?, ?)')
 			.run(row.id, plan.sha256, Buffer.from(wav.buffer, wav.byteOffset, wav.byteLength));
+		// Plain SQL because this may run on a worker's own connection; same row shape as audit().
+		client
+			.prepare(
+				'insert into audit_log (at, actor_id, action, job_id, subject, detail) values (?, ?, ?, ?, ?, ?)'
+			)
+			.run(
+				Date.now(),
+				plan.audit.actorId,
+				'snapshot.captured',
+				plan.jobId,
+				`snapshot #${row.id} “${plan.audit.label}”`,
+				JSON.stringify(plan.audit.detail)
+			);
 		return row.id;
 	});
 	// IMMEDIATE: take the write lock first, so the checks and the inserts see one state.

@@ -12,7 +12,7 @@ import {
 	STEADINESS_MAX_SECONDS
 } from './snapshots';
 import { STEADINESS_MAX_FRAMES } from './snapshot-analysis';
-import { createLimitProfile, listLimitProfiles, seedLimitProfiles } from './limit-profiles';
+import { createLimitProfile } from './limit-profiles';
 import { DomainError } from './errors';
 
 /** A 24-bit integer PCM WAV, little-endian, written by hand (independent of src/lib/dsp/wav.ts). */
@@ -211,12 +211,22 @@ describe('createSnapshot', () => {
 		expect((stored.profile as { name: string }).name).toBe('THD 0.1 %');
 	});
 
-	it('measures under the bench’s stated load and fails power limits whose assumed load differs (seeded 5 W into 8 Ω profile)', () => {
-		seedLimitProfiles(db);
-		const p = listLimitProfiles(db).find(
-			(x) => x.conditions.loadOhms === 8 && x.limits.some((l) => l.metric === 'powerW')
-		)!;
-		expect(p.conditions.generatorLevelVrms).toBe(0.32);
+	it('measures under the bench’s stated load and fails power limits whose assumed load differs (a 4.5 W into 8 Ω profile)', () => {
+		const p = createLimitProfile(
+			db,
+			{
+				name: 'Power 4.5 W into 8 Ω',
+				conditions: {
+					bandLowHz: 20,
+					bandHighHz: 20_000,
+					weighting: 'none',
+					loadOhms: 8,
+					generatorLevelVrms: 0.32
+				},
+				limits: [{ metric: 'powerW', channel: 'each', op: 'ge', value: 4.5, unit: 'W' }]
+			},
+			'u1'
+		);
 		// 2.3 W into 8 Ω: V rms = √(2.3 × 8) (P = V²/R, REFERENCES.md §5); into 4 Ω it would read 4.6 W ≥ 4.5 W.
 		const vrms = Math.sqrt(2.3 * 8);
 		const peak = (vrms * Math.SQRT2) / 10; // 10 V full scale

@@ -249,7 +249,7 @@ export function prepareSnapshot(db: Db, input: CreateSnapshotInput): PreparedSna
 			weighting,
 			loadOhms: load.value,
 			referenceVrms: reference.value,
-			stimulus: meta.stimulus,
+			stimulus: pc?.stimulus ?? meta.stimulus,
 			mainsHz: settings.mainsHz
 		}
 	};
@@ -273,7 +273,7 @@ function judgeSnapshot(db: Db, p: PreparedSnapshot, out: SnapshotAnalysisOutput)
 	const { analysis, steadiness: steadinessResults, spectrum, fullScaleVolts: fsv } = out;
 	const results: SnapshotResults = {
 		...analysis,
-		conditions: { ...analysis.conditions, sources: p.sources, stimulus: p.meta.stimulus },
+		conditions: { ...analysis.conditions, sources: p.sources, stimulus: p.request.stimulus },
 		steadiness: steadinessResults,
 		capturedSamples: out.capturedSamples,
 		analysedSamples: out.analysedSamples
@@ -319,7 +319,7 @@ function judgeSnapshot(db: Db, p: PreparedSnapshot, out: SnapshotAnalysisOutput)
 				...(p.meta.settings ?? {}),
 				analysis: p.meta.analysis ?? null,
 				fullScaleVolts: fsv,
-				stimulus: p.meta.stimulus
+				stimulus: p.request.stimulus
 			}
 		})
 		.returning({ id: table.snapshots.id })
@@ -334,7 +334,12 @@ function judgeSnapshot(db: Db, p: PreparedSnapshot, out: SnapshotAnalysisOutput)
 			lockedMessage: JOB_LOCKED_MESSAGE,
 			storage: p.storage,
 			insert: { sql: insert.sql, params: insert.params },
-			sha256: out.sha256
+			sha256: out.sha256,
+			audit: {
+				actorId: p.userId,
+				label: p.meta.label,
+				detail: { stage: p.meta.stage, verdict, profile: profile?.name ?? null, sha256: out.sha256 }
+			}
 		}
 	};
 }

@@ -2,6 +2,7 @@
 // readings idempotently (run + probe + seq) and fold them into the run's summary and chart as
 // they arrive (soak-summary.ts), record events, and end the run with a verdict the server takes
 // from what it stored. Every write is one transaction.
+import { audit } from './audit';
 import { and, asc, desc, eq, gt, inArray, sql } from 'drizzle-orm';
 import type { Db } from './db/open';
 import * as table from './db/schema';
@@ -236,6 +237,13 @@ function closeOverdueRuns(db: Db, where: { jobId: number } | { runId: number }, 
 				})
 				.where(eq(table.soakRuns.id, row.id))
 				.run();
+			audit(tx, {
+				actorId: null,
+				action: 'soak.ended',
+				jobId: row.jobId,
+				subject: `soak run #${row.id}`,
+				detail: { status: ending.status, reason: ending.reason, by: 'server (overdue)' }
+			});
 		});
 	}
 }
@@ -359,6 +367,18 @@ export function createRun(
 				}
 			})
 			.run();
+		audit(tx, {
+			actorId: userId,
+			action: 'soak.started',
+			jobId,
+			subject: `soak run #${row.id}`,
+			detail: {
+				preset: drive.drive.preset,
+				drivePowerW: drive.drive.drivePowerW,
+				durationS: drive.drive.durationS,
+				timeScale
+			}
+		});
 		return { id: row.id };
 	});
 }
@@ -670,7 +690,12 @@ export function remainingS(
  * End a run that reached its duration: the verdict comes from the stored summary (passed, or
  * failed on any breach or a record that stops short), never from what a browser claimed.
  */
-export function finishRun(db: Db, runId: number, nowMs = Date.now()): SoakRunDetail {
+export function finishRun(
+	db: Db,
+	runId: number,
+	nowMs = Date.now(),
+	actorId: string | null = null
+): SoakRunDetail {
 	db.transaction((tx) => {
 		const row = getRow(tx, runId);
 		if (row.status !== 'running')
@@ -691,6 +716,13 @@ export function finishRun(db: Db, runId: number, nowMs = Date.now()): SoakRunDet
 			.set({ status: ending.status, endedAt: new Date(nowMs), summary, abortReason: ending.reason })
 			.where(eq(table.soakRuns.id, runId))
 			.run();
+		audit(tx, {
+			actorId,
+			action: 'soak.ended',
+			jobId: row.jobId,
+			subject: `soak run #${runId}`,
+			detail: { status: ending.status, reason: ending.reason }
+		});
 	});
 	return getRunDetail(db, runId, nowMs);
 }
@@ -699,7 +731,13 @@ export function finishRun(db: Db, runId: number, nowMs = Date.now()): SoakRunDet
  * End a run early. A limit breach (the page's, or one the stored record shows) ends it as
  * failed with the breach as the reason; only a technician's stop without one is aborted.
  */
-export function abortRun(db: Db, runId: number, input: AbortInput, nowMs = Date.now()): SoakRunDetail {
+export function abortRun(
+	db: Db,
+	runId: number,
+	input: AbortInput,
+	nowMs = Date.now(),
+	actorId: string | null = null
+): SoakRunDetail {
 	const data = abortSchema.parse(input);
 	db.transaction((tx) => {
 		const row = getRow(tx, runId);
@@ -736,6 +774,13 @@ export function abortRun(db: Db, runId: number, input: AbortInput, nowMs = Date.
 			.set({ status, endedAt: new Date(endedAtMs), abortReason: reason, summary })
 			.where(eq(table.soakRuns.id, runId))
 			.run();
+		audit(tx, {
+			actorId,
+			action: 'soak.ended',
+			jobId: row.jobId,
+			subject: `soak run #${runId}`,
+			detail: { status, reason }
+		});
 	});
 	return getRunDetail(db, runId, nowMs);
 }

@@ -60,7 +60,9 @@ export function stimulusFromGenerator(
 }
 
 /** One line for the readouts caption: which stimulus the figures assume. */
-export function stimulusCaption(s: Pick<AnalysisSettings, 'stimulus' | 'expectedFrequencyHz' | 'mainsHz'>): string {
+export function stimulusCaption(
+	s: Pick<AnalysisSettings, 'stimulus' | 'expectedFrequencyHz' | 'mainsHz'>
+): string {
 	switch (s.stimulus) {
 		case 'none':
 			return `Generator off: residual noise and hum (total in-band rms, nothing removed; mains ${s.mainsHz} Hz)`;

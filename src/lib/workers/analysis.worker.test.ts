@@ -100,7 +100,7 @@ describe('analysis worker stimulus', () => {
 		const settings = stimulusFromGenerator({ kind: 'off' });
 		expect(settings.stimulus).toBe('none');
 		// 1 mV of 100 Hz hum at 2 V full scale on both channels.
-		const hum = sine(FFT, 100, 1e-3 / 2 * Math.SQRT2);
+		const hum = sine(FFT, 100, (1e-3 / 2) * Math.SQRT2);
 		const r = live(hum, hum, settings);
 		const saved = analyzeFrames([hum, hum], RATE, [2, 2], { fftSize: FFT, stimulus: 'none' });
 		for (const [i, ch] of r.results.entries()) {

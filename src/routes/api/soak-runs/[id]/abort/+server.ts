@@ -6,8 +6,8 @@ import { abortRun, abortSchema } from '$lib/server/soak';
 import type { RequestHandler } from './$types';
 
 export const POST: RequestHandler = endpoint(async (event) => {
-	requireUser(event);
+	const user = requireUser(event);
 	const id = idParam(event.params.id, 'soak run');
 	const input = await readJson(event, abortSchema);
-	return json(abortRun(db, id, input));
+	return json(abortRun(db, id, input, Date.now(), user.id));
 });

@@ -6,8 +6,8 @@ import { finishRun } from '$lib/server/soak';
 import type { RequestHandler } from './$types';
 
 export const POST: RequestHandler = endpoint((event) => {
-	requireUser(event);
+	const user = requireUser(event);
 	requireSameOrigin(event);
 	const id = idParam(event.params.id, 'soak run');
-	return json(finishRun(db, id));
+	return json(finishRun(db, id, Date.now(), user.id));
 });
