@@ -61,7 +61,9 @@ async function setTheme(page: Page, scheme: (typeof SCHEMES)[number]) {
 }
 
 async function open(page: Page, path: string) {
-	await page.goto(path);
+	const res = await page.goto(path);
+	// An error page would pass for the page it stands in for: every page must answer.
+	expect(res?.ok(), `${path} answered ${res?.status()}`).toBe(true);
 	await ready(page);
 	await page.evaluate(() => new Promise((r) => requestAnimationFrame(() => requestAnimationFrame(r))));
 }

@@ -75,7 +75,8 @@ test('every signed-in page fits a 390 px wide phone without scrolling sideways',
 
 	const problems: string[] = [];
 	for (const p of pages) {
-		await page.goto(p.path);
+		const res = await page.goto(p.path);
+		expect(res?.ok(), `${p.path} answered ${res?.status()}`).toBe(true);
 		await settle(page);
 		// The bench and soak pages fill in once the bridge answers; measure with live content.
 		if (/\/(bench|soak)$/.test(p.routeId))

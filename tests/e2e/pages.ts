@@ -23,7 +23,8 @@ export const PUBLIC_PAGES = ['/login', '/safety'] as const;
  */
 export const ROUTE_PARAMS: Record<string, (ctx: ParamContext) => Promise<string>> = {
 	/** A job with parts, log entries and snapshots where possible: the fullest pages to lay out. */
-	id: async ({ request }) => String(await richJobId(request))
+	id: async ({ request, routeId }) =>
+		String(routeId.startsWith('/snapshots/') ? await anySnapshotId(request) : await richJobId(request))
 };
 
 export interface ParamContext {
@@ -82,6 +83,20 @@ export async function pagesToCheck(request: APIRequestContext): Promise<PageToCh
 }
 
 let cachedJobId: number | null = null;
+
+/** A stored snapshot (the seed's sign-off demo job has two): `[id]` under /snapshots. */
+async function anySnapshotId(request: APIRequestContext): Promise<number> {
+	const res = await request.get('/api/jobs?pageSize=100');
+	if (!res.ok()) throw new Error(`GET /api/jobs answered ${res.status()}`);
+	const list = (await res.json()) as { items: { id: number }[] };
+	for (const { id } of list.items) {
+		const r = await request.get(`/api/jobs/${id}/snapshots`);
+		if (!r.ok()) continue;
+		const { snapshots } = (await r.json()) as { snapshots: { id: number }[] };
+		if (snapshots.length) return snapshots[0].id;
+	}
+	throw new Error('no snapshot to open: the e2e database has none');
+}
 
 async function richJobId(request: APIRequestContext): Promise<number> {
 	if (cachedJobId !== null) return cachedJobId;

@@ -6,6 +6,7 @@ import { requireUser } from '$lib/server/guards';
 import { idParam } from '$lib/server/api';
 import { getJob } from '$lib/server/jobs';
 import { listLimitProfiles } from '$lib/server/limit-profiles';
+import { getSetting } from '$lib/server/settings';
 import { pageLoad } from '$lib/server/handlers';
 import type { PageServerLoad } from './$types';
 
@@ -27,6 +28,8 @@ export const load: PageServerLoad = pageLoad((event) => {
 			ratedPowerW: job.ratedPowerW,
 			ratedLoadOhms: job.ratedLoadOhms
 		},
-		profiles: listLimitProfiles(db)
+		profiles: listLimitProfiles(db),
+		// The shop's mains frequency names the hum orders the live analysis reports.
+		mainsHz: getSetting(db, 'mainsHz')
 	};
 });
