@@ -12,10 +12,10 @@ import type {
 	WorkerResult
 } from './analysis-messages';
 import { CAPTURE_SECONDS } from './analysis-messages';
+import { FRAME_HEADER_BYTES } from '$lib/bridge/frame';
 
 const ctx = self as unknown as DedicatedWorkerGlobalScope;
 
-const HEADER_BYTES = 32;
 /** Display resolution of the spectrum: points per decade on the log axis. */
 const POINTS_PER_DECADE = 240;
 const DISPLAY_MIN_HZ = 10;
@@ -147,7 +147,7 @@ function rebuild(): void {
 
 function ingest(m: Extract<ToWorker, { type: 'frame' }>): void {
 	const { buffer, receivedAtMs } = m;
-	if (buffer.byteLength < HEADER_BYTES || buffer.byteLength % 4 !== 0 || rings.length === 0) return;
+	if (buffer.byteLength < FRAME_HEADER_BYTES || buffer.byteLength % 4 !== 0 || rings.length === 0) return;
 	// The page read the header already (it needs seq for drop counting) and sends its fields along,
 	// so the only per-frame object here is the one view the samples need.
 	const { channels: ch, sampleRateHz: rate, sampleCount: count, flags } = m;
@@ -159,7 +159,7 @@ function ingest(m: Extract<ToWorker, { type: 'frame' }>): void {
 		});
 		return;
 	}
-	if (buffer.byteLength !== HEADER_BYTES + ch * count * 4) return;
+	if (buffer.byteLength !== FRAME_HEADER_BYTES + ch * count * 4) return;
 	if (flags & 1) {
 		// Samples were lost upstream: the history no longer joins up, so averages and steadiness restart.
 		discontinuities++;
