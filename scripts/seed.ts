@@ -587,6 +587,9 @@ export async function seedDemo(db: Db, options: { now?: Date } = {}): Promise<bo
 					complaint: j.complaint,
 					ratedPowerW: j.ratedPowerW,
 					ratedLoadOhms: j.ratedLoadOhms,
+					// The demo units' ratings are all continuous per channel, both driven, at 0.1 % THD (invented).
+					ratedPowerBasis: j.ratedPowerW === null ? null : 'continuous-per-channel',
+					ratedThdPercent: j.ratedPowerW === null ? null : 0.1,
 					status: j.statuses[j.statuses.length - 1],
 					technicianId: techId,
 					promisedDate: j.promisedInDays === null ? null : isoDay(nowMs + j.promisedInDays * DAY_MS),

@@ -33,6 +33,20 @@ export const UNIT_CATEGORY_LABELS: Record<UnitCategory, string> = {
 	other: 'Other'
 };
 
+/**
+ * What a job's rated power figure means. A soak's drive is a fraction of the continuous power
+ * per channel with the channels driven together, at a stated THD; a music (peak, dynamic) or a
+ * total (all channels added) figure would overdrive the unit, so a soak refuses it.
+ */
+export const RATING_BASES = ['continuous-per-channel', 'music', 'total'] as const;
+export type RatingBasis = (typeof RATING_BASES)[number];
+
+export const RATING_BASIS_LABELS: Record<RatingBasis, string> = {
+	'continuous-per-channel': 'Continuous per channel, both driven',
+	music: 'Music / peak power',
+	total: 'Total of all channels'
+};
+
 export const JOB_STATUSES = [
 	'received',
 	'diagnosing',

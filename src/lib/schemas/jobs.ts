@@ -1,7 +1,7 @@
 // Zod schemas for job input (intake form, edits, status changes, work log, parts, list
 // queries) and the status-transition rules. Shared by the server and the browser's forms.
 import { z } from 'zod';
-import { JOB_STATUSES, PART_STATES, UNIT_CATEGORIES, type JobStatus, type Role } from './enums';
+import { JOB_STATUSES, PART_STATES, RATING_BASES, UNIT_CATEGORIES, type JobStatus, type Role } from './enums';
 
 export * from './enums';
 
@@ -95,6 +95,19 @@ const jobFields = {
 		.max(600, 'Rated load above 600 Ω is not plausible')
 		.nullable()
 		.optional(),
+	/** What the rated power means (a soak needs continuous per channel, both driven). */
+	ratedPowerBasis: z
+		.enum(RATING_BASES, 'Choose what the rated power means: continuous per channel, music power or total')
+		.nullable()
+		.optional(),
+	ratedThdPercent: z
+		.number('Rated THD must be a number')
+		.positive('Rated THD must be above 0 %')
+		.max(10, 'Rated THD above 10 % is not a rating')
+		.nullable()
+		.optional(),
+	/** Not yet restored: heavier soaks ask for confirmation first. */
+	unrestored: z.boolean('Unrestored is yes or no').optional(),
 	/** User id of the technician, or ''/null for unassigned. */
 	technicianId: z.string().trim().max(64).nullable().optional(),
 	promisedDate: z

@@ -8,6 +8,7 @@ import type { RunResult } from 'better-sqlite3';
 import type { Db } from './db/open';
 import * as table from './db/schema';
 import type { JobStatus, PartState, Role, UnitCategory } from './db/schema';
+import type { RatingBasis } from '../schemas/enums';
 import { badRequest } from './api';
 import { DomainError } from './errors';
 import { validate } from './validate';
@@ -106,6 +107,9 @@ export interface JobDetail {
 	complaint: string;
 	ratedPowerW: number | null;
 	ratedLoadOhms: number | null;
+	ratedPowerBasis: RatingBasis | null;
+	ratedThdPercent: number | null;
+	unrestored: boolean;
 	status: JobStatus;
 	/** While on hold: the status the job was in before, where it usually resumes. */
 	heldFrom: JobStatus | null;
@@ -530,6 +534,9 @@ export function getJob(db: Db, id: number): JobDetail | null {
 		complaint: job.complaint,
 		ratedPowerW: job.ratedPowerW,
 		ratedLoadOhms: job.ratedLoadOhms,
+		ratedPowerBasis: job.ratedPowerBasis,
+		ratedThdPercent: job.ratedThdPercent,
+		unrestored: job.unrestored,
 		status: job.status,
 		heldFrom,
 		promisedDate: job.promisedDate,
@@ -627,6 +634,9 @@ export function createJob(db: Db, input: JobIntake, userId: string): JobDetail {
 				complaint: data.complaint,
 				ratedPowerW: data.ratedPowerW ?? null,
 				ratedLoadOhms: data.ratedLoadOhms ?? null,
+				ratedPowerBasis: data.ratedPowerBasis ?? null,
+				ratedThdPercent: data.ratedThdPercent ?? null,
+				unrestored: data.unrestored ?? false,
 				status: 'received',
 				technicianId,
 				promisedDate: blank(data.promisedDate),
@@ -672,6 +682,9 @@ export function updateJob(db: Db, id: number, patch: JobPatch, actorId: string |
 		if (data.complaint !== undefined) changes.complaint = data.complaint;
 		if (data.ratedPowerW !== undefined) changes.ratedPowerW = data.ratedPowerW;
 		if (data.ratedLoadOhms !== undefined) changes.ratedLoadOhms = data.ratedLoadOhms;
+		if (data.ratedPowerBasis !== undefined) changes.ratedPowerBasis = data.ratedPowerBasis;
+		if (data.ratedThdPercent !== undefined) changes.ratedThdPercent = data.ratedThdPercent;
+		if (data.unrestored !== undefined) changes.unrestored = data.unrestored;
 		if (data.promisedDate !== undefined) changes.promisedDate = blank(data.promisedDate);
 		if (data.technicianId !== undefined) {
 			changes.technicianId = blank(data.technicianId);

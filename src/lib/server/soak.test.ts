@@ -105,6 +105,28 @@ describe('creating a run', () => {
 		expect(d.limits.maxHeatsinkC).toBe(60);
 	});
 
+	it('refuses a preset while the rating is music power or a total, and asks first on an unrestored unit', () => {
+		const set = (patch: Partial<typeof table.jobs.$inferInsert>) =>
+			db.update(table.jobs).set(patch).where(eq(table.jobs.id, ratedJob)).run();
+		set({ ratedPowerBasis: 'music' });
+		expect(() => createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' })).toThrow(/music-power/);
+		set({ ratedPowerBasis: 'total' });
+		expect(() => createRun(db, ratedJob, 'u1', { preset: 'eighth-power-60' })).toThrow(
+			/total for all channels/
+		);
+		// A custom drive states its own volts or watts, so the rating's basis does not set it.
+		const custom = createRun(db, ratedJob, 'u1', {
+			preset: 'custom',
+			custom: { volts: 10, loadOhms: 8, frequencyHz: 1000, durationS: 600, channels: ['left'] }
+		});
+		abortRun(db, custom.id, { reason: 'test' });
+		set({ ratedPowerBasis: 'continuous-per-channel', unrestored: true });
+		expect(() => createRun(db, ratedJob, 'u1', { preset: 'third-power-60' })).toThrow(/confirm/i);
+		expect(createRun(db, ratedJob, 'u1', { preset: 'third-power-60', confirmHeat: true }).id).toBeGreaterThan(
+			0
+		);
+	});
+
 	it('allows one running soak per job and 404s an unknown job', () => {
 		createRun(db, ratedJob, 'u1', { preset: 'third-power-60' });
 		expect(() => createRun(db, ratedJob, 'u1', { preset: 'third-power-60' })).toThrow(/still running/);

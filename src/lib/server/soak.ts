@@ -285,9 +285,7 @@ export function createRun(
 	const data = createRunSchema.parse(input);
 	const job = getJob(db, jobId);
 	if (!job) throw new DomainError('not-found', 'No such job');
-	// The basis of the rating, where the job records one (a column the job record may carry).
-	const basis = (job as { ratedPowerBasis?: string | null }).ratedPowerBasis;
-	const basisProblem = data.preset === 'custom' ? null : ratingBasisProblem(basis);
+	const basisProblem = data.preset === 'custom' ? null : ratingBasisProblem(job.ratedPowerBasis);
 	if (basisProblem)
 		throw new DomainError('invalid', basisProblem, [{ path: 'preset', message: basisProblem }]);
 	const drive = computeDrive(
@@ -296,14 +294,19 @@ export function createRun(
 		data.custom
 	);
 	if (!drive.ok) throw new DomainError('invalid', drive.message);
-	if (needsHeatConfirmation(data.preset, { year: job.year }) && data.confirmHeat !== true)
+	if (
+		needsHeatConfirmation(data.preset, { year: job.year, unrestored: job.unrestored }) &&
+		data.confirmHeat !== true
+	)
 		throw new DomainError(
 			'invalid',
 			`Confirm the one-third-power caution first (send confirmHeat: true): ${fixedPreset(data.preset)?.caution ?? ''}`,
 			[
 				{
 					path: 'confirmHeat',
-					message: `required for one-third power on a unit made before 1974 (this one: ${job.year})`
+					message: job.unrestored
+						? 'required for one-third power on a unit marked unrestored'
+						: `required for one-third power on a unit made before 1974 (this one: ${job.year})`
 				}
 			]
 		);

@@ -53,13 +53,7 @@ export const FIXED_PRESETS: readonly FixedPreset[] = [
 	}
 ];
 
-/**
- * What a rated power figure means. A soak's drive is a fraction of the continuous power per
- * channel with the channels driven together, at a stated THD; a music (peak, dynamic) or a total
- * (all channels added) figure would overdrive the unit, so it is refused until corrected.
- */
-export const RATING_BASES = ['continuous-per-channel', 'music', 'total'] as const;
-export type RatingBasis = (typeof RATING_BASES)[number];
+export { RATING_BASES, type RatingBasis } from '$lib/schemas/enums';
 
 /** Why a job's rated power cannot set a soak's drive, or null when it can (or no basis is recorded). */
 export function ratingBasisProblem(basis: string | null | undefined): string | null {

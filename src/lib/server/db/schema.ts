@@ -5,7 +5,7 @@ import { sqliteTable, text, integer, real, blob, index, primaryKey } from 'drizz
 
 // Roles, unit categories, job statuses and part states live in $lib/schemas/enums so the
 // browser can use them too (a relative import: drizzle-kit and scripts do not know `$lib`).
-import { ROLES, UNIT_CATEGORIES, JOB_STATUSES, PART_STATES } from '../../schemas/enums';
+import { ROLES, UNIT_CATEGORIES, JOB_STATUSES, PART_STATES, RATING_BASES } from '../../schemas/enums';
 import { SIGN_OFF_DECISIONS } from '../../schemas/sign-off';
 export { ROLES, UNIT_CATEGORIES, JOB_STATUSES, PART_STATES };
 export type { Role, UnitCategory, JobStatus, PartState } from '../../schemas/enums';
@@ -91,6 +91,12 @@ export const jobs = sqliteTable(
 		complaint: text('complaint').notNull(),
 		ratedPowerW: real('rated_power_w'),
 		ratedLoadOhms: real('rated_load_ohms'),
+		/** What the rated power means; a soak refuses music-power and total figures. */
+		ratedPowerBasis: text('rated_power_basis', { enum: RATING_BASES }),
+		/** The THD at which the unit's rated power is stated, in percent. */
+		ratedThdPercent: real('rated_thd_percent'),
+		/** Marked at intake: not yet restored (old capacitors, compound, bias) — heavier soaks ask first. */
+		unrestored: integer('unrestored', { mode: 'boolean' }).notNull().default(false),
 		status: text('status', { enum: JOB_STATUSES }).notNull().default('received'),
 		technicianId: text('technician_id').references(() => users.id),
 		/** Calendar date promised to the customer, ISO `YYYY-MM-DD`. */

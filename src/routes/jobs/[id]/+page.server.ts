@@ -23,7 +23,13 @@ import { listAssignableUsers } from '$lib/server/users';
 import { listAudit } from '$lib/server/audit';
 import { listSignOffs, standingSignOff } from '$lib/server/sign-off';
 import { reopenSchema } from '$lib/schemas/job-lock';
-import { logEntrySchema, partSchema, PART_STATES, statusChangeSchema } from '$lib/schemas/jobs';
+import {
+	jobPatchSchema,
+	logEntrySchema,
+	partSchema,
+	PART_STATES,
+	statusChangeSchema
+} from '$lib/schemas/jobs';
 import { fieldErrors, number, optionalText, text } from '$lib/forms';
 import { parseMoneyToCents } from '$lib/format';
 import { pageLoad, formActions } from '$lib/server/handlers';
@@ -99,6 +105,30 @@ export const actions: Actions = formActions({
 		const form = await event.request.formData();
 		updateJob(db, id, { technicianId: optionalText(form, 'technicianId') }, user.id);
 		return { action: 'assign', ok: true };
+	},
+
+	rating: async (event) => {
+		const user = requireUser(event);
+		const id = idParam(event.params.id, 'job');
+		const form = await event.request.formData();
+		const names = ['ratedPowerW', 'ratedLoadOhms', 'ratedPowerBasis', 'ratedThdPercent'];
+		const values = Object.fromEntries(names.map((n) => [n, text(form, n)]));
+		const parsed = jobPatchSchema.safeParse({
+			ratedPowerW: number(form, 'ratedPowerW') ?? null,
+			ratedLoadOhms: number(form, 'ratedLoadOhms') ?? null,
+			ratedPowerBasis: values.ratedPowerBasis || null,
+			ratedThdPercent: number(form, 'ratedThdPercent') ?? null,
+			unrestored: form.get('unrestored') === 'on'
+		});
+		if (!parsed.success)
+			return fail(400, {
+				action: 'rating',
+				message: 'Check the rating',
+				values,
+				errors: fieldErrors(parsed.error)
+			});
+		updateJob(db, id, parsed.data, user.id);
+		return { action: 'rating', ok: true };
 	},
 
 	log: async (event) => {

@@ -33,6 +33,9 @@ export const load: PageServerLoad = pageLoad((event) => {
 			customerName: job.customer.name,
 			ratedPowerW: job.ratedPowerW,
 			ratedLoadOhms: job.ratedLoadOhms,
+			ratedPowerBasis: job.ratedPowerBasis,
+			ratedThdPercent: job.ratedThdPercent,
+			unrestored: job.unrestored,
 			year: job.year
 		},
 		shopLimits: getSetting(db, 'soakDefaultLimits'),
