@@ -153,7 +153,8 @@ async function newRatedJob(
 	request: APIRequestContext,
 	model: string,
 	ratedPowerW = 100,
-	year?: number
+	year?: number,
+	extra: Record<string, unknown> = {}
 ): Promise<number> {
 	const res = await request.post('/api/jobs', {
 		headers: { origin: APP_ORIGIN },
@@ -165,7 +166,8 @@ async function newRatedJob(
 			complaint: 'Shuts down after an hour of playing',
 			ratedPowerW,
 			ratedLoadOhms: 8,
-			...(year ? { year } : {})
+			...(year ? { year } : {}),
+			...extra
 		}
 	});
 	expect(res.status(), await res.text()).toBe(201);
@@ -395,4 +397,37 @@ test('one-third power on a unit made before 1974 waits for the caution to be con
 	await expect(page.getByTestId('soak-start')).toBeEnabled();
 	// The preset never reads as a rating test.
 	await expect(page.getByTestId('preset-meaning-third-power-60')).toContainText('not a power-rating test');
+});
+
+test('a music-power rating holds the presets until the job is corrected, and an unrestored unit asks first', async ({
+	page
+}) => {
+	await signIn(page, 'tech2@example.com');
+	const jobId = await newRatedJob(page.request, `SK-MUSIC-${Date.now().toString(36)}`, 120, undefined, {
+		ratedPowerBasis: 'music'
+	});
+	await openSoak(page, jobId);
+	await expect(page.getByTestId('soak-basis-problem')).toContainText('music-power');
+	await expect(page.getByTestId('soak-start')).toBeDisabled();
+
+	// Corrected on the job page: continuous per channel at 0.1 % THD, and marked unrestored.
+	await page.goto(`/jobs/${jobId}`);
+	await expect(page.getByTestId('rating-problem')).toBeVisible();
+	const form = page.getByTestId('rating-form');
+	await form.getByLabel('Rated power').fill('45');
+	await form.getByLabel('Power means').selectOption('continuous-per-channel');
+	await form.getByLabel('At THD').fill('0.1');
+	await page.getByTestId('rating-unrestored').check();
+	await form.getByRole('button', { name: 'Save rating' }).click();
+	await expect(page.getByTestId('rating-basis')).toContainText('Continuous per channel');
+	await expect(page.getByTestId('rating-problem')).toHaveCount(0);
+	await expect(page.getByTestId('unrestored')).toBeVisible();
+
+	await openSoak(page, jobId);
+	await expect(page.getByTestId('soak-basis-problem')).toHaveCount(0);
+	await page.getByTestId('preset-third-power-60').check({ force: true });
+	await expect(page.getByTestId('soak-start')).toBeDisabled();
+	await expect(page.getByTestId('preset-caution')).toContainText('marked unrestored');
+	await page.getByTestId('preset-confirm-heat').check();
+	await expect(page.getByTestId('soak-start')).toBeEnabled();
 });

@@ -30,6 +30,8 @@ export interface MeasuredOutput {
 	powerW: readonly (number | null)[];
 	thdnPercent: readonly (number | null)[];
 	dcVolts?: readonly (number | null)[];
+	/** Per channel: whether the waveform clips, and why (flat tops, crest factor). */
+	clipping?: readonly ({ clipped: boolean; reason: string | null } | null)[];
 	atMs: number;
 }
 

@@ -29,6 +29,7 @@ export interface Measured {
 	powerW: (number | null)[];
 	thdnPercent: (number | null)[];
 	dcVolts: (number | null)[];
+	clipping: ({ clipped: boolean; reason: string | null } | null)[];
 	atMs: number;
 }
 
@@ -390,6 +391,7 @@ export class SoakSession {
 		const powerW: (number | null)[] = [null, null];
 		const thdnPercent: (number | null)[] = [null, null];
 		const dcVolts: (number | null)[] = [null, null];
+		const clipping: ({ clipped: boolean; reason: string | null } | null)[] = [null, null];
 		r.results.forEach((res, i) => {
 			const ch = r.channelIndex[i];
 			if (ch > 1) return;
@@ -397,8 +399,9 @@ export class SoakSession {
 			powerW[ch] = res.powerW ?? null;
 			thdnPercent[ch] = res.thdnPercent;
 			dcVolts[ch] = res.dcVolts ?? null;
+			clipping[ch] = res.clipping ?? null;
 		});
-		this.#measured = { levelVrms, powerW, thdnPercent, dcVolts, atMs: Date.now() };
+		this.#measured = { levelVrms, powerW, thdnPercent, dcVolts, clipping, atMs: Date.now() };
 		this.#servo();
 		this.#watchOutput();
 	}
