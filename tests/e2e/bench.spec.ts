@@ -163,7 +163,7 @@ test('bench: live gain, a fault and its repair, before/after snapshots with verd
 	const body = (await detail.json()) as {
 		results: {
 			channels: { frequencyHz: number; gainDb: number; thdnPercent: number }[];
-			conditions: { bandHz: number[] };
+			conditions: { bandHz: number[]; stimulus: string; dcCoupled: boolean };
 		};
 	};
 	expect(body.results.channels[0].frequencyHz).toBeCloseTo(1000, 0);
@@ -171,6 +171,9 @@ test('bench: live gain, a fault and its repair, before/after snapshots with verd
 	expect(body.results.channels[0].thdnPercent).toBeLessThan(0.05);
 	// The profile's band, not whatever the browser had set.
 	expect(body.results.conditions.bandHz).toEqual([20, 20000]);
+	// The bench said what drove the unit (a tone) and that the simulator's input passes DC.
+	expect(body.results.conditions.stimulus).toBe('tone');
+	expect(body.results.conditions.dcCoupled).toBe(true);
 
 	// Leave the shared simulator as the other specs expect it.
 	await page.goto(`/jobs/${jobId}/bench`);

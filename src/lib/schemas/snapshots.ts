@@ -34,6 +34,11 @@ export const snapshotMetaSchema = z.strictObject({
 	referenceVrms: finite.positive().max(100).nullish(),
 	/** The test signal during the capture; older benches sent none and meant a tone. */
 	stimulus: z.enum(SNAPSHOT_STIMULI).default('tone'),
+	/**
+	 * The capture came through an input the bridge declares DC-coupled: only then is its DC a
+	 * reading of the unit's output offset (most audio interfaces block DC).
+	 */
+	dcCoupled: z.boolean().default(false),
 	/** How the bench analysed it; used where a chosen profile does not fix the condition. */
 	analysis: z
 		.strictObject({

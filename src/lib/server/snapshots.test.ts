@@ -211,6 +211,45 @@ describe('createSnapshot', () => {
 		expect((stored.profile as { name: string }).name).toBe('THD 0.1 %');
 	});
 
+	it('judges DC offset only when the bench declares a DC-coupled input', () => {
+		// 0.1 full-scale DC under a 1 kHz tone, full scale 1 V peak: DC offset 100 mV (a mean is the DC term).
+		const withDc = (x: Float64Array) => x.map((v) => v + 0.1);
+		const p = createLimitProfile(
+			db,
+			{
+				name: 'Offset 50 mV',
+				conditions: { bandLowHz: 20, bandHighHz: 20_000, weighting: 'none' },
+				// A ±50 mV offset limit is common practice, no source.
+				limits: [{ metric: 'dcOffsetV', channel: 'each', op: 'le', value: 50, unit: 'mV' }]
+			},
+			'u1'
+		);
+		const upload = (dcCoupled: boolean | undefined) =>
+			createSnapshot(db, {
+				jobId,
+				userId: 'u1',
+				wav: wav24([withDc(tone(0.5, 1000)), tone(0.5, 1000)], RATE),
+				meta: {
+					label: 'offset',
+					stage: 'after',
+					profileId: p.id,
+					...(dcCoupled === undefined ? {} : { dcCoupled })
+				}
+			});
+		const coupled = upload(true);
+		expect(coupled.checks.map((c) => [c.channel, c.pass])).toEqual([
+			['left', false],
+			['right', true]
+		]);
+		expect(coupled.checks[0].measured).toBeCloseTo(100, 0);
+		expect(coupled.results.conditions.dcCoupled).toBe(true);
+		// An AC-coupled input (or a bench that does not say): the offset is not a reading, so not judged.
+		for (const blocked of [upload(false), upload(undefined)]) {
+			expect(blocked.checks.every((c) => c.measured === null)).toBe(true);
+			expect(blocked.results.conditions.dcCoupled).toBe(false);
+		}
+	});
+
 	it('measures under the bench’s stated load and fails power limits whose assumed load differs (a 4.5 W into 8 Ω profile)', () => {
 		const p = createLimitProfile(
 			db,

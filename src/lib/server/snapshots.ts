@@ -91,7 +91,12 @@ export interface SnapshotResults extends AnalysisResult {
 	 * The analysis conditions, where each profile-governed one came from, and the test signal
 	 * (absent in snapshots stored before it was recorded: those were tones).
 	 */
-	conditions: AnalysisConditions & { sources: ConditionSources; stimulus?: SnapshotStimulus };
+	conditions: AnalysisConditions & {
+		sources: ConditionSources;
+		stimulus?: SnapshotStimulus;
+		/** DC offset is a reading only from a DC-coupled input; older snapshots lack the field. */
+		dcCoupled?: boolean;
+	};
 	steadiness: SteadinessResult[];
 	/** Samples per channel in the uploaded WAV, and how many of the newest were analysed. */
 	capturedSamples: number;
@@ -273,7 +278,12 @@ function judgeSnapshot(db: Db, p: PreparedSnapshot, out: SnapshotAnalysisOutput)
 	const { analysis, steadiness: steadinessResults, spectrum, fullScaleVolts: fsv } = out;
 	const results: SnapshotResults = {
 		...analysis,
-		conditions: { ...analysis.conditions, sources: p.sources, stimulus: p.request.stimulus },
+		conditions: {
+			...analysis.conditions,
+			sources: p.sources,
+			stimulus: p.request.stimulus,
+			dcCoupled: p.meta.dcCoupled
+		},
 		steadiness: steadinessResults,
 		capturedSamples: out.capturedSamples,
 		analysedSamples: out.analysedSamples
@@ -287,7 +297,8 @@ function judgeSnapshot(db: Db, p: PreparedSnapshot, out: SnapshotAnalysisOutput)
 						analysis.channels,
 						{ balanceDb: analysis.balanceDb, crosstalkDb: analysis.crosstalkDb },
 						steadinessResults,
-						p.weighting
+						p.weighting,
+						{ dcCoupled: p.meta.dcCoupled }
 					)
 				),
 				profile.conditions,
