@@ -254,6 +254,24 @@ async function runDay(
 	const nowMs = t0 + (DAY_S + 4) * 1000;
 	const running = timed(() => soak.getRunDetail(db, id, nowMs));
 	const list = timed(() => soak.listRuns(db, jobId, nowMs));
+	// A page reloaded late in the day: the detail (with bucket rows) and the newest readings, against
+	// paging through every reading the way a resume used to.
+	const tail = timed(() => soak.readingsTail(db, id, 8000));
+	const allStart = performance.now();
+	let after = -1;
+	let pages = 0;
+	for (;;) {
+		const page = soak.readingsAfter(db, id, after, 20_000);
+		JSON.stringify(page);
+		pages++;
+		if (!page.more || page.lastSeq === null) break;
+		after = page.lastSeq;
+	}
+	const allMs = performance.now() - allStart;
+	console.log(
+		`soak 24 h: resuming the page loads the newest 8000 readings (${(tail.bytes / 1024).toFixed(0)} KiB) in median ${tail.median.toFixed(1)} ms; ` +
+			`every reading (${pages} pages) took ${allMs.toFixed(0)} ms on the server alone (${(allMs / tail.median).toFixed(0)}× the tail)`
+	);
 	const row = db.select().from(table.soakRuns).all()[0];
 	const fullStart = performance.now();
 	summaryMod.rebuildSummary(db, row, soak.getRunDetail(db, id, nowMs).limits);

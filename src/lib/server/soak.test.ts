@@ -15,6 +15,7 @@ import {
 	listRuns,
 	OVERDUE_GRACE_MS,
 	readingsAfter,
+	readingsTail,
 	runningRunId
 } from './soak';
 import { DomainError } from './errors';
@@ -185,6 +186,12 @@ describe('readings', () => {
 		]);
 		expect(readingsAfter(db, id, 2001).readings.map((r) => r.seq)).toEqual([2007, 2008]);
 		expect(readingsAfter(db, id, 0, 2)).toMatchObject({ more: true, lastSeq: 2007 });
+		// The newest readings, in seq order: what a page resuming a long run loads.
+		expect(readingsTail(db, id, 2).readings.map((r) => r.seq)).toEqual([2007, 2008]);
+		expect(readingsTail(db, id, 10).readings).toHaveLength(3);
+		// While the run goes on, its detail carries the chart's bucket rows to resume from.
+		const rows = getRunDetail(db, id, T0 + 60_000).seriesRows ?? [];
+		expect(rows.reduce((n, r) => n + r.n, 0)).toBe(3);
 	});
 
 	it('a run that has ended refuses more readings and THD+N samples', () => {

@@ -455,9 +455,21 @@ export function getRunDetail(db: Db, runId: number, nowMs = Date.now()): SoakRun
 		lastSeq: live.state.lastSeq,
 		verdict: row.status === 'running' ? null : row.status,
 		summary: live.summary,
-		series: seriesOf(seriesRunOf(row), seriesRows(db, [runId]).get(runId) ?? []),
+		...seriesParts(row, seriesRows(db, [runId]).get(runId) ?? []),
 		events
 	};
+}
+
+/**
+ * The chart, and while the run goes on its bucket rows too: a page that resumes a long run seeds
+ * its own downsampled chart from them instead of loading every reading.
+ */
+function seriesParts(
+	row: typeof table.soakRuns.$inferSelect,
+	rows: SeriesBucketRow[]
+): Pick<SoakRunDetail, 'series' | 'seriesRows'> {
+	const series = seriesOf(seriesRunOf(row), rows);
+	return row.status === 'running' ? { series, seriesRows: rows } : { series };
 }
 
 export function jobIdOfRun(db: Db, runId: number): number {
@@ -616,6 +628,24 @@ export function readingsAfter(
 	const more = rows.length > limit;
 	const page = more ? rows.slice(0, limit) : rows;
 	return { readings: page, lastSeq: page.length ? page[page.length - 1].seq : null, more };
+}
+
+/** The newest `count` readings of a run, in seq order: what a page resuming a long run holds. */
+export function readingsTail(
+	db: Db,
+	runId: number,
+	count: number
+): { readings: (SoakReadingIn & { bootId: string | null })[]; lastSeq: number | null; more: boolean } {
+	getRow(db, runId);
+	const rows = db
+		.select(readingColumns)
+		.from(table.soakReadings)
+		.where(eq(table.soakReadings.runId, runId))
+		.orderBy(desc(table.soakReadings.seq), desc(table.soakReadings.probe))
+		.limit(count)
+		.all()
+		.reverse();
+	return { readings: rows, lastSeq: rows.length ? rows[rows.length - 1].seq : null, more: false };
 }
 
 /**

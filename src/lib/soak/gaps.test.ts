@@ -88,4 +88,21 @@ describe('LiveSeriesBuilder', () => {
 		expect(seriesBucket(run, run.startedAtMs - 1e12)).toBe(0); // clamped: never a negative bucket
 		expect(seriesBucket(run, 8.64e15)).toBe(SERIES_BUCKETS - 1); // nor past the last
 	});
+
+	it('resumed from the rows stored so far, then fed the newer readings, draws the same chart', async () => {
+		const { LiveSeriesBuilder } = await import('./series');
+		const run = { startedAtMs: 1_800_000_000_000, durationS: 3600, timeScale: 1 };
+		const all = record().map((r) => ({ ...r, celsius: 30 + (r.seq % 5) * 0.25 }));
+		const whole = new LiveSeriesBuilder(run);
+		for (const r of all) whole.add(r);
+		// The server's rows for the first 60 % (as another builder would store them), then the rest live.
+		const cut = Math.floor(all.length * 0.6);
+		const stored = new LiveSeriesBuilder(run);
+		for (const r of all.slice(0, cut)) stored.add(r);
+		const rows = stored.rows();
+		const resumed = new LiveSeriesBuilder(run);
+		resumed.seed(rows);
+		for (const r of all.slice(cut)) resumed.add(r);
+		expect(resumed.series()).toEqual(whole.series());
+	});
 });

@@ -111,6 +111,26 @@ export class LiveSeriesBuilder {
 		this.#cached = null;
 	}
 
+	/** Start from bucket rows already stored (a resumed run), then keep adding readings. */
+	seed(rows: readonly SeriesBucketRow[]): void {
+		for (const r of rows) {
+			const k = `${r.probe}|${r.bucket}`;
+			const row = this.#rows.get(k);
+			if (row) {
+				row.n += r.n;
+				row.sumC += r.sumC;
+				row.minC = Math.min(row.minC, r.minC);
+				row.maxC = Math.max(row.maxC, r.maxC);
+			} else this.#rows.set(k, { ...r });
+		}
+		this.#cached = null;
+	}
+
+	/** The bucket rows held (copies): what the server stores for the same readings. */
+	rows(): SeriesBucketRow[] {
+		return [...this.#rows.values()].map((r) => ({ ...r }));
+	}
+
 	series(): SoakSeries {
 		this.#cached ??= seriesOf(this.run, [...this.#rows.values()]);
 		return this.#cached;

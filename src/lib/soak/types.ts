@@ -2,7 +2,7 @@
 import type { SoakChannel, SoakPresetId } from './presets';
 import type { SoakLimits } from './soak-limits';
 import type { SoakSummary } from './verdict';
-import type { SoakSeries } from './series';
+import type { SeriesBucketRow, SoakSeries } from './series';
 
 export type SoakStatus = 'running' | 'passed' | 'failed' | 'aborted';
 export type SoakVerdict = 'passed' | 'failed' | 'aborted';
@@ -47,6 +47,8 @@ export interface SoakRunDetail {
 	summary: SoakSummary;
 	/** The run's chart downsampled to a fixed number of buckets (mean, min, max °C per probe). */
 	series: SoakSeries;
+	/** While the run goes on: the series' bucket rows, so a resuming page can keep the chart growing. */
+	seriesRows?: SeriesBucketRow[];
 	events: SoakEventView[];
 }
 

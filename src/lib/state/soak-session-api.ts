@@ -60,6 +60,15 @@ export async function fetchReadings<R>(
 	return (await res.json()) as ReadingsPage<R>;
 }
 
+/** The newest `count` readings of a run, in seq order. */
+export async function fetchReadingsTail<R>(runId: number, count: number): Promise<ReadingsPage<R> | null> {
+	const res = await fetch(`/api/soak-runs/${runId}/readings?tail=${count}`, { cache: 'no-store' }).catch(
+		() => null
+	);
+	if (!res || !res.ok) return null;
+	return (await res.json()) as ReadingsPage<R>;
+}
+
 /** Raw answers: the outbox decides per status what is settled and what is retried. */
 export function postReadings(runId: number, readings: unknown[]): Promise<Response | null> {
 	return postJson(`/api/soak-runs/${runId}/readings`, { readings }).catch(() => null);

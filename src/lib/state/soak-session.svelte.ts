@@ -7,7 +7,7 @@ import { SoakAlarmSound } from './soak-alarm';
 import type { HelloMessage } from '$lib/bridge/protocol';
 import { soakSeconds, type Breach, type Gap, type SoakReadingIn } from '$lib/soak/verdict';
 import { LiveGapFinder } from '$lib/soak/gaps';
-import { LiveSeriesBuilder, type SoakSeries } from '$lib/soak/series';
+import { LiveSeriesBuilder, type SeriesBucketRow, type SoakSeries } from '$lib/soak/series';
 import type { SoakRunDetail, SoakRunView } from '$lib/soak/types';
 import type { CustomDrive, SoakPresetId } from '$lib/soak/presets';
 import type { SoakLimits } from '$lib/soak/soak-limits';
@@ -43,6 +43,14 @@ export interface StartParams {
 
 /** Wall seconds past the planned end before the bridge's deadman stops the drive on its own. */
 const DEADMAN_MARGIN_S = 30;
+/**
+ * Readings held in the page. Past HELD_MAX the oldest go (down to HELD_KEEP); a run with more
+ * than RESUME_TAIL stored resumes from its newest RESUME_TAIL only — enough for the rise window
+ * and the short-run chart, while the long-run chart, count and gaps come from the server's record.
+ */
+const HELD_MAX = 24_000;
+const HELD_KEEP = 16_000;
+const RESUME_TAIL = 8_000;
 
 const browserStorage = () => (typeof localStorage === 'undefined' ? null : localStorage);
 
@@ -79,6 +87,17 @@ export class SoakSession {
 	/** The same readings ordered by seq, kept as they arrive (inserted in place when late). */
 	#sorted: StoredReading[] = [];
 	#gapFinder = new LiveGapFinder();
+	/**
+	 * Readings stored on the server but not held here (older than the held ones): a resumed long
+	 * run holds only its newest readings, and a live one lets its oldest go past HELD_MAX.
+	 */
+	#unheldCount = 0;
+	/** Readings at or below this seq are not held (the server has them). */
+	#floorSeq = -Infinity;
+	/** Breaks in the record before the held readings, from the server's summary. */
+	#unheldGaps: Gap[] = [];
+	/** Bucket rows the server had when a long run was resumed, and the highest seq they include. */
+	#seed: { rows: SeriesBucketRow[]; upToSeq: number } | null = null;
 	/** The run's chart downsampled as readings arrive (built once the run is known). */
 	#series: LiveSeriesBuilder | null = null;
 	#outbox: ReadingOutbox<StoredReading> | null = null;
@@ -146,7 +165,7 @@ export class SoakSession {
 	}
 	get readingCount(): number {
 		void this.#version;
-		return this.#all.size;
+		return this.#unheldCount + this.#all.size;
 	}
 	/** Readings not yet acknowledged by the server. */
 	get pendingCount(): number {
@@ -194,7 +213,8 @@ export class SoakSession {
 	/** Breaks in the record (bridge restarts, long silences), kept as readings arrive. */
 	gaps(): Gap[] {
 		void this.#version;
-		return this.#gapFinder.gaps();
+		const live = this.#gapFinder.gaps();
+		return this.#unheldGaps.length ? [...this.#unheldGaps, ...live] : live;
 	}
 
 	/** The record downsampled to a fixed number of buckets per probe (a long run's chart). */
@@ -228,7 +248,17 @@ export class SoakSession {
 		this.#gapFinder.add(r);
 		this.#series?.add(r);
 		this.#watch?.addReading(r);
+		if (list.length > HELD_MAX) this.#letGo(list.length - HELD_KEEP);
 		return true;
+	}
+
+	/** Stop holding the `n` oldest readings (the server has them; counts, chart and gaps keep them). */
+	#letGo(n: number): void {
+		const gone = this.#sorted.splice(0, n);
+		for (const r of gone) this.#all.delete(key(r));
+		this.#unheldCount += gone.length;
+		const last = gone.at(-1);
+		if (last) this.#floorSeq = Math.max(this.#floorSeq, last.seq);
 	}
 
 	// ── lifecycle ────────────────────────────────────────────────────────────
@@ -258,7 +288,8 @@ export class SoakSession {
 			this.#bump();
 			return;
 		}
-		await this.#loadServerReadings(runId);
+		if (detail.readingCount > RESUME_TAIL && detail.seriesRows) await this.#loadTail(runId, detail);
+		else await this.#loadServerReadings(runId);
 		this.#watchFor(detail).seedThdn(
 			detail.events
 				.filter((e) => e.kind === 'thdn')
@@ -455,7 +486,7 @@ export class SoakSession {
 			if (!probes.has(r.probe)) continue;
 			// Readings after the bridge's seq at the start belong to the run; without that seq, by time.
 			if (run.startSeq !== null ? r.seq <= run.startSeq : r.t < run.startedAt) continue;
-			if (this.#all.has(key(r))) continue;
+			if (r.seq <= this.#floorSeq || this.#all.has(key(r))) continue;
 			const stored: StoredReading = {
 				probe: r.probe,
 				seq: r.seq,
@@ -608,9 +639,12 @@ export class SoakSession {
 			durationS: detail.run.durationS,
 			timeScale: detail.run.timeScale
 		});
+		const seed = this.#seed;
+		if (seed) series.seed(seed.rows);
 		for (const r of this.#sorted) {
 			watch.addReading(r);
-			series.add(r);
+			// The seeded rows already hold what the server had when the page resumed.
+			if (!seed || r.seq > seed.upToSeq) series.add(r);
 		}
 		this.#series = series;
 		this.#watch = watch;
@@ -730,6 +764,29 @@ export class SoakSession {
 			this.#phase = 'error';
 		}
 		return null;
+	}
+
+	/**
+	 * Resume a long run from its newest readings only: the chart from the server's bucket rows,
+	 * the count and earlier gaps from its summary. A day's run reloads as fast as an hour's.
+	 */
+	async #loadTail(runId: number, detail: SoakRunDetail): Promise<void> {
+		const page = await api.fetchReadingsTail<StoredReading>(runId, RESUME_TAIL);
+		if (!page || !page.readings.length) return this.#loadServerReadings(runId);
+		const first = page.readings[0];
+		const upToSeq = detail.lastSeq ?? -1;
+		const latest: Record<string, StoredReading> = {};
+		for (const r of page.readings) {
+			this.#store(r);
+			const prev = latest[r.probe];
+			if (!prev || r.seq > prev.seq) latest[r.probe] = r;
+		}
+		this.#latest = latest;
+		const heldOfCount = page.readings.filter((r) => r.seq <= upToSeq).length;
+		this.#unheldCount = Math.max(0, detail.readingCount - heldOfCount);
+		this.#floorSeq = first.seq - 1;
+		this.#unheldGaps = detail.summary.gaps.filter((g) => g.toSeq <= first.seq);
+		this.#seed = { rows: detail.seriesRows ?? [], upToSeq };
 	}
 
 	async #loadServerReadings(runId: number): Promise<void> {

@@ -4,19 +4,28 @@ import { z } from 'zod';
 import { db } from '$lib/server/db';
 import { requireUser } from '$lib/server/guards';
 import { endpoint, idParam, json, readJson, readQuery } from '$lib/server/api';
-import { addReadings, readingsAfter, readingsBodySchema, READINGS_BODY_MAX_BYTES } from '$lib/server/soak';
+import {
+	addReadings,
+	readingsAfter,
+	readingsBodySchema,
+	readingsTail,
+	READINGS_BODY_MAX_BYTES
+} from '$lib/server/soak';
 import type { RequestHandler } from './$types';
 
 const querySchema = z.object({
 	after: z.coerce.number().int().min(-1).default(-1),
-	limit: z.coerce.number().int().min(1).max(20_000).default(5000)
+	limit: z.coerce.number().int().min(1).max(20_000).default(5000),
+	/** Instead of a page after a seq: the newest `tail` readings (a page resuming a long run). */
+	tail: z.coerce.number().int().min(1).max(20_000).optional()
 });
 
 export const GET: RequestHandler = endpoint((event) => {
 	requireUser(event);
 	const id = idParam(event.params.id, 'soak run');
 	const q = readQuery(event.url, querySchema);
-	return json(readingsAfter(db, id, q.after, q.limit), { headers: { 'cache-control': 'no-store' } });
+	const page = q.tail !== undefined ? readingsTail(db, id, q.tail) : readingsAfter(db, id, q.after, q.limit);
+	return json(page, { headers: { 'cache-control': 'no-store' } });
 });
 
 export const POST: RequestHandler = endpoint(async (event) => {
