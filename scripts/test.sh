@@ -6,6 +6,7 @@ cd "$(dirname "$0")/.."
 need_pkgs=()
 [ -x /usr/bin/chromium ] || need_pkgs+=(chromium)
 command -v sox >/dev/null 2>&1 || need_pkgs+=(sox)
+command -v pdftotext >/dev/null 2>&1 || need_pkgs+=(poppler-utils)
 if [ ${#need_pkgs[@]} -gt 0 ]; then
 	if [ "$(id -u)" = "0" ]; then
 		echo "Installing Debian packages the tests use: ${need_pkgs[*]}"
