@@ -9,7 +9,7 @@ import { hashPassword } from '../src/lib/server/auth';
 import { defaultSettings, updateSettings } from '../src/lib/server/settings';
 import { createLimitProfile, seedLimitProfiles } from '../src/lib/server/limit-profiles';
 import { createSnapshot } from '../src/lib/server/snapshots';
-import { encodeWav } from '../src/lib/dsp/wav';
+import { demoCapture } from './seed-capture';
 import { env } from '../src/lib/server/env';
 import { UNIT_CATEGORIES } from '../src/lib/schemas/enums';
 
@@ -656,22 +656,9 @@ export async function seedDemo(db: Db, options: { now?: Date } = {}): Promise<bo
 export const SIGN_OFF_DEMO = { make: 'Pellowmere', model: 'SA-150' } as const;
 
 /** A 1 kHz tone (0.5 of full scale) with a little third harmonic, as a bench capture would hold it. */
-function demoCapture(thirdHarmonic: number): Uint8Array {
-	const rateHz = 48000;
-	const n = 16384;
-	const left = new Float32Array(n);
-	const right = new Float32Array(n);
-	for (let i = 0; i < n; i++) {
-		const w = (2 * Math.PI * 1000 * i) / rateHz;
-		left[i] = 0.5 * Math.sin(w) + 0.5 * thirdHarmonic * Math.sin(3 * w);
-		right[i] = 0.49 * Math.sin(w) + 0.49 * thirdHarmonic * Math.sin(3 * w);
-	}
-	return encodeWav([left, right], rateHz);
-}
-
 /**
  * One power amplifier awaiting sign-off, with what the shop requires: a before snapshot that
- * failed (3 % third harmonic), an after snapshot that passes, and a one-hour soak at real time
+ * failed (the right output device clips early, tired reservoir capacitors), an after snapshot that passes, and a one-hour soak at real time
  * that passed, so a supervisor can review and sign it from `npm start`.
  */
 function seedSignOffDemo(db: Db, userIds: Record<string, string>, nowMs: number): void {
@@ -784,17 +771,36 @@ function seedSignOffDemo(db: Db, userIds: Record<string, string>, nowMs: number)
 		},
 		userIds.supervisor
 	);
-	createSnapshot(db, {
-		jobId,
-		userId: tech,
-		wav: demoCapture(0.03),
-		meta: { label: 'Before: as received, 1 kHz', stage: 'before', profileId: profile.id }
+	// 10 W into 8 Ω (8.9 V rms) at 1 kHz: the generator's 0.447 V rms through the unit's 26 dB.
+	const drive = { frequencyHz: 1000, levelVrms: 0.447 };
+	// As received: the right output device clips early and the reservoir capacitors are tired.
+	const before = demoCapture({
+		tone: drive,
+		sim: { faults: { weakOutputDevice: 'right', tiredFilterCap: true } },
+		seed: 21
 	});
 	createSnapshot(db, {
 		jobId,
 		userId: tech,
-		wav: demoCapture(0.0002),
-		meta: { label: 'After: recap and bias, 1 kHz', stage: 'after', profileId: profile.id }
+		wav: before.wav,
+		meta: {
+			...before.meta,
+			label: 'Before: as received, 10 W at 1 kHz',
+			stage: 'before',
+			profileId: profile.id
+		}
+	});
+	const after = demoCapture({ tone: drive, seed: 22 });
+	createSnapshot(db, {
+		jobId,
+		userId: tech,
+		wav: after.wav,
+		meta: {
+			...after.meta,
+			label: 'After: recap and bias, 10 W at 1 kHz',
+			stage: 'after',
+			profileId: profile.id
+		}
 	});
 
 	// A one-hour soak at real time (time scale 1) at one-eighth power, readings every 30 s.
