@@ -3,8 +3,8 @@
 // colour and by name, so colour is never the only signal.
 import type { CompareSnapshot } from './compare-api';
 
-/** Theme colours for snapshots 1…6, chosen apart from the two channel colours. */
-export const SNAPSHOT_COLORS = ['--muted', '--accent', '--info', '--hold', '--ok', '--text'] as const;
+/** Theme colours for snapshots 1…6, chosen apart from the two channel colours; the faint grey comes last. */
+export const SNAPSHOT_COLORS = ['--accent', '--info', '--hold', '--ok', '--text', '--muted'] as const;
 
 export const STAGE_LABEL: Record<string, string> = { before: 'Before', after: 'After', other: 'Note' };
 
