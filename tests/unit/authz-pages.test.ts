@@ -175,6 +175,15 @@ const ACTIONS: ActionRow[] = [
 	},
 	{
 		route: '/jobs/[id]',
+		action: 'rating',
+		expect: ['login', OK, OK, OK],
+		request: (fx) => ({
+			...job(fx),
+			form: { ratedPowerW: '60', ratedLoadOhms: '8', ratedPowerBasis: 'continuous-per-channel' }
+		})
+	},
+	{
+		route: '/jobs/[id]',
 		action: 'log',
 		expect: ['login', OK, OK, OK],
 		request: (fx) => ({ ...job(fx), form: { text: 'Checked the fuse', minutes: '5' } })
