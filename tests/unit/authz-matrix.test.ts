@@ -12,6 +12,7 @@ import { createRun } from '$lib/server/soak';
 import { createLimitProfile } from '$lib/server/limit-profiles';
 import type { ProfileInputRaw } from '$lib/limit-profiles';
 import { createSnapshot } from '$lib/server/snapshots';
+import { recordProcedureRun } from '$lib/server/procedures';
 import { encodeWav } from '$lib/dsp';
 import { isWrapped } from '$lib/server/handlers';
 import {
@@ -78,6 +79,29 @@ function snapshotIn(fx: Fixtures): string {
 		meta: { label: 'Matrix snapshot', stage: 'after' }
 	});
 	return String(created.id);
+}
+
+/** A small response sweep as the bench uploads it. */
+function matrixSweep() {
+	return {
+		kind: 'response',
+		label: 'Matrix sweep',
+		perOctave: 3,
+		settleMs: 200,
+		generatorVrms: 0.5,
+		bandHz: [20, 20_000],
+		limitPlusMinusDb: 1,
+		steps: [
+			{ frequencyHz: 20, levelVrms: [0.98, 0.97] },
+			{ frequencyHz: 1000, levelVrms: [1, 1] },
+			{ frequencyHz: 20_000, levelVrms: [0.95, 0.96] }
+		]
+	};
+}
+
+/** A procedure run stored inside the case's savepoint (rolled back after). */
+function procedureIn(fx: Fixtures): string {
+	return String(recordProcedureRun(fx.db, fx.jobId, fx.users.tech1, matrixSweep()).id);
 }
 
 type Method = 'GET' | 'POST' | 'PUT' | 'PATCH' | 'DELETE';
@@ -373,6 +397,25 @@ const MATRIX: Row[] = [
 		method: 'GET',
 		expect: [401, 200, 200, 200],
 		request: (fx) => ({ params: { id: snapshotIn(fx) } })
+	},
+	// bench procedures: everyone signed in records and reads; the server computes the figures
+	{
+		route: '/api/jobs/[id]/procedures',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: String(fx.jobId) } })
+	},
+	{
+		route: '/api/jobs/[id]/procedures',
+		method: 'POST',
+		expect: [401, 201, 201, 201],
+		request: (fx) => ({ params: { id: String(fx.jobId) }, body: matrixSweep() })
+	},
+	{
+		route: '/api/procedures/[id]',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: procedureIn(fx) } })
 	},
 	// compare: everyone signed in compares a job's own snapshots
 	{

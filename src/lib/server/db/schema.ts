@@ -434,3 +434,32 @@ export type SoakEvent = typeof soakEvents.$inferSelect;
 export type AuditEntry = typeof auditLog.$inferSelect;
 export type SignOff = typeof signOffs.$inferSelect;
 export type SignOffSupersession = typeof signOffSupersessions.$inferSelect;
+
+// ---- procedures ----
+
+/**
+ * A bench procedure's result (sweep, phono equalisation, maximum power): the conditions and raw
+ * per-step readings as the bench sent them, the figures and verdict the server computed from
+ * them. Immutable once written (triggers in the migration).
+ */
+export const procedureRuns = sqliteTable(
+	'procedure_runs',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		jobId: integer('job_id')
+			.notNull()
+			.references(() => jobs.id, { onDelete: 'cascade' }),
+		kind: text('kind', { enum: ['response', 'phono', 'max-power'] }).notNull(),
+		label: text('label').notNull(),
+		/** The upload, validated: conditions and raw readings. */
+		input: text('input', { mode: 'json' }).notNull(),
+		/** What the server computed from it. */
+		result: text('result', { mode: 'json' }).notNull(),
+		verdict: text('verdict', { enum: ['pass', 'fail', 'none'] }).notNull(),
+		createdBy: text('created_by')
+			.notNull()
+			.references(() => users.id),
+		createdAt: createdAt()
+	},
+	(t) => [index('procedure_runs_job_idx').on(t.jobId, t.createdAt)]
+);

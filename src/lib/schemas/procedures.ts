@@ -1,0 +1,103 @@
+// Bench procedure results as the bench uploads them: the conditions and each step's raw reading.
+// The server recomputes every derived figure and the verdict from these with $lib/procedures.
+import { z } from 'zod';
+import { PHONO_FEEDS } from '$lib/procedures/phono';
+import { SWEEP_DENSITIES } from '$lib/procedures/sweep';
+import { THD_THRESHOLDS_PERCENT, MAX_POWER_FREQUENCIES_HZ } from '$lib/procedures/max-power';
+
+export const PROCEDURE_KINDS = ['response', 'phono', 'max-power'] as const;
+export type ProcedureKind = (typeof PROCEDURE_KINDS)[number];
+
+export const PROCEDURE_LABELS: Record<ProcedureKind, string> = {
+	response: 'Frequency response',
+	phono: 'Phono equalisation',
+	'max-power': 'Maximum power'
+};
+
+const finite = z.number().refine(Number.isFinite, 'must be a finite number');
+const volts = finite.min(0).max(1000);
+const hz = finite.min(1).max(200_000);
+const perChannel = z.array(volts.nullable()).min(1).max(2);
+const label = z.string().trim().min(1, 'Give the run a label').max(200);
+const note = z.string().trim().max(2000).optional();
+const literalUnion = <T extends readonly number[]>(values: T, what: string) =>
+	z
+		.number()
+		.refine((v) => (values as readonly number[]).includes(v), `${what} must be one of ${values.join(', ')}`);
+
+const sweepStep = z.strictObject({ frequencyHz: hz, levelVrms: perChannel });
+const steps = z
+	.array(sweepStep)
+	.min(2, 'a sweep needs at least two steps')
+	.max(200, 'a sweep has at most 200 steps')
+	.refine((s) => s.some((x) => Math.abs(x.frequencyHz - 1000) < 1e-6), 'a sweep needs its 1 kHz step');
+
+const band = z
+	.tuple([hz, hz])
+	.refine(([lo, hi]) => hi > lo, 'the band’s upper edge must be above its lower edge');
+
+export const responseRunSchema = z.strictObject({
+	kind: z.literal('response'),
+	label,
+	perOctave: literalUnion(SWEEP_DENSITIES, 'points per octave'),
+	settleMs: z.number().int().min(0).max(10_000),
+	generatorVrms: finite.positive().max(20),
+	bandHz: band,
+	/** Pass when the flatness over the band is within ± this many dB (null: no limit). */
+	limitPlusMinusDb: finite.positive().max(40).nullable(),
+	steps,
+	note
+});
+
+export const phonoRunSchema = z.strictObject({
+	kind: z.literal('phono'),
+	label,
+	perOctave: literalUnion(SWEEP_DENSITIES, 'points per octave'),
+	settleMs: z.number().int().min(0).max(10_000),
+	generatorVrms: finite.positive().max(20),
+	feed: z.enum(PHONO_FEEDS, `feed is one of ${PHONO_FEEDS.join(', ')}`),
+	iecRolloff: z.boolean(),
+	loadingOhms: finite.positive().max(1_000_000),
+	loadingPicofarads: finite.min(0).max(10_000),
+	networkErrorDb: z.array(finite.min(-20).max(20)).max(200).optional(),
+	/** Pass when every step is within ± this many dB of the curve (null: no limit). */
+	limitDb: finite.positive().max(40).nullable(),
+	steps,
+	note
+});
+
+const rampReading = z.strictObject({
+	levelVrms: volts,
+	outputVrms: perChannel,
+	thdnPercent: z.array(finite.min(0).max(1000).nullable()).min(1).max(2)
+});
+
+export const maxPowerRunSchema = z.strictObject({
+	kind: z.literal('max-power'),
+	label,
+	frequencyHz: literalUnion(MAX_POWER_FREQUENCIES_HZ, 'frequency'),
+	loadOhms: finite.min(1).max(100),
+	thresholdPercent: literalUnion(THD_THRESHOLDS_PERCENT, 'THD+N threshold'),
+	startLevelVrms: finite.positive().max(20),
+	stepDb: finite.min(0.1).max(6),
+	maxLevelVrms: finite.positive().max(20),
+	maxSteps: z.number().int().min(1).max(200),
+	channels: z.number().int().min(1).max(2),
+	/** The mains voltage the technician read at the unit during the run. */
+	mainsVoltsRms: finite.min(80, 'mains below 80 V is not a full-mains reading').max(260),
+	/** True when the unit was powered through a current-limiting lamp: such a figure is refused. */
+	throughLamp: z.boolean(),
+	cancelled: z.boolean().default(false),
+	readings: z.array(rampReading).min(1).max(200),
+	note
+});
+
+export const procedureRunSchema = z.discriminatedUnion(
+	'kind',
+	[responseRunSchema, phonoRunSchema, maxPowerRunSchema],
+	{
+		error: `kind is one of ${PROCEDURE_KINDS.join(', ')}`
+	}
+);
+export type ProcedureRunInput = z.input<typeof procedureRunSchema>;
+export type ProcedureRunData = z.infer<typeof procedureRunSchema>;

@@ -1,0 +1,229 @@
+// Bench procedure results: validated, recomputed from their raw per-step readings with the shared
+// procedures library (the bench's own figures are never trusted), judged, stored immutably and
+// audited. The job page, compare and the customer report read them through procedureSummary.
+import { and, desc, eq } from 'drizzle-orm';
+import type { Db } from './db/open';
+import * as table from './db/schema';
+import { DomainError } from './errors';
+import { validate } from './validate';
+import { audit } from './audit';
+import { assertJobOpen } from './jobs';
+import { procedureRunSchema, type ProcedureKind, type ProcedureRunData } from '../schemas/procedures';
+import { flatness, relativeLevelsDb, type Flatness } from '../procedures/sweep';
+import { phonoDeviation, type PhonoResult } from '../procedures/phono';
+import { replayRamp, type ChannelCrossing, type StopReason } from '../procedures/max-power';
+
+export type ProcedureVerdict = 'pass' | 'fail' | 'none';
+
+export type ProcedureResult =
+	| {
+			kind: 'response';
+			frequenciesHz: number[];
+			relativeDb: (number | null)[][];
+			flatness: (Flatness | null)[];
+	  }
+	| ({ kind: 'phono'; frequenciesHz: number[] } & PhonoResult)
+	| {
+			kind: 'max-power';
+			reason: StopReason;
+			crossings: (ChannelCrossing | null)[];
+			steps: number;
+			mainsVoltsRms: number;
+	  };
+
+export interface ProcedureRunView {
+	id: number;
+	jobId: number;
+	kind: ProcedureKind;
+	label: string;
+	input: ProcedureRunData;
+	result: ProcedureResult;
+	verdict: ProcedureVerdict;
+	createdBy: { id: string; name: string };
+	createdAt: string;
+}
+
+/** The figures and verdict the server stands behind, from the raw readings alone. */
+export function computeProcedure(
+	data: ProcedureRunData,
+	ratedPowerW: number | null
+): { result: ProcedureResult; verdict: ProcedureVerdict } {
+	if (data.kind === 'response') {
+		const frequenciesHz = data.steps.map((s) => s.frequencyHz);
+		const relativeDb = relativeLevelsDb(data.steps);
+		const channels = Math.max(...data.steps.map((s) => s.levelVrms.length));
+		const fl = Array.from({ length: channels }, (_, ch) =>
+			flatness(
+				frequenciesHz,
+				relativeDb.map((r) => r[ch] ?? null),
+				data.bandHz[0],
+				data.bandHz[1]
+			)
+		);
+		const verdict: ProcedureVerdict =
+			data.limitPlusMinusDb === null
+				? 'none'
+				: fl.every(
+							(f) => f !== null && f.maxDb <= data.limitPlusMinusDb! && f.minDb >= -data.limitPlusMinusDb!
+					  )
+					? 'pass'
+					: 'fail';
+		return { result: { kind: 'response', frequenciesHz, relativeDb, flatness: fl }, verdict };
+	}
+	if (data.kind === 'phono') {
+		const r = phonoDeviation(data.steps, data);
+		const verdict: ProcedureVerdict =
+			data.limitDb === null
+				? 'none'
+				: r.maxDeviationDb.every((d) => d !== null && d <= data.limitDb!)
+					? 'pass'
+					: 'fail';
+		return { result: { kind: 'phono', frequenciesHz: data.steps.map((s) => s.frequencyHz), ...r }, verdict };
+	}
+	if (data.throughLamp)
+		throw new DomainError(
+			'invalid',
+			'A maximum-power figure taken through a current-limiting lamp is not the unit’s power: run it on full mains and record the mains voltage.',
+			[{ path: 'throughLamp', message: 'must be false: full mains, no series lamp' }]
+		);
+	const state = replayRamp(
+		{
+			frequencyHz: data.frequencyHz,
+			loadOhms: data.loadOhms,
+			thresholdPercent: data.thresholdPercent,
+			startLevelVrms: data.startLevelVrms,
+			stepDb: data.stepDb,
+			maxLevelVrms: data.maxLevelVrms,
+			maxSteps: data.maxSteps,
+			ratedPowerW,
+			channels: data.channels
+		},
+		data.readings,
+		data.cancelled
+	);
+	const reason = state.reason ?? 'cancelled';
+	// A ramp that reached the threshold on every channel is a measurement; anything else is a record.
+	const verdict: ProcedureVerdict =
+		reason === 'threshold' ? 'pass' : reason === 'over-rated' ? 'fail' : 'none';
+	return {
+		result: {
+			kind: 'max-power',
+			reason,
+			crossings: state.crossings,
+			steps: state.steps.length,
+			mainsVoltsRms: data.mainsVoltsRms
+		},
+		verdict
+	};
+}
+
+export function recordProcedureRun(db: Db, jobId: number, userId: string, input: unknown): ProcedureRunView {
+	const data = validate(procedureRunSchema, input, 'Invalid procedure result');
+	const id = db.transaction((tx) => {
+		const job = assertJobOpen(tx, jobId);
+		const { result, verdict } = computeProcedure(data, job.ratedPowerW);
+		const now = new Date();
+		const row = tx
+			.insert(table.procedureRuns)
+			.values({
+				jobId,
+				kind: data.kind,
+				label: data.label,
+				input: data,
+				result,
+				verdict,
+				createdBy: userId,
+				createdAt: now
+			})
+			.returning({ id: table.procedureRuns.id })
+			.get();
+		audit(tx, {
+			actorId: userId,
+			action: 'procedure.recorded',
+			jobId,
+			subject: `procedure #${row.id}`,
+			detail: { kind: data.kind, label: data.label, verdict },
+			at: now
+		});
+		return row.id;
+	});
+	return getProcedureRun(db, id)!;
+}
+
+const columns = {
+	id: table.procedureRuns.id,
+	jobId: table.procedureRuns.jobId,
+	kind: table.procedureRuns.kind,
+	label: table.procedureRuns.label,
+	input: table.procedureRuns.input,
+	result: table.procedureRuns.result,
+	verdict: table.procedureRuns.verdict,
+	createdAt: table.procedureRuns.createdAt,
+	userId: table.users.id,
+	userName: table.users.name
+};
+
+type Row = {
+	id: number;
+	jobId: number;
+	kind: ProcedureKind;
+	label: string;
+	input: unknown;
+	result: unknown;
+	verdict: ProcedureVerdict;
+	createdAt: Date;
+	userId: string;
+	userName: string;
+};
+
+function view(r: Row): ProcedureRunView {
+	return {
+		id: r.id,
+		jobId: r.jobId,
+		kind: r.kind,
+		label: r.label,
+		input: r.input as ProcedureRunData,
+		result: r.result as ProcedureResult,
+		verdict: r.verdict,
+		createdBy: { id: r.userId, name: r.userName },
+		createdAt: r.createdAt.toISOString()
+	};
+}
+
+export function getProcedureRun(db: Db, id: number): ProcedureRunView | null {
+	const r = db
+		.select(columns)
+		.from(table.procedureRuns)
+		.innerJoin(table.users, eq(table.users.id, table.procedureRuns.createdBy))
+		.where(eq(table.procedureRuns.id, id))
+		.get();
+	return r ? view(r as Row) : null;
+}
+
+/** A job's procedure runs, newest first (at most `limit`). */
+export function listProcedureRuns(
+	db: Db,
+	jobId: number,
+	opts: { kind?: ProcedureKind; limit?: number } = {}
+): ProcedureRunView[] {
+	const where = opts.kind
+		? and(eq(table.procedureRuns.jobId, jobId), eq(table.procedureRuns.kind, opts.kind))
+		: eq(table.procedureRuns.jobId, jobId);
+	return db
+		.select(columns)
+		.from(table.procedureRuns)
+		.innerJoin(table.users, eq(table.users.id, table.procedureRuns.createdBy))
+		.where(where)
+		.orderBy(desc(table.procedureRuns.createdAt), desc(table.procedureRuns.id))
+		.limit(Math.min(200, opts.limit ?? 100))
+		.all()
+		.map((r) => view(r as Row));
+}
+
+/** What compare and the customer report show: the newest run of each kind with its verdict. */
+export function procedureSummary(db: Db, jobId: number): ProcedureRunView[] {
+	const latest = new Map<ProcedureKind, ProcedureRunView>();
+	for (const r of listProcedureRuns(db, jobId, { limit: 200 }))
+		if (!latest.has(r.kind)) latest.set(r.kind, r);
+	return [...latest.values()];
+}
