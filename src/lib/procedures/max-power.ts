@@ -97,10 +97,8 @@ export function stepRamp(state: RampState, reading: RampReading): RampAction {
 	const outputs = reading.outputVrms;
 	if (outputs.every((v) => v == null || !(v > 0))) return stop(state, 'no-signal');
 	// Guard first: twice the rating is never a measurement worth taking.
-	if (
-		plan.ratedPowerW !== null &&
-		outputs.some((v) => v != null && wattsInto(v, plan.loadOhms) > 2 * plan.ratedPowerW)
-	)
+	const rated = plan.ratedPowerW;
+	if (rated !== null && outputs.some((v) => v != null && wattsInto(v, plan.loadOhms) > 2 * rated))
 		return stop(state, 'over-rated');
 	let allCrossed = true;
 	for (let ch = 0; ch < plan.channels; ch++) {
