@@ -248,6 +248,8 @@ export interface WorksheetSummary {
 	bias: BiasSheetStatus | null;
 	powerUp: PowerUpStatus | null;
 	lines: WorksheetLine[];
+	/** The sheets themselves, for the pages that show them in full (review, compare). */
+	sheets: Sheets;
 }
 
 export function summarizeWorksheets(
@@ -306,6 +308,7 @@ export function summarizeWorksheets(
 		safety,
 		bias,
 		powerUp,
+		sheets,
 		lines: WORKSHEET_KINDS.map((kind) => ({
 			kind,
 			label: WORKSHEET_KIND_LABELS[kind],
