@@ -24,7 +24,9 @@ export const PUBLIC_PAGES = ['/login', '/safety'] as const;
 export const ROUTE_PARAMS: Record<string, (ctx: ParamContext) => Promise<string>> = {
 	/** A job with parts, log entries and snapshots where possible: the fullest pages to lay out. */
 	id: async ({ request, routeId }) =>
-		String(routeId.startsWith('/snapshots/') ? await anySnapshotId(request) : await richJobId(request))
+		String(routeId.startsWith('/snapshots/') ? await anySnapshotId(request) : await richJobId(request)),
+	/** The power-up sheet: a table of steps and the current-against-mains chart to lay out. */
+	kind: async () => 'power-up'
 };
 
 export interface ParamContext {
