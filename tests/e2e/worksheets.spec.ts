@@ -45,7 +45,7 @@ test('a long-stored unit from intake through power-up, bias and the safety check
 	// A 110 V setting in the 230 V demo shop is flagged before anyone plugs it in.
 	await expect(page.getByTestId('intake-checklist')).toContainText('do not plug it in');
 	await page.getByLabel('Unit’s mains setting').fill('230');
-	await page.getByLabel(/Stored for years/).check();
+	await page.getByLabel(/Long in storage/).check();
 	await page.getByTestId('intake-submit').click();
 	await expect(page).toHaveURL(/\/jobs\/\d+$/);
 	await ready(page);
@@ -96,7 +96,7 @@ test('a long-stored unit from intake through power-up, bias and the safety check
 	await expect(page.getByTestId('power-up-steps').locator('tbody tr')).toHaveCount(3);
 	await expect(page.getByLabel('Mains applied', { exact: true })).toBeFocused();
 	await expect(page.locator('[data-testid="power-up-form"] canvas').first()).toBeVisible();
-	await page.getByLabel(/^Finished/).check();
+	await page.getByRole('checkbox', { name: /^Finished/ }).check();
 	await page.getByTestId('save-worksheet').click();
 	await expect(page.getByTestId('worksheet-message')).toContainText('Saved (version 1)');
 	await expect(page.getByTestId('bench-gate')).toHaveCount(0);
