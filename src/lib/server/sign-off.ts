@@ -14,7 +14,7 @@ import { audit, type AuditConn } from './audit';
 import { confirmPassword, waitText } from './auth';
 import { getSetting } from './settings';
 import { recordStatusChange } from './jobs';
-import { safetyEvidence } from './worksheets';
+import { readSheets, safetyEvidence } from './worksheets';
 import { describeDifferences, fingerprint, type CoveredRecord } from './sign-off-hash';
 import {
 	FOUR_EYES_MESSAGE,
@@ -111,7 +111,11 @@ export function coveredRecord(db: Conn, jobId: number): CoveredRecord {
 			state: p.state,
 			verificationNote: p.verificationNote
 		}));
-	return { version: 1, jobId, snapshots, soakRuns, parts };
+	// The worksheets as stored (validated on read: the signature covers what the pages show).
+	const worksheets = readSheets(db, jobId)
+		.views.filter((v) => v.data !== null)
+		.map((v) => ({ kind: v.kind, version: v.version, data: v.data }));
+	return { version: 1, jobId, snapshots, soakRuns, parts, ...(worksheets.length ? { worksheets } : {}) };
 }
 
 function evidenceOf(

@@ -13,7 +13,7 @@ import { listAudit } from './audit';
 import { updateSettings } from './settings';
 import { createRun } from './soak';
 import { prepareSnapshot } from './snapshots';
-import { signOffJob } from './sign-off';
+import { checkSignOff, signOffJob } from './sign-off';
 import { getWorksheet, saveWorksheet, worksheetHistory, worksheetSummary } from './worksheets';
 import { encodeWav } from '../dsp/wav';
 import { emptySheet } from '../schemas/worksheets';
@@ -248,5 +248,37 @@ describe('sign-off needs a passed safety check (shop setting, on by default)', (
 			'10.0.0.2'
 		);
 		expect(signed.requirements).toEqual([]);
+	});
+});
+
+describe('the signature covers the worksheets', () => {
+	it('hashes them with the record and names a changed sheet when the hash no longer matches', async () => {
+		updateSettings(db, {
+			signOff: { ...DEFAULT_SIGN_OFF_SETTINGS, requireAfterSnapshotPass: false, requirePassedSoak: false }
+		});
+		saveWorksheet(db, job, 'safety', { version: 0, data: passedSafetySheet() }, 'tech');
+		for (const s of ['diagnosing', 'repairing', 'testing', 'awaiting-review'] as const)
+			changeStatus(db, job, { status: s }, { id: 'tech', role: 'technician' });
+		const signed = await signOffJob(
+			db,
+			job,
+			{ decision: 'approve', comment: '', password: PASSWORD },
+			{ id: 'sup', role: 'supervisor' },
+			'10.0.0.3'
+		);
+		const row = db.select().from(table.signOffs).where(eq(table.signOffs.id, signed.id)).get()!;
+		expect(JSON.parse(row.covered).worksheets).toEqual([
+			{ kind: 'safety', version: 1, data: passedSafetySheet() }
+		]);
+		expect(checkSignOff(db, signed.id).intact).toBe(true);
+		// Bypassing the lock (the service refuses a signed-off job) to show the check notices.
+		db.update(table.jobWorksheets)
+			.set({ version: 2, data: passedSafetySheet({ earthed: false }) })
+			.where(eq(table.jobWorksheets.jobId, job))
+			.run();
+		expect(checkSignOff(db, signed.id)).toMatchObject({
+			intact: false,
+			differences: ['the safety worksheet changed (version 1 → 2)']
+		});
 	});
 });
