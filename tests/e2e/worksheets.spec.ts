@@ -74,6 +74,11 @@ test('a long-stored unit from intake through power-up, bias and the safety check
 		/^No soak run yet\. This unit is marked/
 	);
 
+	await page.goto(`/jobs/${id}/soak`);
+	await ready(page);
+	await expect(page.getByTestId('soak-gate')).toContainText('complete the first power-up sheet');
+	await expect(page.getByTestId('soak-start')).toBeDisabled();
+
 	// ── first power-up: three current-limited steps, Enter adds each ───────
 	await page.goto(`/jobs/${id}/worksheets/power-up`);
 	await ready(page);
