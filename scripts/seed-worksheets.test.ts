@@ -5,6 +5,7 @@ import { and, eq } from 'drizzle-orm';
 import { openDb } from '../src/lib/server/db/open';
 import * as table from '../src/lib/server/db/schema';
 import { worksheetSummary } from '../src/lib/server/worksheets';
+import { listJobs } from '../src/lib/server/jobs';
 import { SIGN_OFF_DEMO, seedDemo } from './seed';
 import { LONG_STORED_DEMO } from './seed-worksheets';
 
@@ -30,5 +31,7 @@ describe('demo worksheets', () => {
 		expect(stored.lines.find((l) => l.kind === 'power-up')?.state).toBe('blocked');
 		// Its 220 V tap is within 5 % of the demo shop's 230 V mains.
 		expect(stored.mains?.level).toBe('ok');
+		// Not at the head of the queue, where the bench demos pick their job.
+		expect(listJobs(db, {}).items[0].id).not.toBe(idOf(LONG_STORED_DEMO));
 	});
 });

@@ -4,7 +4,6 @@
 import { and, eq } from 'drizzle-orm';
 import type { Db } from '../src/lib/server/db/open';
 import * as table from '../src/lib/server/db/schema';
-import { changeStatus, createJob } from '../src/lib/server/jobs';
 import { saveWorksheet } from '../src/lib/server/worksheets';
 import {
 	biasChannelExample,
@@ -73,28 +72,62 @@ export function seedWorksheetsDemo(
 		saveWorksheet(db, demo.id, 'safety', { version: 0, data: passedSafetySheet() }, tech, at(6));
 	}
 
-	// A valve amplifier out of a loft: taken in, marked stored for years, not yet powered.
-	const job = createJob(
-		db,
-		{
-			customerName: 'Bertil Okonkwo-Marsh',
-			customerEmail: 'bertil.om@example.net',
-			category: 'valve-amplifier',
-			make: LONG_STORED_DEMO.make,
-			model: LONG_STORED_DEMO.model,
-			serial: 'VM-2291',
-			year: 1963,
-			complaint: 'Stored in a loft since the 1980s; untested. Customer wants it safe to use.',
-			ratedPowerW: 12,
-			ratedLoadOhms: 8,
-			technicianId: tech
-		},
-		tech
-	);
-	changeStatus(db, job.id, { status: 'diagnosing' }, { id: tech, role: 'technician' });
+	// A valve amplifier out of a loft: taken in a day ago, marked stored for years, not yet powered.
+	// Written with its own times (not at the head of the queue, where other demos pick a job).
+	const takenInMs = nowMs - 26 * HOUR_MS;
+	const jobId = db.transaction((tx) => {
+		const customerId = tx
+			.insert(table.customers)
+			.values({
+				name: 'Bertil Okonkwo-Marsh',
+				email: 'bertil.om@example.net',
+				createdAt: new Date(takenInMs)
+			})
+			.returning({ id: table.customers.id })
+			.get().id;
+		const id = tx
+			.insert(table.jobs)
+			.values({
+				customerId,
+				category: 'valve-amplifier',
+				make: LONG_STORED_DEMO.make,
+				model: LONG_STORED_DEMO.model,
+				serial: 'VM-2291',
+				year: 1963,
+				complaint: 'Stored in a loft since the 1980s; untested. Customer wants it safe to use.',
+				ratedPowerW: 12,
+				ratedLoadOhms: 8,
+				status: 'diagnosing',
+				technicianId: tech,
+				createdAt: new Date(takenInMs),
+				updatedAt: new Date(takenInMs + HOUR_MS)
+			})
+			.returning({ id: table.jobs.id })
+			.get().id;
+		tx.insert(table.jobStatusHistory)
+			.values([
+				{
+					jobId: id,
+					userId: tech,
+					fromStatus: null,
+					toStatus: 'received',
+					note: 'Taken in',
+					createdAt: new Date(takenInMs)
+				},
+				{
+					jobId: id,
+					userId: tech,
+					fromStatus: 'received',
+					toStatus: 'diagnosing',
+					createdAt: new Date(takenInMs + HOUR_MS)
+				}
+			])
+			.run();
+		return id;
+	});
 	saveWorksheet(
 		db,
-		job.id,
+		jobId,
 		'intake',
 		{
 			version: 0,
@@ -108,6 +141,7 @@ export function seedWorksheetsDemo(
 				notes: 'Do not plug in: limited power-up first. Filter can shows a bulge.'
 			})
 		},
-		tech
+		tech,
+		new Date(takenInMs + 10 * 60_000)
 	);
 }
