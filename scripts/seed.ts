@@ -12,6 +12,7 @@ import { createSnapshot } from '../src/lib/server/snapshots';
 import { demoCapture } from './seed-capture';
 import { env } from '../src/lib/server/env';
 import { UNIT_CATEGORIES } from '../src/lib/schemas/enums';
+import { seedWorksheetsDemo } from './seed-worksheets';
 
 export const DEMO_PASSWORD = 'bench-demo-2026';
 export const DEMO_SHOP_NAME = 'Quiet Valve Audio Works';
@@ -649,6 +650,7 @@ export async function seedDemo(db: Db, options: { now?: Date } = {}): Promise<bo
 	updateSettings(db, { ...defaultSettings(), shopName: DEMO_SHOP_NAME });
 	seedLimitProfiles(db, userIds.supervisor);
 	seedSignOffDemo(db, userIds, nowMs);
+	seedWorksheetsDemo(db, userIds, nowMs, SIGN_OFF_DEMO);
 	return true;
 }
 

@@ -19,12 +19,15 @@ export const PUBLIC_PAGES = ['/login', '/safety'] as const;
 
 /**
  * Sample values for route parameters, by parameter name: each returns the value to put in the
- * URL. Extend this when a new page brings a parameter (`[token]`, `[snapshotId]` …).
+ * URL, or several (the page is then checked once per value). Extend this when a new page brings
+ * a parameter (`[token]`, `[snapshotId]` …).
  */
-export const ROUTE_PARAMS: Record<string, (ctx: ParamContext) => Promise<string>> = {
+export const ROUTE_PARAMS: Record<string, (ctx: ParamContext) => Promise<string | string[]>> = {
 	/** A job with parts, log entries and snapshots where possible: the fullest pages to lay out. */
 	id: async ({ request, routeId }) =>
-		String(routeId.startsWith('/snapshots/') ? await anySnapshotId(request) : await richJobId(request))
+		String(routeId.startsWith('/snapshots/') ? await anySnapshotId(request) : await richJobId(request)),
+	/** Every worksheet: each kind is its own form (steps table and chart, bias grid, safety items). */
+	kind: async () => ['intake', 'power-up', 'bias', 'safety']
 };
 
 export interface ParamContext {
@@ -66,16 +69,17 @@ export async function pagesToCheck(request: APIRequestContext): Promise<PageToCh
 	const missing: string[] = [];
 	for (const routeId of routeIds()) {
 		if (SKIPPED[routeId]) continue;
-		let path = routeId;
+		let paths = [routeId];
 		for (const m of routeId.matchAll(/\[{1,2}(?:\.\.\.)?([^\]=]+)(?:=[^\]]+)?\]{1,2}/g)) {
 			const resolve = ROUTE_PARAMS[m[1]];
 			if (!resolve) {
 				missing.push(`${routeId} needs a sample value for [${m[1]}]`);
 				continue;
 			}
-			path = path.replace(m[0], encodeURIComponent(await resolve({ request, routeId })));
+			const values = [await resolve({ request, routeId })].flat();
+			paths = paths.flatMap((p) => values.map((v) => p.replace(m[0], encodeURIComponent(v))));
 		}
-		pages.push({ routeId, path });
+		for (const path of paths) pages.push({ routeId, path });
 	}
 	if (missing.length)
 		throw new Error(`Add these to ROUTE_PARAMS in tests/e2e/pages.ts: ${missing.join('; ')}`);

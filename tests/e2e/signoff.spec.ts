@@ -86,9 +86,11 @@ test('a supervisor is refused while a requirement is missing, then signs off wit
 	const missing = page.locator('[data-testid="requirement"][data-met="false"]');
 	await expect(missing).toHaveCount(1);
 	await expect(missing).toContainText('Missing: An after snapshot with a passing verdict');
-	await expect(page.locator('[data-testid="requirement"][data-met="true"]')).toContainText(
-		'A passed soak run'
-	);
+	// The seed's passed soak and passed safety check (bench worksheets) both count.
+	const met = page.locator('[data-testid="requirement"][data-met="true"]');
+	await expect(met).toHaveCount(2);
+	await expect(met.filter({ hasText: 'A passed soak run' })).toHaveCount(1);
+	await expect(met.filter({ hasText: 'A passed electrical safety check' })).toHaveCount(1);
 	await expect(page.getByTestId('review-snapshot-before')).toContainText('Fail');
 	await expect(page.getByTestId('link-compare')).toHaveAttribute(
 		'href',

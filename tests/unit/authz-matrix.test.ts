@@ -15,6 +15,7 @@ import { createSnapshot } from '$lib/server/snapshots';
 import { recordProcedureRun } from '$lib/server/procedures';
 import { encodeWav } from '$lib/dsp';
 import { isWrapped } from '$lib/server/handlers';
+import { emptySheet } from '$lib/schemas/worksheets';
 import {
 	ROLES,
 	ROUTES_DIR,
@@ -187,6 +188,22 @@ const MATRIX: Row[] = [
 		request: (fx) => ({
 			params: { id: String(fx.reviewJobId) },
 			body: { status: 'testing', note: 'One more run at full power' }
+		})
+	},
+	// bench worksheets: everyone signed in reads and fills them in
+	{
+		route: '/api/jobs/[id]/worksheets/[kind]',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: String(fx.jobId), kind: 'intake' } })
+	},
+	{
+		route: '/api/jobs/[id]/worksheets/[kind]',
+		method: 'PUT',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({
+			params: { id: String(fx.jobId), kind: 'intake' },
+			body: { version: 0, data: { ...emptySheet('intake'), mainsSettingVoltsRms: 230, fuseFound: 'T2A' } }
 		})
 	},
 	// sign-off: supervisors and admins sign with their password; everyone reads the signatures

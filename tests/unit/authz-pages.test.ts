@@ -87,6 +87,11 @@ const LOADS: LoadRow[] = [
 	{ route: '/jobs/[id]/bench', expect: ['login', OK, OK, OK], request: job },
 	{ route: '/jobs/[id]/soak', expect: ['login', OK, OK, OK], request: job },
 	{
+		route: '/jobs/[id]/worksheets/[kind]',
+		expect: ['login', OK, OK, OK],
+		request: (fx) => ({ params: { ...job(fx).params, kind: 'power-up' } })
+	},
+	{
 		route: '/jobs/[id]/compare',
 		expect: ['login', OK, OK, OK],
 		request: (fx) => ({ ...job(fx), query: `?s=${snapshotIn(fx)},${snapshotIn(fx)}` })

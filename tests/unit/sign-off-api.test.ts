@@ -73,7 +73,8 @@ describe('POST /api/jobs/{id}/sign-off', () => {
 		expect(res.status).toBe(409);
 		expect((res.body.issues as { path: string }[]).map((i) => i.path)).toEqual([
 			'requirements.after-snapshot-pass',
-			'requirements.passed-soak'
+			'requirements.passed-soak',
+			'requirements.passed-safety-check'
 		]);
 	});
 

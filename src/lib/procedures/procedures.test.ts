@@ -1,4 +1,4 @@
-// Sources named beside the checks are described in tests/REFERENCES.md § 17 (bench procedures).
+// Sources named beside the checks are described in tests/REFERENCES.md § 18 (bench procedures).
 import { describe, expect, it } from 'vitest';
 import {
 	cancelRamp,

@@ -29,7 +29,9 @@ export const AUDIT_ACTIONS = [
 	'user.deactivated',
 	'user.reactivated',
 	'user.password-reset',
-	'procedure.recorded'
+	'procedure.recorded',
+	'worksheet.created',
+	'worksheet.updated'
 ] as const;
 export type AuditAction = (typeof AUDIT_ACTIONS)[number];
 
@@ -59,7 +61,9 @@ export const AUDIT_ACTION_LABELS: Record<AuditAction, string> = {
 	'user.deactivated': 'User deactivated',
 	'user.reactivated': 'User reactivated',
 	'user.password-reset': 'Password reset by an admin',
-	'procedure.recorded': 'Bench procedure recorded'
+	'procedure.recorded': 'Bench procedure recorded',
+	'worksheet.created': 'Worksheet started',
+	'worksheet.updated': 'Worksheet changed'
 };
 
 export function auditActionLabel(action: string): string {

@@ -18,6 +18,7 @@ export const UNIT_CATEGORIES = [
 	'tuner',
 	'turntable',
 	'tape-deck',
+	'valve-amplifier',
 	'other'
 ] as const;
 export type UnitCategory = (typeof UNIT_CATEGORIES)[number];
@@ -30,6 +31,7 @@ export const UNIT_CATEGORY_LABELS: Record<UnitCategory, string> = {
 	tuner: 'Tuner',
 	turntable: 'Turntable',
 	'tape-deck': 'Tape deck',
+	'valve-amplifier': 'Valve amplifier',
 	other: 'Other'
 };
 

@@ -2,9 +2,12 @@
 // key) and the admin settings form.
 import { z } from 'zod';
 import { DEFAULT_SIGN_OFF_SETTINGS, signOffSettingsSchema } from './sign-off';
+import { DEFAULT_WORKSHEET_SETTINGS, worksheetSettingsSchema } from './worksheets';
 
 export { DEFAULT_SIGN_OFF_SETTINGS, signOffSettingsSchema };
+export { DEFAULT_WORKSHEET_SETTINGS, worksheetSettingsSchema };
 export type { SignOffSettings } from './sign-off';
+export type { WorksheetSettings } from './worksheets';
 
 export const soakLimitsSchema = z.object({
 	/** Heatsink temperature that stops a soak run. */
@@ -65,7 +68,9 @@ export const shopSettingsSchema = z.object({
 	soakDefaultLimits: soakLimitsSchema,
 	snapshotStorage: snapshotStorageSchema,
 	/** What a supervisor's approval needs (after snapshot passing, passed soak, four-eyes). */
-	signOff: signOffSettingsSchema
+	signOff: signOffSettingsSchema,
+	/** Home mains, bias tolerance and offset limit the bench worksheets judge against. */
+	worksheets: worksheetSettingsSchema
 });
 export type ShopSettings = z.infer<typeof shopSettingsSchema>;
 
@@ -96,6 +101,7 @@ export const SETTINGS_KEYS = [
 	'mainsHz',
 	'soakDefaultLimits',
 	'snapshotStorage',
-	'signOff'
+	'signOff',
+	'worksheets'
 ] as const;
 export type SettingsKey = (typeof SETTINGS_KEYS)[number];

@@ -13,7 +13,12 @@ export const signOffSettingsSchema = z.object({
 	/** Count a soak run on the accelerated simulator (time scale above 1) as proof. */
 	countAcceleratedSoak: z.boolean(),
 	/** One-person shops: a supervisor may sign off a job where they captured the after snapshot. */
-	allowSelfSignOff: z.boolean()
+	allowSelfSignOff: z.boolean(),
+	/**
+	 * The electrical safety check before return must be recorded, every item, none failed. A
+	 * setting stored before this rule existed reads as on.
+	 */
+	requirePassedSafetyCheck: z.boolean().default(true)
 });
 export type SignOffSettings = z.infer<typeof signOffSettingsSchema>;
 
@@ -21,7 +26,8 @@ export const DEFAULT_SIGN_OFF_SETTINGS: SignOffSettings = {
 	requireAfterSnapshotPass: true,
 	requirePassedSoak: true,
 	countAcceleratedSoak: false,
-	allowSelfSignOff: false
+	allowSelfSignOff: false,
+	requirePassedSafetyCheck: true
 };
 
 // ── the signature request ───────────────────────────────────────────────────
@@ -77,7 +83,13 @@ export interface EvidenceSoakRun {
 	startedAt: number;
 }
 
-export type RequirementKey = 'after-snapshot-pass' | 'passed-soak';
+export type RequirementKey = 'after-snapshot-pass' | 'passed-soak' | 'passed-safety-check';
+
+/** The safety check before return as the sign-off judges it (see `safetyStatus` in `$lib/worksheets`). */
+export interface EvidenceSafetyCheck {
+	state: 'none' | 'incomplete' | 'failed' | 'passed';
+	problems: string[];
+}
 
 export interface RequirementResult {
 	key: RequirementKey;
@@ -115,7 +127,7 @@ const latest = <T extends { createdAt?: number; startedAt?: number; id: number }
  */
 export function evaluateSignOff(
 	settings: SignOffSettings,
-	evidence: { snapshots: EvidenceSnapshot[]; soakRuns: EvidenceSoakRun[] },
+	evidence: { snapshots: EvidenceSnapshot[]; soakRuns: EvidenceSoakRun[]; safety?: EvidenceSafetyCheck },
 	signerId: string
 ): SignOffEvaluation {
 	const before = latest(evidence.snapshots.filter((s) => s.stage === 'before'));
@@ -160,6 +172,22 @@ export function evaluateSignOff(
 			detail = evidence.soakRuns.length ? 'The soak run has not finished' : 'No soak run yet';
 		}
 		requirements.push({ key: 'passed-soak', label, met: last?.status === 'passed', detail });
+	}
+
+	if (settings.requirePassedSafetyCheck) {
+		const safety = evidence.safety ?? { state: 'none', problems: [] };
+		const detail =
+			safety.state === 'passed'
+				? 'Every item recorded; none failed'
+				: safety.state === 'none'
+					? 'No safety check recorded: fill in the safety check worksheet'
+					: `${safety.state === 'failed' ? 'A safety item failed' : 'The safety check is incomplete'}: ${safety.problems.join('; ')}`;
+		requirements.push({
+			key: 'passed-safety-check',
+			label: 'A passed electrical safety check before return',
+			met: safety.state === 'passed',
+			detail
+		});
 	}
 
 	const signerCapturedAfter = !!after && after.createdBy === signerId;

@@ -1,4 +1,4 @@
-// Sources named beside the checks are described in tests/REFERENCES.md § 17 (bench procedures).
+// Sources named beside the checks are described in tests/REFERENCES.md § 18 (bench procedures).
 // The procedure service on an in-memory database: the server's own figures from the raw steps,
 // the lamp refusal, immutability and the audit entry.
 import { beforeEach, describe, expect, it } from 'vitest';

@@ -35,8 +35,11 @@ describe('settings', () => {
 				requireAfterSnapshotPass: true,
 				requirePassedSoak: true,
 				countAcceleratedSoak: false,
-				allowSelfSignOff: false
-			}
+				allowSelfSignOff: false,
+				requirePassedSafetyCheck: true
+			},
+			// IEC 60038 230 V mains; bias ±10 % and offset ±50 mV are common practice.
+			worksheets: { homeMainsVoltsRms: 230, biasTolerancePercent: 10, offsetLimitMillivolts: 50 }
 		});
 	});
 

@@ -10,6 +10,7 @@ import {
 	DEFAULT_SNAPSHOT_STORAGE,
 	DEFAULT_SIGN_OFF_SETTINGS,
 	DEFAULT_SOAK_LIMITS,
+	DEFAULT_WORKSHEET_SETTINGS,
 	SETTINGS_KEYS,
 	settingsPatchSchema,
 	shopSettingsSchema,
@@ -25,7 +26,8 @@ export function defaultSettings(): ShopSettings {
 		mainsHz: 50,
 		soakDefaultLimits: { ...DEFAULT_SOAK_LIMITS },
 		snapshotStorage: { ...DEFAULT_SNAPSHOT_STORAGE },
-		signOff: { ...DEFAULT_SIGN_OFF_SETTINGS }
+		signOff: { ...DEFAULT_SIGN_OFF_SETTINGS },
+		worksheets: { ...DEFAULT_WORKSHEET_SETTINGS }
 	};
 }
 

@@ -54,6 +54,17 @@ export interface CoveredRecord {
 	snapshots: CoveredSnapshot[];
 	soakRuns: CoveredSoakRun[];
 	parts: CoveredPart[];
+	/**
+	 * The bench worksheets (intake, power-up, bias, safety) as saved. Present only when the job has
+	 * any, so a record signed before worksheets existed hashes exactly as it did.
+	 */
+	worksheets?: CoveredWorksheet[];
+}
+
+export interface CoveredWorksheet {
+	kind: string;
+	version: number;
+	data: unknown;
 }
 
 /** RFC 8785 canonical JSON of `value`. Throws on values JSON cannot carry (NaN, functions). */
@@ -102,6 +113,16 @@ export function describeDifferences(signed: CoveredRecord, now: CoveredRecord): 
 			}
 		}
 		for (const [id, is] of after) if (!before.has(id)) out.push(`${name(is)} was added`);
+	}
+	const sheets = (r: CoveredRecord) => new Map((r.worksheets ?? []).map((w) => [w.kind, w] as const));
+	const [wasSheets, isSheets] = [sheets(signed), sheets(now)];
+	for (const kind of new Set([...wasSheets.keys(), ...isSheets.keys()])) {
+		const was = wasSheets.get(kind);
+		const is = isSheets.get(kind);
+		if (!is) out.push(`the ${kind} worksheet is no longer there`);
+		else if (!was) out.push(`the ${kind} worksheet was added`);
+		else if (canonicalJson(was) !== canonicalJson(is))
+			out.push(`the ${kind} worksheet changed (version ${was.version} → ${is.version})`);
 	}
 	if (signed.jobId !== now.jobId) out.push('the record belongs to another job');
 	return out;

@@ -20,6 +20,8 @@ import {
 	type EvidenceSoakRun
 } from '../schemas/sign-off';
 import { partSchema } from '../schemas/jobs';
+import { saveWorksheet } from './worksheets';
+import { passedSafetySheet } from '../worksheet-examples';
 
 const PASSWORD = 'correct horse battery staple';
 let db: Db;
@@ -136,6 +138,7 @@ function readyJob(): number {
 	snapshot(id, 'before', 'fail');
 	snapshot(id, 'after', 'pass');
 	soak(id, 'passed');
+	saveWorksheet(db, id, 'safety', { version: 0, data: passedSafetySheet() }, 'tech');
 	addPart(
 		db,
 		id,
@@ -271,7 +274,7 @@ describe('requirement evaluation', () => {
 		soakRuns: EvidenceSoakRun[],
 		settings = DEFAULT_SIGN_OFF_SETTINGS,
 		signer = 'sup'
-	) => evaluateSignOff(settings, { snapshots, soakRuns }, signer);
+	) => evaluateSignOff(settings, { snapshots, soakRuns, safety: { state: 'passed', problems: [] } }, signer);
 
 	it('needs an after snapshot, and the latest one must pass', () => {
 		expect(evalWith([], [run(1, 'passed')]).missing.map((m) => [m.key, m.detail])).toEqual([
@@ -315,7 +318,12 @@ describe('requirement evaluation', () => {
 	});
 
 	it('lists nothing the shop does not require', () => {
-		const none = { ...DEFAULT_SIGN_OFF_SETTINGS, requireAfterSnapshotPass: false, requirePassedSoak: false };
+		const none = {
+			...DEFAULT_SIGN_OFF_SETTINGS,
+			requireAfterSnapshotPass: false,
+			requirePassedSoak: false,
+			requirePassedSafetyCheck: false
+		};
 		expect(evalWith([], [], none)).toMatchObject({ requirements: [], missing: [] });
 	});
 
@@ -422,6 +430,11 @@ describe('signing a job off', () => {
 				path: 'requirements.passed-soak',
 				message:
 					'A passed soak run on real hardware (accelerated simulator runs do not count) — Soak run #1 ran on the accelerated simulator (×60), which the shop does not count as proof'
+			},
+			{
+				path: 'requirements.passed-safety-check',
+				message:
+					'A passed electrical safety check before return — No safety check recorded: fill in the safety check worksheet'
 			}
 		]);
 		expect(
@@ -444,6 +457,7 @@ describe('signing a job off', () => {
 		const id = reviewJob();
 		snapshot(id, 'after', 'pass', 'sup');
 		soak(id, 'passed');
+		saveWorksheet(db, id, 'safety', { version: 0, data: passedSafetySheet() }, 'tech');
 		const input = { decision: 'approve' as const, comment: 'ok', password: PASSWORD };
 		expect(await refusal(() => signOffJob(db, id, input, SUP, '10.0.0.9'))).toMatchObject({
 			status: 403,

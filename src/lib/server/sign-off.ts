@@ -14,12 +14,14 @@ import { audit, type AuditConn } from './audit';
 import { confirmPassword, waitText } from './auth';
 import { getSetting } from './settings';
 import { recordStatusChange } from './jobs';
+import { readSheets, safetyEvidence } from './worksheets';
 import { describeDifferences, fingerprint, type CoveredRecord } from './sign-off-hash';
 import {
 	FOUR_EYES_MESSAGE,
 	SIGN_OFF_MEANINGS,
 	evaluateSignOff,
 	signOffInputSchema,
+	type EvidenceSafetyCheck,
 	type EvidenceSnapshot,
 	type EvidenceSoakRun,
 	type RequirementResult,
@@ -109,10 +111,17 @@ export function coveredRecord(db: Conn, jobId: number): CoveredRecord {
 			state: p.state,
 			verificationNote: p.verificationNote
 		}));
-	return { version: 1, jobId, snapshots, soakRuns, parts };
+	// The worksheets as stored (validated on read: the signature covers what the pages show).
+	const worksheets = readSheets(db, jobId)
+		.views.filter((v) => v.data !== null)
+		.map((v) => ({ kind: v.kind, version: v.version, data: v.data }));
+	return { version: 1, jobId, snapshots, soakRuns, parts, ...(worksheets.length ? { worksheets } : {}) };
 }
 
-function evidenceOf(db: Conn, jobId: number): { snapshots: EvidenceSnapshot[]; soakRuns: EvidenceSoakRun[] } {
+function evidenceOf(
+	db: Conn,
+	jobId: number
+): { snapshots: EvidenceSnapshot[]; soakRuns: EvidenceSoakRun[]; safety: EvidenceSafetyCheck } {
 	const snapshots = db
 		.select({
 			id: table.snapshots.id,
@@ -136,7 +145,7 @@ function evidenceOf(db: Conn, jobId: number): { snapshots: EvidenceSnapshot[]; s
 		.where(eq(table.soakRuns.jobId, jobId))
 		.all()
 		.map((r) => ({ ...r, startedAt: r.startedAt.getTime() }));
-	return { snapshots, soakRuns };
+	return { snapshots, soakRuns, safety: safetyEvidence(db, jobId) };
 }
 
 /** The shop's requirements judged for `signerId` on the job as it is now. */

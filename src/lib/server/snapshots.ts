@@ -35,6 +35,7 @@ import type { Db } from './db/open';
 import * as table from './db/schema';
 import type { SnapshotStage } from './db/schema';
 import { assertJobOpen, JOB_LOCKED_MESSAGE, LOCKED_STATUSES } from './jobs';
+import { assertBenchPowerAllowed } from './worksheets';
 import { getLimitProfile } from './limit-profiles';
 import { getSettings } from './settings';
 import type { Reservation } from './analysis-pool';
@@ -185,6 +186,7 @@ export interface PreparedSnapshot {
 export function prepareSnapshot(db: Db, input: CreateSnapshotInput): PreparedSnapshot {
 	const meta = parseSnapshotMeta(input.meta);
 	assertJobOpen(db, input.jobId);
+	assertBenchPowerAllowed(db, input.jobId, 'capture');
 	if (input.wav.byteLength > SNAPSHOT_MAX_WAV_BYTES)
 		throw new DomainError(
 			'too-large',

@@ -7,6 +7,7 @@ import { and, asc, desc, eq, gt, inArray, sql } from 'drizzle-orm';
 import type { Db } from './db/open';
 import * as table from './db/schema';
 import { assertJobOpen, getJob } from './jobs';
+import { assertBenchPowerAllowed } from './worksheets';
 import { PROBE_IDS } from '$lib/bridge/protocol';
 import {
 	computeDrive,
@@ -285,6 +286,8 @@ export function createRun(
 	const data = createRunSchema.parse(input);
 	const job = getJob(db, jobId);
 	if (!job) throw new DomainError('not-found', 'No such job');
+	// A long-stored unit gets full mains and drive only after its limited first power-up.
+	assertBenchPowerAllowed(db, jobId, 'soak run');
 	const basisProblem = data.preset === 'custom' ? null : ratingBasisProblem(job.ratedPowerBasis);
 	if (basisProblem)
 		throw new DomainError('invalid', basisProblem, [{ path: 'preset', message: basisProblem }]);

@@ -7,6 +7,7 @@ import { sqliteTable, text, integer, real, blob, index, primaryKey } from 'drizz
 // browser can use them too (a relative import: drizzle-kit and scripts do not know `$lib`).
 import { ROLES, UNIT_CATEGORIES, JOB_STATUSES, PART_STATES, RATING_BASES } from '../../schemas/enums';
 import { SIGN_OFF_DECISIONS } from '../../schemas/sign-off';
+import { WORKSHEET_KINDS } from '../../schemas/worksheets';
 export { ROLES, UNIT_CATEGORIES, JOB_STATUSES, PART_STATES };
 export type { Role, UnitCategory, JobStatus, PartState } from '../../schemas/enums';
 
@@ -434,6 +435,48 @@ export type SoakEvent = typeof soakEvents.$inferSelect;
 export type AuditEntry = typeof auditLog.$inferSelect;
 export type SignOff = typeof signOffs.$inferSelect;
 export type SignOffSupersession = typeof signOffSupersessions.$inferSelect;
+
+// ---- worksheets ----
+
+/**
+ * A job's bench worksheets (intake checklist, first power-up, bias and offset, safety check), one
+ * row per job and kind holding the current sheet as JSON (validated on write and on read) and its
+ * version, raised by one on every save so a stale edit is refused.
+ */
+export const jobWorksheets = sqliteTable(
+	'job_worksheets',
+	{
+		jobId: integer('job_id')
+			.notNull()
+			.references(() => jobs.id, { onDelete: 'cascade' }),
+		kind: text('kind', { enum: WORKSHEET_KINDS }).notNull(),
+		data: text('data', { mode: 'json' }).notNull(),
+		version: integer('version').notNull(),
+		updatedBy: text('updated_by').references(() => users.id),
+		updatedAt: updatedAt()
+	},
+	(t) => [primaryKey({ columns: [t.jobId, t.kind] })]
+);
+
+/** Every saved version of a worksheet: who saved what, when. Immutable (triggers). */
+export const jobWorksheetVersions = sqliteTable(
+	'job_worksheet_versions',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		jobId: integer('job_id')
+			.notNull()
+			.references(() => jobs.id, { onDelete: 'cascade' }),
+		kind: text('kind', { enum: WORKSHEET_KINDS }).notNull(),
+		version: integer('version').notNull(),
+		data: text('data', { mode: 'json' }).notNull(),
+		savedBy: text('saved_by').references(() => users.id),
+		savedAt: integer('saved_at', { mode: 'timestamp_ms' }).notNull()
+	},
+	(t) => [index('job_worksheet_versions_job_idx').on(t.jobId, t.kind, t.version)]
+);
+
+export type JobWorksheet = typeof jobWorksheets.$inferSelect;
+export type JobWorksheetVersion = typeof jobWorksheetVersions.$inferSelect;
 
 // ---- procedures ----
 

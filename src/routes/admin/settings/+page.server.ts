@@ -18,8 +18,11 @@ const SIGN_OFF_BOXES = [
 	'requireAfterSnapshotPass',
 	'requirePassedSoak',
 	'countAcceleratedSoak',
-	'allowSelfSignOff'
+	'allowSelfSignOff',
+	'requirePassedSafetyCheck'
 ] as const;
+
+const WORKSHEET_NUMBERS = ['homeMainsVoltsRms', 'biasTolerancePercent', 'offsetLimitMillivolts'] as const;
 
 export const actions: Actions = formActions({
 	default: async (event) => {
@@ -34,7 +37,8 @@ export const actions: Actions = formActions({
 			'maxDiffC',
 			'thdnCeilingDb',
 			'perJobMiB',
-			'perShopGiB'
+			'perShopGiB',
+			...WORKSHEET_NUMBERS
 		];
 		const values = Object.fromEntries(names.map((n) => [n, text(form, n)]));
 		// Checkboxes: present when ticked.
@@ -42,7 +46,8 @@ export const actions: Actions = formActions({
 		for (const n of SIGN_OFF_BOXES) values[n] = ticked(n) ? 'on' : '';
 		const thdn = number(form, 'thdnCeilingDb');
 		// Storage caps left out of a post keep what is stored (the form always sends them).
-		const storage = getSettings(db).snapshotStorage;
+		const stored = getSettings(db);
+		const storage = stored.snapshotStorage;
 		const parsed = shopSettingsSchema.safeParse({
 			shopName: values.shopName,
 			bridgeUrl: values.bridgeUrl,
@@ -61,8 +66,13 @@ export const actions: Actions = formActions({
 				requireAfterSnapshotPass: ticked('requireAfterSnapshotPass'),
 				requirePassedSoak: ticked('requirePassedSoak'),
 				countAcceleratedSoak: ticked('countAcceleratedSoak'),
-				allowSelfSignOff: ticked('allowSelfSignOff')
-			}
+				allowSelfSignOff: ticked('allowSelfSignOff'),
+				requirePassedSafetyCheck: ticked('requirePassedSafetyCheck')
+			},
+			// Worksheet figures left out of a post keep what is stored (the form always sends them).
+			worksheets: Object.fromEntries(
+				WORKSHEET_NUMBERS.map((n) => [n, form.has(n) ? number(form, n) : stored.worksheets[n]])
+			)
 		});
 		if (!parsed.success) {
 			// Nested limits report under their own field name.

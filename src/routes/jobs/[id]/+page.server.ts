@@ -22,6 +22,7 @@ import {
 import { listAssignableUsers } from '$lib/server/users';
 import { listAudit } from '$lib/server/audit';
 import { listSignOffs, standingSignOff } from '$lib/server/sign-off';
+import { worksheetSummary } from '$lib/server/worksheets';
 import { reopenSchema } from '$lib/schemas/job-lock';
 import {
 	jobPatchSchema,
@@ -58,7 +59,8 @@ export const load: PageServerLoad = pageLoad((event) => {
 		standingSignOff: standingSignOff(db, id),
 		signOffs: listSignOffs(db, id),
 		canSignOff: job.status === 'awaiting-review' && (user.role === 'supervisor' || user.role === 'admin'),
-		trail: listAudit(db, { job: id, page: trailPage(event.url), pageSize: TRAIL_PAGE_SIZE })
+		trail: listAudit(db, { job: id, page: trailPage(event.url), pageSize: TRAIL_PAGE_SIZE }),
+		worksheets: worksheetSummary(db, id)
 	};
 });
 

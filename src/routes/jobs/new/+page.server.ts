@@ -11,6 +11,9 @@ import { createJob } from '$lib/server/jobs';
 import { listAssignableUsers } from '$lib/server/users';
 import { jobIntakeSchema, type JobIntake } from '$lib/schemas/jobs';
 import { pageLoad, formActions } from '$lib/server/handlers';
+import { getSetting } from '$lib/server/settings';
+import { saveWorksheet } from '$lib/server/worksheets';
+import { emptySheet, intakeSheetSchema } from '$lib/schemas/worksheets';
 import type { FormPath } from 'sveltekit-superforms';
 import type { Actions, PageServerLoad } from './$types';
 
@@ -34,14 +37,28 @@ export const load: PageServerLoad = pageLoad(async (event) => {
 	const form = await superValidate(zod4(jobIntakeSchema), { errors: false });
 	// The one taking the unit in usually benches it; they can pick someone else.
 	form.data.technicianId = user.role === 'technician' ? user.id : '';
-	return { form, customers: customerChoices(), technicians: listAssignableUsers(db) };
+	return {
+		form,
+		customers: customerChoices(),
+		technicians: listAssignableUsers(db),
+		homeMainsVoltsRms: getSetting(db, 'worksheets').homeMainsVoltsRms
+	};
 });
 
 export const actions: Actions = formActions({
 	default: async (event) => {
 		const user = requireUser(event);
+		// The first lines of the intake checklist ride along with the intake form (the rest of the
+		// sheet opens on the job); superforms reads the body, so read them from a copy first.
+		const raw = await event.request.clone().formData();
 		const form = await superValidate(event.request, zod4(jobIntakeSchema));
 		if (!form.valid) return fail(400, { form });
+		const intake = intakeFromForm(raw);
+		if (intake && !intake.success) {
+			for (const issue of intake.error.issues)
+				setError(form, '' as FormPath<JobIntake>, `Intake checklist: ${issue.message}`);
+			return fail(400, { form });
+		}
 		let jobId: number;
 		try {
 			jobId = createJob(db, form.data, user.id).id;
@@ -56,6 +73,23 @@ export const actions: Actions = formActions({
 			}
 			throw e;
 		}
+		if (intake?.success) saveWorksheet(db, jobId, 'intake', { version: 0, data: intake.data }, user.id);
 		redirect(303, `/jobs/${jobId}`);
 	}
 });
+
+/** The intake checklist's first lines, when any was filled in: parsed with the sheet's own schema. */
+function intakeFromForm(raw: FormData) {
+	const mains = String(raw.get('intakeMainsSettingVoltsRms') ?? '').trim();
+	const fuse = String(raw.get('intakeFuseFound') ?? '').trim();
+	const stored = raw.get('intakeStoredForYears') !== null;
+	const fee = raw.get('intakeDiagnosisFeeAuthorised') !== null;
+	if (!mains && !fuse && !stored && !fee) return null;
+	return intakeSheetSchema.safeParse({
+		...emptySheet('intake'),
+		mainsSettingVoltsRms: mains ? Number(mains.replace(',', '.')) : null,
+		fuseFound: fuse,
+		storedForYears: stored,
+		diagnosisFeeAuthorised: fee
+	});
+}

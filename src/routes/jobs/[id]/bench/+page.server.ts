@@ -7,6 +7,7 @@ import { idParam } from '$lib/server/api';
 import { getJob } from '$lib/server/jobs';
 import { listLimitProfiles } from '$lib/server/limit-profiles';
 import { getSetting } from '$lib/server/settings';
+import { worksheetSummary } from '$lib/server/worksheets';
 import { pageLoad } from '$lib/server/handlers';
 import type { PageServerLoad } from './$types';
 
@@ -30,6 +31,9 @@ export const load: PageServerLoad = pageLoad((event) => {
 		},
 		profiles: listLimitProfiles(db),
 		// The shop's mains frequency names the hum orders the live analysis reports.
-		mainsHz: getSetting(db, 'mainsHz')
+		mainsHz: getSetting(db, 'mainsHz'),
+		// A long-stored unit: no generator until its first power-up sheet is complete. The bridge is
+		// a separate process, so this gate is the page's; the server refuses captures and soaks.
+		gate: worksheetSummary(db, id).gate
 	};
 });

@@ -8,6 +8,8 @@ import { idParam } from '$lib/server/api';
 import { pageLoad } from '$lib/server/handlers';
 import { jobHeading, listComparable } from '$lib/server/compare';
 import { MAX_COMPARE, parseSelection } from '$lib/compare';
+import { worksheetSummary } from '$lib/server/worksheets';
+import { getSetting } from '$lib/server/settings';
 import type { PageServerLoad } from './$types';
 
 export const load: PageServerLoad = pageLoad((event) => {
@@ -37,5 +39,12 @@ export const load: PageServerLoad = pageLoad((event) => {
 			`Snapshot${foreign.length === 1 ? '' : 's'} ${foreign.join(', ')} ${foreign.length === 1 ? 'is' : 'are'} not part of job ${jobId}; only this job’s snapshots can be compared`,
 			foreign.map((id) => ({ path: 's', message: `snapshot ${id} is not a snapshot of job ${jobId}` }))
 		);
-	return { job, snapshots, picked };
+	return {
+		job,
+		snapshots,
+		picked,
+		// The bench worksheets beside the measurements (intake, power-up, bias, safety).
+		worksheets: worksheetSummary(db, jobId),
+		worksheetSettings: getSetting(db, 'worksheets')
+	};
 });

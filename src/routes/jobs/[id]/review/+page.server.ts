@@ -10,6 +10,7 @@ import { clientAddress } from '$lib/server/auth';
 import { getJob } from '$lib/server/jobs';
 import { getReview, signOffJob } from '$lib/server/sign-off';
 import { getSetting } from '$lib/server/settings';
+import { worksheetSummary } from '$lib/server/worksheets';
 import { signOffInputSchema } from '$lib/schemas/sign-off';
 import { fieldErrors, text } from '$lib/forms';
 import { pageLoad, formActions } from '$lib/server/handlers';
@@ -20,7 +21,14 @@ export const load: PageServerLoad = pageLoad((event) => {
 	const id = idParam(event.params.id, 'job');
 	const job = getJob(db, id);
 	if (!job) throw new DomainError('not-found', 'No such job');
-	return { job, review: getReview(db, id, user.id), settings: getSetting(db, 'signOff'), me: user };
+	return {
+		job,
+		review: getReview(db, id, user.id),
+		settings: getSetting(db, 'signOff'),
+		me: user,
+		worksheets: worksheetSummary(db, id),
+		worksheetSettings: getSetting(db, 'worksheets')
+	};
 });
 
 export const actions: Actions = formActions({

@@ -8,6 +8,7 @@ import { getJob } from '$lib/server/jobs';
 import { getSetting } from '$lib/server/settings';
 import { jobIdOfRun, runningRunId } from '$lib/server/soak';
 import { pageLoad } from '$lib/server/handlers';
+import { worksheetSummary } from '$lib/server/worksheets';
 import type { PageServerLoad } from './$types';
 
 export const load: PageServerLoad = pageLoad((event) => {
@@ -40,6 +41,8 @@ export const load: PageServerLoad = pageLoad((event) => {
 		},
 		shopLimits: getSetting(db, 'soakDefaultLimits'),
 		runningRunId: runningRunId(db, id),
-		viewRunId
+		viewRunId,
+		// A long-stored unit before its first power-up: the server refuses the start; the page says why first.
+		gate: worksheetSummary(db, id).gate
 	};
 });
