@@ -28,7 +28,9 @@ export const AUDIT_ACTIONS = [
 	'user.role-changed',
 	'user.deactivated',
 	'user.reactivated',
-	'user.password-reset'
+	'user.password-reset',
+	'file.uploaded',
+	'file.removed'
 ] as const;
 export type AuditAction = (typeof AUDIT_ACTIONS)[number];
 
@@ -57,7 +59,9 @@ export const AUDIT_ACTION_LABELS: Record<AuditAction, string> = {
 	'user.role-changed': 'Role changed',
 	'user.deactivated': 'User deactivated',
 	'user.reactivated': 'User reactivated',
-	'user.password-reset': 'Password reset by an admin'
+	'user.password-reset': 'Password reset by an admin',
+	'file.uploaded': 'File attached',
+	'file.removed': 'File removed'
 };
 
 export function auditActionLabel(action: string): string {

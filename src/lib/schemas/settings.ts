@@ -2,6 +2,9 @@
 // key) and the admin settings form.
 import { z } from 'zod';
 import { DEFAULT_SIGN_OFF_SETTINGS, signOffSettingsSchema } from './sign-off';
+import { DEFAULT_JOB_FILE_LIMITS, jobFileLimitsSchema } from './job-files';
+
+export { DEFAULT_JOB_FILE_LIMITS };
 
 export { DEFAULT_SIGN_OFF_SETTINGS, signOffSettingsSchema };
 export type { SignOffSettings } from './sign-off';
@@ -65,7 +68,9 @@ export const shopSettingsSchema = z.object({
 	soakDefaultLimits: soakLimitsSchema,
 	snapshotStorage: snapshotStorageSchema,
 	/** What a supervisor's approval needs (after snapshot passing, passed soak, four-eyes). */
-	signOff: signOffSettingsSchema
+	signOff: signOffSettingsSchema,
+	/** Per-file limit for files attached to a job (photos, PDFs, WAVs). */
+	jobFiles: jobFileLimitsSchema
 });
 export type ShopSettings = z.infer<typeof shopSettingsSchema>;
 
@@ -96,6 +101,7 @@ export const SETTINGS_KEYS = [
 	'mainsHz',
 	'soakDefaultLimits',
 	'snapshotStorage',
-	'signOff'
+	'signOff',
+	'jobFiles'
 ] as const;
 export type SettingsKey = (typeof SETTINGS_KEYS)[number];

@@ -9,6 +9,7 @@ import { audit, changes } from './audit';
 import {
 	DEFAULT_SNAPSHOT_STORAGE,
 	DEFAULT_SIGN_OFF_SETTINGS,
+	DEFAULT_JOB_FILE_LIMITS,
 	DEFAULT_SOAK_LIMITS,
 	SETTINGS_KEYS,
 	settingsPatchSchema,
@@ -25,7 +26,8 @@ export function defaultSettings(): ShopSettings {
 		mainsHz: 50,
 		soakDefaultLimits: { ...DEFAULT_SOAK_LIMITS },
 		snapshotStorage: { ...DEFAULT_SNAPSHOT_STORAGE },
-		signOff: { ...DEFAULT_SIGN_OFF_SETTINGS }
+		signOff: { ...DEFAULT_SIGN_OFF_SETTINGS },
+		jobFiles: { ...DEFAULT_JOB_FILE_LIMITS }
 	};
 }
 

@@ -34,7 +34,8 @@ export const actions: Actions = formActions({
 			'maxDiffC',
 			'thdnCeilingDb',
 			'perJobMiB',
-			'perShopGiB'
+			'perShopGiB',
+			'maxFileMiB'
 		];
 		const values = Object.fromEntries(names.map((n) => [n, text(form, n)]));
 		// Checkboxes: present when ticked.
@@ -42,7 +43,8 @@ export const actions: Actions = formActions({
 		for (const n of SIGN_OFF_BOXES) values[n] = ticked(n) ? 'on' : '';
 		const thdn = number(form, 'thdnCeilingDb');
 		// Storage caps left out of a post keep what is stored (the form always sends them).
-		const storage = getSettings(db).snapshotStorage;
+		const current = getSettings(db);
+		const storage = current.snapshotStorage;
 		const parsed = shopSettingsSchema.safeParse({
 			shopName: values.shopName,
 			bridgeUrl: values.bridgeUrl,
@@ -56,6 +58,9 @@ export const actions: Actions = formActions({
 			snapshotStorage: {
 				perJobMiB: form.has('perJobMiB') ? number(form, 'perJobMiB') : storage.perJobMiB,
 				perShopGiB: form.has('perShopGiB') ? number(form, 'perShopGiB') : storage.perShopGiB
+			},
+			jobFiles: {
+				maxFileMiB: form.has('maxFileMiB') ? number(form, 'maxFileMiB') : current.jobFiles.maxFileMiB
 			},
 			signOff: {
 				requireAfterSnapshotPass: ticked('requireAfterSnapshotPass'),
