@@ -66,6 +66,8 @@ export interface JobFileView {
 	removedAt: string | null;
 	snapshotId: number | null;
 	analysis?: WavFigures;
+	/** Why a WAV could not be measured (it is kept all the same). */
+	analysisError?: string;
 }
 
 /** Turning an uploaded WAV into a snapshot: the same meta a bench capture sends. */

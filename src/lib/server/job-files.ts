@@ -30,6 +30,7 @@ import { streamMultipart, type PartSink } from './multipart';
 import { SNIFF_HEAD_BYTES, SNIFF_TAIL_BYTES, sniffFile } from './file-sniff';
 import type { BlobStore } from './storage';
 import type { SnapshotAnalysisOutput, SnapshotAnalysisRequest } from './snapshot-analysis';
+import type { CreateSnapshotInput, CreatedSnapshot } from './snapshots';
 
 const MIB = 1024 * 1024;
 /** Most files in one upload request. */
@@ -427,4 +428,39 @@ export function removeJobFile(db: Db, id: number, actor: { id: string; role: Rol
 /** Record that a WAV file became snapshot `snapshotId`. */
 export function linkFileSnapshot(db: Db, fileId: number, snapshotId: number): void {
 	db.update(table.jobFiles).set({ snapshotId }).where(eq(table.jobFiles.id, fileId)).run();
+}
+
+/**
+ * Turn an uploaded WAV into a snapshot through the bench capture's own path (`create` is
+ * createSnapshotInPool on the server): the same meta, analysis, limits, verdict and audit. The
+ * file is read from the store (hash checked) and remembers the snapshot it became; 409 when it
+ * already did.
+ */
+export async function snapshotFromFile(
+	db: Db,
+	store: BlobStore,
+	fileId: number,
+	userId: string,
+	meta: unknown,
+	create: (input: CreateSnapshotInput) => Promise<CreatedSnapshot>
+): Promise<CreatedSnapshot> {
+	const file = getJobFile(db, fileId);
+	if (!file || file.removedAt || file.jobId === null) throw new DomainError('not-found', 'No such file');
+	if (file.type !== 'wav')
+		throw new DomainError(
+			'invalid',
+			`Only a WAV file can become a snapshot; this one is ${file.type.toUpperCase()}`
+		);
+	if (file.snapshotId !== null)
+		throw new DomainError('conflict', `This WAV is already snapshot #${file.snapshotId}`);
+	assertJobOpen(db, file.jobId);
+	const wav = await store.get(file.sha256);
+	const created = await create({
+		jobId: file.jobId,
+		userId,
+		wav: new Uint8Array(wav.buffer, wav.byteOffset, wav.byteLength),
+		meta
+	});
+	linkFileSnapshot(db, fileId, created.id);
+	return created;
 }

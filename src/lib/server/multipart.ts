@@ -129,7 +129,9 @@ export async function streamMultipart(
 	const delimiter = Buffer.from(`\r\n--${boundary}`);
 	// A leading CRLF lets the first boundary be found like the others.
 	let buf: Buffer = Buffer.from('\r\n');
-	let state: 'preamble' | 'after-boundary' | 'head' | 'body' | 'done' = 'preamble';
+	type State = 'preamble' | 'after-boundary' | 'head' | 'body' | 'done';
+	// Changed inside `step`: the cast keeps TypeScript from narrowing it to the first value.
+	let state = 'preamble' as State;
 	let sink: PartSink | null = null;
 	const step = async (final: boolean): Promise<boolean> => {
 		if (state === 'preamble') {
