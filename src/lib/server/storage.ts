@@ -4,7 +4,17 @@
 // folder. A cloud object store can implement the same four calls later. No framework imports: the
 // analysis worker writes snapshot audio through this module too.
 import { createHash, randomBytes } from 'node:crypto';
-import { existsSync, mkdirSync } from 'node:fs';
+import {
+	closeSync,
+	existsSync,
+	fsyncSync,
+	mkdirSync,
+	openSync,
+	readFileSync,
+	renameSync,
+	unlinkSync,
+	writeSync
+} from 'node:fs';
 import { mkdir, open, readFile, rename, rm, stat, unlink } from 'node:fs/promises';
 import { dirname, join, resolve } from 'node:path';
 import { tmpdir } from 'node:os';
@@ -120,6 +130,46 @@ export class LocalDiskStore implements BlobStore {
 		let data: Buffer;
 		try {
 			data = await readFile(path);
+		} catch (e) {
+			if ((e as NodeJS.ErrnoException).code === 'ENOENT') throw new BlobMissingError(sha256);
+			throw e;
+		}
+		if (sha256Hex(data) !== sha256) throw new BlobCorruptError(sha256);
+		return data;
+	}
+
+	/**
+	 * `put` for whole bytes without awaiting: for the snapshot writer, which runs inside a
+	 * synchronous SQLite transaction's caller on a worker thread (local disk only).
+	 */
+	putSync(data: Uint8Array): StoredBlob {
+		const sha256 = sha256Hex(data);
+		const final = this.pathOf(sha256);
+		if (existsSync(final)) return { sha256, bytes: data.byteLength };
+		const tmpDir = join(this.root, 'tmp');
+		mkdirSync(tmpDir, { recursive: true, mode: 0o700 });
+		const tmp = join(tmpDir, `${Date.now()}-${randomBytes(8).toString('hex')}`);
+		const fd = openSync(tmp, 'wx', 0o600);
+		try {
+			let at = 0;
+			while (at < data.byteLength) at += writeSync(fd, data, at, data.byteLength - at);
+			fsyncSync(fd);
+		} catch (e) {
+			closeSync(fd);
+			unlinkSync(tmp);
+			throw e;
+		}
+		closeSync(fd);
+		mkdirSync(dirname(final), { recursive: true, mode: 0o700 });
+		renameSync(tmp, final);
+		return { sha256, bytes: data.byteLength };
+	}
+
+	/** `get` without awaiting (same checks). */
+	getSync(sha256: string): Buffer {
+		let data: Buffer;
+		try {
+			data = readFileSync(this.pathOf(sha256));
 		} catch (e) {
 			if ((e as NodeJS.ErrnoException).code === 'ENOENT') throw new BlobMissingError(sha256);
 			throw e;
