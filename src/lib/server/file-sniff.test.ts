@@ -2,7 +2,7 @@
 // named .wav and a truncated JPEG do not. Names are never given to the sniffer, so "renamed" is
 // modelled by the bytes alone.
 import { describe, expect, it } from 'vitest';
-import { sniffBytes } from './file-sniff';
+import { claimedOtherType, sniffBytes } from './file-sniff';
 import { pdf, photo, wav16 } from './file-fixtures';
 
 describe('sniffBytes', () => {
@@ -19,13 +19,18 @@ describe('sniffBytes', () => {
 		expect(await sniffBytes(text)).toEqual({ ok: false, reason: 'unsupported', detected: null });
 	});
 
-	it('types a PNG as PNG, not as the WAV its name claims', async () => {
+	it('refuses a PNG named .wav: the content is PNG and the name claims another accepted type', async () => {
 		// The bytes decide: an upload named capture.wav holding a PNG is a PNG (PNG signature, ISO/IEC 15948 5.2).
 		const png = await photo('png');
 		expect([...png.subarray(0, 8)]).toEqual([0x89, 0x50, 0x4e, 0x47, 0x0d, 0x0a, 0x1a, 0x0a]);
 		const r = await sniffBytes(png);
 		expect(r).toEqual({ ok: true, type: 'png' });
 		expect(r.ok && r.type).not.toBe('wav');
+		expect(claimedOtherType('capture.wav', 'png')).toBe('wav');
+		expect(claimedOtherType('capture.png', 'png')).toBeNull();
+		expect(claimedOtherType('IMG_0001.JPG', 'jpeg')).toBeNull();
+		// A name with no accepted extension claims nothing: the content decides.
+		expect(claimedOtherType('scan', 'pdf')).toBeNull();
 	});
 
 	it('refuses a truncated JPEG (no EOI marker, ITU-T T.81 B.2.1)', async () => {

@@ -72,6 +72,28 @@ export async function sniffFile(head: Uint8Array, tail: Uint8Array, bytes: numbe
 	return { ok: true, type };
 }
 
+const BY_EXTENSION: Record<string, JobFileType> = {
+	jpg: 'jpeg',
+	jpeg: 'jpeg',
+	jpe: 'jpeg',
+	png: 'png',
+	webp: 'webp',
+	pdf: 'pdf',
+	wav: 'wav',
+	wave: 'wav'
+};
+
+/**
+ * The accepted type a file name claims by its extension when the content is another one (a PNG
+ * named `.wav`), else null. The content still decides the type; a name that says otherwise is
+ * refused so a photo is never listed as a capture (or a capture as a photo).
+ */
+export function claimedOtherType(name: string, type: JobFileType): JobFileType | null {
+	const ext = /\.([a-z0-9]{1,5})$/i.exec(name)?.[1]?.toLowerCase();
+	const claimed = ext ? BY_EXTENSION[ext] : undefined;
+	return claimed && claimed !== type ? claimed : null;
+}
+
 /** Sniff bytes held whole (tests, small files). */
 export function sniffBytes(data: Uint8Array): Promise<SniffResult> {
 	return sniffFile(

@@ -27,7 +27,7 @@ import { DomainError, type Issue } from './errors';
 import { assertJobOpen } from './jobs';
 import { getSettings } from './settings';
 import { streamMultipart, type PartSink } from './multipart';
-import { SNIFF_HEAD_BYTES, SNIFF_TAIL_BYTES, sniffFile } from './file-sniff';
+import { SNIFF_HEAD_BYTES, SNIFF_TAIL_BYTES, claimedOtherType, sniffFile } from './file-sniff';
 import type { BlobStore } from './storage';
 import type { SnapshotAnalysisOutput, SnapshotAnalysisRequest } from './snapshot-analysis';
 import type { CreateSnapshotInput, CreatedSnapshot } from './snapshots';
@@ -245,7 +245,14 @@ export async function uploadJobFiles(db: Db, input: UploadInput): Promise<JobFil
 				continue;
 			}
 			const sniffed = await sniffFile(f.head, f.tail, f.bytes);
-			if (sniffed.ok) types.push(sniffed.type);
+			const claimed = sniffed.ok ? claimedOtherType(f.name, sniffed.type) : null;
+			if (sniffed.ok && claimed) {
+				unsupported = true;
+				issues.push({
+					path: `file.${i}`,
+					message: `${f.name} is named as ${claimed.toUpperCase()} but its content is ${sniffed.type.toUpperCase()}; rename it or attach the right file`
+				});
+			} else if (sniffed.ok) types.push(sniffed.type);
 			else {
 				unsupported = true;
 				issues.push({

@@ -545,9 +545,9 @@ describe('createSnapshot', () => {
 		expect(() =>
 			c.prepare(`update snapshot_audio_blobs set sha256 = 'x' where snapshot_id = ?`).run(res.id)
 		).toThrow(/immutable/);
-		expect(() =>
-			c.prepare(`delete from snapshot_audio_blobs where snapshot_id = ?`).run(res.id)
-		).toThrow(/immutable/);
+		expect(() => c.prepare(`delete from snapshot_audio_blobs where snapshot_id = ?`).run(res.id)).toThrow(
+			/immutable/
+		);
 		expect(getSnapshot(db, res.id)?.verdict).toBe('none');
 		expect(count('snapshot_audio_blobs')).toBe(1);
 	});
