@@ -105,8 +105,8 @@ async function spoolSink(
 /** A display name: the last path segment, control characters dropped, at most 200 characters. */
 export function displayName(raw: string | undefined): string {
 	const base = (raw ?? '').split(/[\\/]/).pop() ?? '';
-	// eslint-disable-next-line no-control-regex
 	const clean = base
+		// eslint-disable-next-line no-control-regex -- control characters are what is removed
 		.replace(/[\u0000-\u001f\u007f]/g, '')
 		.trim()
 		.slice(0, 200);

@@ -21,6 +21,8 @@ import {
 } from '$lib/server/jobs';
 import { listAssignableUsers } from '$lib/server/users';
 import { listAudit } from '$lib/server/audit';
+import { listJobFiles } from '$lib/server/job-files';
+import { getSettings } from '$lib/server/settings';
 import { listSignOffs, standingSignOff } from '$lib/server/sign-off';
 import { reopenSchema } from '$lib/schemas/job-lock';
 import { logEntrySchema, partSchema, PART_STATES, statusChangeSchema } from '$lib/schemas/jobs';
@@ -52,7 +54,9 @@ export const load: PageServerLoad = pageLoad((event) => {
 		standingSignOff: standingSignOff(db, id),
 		signOffs: listSignOffs(db, id),
 		canSignOff: job.status === 'awaiting-review' && (user.role === 'supervisor' || user.role === 'admin'),
-		trail: listAudit(db, { job: id, page: trailPage(event.url), pageSize: TRAIL_PAGE_SIZE })
+		trail: listAudit(db, { job: id, page: trailPage(event.url), pageSize: TRAIL_PAGE_SIZE }),
+		files: listJobFiles(db, id),
+		fileMaxMiB: getSettings(db).jobFiles.maxFileMiB
 	};
 });
 
