@@ -12,6 +12,7 @@ import { createSnapshot } from '../src/lib/server/snapshots';
 import { encodeWav } from '../src/lib/dsp/wav';
 import { env } from '../src/lib/server/env';
 import { UNIT_CATEGORIES } from '../src/lib/schemas/enums';
+import { seedFiles } from './seed-files';
 
 export const DEMO_PASSWORD = 'bench-demo-2026';
 export const DEMO_SHOP_NAME = 'Quiet Valve Audio Works';
@@ -646,6 +647,7 @@ export async function seedDemo(db: Db, options: { now?: Date } = {}): Promise<bo
 	updateSettings(db, { ...defaultSettings(), shopName: DEMO_SHOP_NAME });
 	seedLimitProfiles(db, userIds.supervisor);
 	seedSignOffDemo(db, userIds, nowMs);
+	await seedFiles(db, userIds.tech1);
 	return true;
 }
 
