@@ -36,7 +36,9 @@ describe('settings', () => {
 				requirePassedSoak: true,
 				countAcceleratedSoak: false,
 				allowSelfSignOff: false
-			}
+			},
+			// Room for a phone photo or a long stereo capture (issue 13 asks for 50 MiB).
+			jobFiles: { maxFileMiB: 50 }
 		});
 	});
 
