@@ -121,15 +121,13 @@ test('a renamed text file is refused with 415 and an oversized file with 413, ea
 	await page.goto(`/jobs/${jobId}`);
 	await ready(page);
 
-	await page
-		.getByTestId('file-input')
-		.setInputFiles([
-			{
-				name: 'amp.jpg',
-				mimeType: 'image/jpeg',
-				buffer: Buffer.from('Not a photo: bias set to 25 mA.\n'.repeat(40))
-			}
-		]);
+	await page.getByTestId('file-input').setInputFiles([
+		{
+			name: 'amp.jpg',
+			mimeType: 'image/jpeg',
+			buffer: Buffer.from('Not a photo: bias set to 25 mA.\n'.repeat(40))
+		}
+	]);
 	const message = page.getByTestId('upload-message');
 	await expect(message).toContainText('amp.jpg is not a recognised file type');
 	await expect(message).toContainText('JPEG, PNG or WebP photos, PDF documents and WAV captures');
