@@ -5,7 +5,7 @@
 // received is kept beside it. A WAV is measured on the analysis pool and can become a snapshot
 // through the same path as a bench capture. Files are never deleted, only marked removed.
 import { createReadStream } from 'node:fs';
-import { mkdtemp, open, rm } from 'node:fs/promises';
+import { mkdtemp, open, readFile, rm } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { createHash } from 'node:crypto';
@@ -297,7 +297,8 @@ export async function uploadJobFiles(db: Db, input: UploadInput): Promise<JobFil
 				stored = await input.store.put(createReadStream(f.path));
 			}
 			if (type === 'wav') {
-				const wav = await input.store.get(stored.sha256);
+				// From the spool file (already hashed on the way in): no second hash on this thread.
+				const wav = await readFile(f.path);
 				try {
 					const out = await input.analyse(
 						wavRequest(new Uint8Array(wav.buffer, wav.byteOffset, wav.byteLength), settings.mainsHz)
