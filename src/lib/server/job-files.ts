@@ -142,7 +142,7 @@ export async function* bodyChunks(body: ReadableStream<Uint8Array>): AsyncIterab
 async function stripPhoto(type: JobFileType, path: string): Promise<Buffer> {
 	// sharp runs on libuv's thread pool, not the request thread; failOn 'truncated' refuses a cut-off image.
 	const image = sharp(path, { failOn: 'truncated' }).rotate();
-	if (type === 'jpeg') return image.jpeg({ quality: 92, mozjpeg: true }).toBuffer();
+	if (type === 'jpeg') return image.jpeg({ quality: 92 }).toBuffer();
 	if (type === 'png') return image.png({ compressionLevel: 9 }).toBuffer();
 	return image.webp({ quality: 92 }).toBuffer();
 }
