@@ -112,7 +112,7 @@ test('two photos and a WAV at once: progress, thumbnails, figures, and the WAV b
 	await expect(page.getByText('Left channel from file').first()).toBeVisible();
 });
 
-test('a renamed text file is refused with 415 and an oversized file with 413, each saying why', async ({
+test('a renamed text file is refused with 415, a cancelled upload attaches nothing, an oversized file is refused with 413', async ({
 	page,
 	baseURL
 }) => {
@@ -132,6 +132,25 @@ test('a renamed text file is refused with 415 and an oversized file with 413, ea
 	await expect(message).toContainText('amp.jpg is not a recognised file type');
 	await expect(message).toContainText('JPEG, PNG or WebP photos, PDF documents and WAV captures');
 	await expect(page.getByTestId('thumb')).toHaveCount(0);
+
+	// Cancel: held at the server's door, the upload is stopped and nothing is attached.
+	let release!: () => void;
+	const gate = new Promise<void>((r) => (release = r));
+	await page.route(`**/api/jobs/${jobId}/files`, async (route) => {
+		await gate;
+		await route.continue().catch(() => {}); // the browser already dropped it
+	});
+	await page.getByRole('button', { name: 'Dismiss' }).click();
+	await page
+		.getByTestId('file-input')
+		.setInputFiles([{ name: 'bench top.jpg', mimeType: 'image/jpeg', buffer: await photo(400, 300, 120) }]);
+	await page.getByTestId('upload-item').getByRole('button', { name: 'Cancel' }).click();
+	await expect(page.getByTestId('upload-message')).toHaveText('Cancelled');
+	release();
+	await page.unroute(`**/api/jobs/${jobId}/files`);
+	await page.reload();
+	await ready(page);
+	await expect(page.getByTestId('job-files')).toContainText('No files yet.');
 
 	// One byte over the default 50 MiB per-file limit.
 	const big = Buffer.alloc(50 * 1024 * 1024 + 1, 0x20);
