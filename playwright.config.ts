@@ -34,7 +34,7 @@ const e2eEnv = {
 	SMTP_PORT: String(SMTP_PORT),
 	/** A second bridge the soak spec starts and restarts itself. */
 	E2E_SOAK_BRIDGE_PORT: String(SOAK_BRIDGE_PORT),
-	BODY_SIZE_LIMIT: '34M'
+	BODY_SIZE_LIMIT: '210M'
 };
 Object.assign(process.env, e2eEnv);
 

@@ -39,8 +39,9 @@ const env = {
 	BRIDGE_PORT: process.env.BRIDGE_PORT ?? '8787',
 	SMTP_PORT: process.env.SMTP_PORT ?? '2525',
 	MAIL_UI_PORT: process.env.MAIL_UI_PORT ?? '8025',
-	// Snapshot uploads carry up to 32 MiB of WAV plus the multipart envelope (adapter-node's default is 512 KB).
-	BODY_SIZE_LIMIT: process.env.BODY_SIZE_LIMIT ?? '34M'
+	// Snapshot uploads carry up to 32 MiB of WAV, job files up to the shop's per-file limit (at most
+	// 200 MiB) plus the multipart envelope (adapter-node's default is 512 KB). Routes cap their own bodies.
+	BODY_SIZE_LIMIT: process.env.BODY_SIZE_LIMIT ?? '210M'
 };
 env.BRIDGE_URL = process.env.BRIDGE_URL ?? `ws://127.0.0.1:${env.BRIDGE_PORT}`;
 

@@ -25,6 +25,10 @@ export function auditDetailText(action: string, detail: unknown): string {
 		case 'part.added':
 		case 'part.removed':
 			return `${d.refDes} · ${short(d.description, 40)}${d.value ? ` · ${d.value}` : ''} · ${d.state}`;
+		case 'file.uploaded':
+			return `${String(d.type ?? '').toUpperCase()} · ${typeof d.bytes === 'number' ? `${(d.bytes / 1024).toFixed(0)} KiB` : ''} · SHA-256 ${String(d.sha256 ?? '').slice(0, 12)}…`;
+		case 'file.removed':
+			return `SHA-256 ${String(d.sha256 ?? '').slice(0, 12)}… (kept in the store)`;
 		default: {
 			// Changed fields as "field: from → to".
 			const parts = Object.entries(d)

@@ -112,7 +112,10 @@ async function richJobId(request: APIRequestContext): Promise<number> {
 		const r = await request.get(`/api/jobs/${id}`);
 		if (!r.ok()) continue;
 		const job = (await r.json()) as { parts?: unknown[]; log?: unknown[] };
-		const score = (job.parts?.length ?? 0) * 10 + (job.log?.length ?? 0);
+		// Files too: the gallery and the WAV figures are laid out and checked where they exist.
+		const f = await request.get(`/api/jobs/${id}/files`);
+		const files = f.ok() ? ((await f.json()) as { files: unknown[] }).files.length : 0;
+		const score = (job.parts?.length ?? 0) * 10 + (job.log?.length ?? 0) + files * 10;
 		if (!best || score > best.score) best = { id, score };
 	}
 	if (!best) throw new Error('no job to open: the e2e database is not seeded');

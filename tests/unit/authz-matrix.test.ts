@@ -16,6 +16,8 @@ import { recordProcedureRun } from '$lib/server/procedures';
 import { encodeWav } from '$lib/dsp';
 import { isWrapped } from '$lib/server/handlers';
 import { emptySheet } from '$lib/schemas/worksheets';
+import { blobStoreFor } from '$lib/server/storage';
+import * as table from '$lib/server/db/schema';
 import {
 	ROLES,
 	ROUTES_DIR,
@@ -103,6 +105,36 @@ function matrixSweep() {
 /** A procedure run stored inside the case's savepoint (rolled back after). */
 function procedureIn(fx: Fixtures): string {
 	return String(recordProcedureRun(fx.db, fx.jobId, fx.users.tech1, matrixSweep()).id);
+}
+
+/** A job file (uploaded by tech2) stored inside the case's savepoint, as a route param. */
+async function fileIn(fx: Fixtures, type: 'pdf' | 'wav' = 'pdf'): Promise<string> {
+	const bytes =
+		type === 'wav' ? matrixWav() : Buffer.from('%PDF-1.4\n1 0 obj\n<< >>\nendobj\ntrailer\n<< >>\n%%EOF\n');
+	const { sha256, bytes: size } = await blobStoreFor(fx.db.$client.name).put(bytes);
+	const row = fx.db
+		.insert(table.jobFiles)
+		.values({
+			jobId: fx.jobId,
+			sha256,
+			receivedSha256: sha256,
+			name: `matrix.${type}`,
+			type,
+			bytes: size,
+			uploadedBy: fx.users.tech2,
+			uploadedAt: new Date()
+		})
+		.returning({ id: table.jobFiles.id })
+		.get();
+	return String(row.id);
+}
+
+/** A multipart upload of one small PDF as the `file` part. */
+function filesForm(): FormData {
+	const form = new FormData();
+	const pdf = '%PDF-1.4\n1 0 obj\n<< >>\nendobj\ntrailer\n<< >>\n%%EOF\n';
+	form.set('file', new Blob([pdf], { type: 'application/pdf' }), 'notes.pdf');
+	return form;
 }
 
 type Method = 'GET' | 'POST' | 'PUT' | 'PATCH' | 'DELETE';
@@ -444,6 +476,55 @@ const MATRIX: Row[] = [
 			const b = snapshotIn(fx);
 			return { params: { id: String(fx.jobId) }, query: `?s=${a},${b}` };
 		}
+	},
+
+	// job files: everyone signed in attaches and reads; the uploader or a supervisor/admin removes
+	{
+		route: '/api/jobs/[id]/files',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: String(fx.jobId) } })
+	},
+	{
+		route: '/api/jobs/[id]/files',
+		method: 'POST',
+		expect: [401, 201, 201, 201],
+		request: (fx) => ({ params: { id: String(fx.jobId) }, rawBody: filesForm() })
+	},
+	{
+		route: '/api/files/[id]',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: async (fx) => ({ params: { id: await fileIn(fx) } })
+	},
+	{
+		// Uploaded by tech2: the technician caller (tech1) may not remove it.
+		route: '/api/files/[id]',
+		method: 'DELETE',
+		expect: [401, 403, 204, 204],
+		request: async (fx) => ({ params: { id: await fileIn(fx) } })
+	},
+	{
+		route: '/api/files/[id]/snapshot',
+		method: 'POST',
+		expect: [401, 201, 201, 201],
+		request: async (fx) => ({
+			params: { id: await fileIn(fx, 'wav') },
+			body: { label: 'From a file', stage: 'before' }
+		})
+	},
+	// exports: everyone signed in
+	{
+		route: '/api/jobs/[id]/snapshots.csv',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: String(fx.signOffJobId) } })
+	},
+	{
+		route: '/api/jobs/[id]/snapshots.json',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: String(fx.signOffJobId) } })
 	},
 
 	// own account

@@ -31,7 +31,9 @@ export const AUDIT_ACTIONS = [
 	'user.password-reset',
 	'procedure.recorded',
 	'worksheet.created',
-	'worksheet.updated'
+	'worksheet.updated',
+	'file.uploaded',
+	'file.removed'
 ] as const;
 export type AuditAction = (typeof AUDIT_ACTIONS)[number];
 
@@ -63,7 +65,9 @@ export const AUDIT_ACTION_LABELS: Record<AuditAction, string> = {
 	'user.password-reset': 'Password reset by an admin',
 	'procedure.recorded': 'Bench procedure recorded',
 	'worksheet.created': 'Worksheet started',
-	'worksheet.updated': 'Worksheet changed'
+	'worksheet.updated': 'Worksheet changed',
+	'file.uploaded': 'File attached',
+	'file.removed': 'File removed'
 };
 
 export function auditActionLabel(action: string): string {

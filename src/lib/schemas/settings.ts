@@ -3,6 +3,9 @@
 import { z } from 'zod';
 import { DEFAULT_SIGN_OFF_SETTINGS, signOffSettingsSchema } from './sign-off';
 import { DEFAULT_WORKSHEET_SETTINGS, worksheetSettingsSchema } from './worksheets';
+import { DEFAULT_JOB_FILE_LIMITS, jobFileLimitsSchema } from './job-files';
+
+export { DEFAULT_JOB_FILE_LIMITS };
 
 export { DEFAULT_SIGN_OFF_SETTINGS, signOffSettingsSchema };
 export { DEFAULT_WORKSHEET_SETTINGS, worksheetSettingsSchema };
@@ -70,7 +73,9 @@ export const shopSettingsSchema = z.object({
 	/** What a supervisor's approval needs (after snapshot passing, passed soak, four-eyes). */
 	signOff: signOffSettingsSchema,
 	/** Home mains, bias tolerance and offset limit the bench worksheets judge against. */
-	worksheets: worksheetSettingsSchema
+	worksheets: worksheetSettingsSchema,
+	/** Per-file limit for files attached to a job (photos, PDFs, WAVs). */
+	jobFiles: jobFileLimitsSchema
 });
 export type ShopSettings = z.infer<typeof shopSettingsSchema>;
 
@@ -102,6 +107,7 @@ export const SETTINGS_KEYS = [
 	'soakDefaultLimits',
 	'snapshotStorage',
 	'signOff',
-	'worksheets'
+	'worksheets',
+	'jobFiles'
 ] as const;
 export type SettingsKey = (typeof SETTINGS_KEYS)[number];

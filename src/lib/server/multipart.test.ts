@@ -1,7 +1,7 @@
 // The in-place multipart reader against what the platform's own FormData serialiser writes, and
 // against hand-written bodies for the RFC 7578 / RFC 2046 details (preamble, quoted boundary).
 import { describe, expect, it } from 'vitest';
-import { multipartBoundary, parseMultipart } from './multipart';
+import { MultipartError, multipartBoundary, parseMultipart, streamMultipart } from './multipart';
 
 const text = (b: Uint8Array) => new TextDecoder().decode(b);
 
@@ -34,5 +34,52 @@ describe('multipart', () => {
 		expect(parts?.map((p) => [p.name, text(p.data)])).toEqual([['meta', 'hello']]);
 		expect(parseMultipart(body.subarray(0, body.length - 12), 'a b')).toBeNull();
 		expect(parseMultipart(new TextEncoder().encode('no parts here'), 'a b')).toBeNull();
+	});
+});
+
+describe('streamMultipart', () => {
+	async function collect(body: Uint8Array, boundary: string, chunk: number) {
+		const parts: { name: string; filename?: string; data: Buffer }[] = [];
+		async function* chunks() {
+			for (let i = 0; i < body.length; i += chunk) yield body.subarray(i, i + chunk);
+		}
+		await streamMultipart(chunks(), boundary, (head) => {
+			const got: Buffer[] = [];
+			return {
+				write: (c) => void got.push(Buffer.from(c)),
+				end: () => void parts.push({ ...head, data: Buffer.concat(got) })
+			};
+		});
+		return parts;
+	}
+
+	it('reads what the platform FormData sends, whatever the chunk size, parts intact', async () => {
+		// Content that holds CRLF, dashes and the boundary's own text without a leading CRLF--.
+		const wav = new Uint8Array(70_000).map((_, i) => (i * 31) & 255);
+		const f = new FormData();
+		f.append('file', new Blob([wav]), 'a.wav');
+		f.append('file', new Blob(['line\r\n--not-a-boundary\r\n-']), 'b.txt');
+		const req = new Request('http://x/', { method: 'POST', body: f });
+		const boundary = multipartBoundary(req.headers.get('content-type') ?? '')!;
+		const body = new Uint8Array(await req.arrayBuffer());
+		for (const chunk of [1, 7, 70, 4096, body.length]) {
+			const parts = await collect(body, boundary, chunk);
+			expect(
+				parts.map((p) => [p.name, p.filename]),
+				`chunk ${chunk}`
+			).toEqual([
+				['file', 'a.wav'],
+				['file', 'b.txt']
+			]);
+			expect(parts[0].data.equals(Buffer.from(wav)), `chunk ${chunk}`).toBe(true);
+			expect(parts[1].data.toString(), `chunk ${chunk}`).toBe('line\r\n--not-a-boundary\r\n-');
+		}
+	});
+
+	it('refuses a body that ends before its closing boundary', async () => {
+		const body = new TextEncoder().encode(
+			'--b\r\nContent-Disposition: form-data; name="file"; filename="x"\r\n\r\nabc'
+		);
+		await expect(collect(body, 'b', 5)).rejects.toBeInstanceOf(MultipartError);
 	});
 });

@@ -39,7 +39,9 @@ describe('settings', () => {
 				requirePassedSafetyCheck: true
 			},
 			// IEC 60038 230 V mains; bias ±10 % and offset ±50 mV are common practice.
-			worksheets: { homeMainsVoltsRms: 230, biasTolerancePercent: 10, offsetLimitMillivolts: 50 }
+			worksheets: { homeMainsVoltsRms: 230, biasTolerancePercent: 10, offsetLimitMillivolts: 50 },
+			// Room for a phone photo or a long stereo capture (issue 13 asks for 50 MiB).
+			jobFiles: { maxFileMiB: 50 }
 		});
 	});
 

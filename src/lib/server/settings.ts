@@ -9,6 +9,7 @@ import { audit, changes } from './audit';
 import {
 	DEFAULT_SNAPSHOT_STORAGE,
 	DEFAULT_SIGN_OFF_SETTINGS,
+	DEFAULT_JOB_FILE_LIMITS,
 	DEFAULT_SOAK_LIMITS,
 	DEFAULT_WORKSHEET_SETTINGS,
 	SETTINGS_KEYS,
@@ -27,7 +28,8 @@ export function defaultSettings(): ShopSettings {
 		soakDefaultLimits: { ...DEFAULT_SOAK_LIMITS },
 		snapshotStorage: { ...DEFAULT_SNAPSHOT_STORAGE },
 		signOff: { ...DEFAULT_SIGN_OFF_SETTINGS },
-		worksheets: { ...DEFAULT_WORKSHEET_SETTINGS }
+		worksheets: { ...DEFAULT_WORKSHEET_SETTINGS },
+		jobFiles: { ...DEFAULT_JOB_FILE_LIMITS }
 	};
 }
 

@@ -15,6 +15,7 @@ import { confirmPassword, waitText } from './auth';
 import { getSetting } from './settings';
 import { recordStatusChange } from './jobs';
 import { readSheets, safetyEvidence } from './worksheets';
+import { audioSha256 } from './snapshots';
 import { describeDifferences, fingerprint, type CoveredRecord } from './sign-off-hash';
 import {
 	FOUR_EYES_MESSAGE,
@@ -46,9 +47,8 @@ export const SEND_BACK_TO = 'repairing' as const;
 /** The record a signature covers, read fresh from the tables (snapshots, audio hashes, soak runs, parts). */
 export function coveredRecord(db: Conn, jobId: number): CoveredRecord {
 	const snapshots = db
-		.select({ s: table.snapshots, audioSha256: table.snapshotAudio.sha256 })
+		.select({ s: table.snapshots, audioSha256 })
 		.from(table.snapshots)
-		.leftJoin(table.snapshotAudio, eq(table.snapshotAudio.snapshotId, table.snapshots.id))
 		.where(eq(table.snapshots.jobId, jobId))
 		.orderBy(asc(table.snapshots.id))
 		.all()

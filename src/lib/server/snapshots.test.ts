@@ -90,7 +90,7 @@ beforeEach(() => {
 		.get().id;
 });
 
-const count = (t: 'snapshots' | 'snapshot_audio') =>
+const count = (t: 'snapshots' | 'snapshot_audio_blobs') =>
 	(db.get(sql.raw(`select count(*) as n from ${t}`)) as { n: number }).n;
 
 describe('createSnapshot', () => {
@@ -99,7 +99,7 @@ describe('createSnapshot', () => {
 	const h3 = 10 ** (-66 / 20);
 	const thdTrue = Math.sqrt(h2 * h2 + h3 * h3);
 
-	it('stores the server’s own analysis of the WAV, matching the analytic truth', () => {
+	it('stores the server’s own analysis of the WAV, matching the analytic truth', async () => {
 		const left = tone(0.5, 1000, [
 			[2, h2],
 			[3, h3]
@@ -161,7 +161,7 @@ describe('createSnapshot', () => {
 		expect(s.levelDbv[peak]).toBeCloseTo(20 * Math.log10(vrms), 0);
 		expect(s.frequencyHz.length).toBeGreaterThan(500);
 		expect(s.frequencyHz.length).toBeLessThanOrEqual(2000);
-		const audio = getSnapshotAudio(db, res.id)!;
+		const audio = (await getSnapshotAudio(db, res.id))!;
 		expect(audio.wav.byteLength).toBe(44 + N * 2 * 3);
 		expect(audio.sha256).toMatch(/^[0-9a-f]{64}$/);
 		expect(listSnapshots(db, jobId).map((x) => [x.id, x.verdict, x.stage])).toEqual([
@@ -563,7 +563,7 @@ describe('createSnapshot', () => {
 			expect((err as DomainError).message, name).toMatch(msg);
 		}
 		expect(count('snapshots')).toBe(0);
-		expect(count('snapshot_audio')).toBe(0);
+		expect(count('snapshot_audio_blobs')).toBe(0);
 	});
 
 	it('is immutable: the database refuses UPDATE and DELETE of results and audio', () => {
@@ -582,12 +582,12 @@ describe('createSnapshot', () => {
 		);
 		expect(() => c.prepare(`delete from snapshots where id = ?`).run(res.id)).toThrow(/immutable/);
 		expect(() =>
-			c.prepare(`update snapshot_audio set wav = x'00' where snapshot_id = ?`).run(res.id)
+			c.prepare(`update snapshot_audio_blobs set sha256 = 'x' where snapshot_id = ?`).run(res.id)
 		).toThrow(/immutable/);
-		expect(() => c.prepare(`delete from snapshot_audio where snapshot_id = ?`).run(res.id)).toThrow(
+		expect(() => c.prepare(`delete from snapshot_audio_blobs where snapshot_id = ?`).run(res.id)).toThrow(
 			/immutable/
 		);
 		expect(getSnapshot(db, res.id)?.verdict).toBe('none');
-		expect(count('snapshot_audio')).toBe(1);
+		expect(count('snapshot_audio_blobs')).toBe(1);
 	});
 });

@@ -8,7 +8,7 @@
 // and the write (snapshot-store.ts: in the pool for a database file, else on this thread).
 import { createRequire } from 'node:module';
 import { resolve } from 'node:path';
-import { and, desc, eq } from 'drizzle-orm';
+import { and, desc, eq, sql } from 'drizzle-orm';
 import type { AnalysisConditions, AnalysisResult } from '$lib/dsp/types';
 import type { CompactSpectrum } from '$lib/dsp/spectrum';
 import {
@@ -54,6 +54,7 @@ import {
 	writeSnapshot,
 	type StorePlan
 } from './snapshot-store';
+import { blobStoreFor, storeRootFor } from './storage';
 
 export {
 	ANALYSIS_MAX_SECONDS,
@@ -348,6 +349,7 @@ function judgeSnapshot(db: Db, p: PreparedSnapshot, out: SnapshotAnalysisOutput)
 			storage: p.storage,
 			insert: { sql: insert.sql, params: insert.params },
 			sha256: out.sha256,
+			storeRoot: storeRootFor(db.$client.name),
 			audit: {
 				actorId: p.userId,
 				label: p.meta.label,
@@ -503,10 +505,9 @@ export function getSnapshot(db: Db, id: number, jobId?: number): SnapshotDetail 
 			? eq(table.snapshots.id, id)
 			: and(eq(table.snapshots.id, id), eq(table.snapshots.jobId, jobId));
 	const found = db
-		.select({ s: table.snapshots, name: table.users.name, sha: table.snapshotAudio.sha256 })
+		.select({ s: table.snapshots, name: table.users.name, sha: audioSha256 })
 		.from(table.snapshots)
 		.innerJoin(table.users, eq(table.users.id, table.snapshots.createdBy))
-		.leftJoin(table.snapshotAudio, eq(table.snapshotAudio.snapshotId, table.snapshots.id))
 		.where(where)
 		.get();
 	if (!found) return null;
@@ -527,21 +528,38 @@ export function getSnapshot(db: Db, id: number, jobId?: number): SnapshotDetail 
 	};
 }
 
-/** The stored WAV bytes of a snapshot, or null. */
-export function getSnapshotAudio(
+/** A snapshot's audio hash: in the blob store, or (not yet moved) in the database. */
+export const audioSha256 = sql<string | null>`coalesce(
+	(select b.sha256 from snapshot_audio_blobs b where b.snapshot_id = ${table.snapshots.id}),
+	(select a.sha256 from snapshot_audio a where a.snapshot_id = ${table.snapshots.id}))`;
+
+/**
+ * The stored WAV bytes of a snapshot, checked against their recorded SHA-256 (a damaged store
+ * throws BlobCorruptError rather than hand out other bytes), or null for no such snapshot.
+ */
+export async function getSnapshotAudio(
 	db: Db,
 	id: number
-): { wav: Buffer; sha256: string; label: string; jobId: number } | null {
-	const row = db
-		.select({
-			wav: table.snapshotAudio.wav,
-			sha256: table.snapshotAudio.sha256,
-			label: table.snapshots.label,
-			jobId: table.snapshots.jobId
-		})
+): Promise<{ wav: Buffer; sha256: string; label: string; jobId: number } | null> {
+	const snap = db
+		.select({ label: table.snapshots.label, jobId: table.snapshots.jobId })
+		.from(table.snapshots)
+		.where(eq(table.snapshots.id, id))
+		.get();
+	if (!snap) return null;
+	const ref = db
+		.select({ sha256: table.snapshotAudioBlobs.sha256 })
+		.from(table.snapshotAudioBlobs)
+		.where(eq(table.snapshotAudioBlobs.snapshotId, id))
+		.get();
+	if (ref) {
+		const wav = await blobStoreFor(db.$client.name).get(ref.sha256);
+		return { wav, sha256: ref.sha256, ...snap };
+	}
+	const legacy = db
+		.select({ wav: table.snapshotAudio.wav, sha256: table.snapshotAudio.sha256 })
 		.from(table.snapshotAudio)
-		.innerJoin(table.snapshots, eq(table.snapshots.id, table.snapshotAudio.snapshotId))
 		.where(eq(table.snapshotAudio.snapshotId, id))
 		.get();
-	return row ?? null;
+	return legacy ? { ...legacy, ...snap } : null;
 }

@@ -7,6 +7,8 @@ import { closeSync, existsSync, mkdirSync, openSync } from 'node:fs';
 import { dirname, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import * as schema from './schema';
+import { migrateSnapshotAudio } from '../snapshot-store';
+import { storeRootFor } from '../storage';
 
 export type Db = BetterSQLite3Database<typeof schema> & { $client: Database.Database };
 
@@ -41,6 +43,17 @@ export function openDb(url: string, options: { migrate?: boolean } = {}): Db {
 	sqlite.pragma('busy_timeout = 5000');
 	sqlite.pragma('foreign_keys = ON');
 	const db = drizzle(sqlite, { schema }) as Db;
-	if (options.migrate !== false) migrate(db, { migrationsFolder: migrationsFolder() });
+	if (options.migrate !== false) {
+		migrate(db, { migrationsFolder: migrationsFolder() });
+		// Snapshot audio from before the blob store moves there (verified, idempotent, crash-safe).
+		if (url !== ':memory:' && url !== '') {
+			const moved = migrateSnapshotAudio(sqlite, storeRootFor(url));
+			if (moved.moved) console.log(`Moved ${moved.moved} snapshot recordings into the blob store`);
+			if (moved.mismatched.length)
+				console.error(
+					`Snapshot audio of #${moved.mismatched.join(', #')} does not match its recorded SHA-256; left in the database`
+				);
+		}
+	}
 	return db;
 }

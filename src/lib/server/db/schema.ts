@@ -506,3 +506,55 @@ export const procedureRuns = sqliteTable(
 	},
 	(t) => [index('procedure_runs_job_idx').on(t.jobId, t.createdAt)]
 );
+
+// ---- job files ----
+
+/**
+ * A file on a job (photo, PDF, WAV), its bytes in the blob store under `sha256`. `jobId` is the
+ * owner today; it is nullable so another owner (a model's notebook) can be added as its own
+ * column beside it without rebuilding the table. Removal is a mark, never a deletion.
+ */
+export const jobFiles = sqliteTable(
+	'job_files',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		jobId: integer('job_id').references(() => jobs.id),
+		/** SHA-256 of the stored (served) bytes: photos have their metadata stripped at upload. */
+		sha256: text('sha256').notNull(),
+		/** SHA-256 of the bytes as uploaded (differs from `sha256` for photos; those bytes are not kept). */
+		receivedSha256: text('received_sha256').notNull(),
+		/** The uploader's file name, for display only; never a path. */
+		name: text('name').notNull(),
+		/** Decided by content: jpeg, png, webp, pdf or wav. */
+		type: text('type', { enum: ['jpeg', 'png', 'webp', 'pdf', 'wav'] }).notNull(),
+		bytes: integer('bytes').notNull(),
+		uploadedBy: text('uploaded_by')
+			.notNull()
+			.references(() => users.id),
+		uploadedAt: integer('uploaded_at', { mode: 'timestamp_ms' }).notNull(),
+		removedAt: integer('removed_at', { mode: 'timestamp_ms' }),
+		removedBy: text('removed_by').references(() => users.id),
+		/** A small WebP of a photo, in the blob store. */
+		thumbSha256: text('thumb_sha256'),
+		/** WAV figures measured at upload (WavFigures in $lib/schemas/job-files). */
+		analysis: text('analysis', { mode: 'json' }),
+		/** The snapshot made from this WAV, once made. */
+		snapshotId: integer('snapshot_id').references(() => snapshots.id)
+	},
+	(t) => [index('job_files_job_idx').on(t.jobId, t.uploadedAt)]
+);
+
+/**
+ * Where a snapshot's audio is: the blob store, by hash. Immutable like the snapshot (triggers). A
+ * snapshot from before the store has its audio in `snapshot_audio` until the start-up migration
+ * moves it here; the trigger on that table lets its row go only once this one exists.
+ */
+export const snapshotAudioBlobs = sqliteTable('snapshot_audio_blobs', {
+	snapshotId: integer('snapshot_id')
+		.primaryKey()
+		.references(() => snapshots.id),
+	sha256: text('sha256').notNull(),
+	bytes: integer('bytes').notNull()
+});
+
+export type JobFile = typeof jobFiles.$inferSelect;

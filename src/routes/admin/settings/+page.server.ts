@@ -38,7 +38,8 @@ export const actions: Actions = formActions({
 			'thdnCeilingDb',
 			'perJobMiB',
 			'perShopGiB',
-			...WORKSHEET_NUMBERS
+			...WORKSHEET_NUMBERS,
+			'maxFileMiB'
 		];
 		const values = Object.fromEntries(names.map((n) => [n, text(form, n)]));
 		// Checkboxes: present when ticked.
@@ -61,6 +62,9 @@ export const actions: Actions = formActions({
 			snapshotStorage: {
 				perJobMiB: form.has('perJobMiB') ? number(form, 'perJobMiB') : storage.perJobMiB,
 				perShopGiB: form.has('perShopGiB') ? number(form, 'perShopGiB') : storage.perShopGiB
+			},
+			jobFiles: {
+				maxFileMiB: form.has('maxFileMiB') ? number(form, 'maxFileMiB') : stored.jobFiles.maxFileMiB
 			},
 			signOff: {
 				requireAfterSnapshotPass: ticked('requireAfterSnapshotPass'),

@@ -21,6 +21,8 @@ import {
 } from '$lib/server/jobs';
 import { listAssignableUsers } from '$lib/server/users';
 import { listAudit } from '$lib/server/audit';
+import { listJobFiles } from '$lib/server/job-files';
+import { getSettings } from '$lib/server/settings';
 import { listSignOffs, standingSignOff } from '$lib/server/sign-off';
 import { worksheetSummary } from '$lib/server/worksheets';
 import { reopenSchema } from '$lib/schemas/job-lock';
@@ -60,7 +62,9 @@ export const load: PageServerLoad = pageLoad((event) => {
 		signOffs: listSignOffs(db, id),
 		canSignOff: job.status === 'awaiting-review' && (user.role === 'supervisor' || user.role === 'admin'),
 		trail: listAudit(db, { job: id, page: trailPage(event.url), pageSize: TRAIL_PAGE_SIZE }),
-		worksheets: worksheetSummary(db, id)
+		worksheets: worksheetSummary(db, id),
+		files: listJobFiles(db, id),
+		fileMaxMiB: getSettings(db).jobFiles.maxFileMiB
 	};
 });
 

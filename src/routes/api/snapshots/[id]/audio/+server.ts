@@ -6,10 +6,10 @@ import { endpoint, idParam } from '$lib/server/api';
 import { getSnapshotAudio } from '$lib/server/snapshots';
 import type { RequestHandler } from './$types';
 
-export const GET: RequestHandler = endpoint((event) => {
+export const GET: RequestHandler = endpoint(async (event) => {
 	requireUser(event);
 	const id = idParam(event.params.id, 'snapshot');
-	const audio = getSnapshotAudio(db, id);
+	const audio = await getSnapshotAudio(db, id);
 	if (!audio) throw new DomainError('not-found', 'No such snapshot');
 	return new Response(new Uint8Array(audio.wav), {
 		headers: {
