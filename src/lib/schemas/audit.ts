@@ -33,7 +33,10 @@ export const AUDIT_ACTIONS = [
 	'worksheet.created',
 	'worksheet.updated',
 	'file.uploaded',
-	'file.removed'
+	'file.removed',
+	'customer-link.created',
+	'customer-link.revoked',
+	'report.sent'
 ] as const;
 export type AuditAction = (typeof AUDIT_ACTIONS)[number];
 
@@ -67,7 +70,10 @@ export const AUDIT_ACTION_LABELS: Record<AuditAction, string> = {
 	'worksheet.created': 'Worksheet started',
 	'worksheet.updated': 'Worksheet changed',
 	'file.uploaded': 'File attached',
-	'file.removed': 'File removed'
+	'file.removed': 'File removed',
+	'customer-link.created': 'Customer link made',
+	'customer-link.revoked': 'Customer link revoked',
+	'report.sent': 'Report sent to the customer'
 };
 
 export function auditActionLabel(action: string): string {

@@ -162,7 +162,9 @@ export const logEntrySchema = z.object({
 		.int('Whole minutes')
 		.min(0, 'Minutes cannot be negative')
 		.max(24 * 60, 'At most 1440 minutes in one entry')
-		.default(0)
+		.default(0),
+	/** Shown on the customer's report, so write it in plain words. */
+	forCustomer: z.boolean('For the customer is yes or no').default(false)
 });
 export type LogEntryInput = z.infer<typeof logEntrySchema>;
 

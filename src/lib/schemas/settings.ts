@@ -4,6 +4,10 @@ import { z } from 'zod';
 import { DEFAULT_SIGN_OFF_SETTINGS, signOffSettingsSchema } from './sign-off';
 import { DEFAULT_WORKSHEET_SETTINGS, worksheetSettingsSchema } from './worksheets';
 import { DEFAULT_JOB_FILE_LIMITS, jobFileLimitsSchema } from './job-files';
+import { DEFAULT_REPORT_SETTINGS, reportSettingsSchema } from './report';
+
+export { DEFAULT_REPORT_SETTINGS, reportSettingsSchema };
+export type { ReportSettings } from './report';
 
 export { DEFAULT_JOB_FILE_LIMITS };
 
@@ -75,7 +79,9 @@ export const shopSettingsSchema = z.object({
 	/** Home mains, bias tolerance and offset limit the bench worksheets judge against. */
 	worksheets: worksheetSettingsSchema,
 	/** Per-file limit for files attached to a job (photos, PDFs, WAVs). */
-	jobFiles: jobFileLimitsSchema
+	jobFiles: jobFileLimitsSchema,
+	/** Contact lines, notes and link lifetime of the customer's report. */
+	customerReport: reportSettingsSchema
 });
 export type ShopSettings = z.infer<typeof shopSettingsSchema>;
 
@@ -108,6 +114,7 @@ export const SETTINGS_KEYS = [
 	'snapshotStorage',
 	'signOff',
 	'worksheets',
-	'jobFiles'
+	'jobFiles',
+	'customerReport'
 ] as const;
 export type SettingsKey = (typeof SETTINGS_KEYS)[number];

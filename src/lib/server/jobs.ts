@@ -77,6 +77,8 @@ export interface WorkLogItem {
 	minutes: number;
 	authorId: string;
 	authorName: string;
+	/** Shown on the customer's report. */
+	forCustomer: boolean;
 	createdAt: string;
 }
 
@@ -501,6 +503,7 @@ export function getJob(db: Db, id: number): JobDetail | null {
 			minutes: table.workLog.minutes,
 			authorId: table.workLog.authorId,
 			authorName: table.users.name,
+			forCustomer: table.workLog.forCustomer,
 			createdAt: table.workLog.createdAt
 		})
 		.from(table.workLog)
@@ -745,7 +748,14 @@ export function addLogEntry(db: Db, jobId: number, input: LogEntryInput, authorI
 		const now = new Date();
 		const entry = tx
 			.insert(table.workLog)
-			.values({ jobId, authorId, text: data.text, minutes: data.minutes, createdAt: now })
+			.values({
+				jobId,
+				authorId,
+				text: data.text,
+				minutes: data.minutes,
+				forCustomer: data.forCustomer,
+				createdAt: now
+			})
 			.returning()
 			.get();
 		tx.update(table.jobs).set({ updatedAt: now }).where(eq(table.jobs.id, jobId)).run();
@@ -754,7 +764,7 @@ export function addLogEntry(db: Db, jobId: number, input: LogEntryInput, authorI
 			action: 'log.added',
 			jobId,
 			subject: `job #${jobId}`,
-			detail: { entryId: entry.id, text: data.text, minutes: data.minutes },
+			detail: { entryId: entry.id, text: data.text, minutes: data.minutes, forCustomer: data.forCustomer },
 			at: now
 		});
 		const author = tx
@@ -768,6 +778,7 @@ export function addLogEntry(db: Db, jobId: number, input: LogEntryInput, authorI
 			minutes: entry.minutes,
 			authorId,
 			authorName: author?.name ?? '',
+			forCustomer: entry.forCustomer,
 			createdAt: iso(entry.createdAt)
 		};
 	});

@@ -5,6 +5,7 @@ import { openDb, type Db } from './db/open';
 import * as table from './db/schema';
 import { defaultSettings, getSetting, getSettings, updateSettings } from './settings';
 import { env } from './env';
+import { DEFAULT_REPORT_SETTINGS } from '$lib/schemas/report';
 
 let db: Db;
 beforeEach(() => {
@@ -41,7 +42,8 @@ describe('settings', () => {
 			// IEC 60038 230 V mains; bias ±10 % and offset ±50 mV are common practice.
 			worksheets: { homeMainsVoltsRms: 230, biasTolerancePercent: 10, offsetLimitMillivolts: 50 },
 			// Room for a phone photo or a long stereo capture (issue 13 asks for 50 MiB).
-			jobFiles: { maxFileMiB: 50 }
+			jobFiles: { maxFileMiB: 50 },
+			customerReport: DEFAULT_REPORT_SETTINGS
 		});
 	});
 

@@ -10,6 +10,7 @@ import {
 	DEFAULT_SNAPSHOT_STORAGE,
 	DEFAULT_SIGN_OFF_SETTINGS,
 	DEFAULT_JOB_FILE_LIMITS,
+	DEFAULT_REPORT_SETTINGS,
 	DEFAULT_SOAK_LIMITS,
 	DEFAULT_WORKSHEET_SETTINGS,
 	SETTINGS_KEYS,
@@ -29,7 +30,8 @@ export function defaultSettings(): ShopSettings {
 		snapshotStorage: { ...DEFAULT_SNAPSHOT_STORAGE },
 		signOff: { ...DEFAULT_SIGN_OFF_SETTINGS },
 		worksheets: { ...DEFAULT_WORKSHEET_SETTINGS },
-		jobFiles: { ...DEFAULT_JOB_FILE_LIMITS }
+		jobFiles: { ...DEFAULT_JOB_FILE_LIMITS },
+		customerReport: { ...DEFAULT_REPORT_SETTINGS }
 	};
 }
 

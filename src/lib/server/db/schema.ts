@@ -141,6 +141,8 @@ export const workLog = sqliteTable(
 			.references(() => users.id),
 		text: text('text').notNull(),
 		minutes: integer('minutes').notNull().default(0),
+		/** Shown on the customer's report (in plain words); internal notes never are. */
+		forCustomer: integer('for_customer', { mode: 'boolean' }).notNull().default(false),
 		createdAt: createdAt()
 	},
 	(t) => [index('work_log_job_idx').on(t.jobId)]
@@ -558,3 +560,43 @@ export const snapshotAudioBlobs = sqliteTable('snapshot_audio_blobs', {
 });
 
 export type JobFile = typeof jobFiles.$inferSelect;
+
+// ---- customer report ----
+
+/**
+ * A private link a customer opens without an account (the report today, an estimate later).
+ * Only the SHA-256 of the token is stored; the token itself is shown once, when it is made.
+ */
+export const customerLinks = sqliteTable(
+	'customer_links',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		jobId: integer('job_id')
+			.notNull()
+			.references(() => jobs.id, { onDelete: 'cascade' }),
+		purpose: text('purpose', { enum: ['report', 'estimate'] }).notNull(),
+		tokenSha256: text('token_sha256').notNull().unique(),
+		createdBy: text('created_by')
+			.notNull()
+			.references(() => users.id),
+		createdAt: createdAt(),
+		expiresAt: integer('expires_at', { mode: 'timestamp_ms' }).notNull(),
+		revokedAt: integer('revoked_at', { mode: 'timestamp_ms' }),
+		revokedBy: text('revoked_by').references(() => users.id)
+	},
+	(t) => [index('customer_links_job_idx').on(t.jobId)]
+);
+
+/** When a customer link was opened (nothing about who: no address, no agent). */
+export const customerLinkViews = sqliteTable(
+	'customer_link_views',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		linkId: integer('link_id')
+			.notNull()
+			.references(() => customerLinks.id, { onDelete: 'cascade' }),
+		viewedAt: integer('viewed_at', { mode: 'timestamp_ms' }).notNull()
+	},
+	(t) => [index('customer_link_views_link_idx').on(t.linkId)]
+);
+

@@ -142,7 +142,11 @@ export const actions: Actions = formActions({
 		const id = idParam(event.params.id, 'job');
 		const form = await event.request.formData();
 		const values = { text: text(form, 'text'), minutes: text(form, 'minutes') };
-		const parsed = logEntrySchema.safeParse({ text: values.text, minutes: number(form, 'minutes') });
+		const parsed = logEntrySchema.safeParse({
+			text: values.text,
+			minutes: number(form, 'minutes'),
+			forCustomer: form.get('forCustomer') === 'on'
+		});
 		if (!parsed.success) return fail(400, { action: 'log', values, errors: fieldErrors(parsed.error) });
 		addLogEntry(db, id, parsed.data, user.id);
 		return { action: 'log', ok: true };

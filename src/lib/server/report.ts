@@ -1,0 +1,295 @@
+// The customer's measured report: one typed model of what the customer may see of a job, built
+// from the job, the shop's settings, the before/after snapshots (through the compare module),
+// the soak, the procedures, the safety check and the sign-off. The page, the public link and
+// the PDF all render this one model; internal notes never enter it.
+import type { Db } from './db/open';
+import { DomainError } from './errors';
+import { getJob } from './jobs';
+import { getSettings } from './settings';
+import { getSnapshot, type SnapshotDetail } from './snapshots';
+import { listRuns, getRunDetail } from './soak';
+import { standingSignOff, evaluateJob } from './sign-off';
+import { procedureSummary } from './procedures';
+import { worksheetSummary } from './worksheets';
+import {
+	channelFigure,
+	stereoFigure,
+	formatFigure,
+	CHANNEL_FIGURES,
+	STEREO_FIGURES,
+	type FigureDef
+} from '../compare';
+import { categoryLabel } from '../format';
+import { probeLabel } from '../soak/probes';
+import { PROCEDURE_LABELS } from '../schemas/procedures';
+
+/** A figure as the customer reads it: what it is in plain words, before and after. */
+export interface ReportFigure {
+	id: string;
+	label: string;
+	channel: 'Left' | 'Right' | null;
+	plain: string;
+	before: string | null;
+	after: string | null;
+}
+
+export interface ReportSnapshotHead {
+	label: string;
+	date: string;
+	conditions: string;
+	verdict: string;
+}
+
+export interface ReportTrace {
+	label: string;
+	frequencyHz: number[];
+	levelDbv: number[];
+}
+
+export interface ReportModel {
+	shop: {
+		name: string;
+		address: string;
+		phone: string;
+		email: string;
+		warrantyNote: string;
+		safetyNote: string;
+		footer: string;
+	};
+	generatedAt: string;
+	job: {
+		id: number;
+		category: string;
+		make: string;
+		model: string;
+		serial: string | null;
+		year: number | null;
+		complaint: string;
+		ratedPowerW: number | null;
+		ratedLoadOhms: number | null;
+	};
+	customerName: string;
+	work: { date: string; text: string }[];
+	parts: { refDes: string; description: string; value: string | null; quantity: number }[];
+	before: ReportSnapshotHead | null;
+	after: ReportSnapshotHead | null;
+	figures: ReportFigure[];
+	spectra: ReportTrace[];
+	soak: {
+		status: string;
+		preset: string;
+		drivePowerW: number;
+		loadOhms: number;
+		minutes: number;
+		maxC: { probe: string; celsius: number }[];
+		series: { minutes: number[]; traces: { label: string; meanC: (number | null)[] }[] };
+	} | null;
+	procedures: { label: string; kind: string; verdict: string; summary: string }[];
+	safetyCheck: string | null;
+	signOff: { name: string; at: string; meaning: string } | null;
+}
+
+/** The figures a customer is shown, each with what it means in plain words. */
+const PLAIN: Record<string, string> = {
+	levelVrms: 'The test output, in volts, that the other figures were measured at.',
+	powerW: 'The power delivered into the test load at that level.',
+	thdPercent: 'How much of the output is added overtones of the test tone — lower is better.',
+	thdnPercent:
+		'How much of the output is not the test tone (overtones, hum and hiss together) — lower is better.',
+	noiseVrms: 'The hiss and hum left when the tone is removed — lower is better.',
+	noiseWeightedVrms: 'The same, weighted the way the ear hears quiet sounds (A-weighting) — lower is better.',
+	snrDb: 'How far the noise sits below the output level — higher is better.',
+	dcVolts: 'Direct voltage at the speaker terminals — close to zero protects the speakers.',
+	balanceDb: 'The difference in loudness between left and right — close to zero is better.',
+	crosstalkDb: 'How much of one channel leaks into the other — lower (more negative) is better.',
+	imdPercent: 'Distortion from two tones mixing — lower is better.'
+};
+
+function defsOf(list: readonly FigureDef[]): FigureDef[] {
+	return list.filter((d) => d.key in PLAIN);
+}
+
+function head(s: SnapshotDetail | null): ReportSnapshotHead | null {
+	if (!s) return null;
+	const c = s.results?.conditions as { bandHz?: number[]; weighting?: string } | undefined;
+	const band = c?.bandHz ? `${c.bandHz[0]} Hz–${c.bandHz[1] / 1000} kHz` : '20 Hz–20 kHz';
+	const parts = [
+		`band ${band}`,
+		c?.weighting === 'a' ? 'A-weighted' : 'unweighted',
+		s.loadOhms ? `into ${s.loadOhms} Ω` : null
+	].filter(Boolean);
+	return { label: s.label, date: s.createdAt, conditions: parts.join(', '), verdict: s.verdict };
+}
+
+/** At most `n` points of a compact spectrum, keeping each stretch's highest level (peaks survive). */
+function thin(freq: number[], level: number[], n = 320): { frequencyHz: number[]; levelDbv: number[] } {
+	if (freq.length <= n) return { frequencyHz: freq, levelDbv: level };
+	const f: number[] = [];
+	const l: number[] = [];
+	for (let p = 0; p < n; p++) {
+		const a = Math.floor((p * freq.length) / n);
+		const b = Math.floor(((p + 1) * freq.length) / n);
+		let best = a;
+		for (let i = a + 1; i < b; i++) if (level[i] > level[best]) best = i;
+		f.push(freq[best]);
+		l.push(level[best]);
+	}
+	return { frequencyHz: f, levelDbv: l };
+}
+
+const SOAK_STATUS: Record<string, string> = {
+	passed: 'Passed',
+	failed: 'Failed',
+	aborted: 'Stopped early',
+	running: 'Still running'
+};
+
+export function buildReport(db: Db, jobId: number, nowMs = Date.now()): ReportModel {
+	const job = getJob(db, jobId);
+	if (!job) throw new DomainError('not-found', 'No such job');
+	const settings = getSettings(db);
+	const r = settings.customerReport;
+
+	// The snapshots the sign-off judges: the latest before and the latest after.
+	const evaluation = evaluateJob(db, jobId, '');
+	const before = evaluation.latestBefore !== null ? getSnapshot(db, evaluation.latestBefore, jobId) : null;
+	const after = evaluation.latestAfter !== null ? getSnapshot(db, evaluation.latestAfter, jobId) : null;
+	const figures: ReportFigure[] = [];
+	const fmt = (def: FigureDef, v: { value: number | null } | null) =>
+		v && v.value !== null ? formatFigure(def, v.value) : null;
+	const channels = Math.max(before?.results?.channels?.length ?? 0, after?.results?.channels?.length ?? 0);
+	for (const def of defsOf(CHANNEL_FIGURES))
+		for (let ch = 0; ch < Math.min(2, channels); ch++) {
+			const b = before ? fmt(def, channelFigure(before, ch, def.key)) : null;
+			const a = after ? fmt(def, channelFigure(after, ch, def.key)) : null;
+			if (b === null && a === null) continue;
+			figures.push({
+				id: `ch${ch}:${def.key}`,
+				label: def.label,
+				channel: ch === 0 ? 'Left' : 'Right',
+				plain: PLAIN[def.key],
+				before: b,
+				after: a
+			});
+		}
+	for (const def of defsOf(STEREO_FIGURES)) {
+		const b = before ? fmt(def, stereoFigure(before, def.key)) : null;
+		const a = after ? fmt(def, stereoFigure(after, def.key)) : null;
+		if (b === null && a === null) continue;
+		figures.push({
+			id: `stereo:${def.key}`,
+			label: def.label,
+			channel: null,
+			plain: PLAIN[def.key],
+			before: b,
+			after: a
+		});
+	}
+
+	const spectra: ReportTrace[] = [];
+	for (const [s, name] of [
+		[before, 'Before'],
+		[after, 'After']
+	] as const) {
+		const c = s?.spectrum?.channels?.[0];
+		if (c) spectra.push({ label: `${name} (left)`, ...thin(c.frequencyHz, c.levelDbv) });
+	}
+
+	// The soak the customer hears about: the latest passed run, else the latest ended one.
+	const runs = listRuns(db, jobId, nowMs).filter((x) => x.run.status !== 'running');
+	const pick = runs.find((x) => x.run.status === 'passed') ?? runs[0];
+	let soak: ReportModel['soak'] = null;
+	if (pick) {
+		const d = getRunDetail(db, pick.run.id, nowMs);
+		const probes = Object.keys(d.series.probes);
+		soak = {
+			status: SOAK_STATUS[d.run.status] ?? d.run.status,
+			preset: d.run.preset,
+			drivePowerW: d.run.drivePowerW,
+			loadOhms: d.run.loadOhms,
+			minutes: Math.round(d.run.durationS / 60),
+			maxC: Object.entries(pick.maxC).map(([p, c]) => ({ probe: probeLabel(p), celsius: c })),
+			series: {
+				minutes: d.series.minutes,
+				traces: probes.map((p) => ({ label: probeLabel(p), meanC: d.series.probes[p].meanC }))
+			}
+		};
+	}
+
+	const procedures = procedureSummary(db, jobId).map((p) => {
+		let summary = '';
+		if (p.result.kind === 'response')
+			summary = p.result.flatness
+				.map((f, ch) => (f ? `${ch ? 'right' : 'left'} within ±${f.plusMinusDb.toFixed(2)} dB` : null))
+				.filter(Boolean)
+				.join(', ');
+		else if (p.result.kind === 'phono')
+			summary = p.result.maxDeviationDb
+				.map((d, ch) =>
+					d !== null ? `${ch ? 'right' : 'left'} within ${d.toFixed(2)} dB of the RIAA curve` : null
+				)
+				.filter(Boolean)
+				.join(', ');
+		else
+			summary = p.result.crossings
+				.map((c, ch) => (c ? `${ch ? 'right' : 'left'} ${c.powerW.toFixed(1)} W` : null))
+				.filter(Boolean)
+				.join(', ');
+		return { label: p.label, kind: PROCEDURE_LABELS[p.kind], verdict: p.verdict, summary };
+	});
+
+	const SAFETY: Record<string, string | null> = {
+		none: null,
+		incomplete: 'Not complete',
+		failed: 'Failed',
+		passed: 'Passed'
+	};
+	const safetyCheck = SAFETY[worksheetSummary(db, jobId).safety.state] ?? null;
+
+	const standing = standingSignOff(db, jobId);
+	const signOff =
+		standing && standing.signOff.decision === 'approve' && standing.check.intact
+			? {
+					name: standing.signOff.signerName,
+					at: standing.signOff.signedAt,
+					meaning: standing.signOff.meaning
+				}
+			: null;
+
+	return {
+		shop: {
+			name: settings.shopName,
+			address: r.address,
+			phone: r.phone,
+			email: r.email,
+			warrantyNote: r.warrantyNote,
+			safetyNote: r.safetyNote,
+			footer: r.footer
+		},
+		generatedAt: new Date(nowMs).toISOString(),
+		job: {
+			id: job.id,
+			category: categoryLabel(job.category),
+			make: job.make,
+			model: job.model,
+			serial: job.serial,
+			year: job.year,
+			complaint: job.complaint,
+			ratedPowerW: job.ratedPowerW,
+			ratedLoadOhms: job.ratedLoadOhms
+		},
+		customerName: job.customer.name,
+		work: job.log.filter((l) => l.forCustomer).map((l) => ({ date: l.createdAt, text: l.text })),
+		parts: job.parts
+			.filter((p) => p.state === 'fitted')
+			.map((p) => ({ refDes: p.refDes, description: p.description, value: p.value, quantity: p.quantity })),
+		before: head(before),
+		after: head(after),
+		figures,
+		spectra,
+		soak,
+		procedures,
+		safetyCheck,
+		signOff
+	};
+}
