@@ -46,7 +46,15 @@ const isApi = (url: URL) => url.pathname === '/api' || url.pathname.startsWith('
  * Routes (by SvelteKit route id) a signed-out visitor may reach. Everything else needs a session
  * before its own guard even runs, so a new page is private unless it is added here.
  */
-export const PUBLIC_ROUTES: ReadonlySet<string> = new Set(['/', '/login', '/logout', '/safety']);
+export const PUBLIC_ROUTES: ReadonlySet<string> = new Set([
+	'/',
+	'/login',
+	'/logout',
+	'/safety',
+	// The customer's private report link: its token is the key (see $lib/server/customer-links).
+	'/r/[token]',
+	'/r/[token]/report.pdf'
+]);
 
 /** The signed-out refusal for a private route: 401 JSON for the API, the sign-in page otherwise. */
 function refuseSignedOut(event: RequestEvent): Response {

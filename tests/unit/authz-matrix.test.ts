@@ -447,6 +447,13 @@ const MATRIX: Row[] = [
 		expect: [401, 200, 200, 200],
 		request: (fx) => ({ params: { id: snapshotIn(fx) } })
 	},
+	// the customer report as a PDF: everyone signed in reads it
+	{
+		route: '/api/jobs/[id]/report.pdf',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: String(fx.jobId) } })
+	},
 	// bench procedures: everyone signed in records and reads; the server computes the figures
 	{
 		route: '/api/jobs/[id]/procedures',

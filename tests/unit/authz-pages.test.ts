@@ -10,6 +10,7 @@ import { isActionFailure, isHttpError, isRedirect, type RequestEvent } from '@sv
 import { DEMO_PASSWORD } from '../../scripts/seed';
 import { handle, PUBLIC_ROUTES } from '../../src/hooks.server';
 import { createSnapshot } from '$lib/server/snapshots';
+import { createCustomerLink } from '$lib/server/customer-links';
 import { encodeWav } from '$lib/dsp';
 import {
 	ROLES,
@@ -71,6 +72,17 @@ function snapshotIn(fx: Fixtures): string {
 	return String(created.id);
 }
 
+/** A customer report link made inside the case's savepoint: its token (for /r/[token]) and id. */
+function reportLinkIn(fx: Fixtures): { token: string; id: number } {
+	const { token, id } = createCustomerLink(fx.db, {
+		jobId: fx.jobId,
+		purpose: 'report',
+		createdBy: fx.users.supervisor,
+		lifetimeDays: 30
+	});
+	return { token, id };
+}
+
 /* ─────────────────────────────────────────────────────────────────────────────
  * THE PAGE MATRIX. Every `+page.server.ts` load and every form action needs exactly one
  * row. Add or update the row in the same change as the page.
@@ -90,6 +102,13 @@ const LOADS: LoadRow[] = [
 		route: '/jobs/[id]/worksheets/[kind]',
 		expect: ['login', OK, OK, OK],
 		request: (fx) => ({ params: { ...job(fx).params, kind: 'power-up' } })
+	},
+	{ route: '/jobs/[id]/report', expect: ['login', OK, OK, OK], request: job },
+	// The customer's private link: public, the token is the key.
+	{
+		route: '/r/[token]',
+		expect: [OK, OK, OK, OK],
+		request: (fx) => ({ params: { token: reportLinkIn(fx).token } })
 	},
 	{
 		route: '/jobs/[id]/compare',
@@ -177,6 +196,19 @@ const ACTIONS: ActionRow[] = [
 		action: 'assign',
 		expect: ['login', OK, OK, OK],
 		request: (fx) => ({ ...job(fx), form: { technicianId: fx.users.tech2 } })
+	},
+	{
+		// A supervisor's send is refused by the service on an unsigned job (409), after the guard.
+		route: '/jobs/[id]/report',
+		action: 'send',
+		expect: ['login', 403, 409, 409],
+		request: job
+	},
+	{
+		route: '/jobs/[id]/report',
+		action: 'revoke',
+		expect: ['login', 403, OK, OK],
+		request: (fx) => ({ ...job(fx), form: { linkId: String(reportLinkIn(fx).id) } })
 	},
 	{
 		route: '/jobs/[id]',

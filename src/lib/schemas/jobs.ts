@@ -166,7 +166,7 @@ export const logEntrySchema = z.object({
 	/** Shown on the customer's report, so write it in plain words. */
 	forCustomer: z.boolean('For the customer is yes or no').default(false)
 });
-export type LogEntryInput = z.infer<typeof logEntrySchema>;
+export type LogEntryInput = z.input<typeof logEntrySchema>;
 
 const partFields = {
 	/** Reference designator as printed on the board: C12, Q3, R105, VR2 … */

@@ -22,6 +22,7 @@ const SIGN_OFF_BOXES = [
 	'requirePassedSafetyCheck'
 ] as const;
 
+const REPORT_TEXTS = ['address', 'phone', 'email', 'warrantyNote', 'safetyNote', 'footer'] as const;
 const WORKSHEET_NUMBERS = ['homeMainsVoltsRms', 'biasTolerancePercent', 'offsetLimitMillivolts'] as const;
 
 export const actions: Actions = formActions({
@@ -39,12 +40,15 @@ export const actions: Actions = formActions({
 			'perJobMiB',
 			'perShopGiB',
 			...WORKSHEET_NUMBERS,
-			'maxFileMiB'
+			'maxFileMiB',
+			...REPORT_TEXTS,
+			'linkLifetimeDays'
 		];
 		const values = Object.fromEntries(names.map((n) => [n, text(form, n)]));
 		// Checkboxes: present when ticked.
 		const ticked = (name: string) => form.get(name) !== null;
 		for (const n of SIGN_OFF_BOXES) values[n] = ticked(n) ? 'on' : '';
+		values.allowDraftSend = ticked('allowDraftSend') ? 'on' : '';
 		const thdn = number(form, 'thdnCeilingDb');
 		// Storage caps left out of a post keep what is stored (the form always sends them).
 		const stored = getSettings(db);
@@ -72,6 +76,18 @@ export const actions: Actions = formActions({
 				countAcceleratedSoak: ticked('countAcceleratedSoak'),
 				allowSelfSignOff: ticked('allowSelfSignOff'),
 				requirePassedSafetyCheck: ticked('requirePassedSafetyCheck')
+			},
+			// Report lines left out of a post keep what is stored (the form always sends them).
+			customerReport: {
+				...Object.fromEntries(
+					REPORT_TEXTS.map((n) => [n, form.has(n) ? values[n] : stored.customerReport[n]])
+				),
+				linkLifetimeDays: form.has('linkLifetimeDays')
+					? number(form, 'linkLifetimeDays')
+					: stored.customerReport.linkLifetimeDays,
+				allowDraftSend: form.has('linkLifetimeDays')
+					? ticked('allowDraftSend')
+					: stored.customerReport.allowDraftSend
 			},
 			// Worksheet figures left out of a post keep what is stored (the form always sends them).
 			worksheets: Object.fromEntries(
