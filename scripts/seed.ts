@@ -648,7 +648,19 @@ export async function seedDemo(db: Db, options: { now?: Date } = {}): Promise<bo
 		}
 	});
 
-	updateSettings(db, { ...defaultSettings(), shopName: DEMO_SHOP_NAME });
+	const defaults = defaultSettings();
+	updateSettings(db, {
+		...defaults,
+		shopName: DEMO_SHOP_NAME,
+		// Invented contact lines for the demo shop's customer reports.
+		customerReport: {
+			...defaults.customerReport,
+			address: '14 Kettering Row, Ashwell Quay',
+			phone: '+44 20 7946 0321',
+			email: 'bench@example.com',
+			footer: 'Thank you for trusting us with your equipment.'
+		}
+	});
 	seedLimitProfiles(db, userIds.supervisor);
 	seedSignOffDemo(db, userIds, nowMs);
 	seedWorksheetsDemo(db, userIds, nowMs, SIGN_OFF_DEMO);
@@ -659,7 +671,6 @@ export async function seedDemo(db: Db, options: { now?: Date } = {}): Promise<bo
 /** The demo job a supervisor can sign off: its make and model, so tests and people can find it. */
 export const SIGN_OFF_DEMO = { make: 'Pellowmere', model: 'SA-150' } as const;
 
-/** A 1 kHz tone (0.5 of full scale) with a little third harmonic, as a bench capture would hold it. */
 /**
  * One power amplifier awaiting sign-off, with what the shop requires: a before snapshot that
  * failed (the right output device clips early, tired reservoir capacitors), an after snapshot that passes, and a one-hour soak at real time
@@ -719,6 +730,7 @@ function seedSignOffDemo(db: Db, userIds: Record<string, string>, nowMs: number)
 					authorId: tech,
 					text: 'Replaced both main filter capacitors; rails now clean.',
 					minutes: 55,
+					forCustomer: true,
 					createdAt: new Date(startMs + 9 * HOUR_MS)
 				},
 				{

@@ -116,7 +116,8 @@ export const handle: Handle = async ({ event, resolve }) => {
 	// CSP itself (with frame-ancestors 'none') comes from kit.csp in svelte.config.js.
 	return withHeaders(response, {
 		'x-content-type-options': 'nosniff',
-		'referrer-policy': 'strict-origin-when-cross-origin',
+		// A page may be stricter (the customer's private link sends no referrer at all).
+		'referrer-policy': response.headers.get('referrer-policy') ?? 'strict-origin-when-cross-origin',
 		'x-frame-options': 'DENY',
 		'cross-origin-opener-policy': 'same-origin',
 		'permissions-policy': 'geolocation=(), payment=(), usb=()'

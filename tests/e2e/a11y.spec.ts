@@ -2,46 +2,15 @@
 // 2.1 and 2.2 levels A and AA, in the dark and the light theme. Pages are found on disk
 // (tests/e2e/pages.ts), so a new page is checked without being listed here.
 import { expect, test, type Page } from '@playwright/test';
-import { createRequire } from 'node:module';
 import { pagesToCheck, PUBLIC_PAGES } from './pages';
 import { ready, signIn } from './helpers';
+import { axeViolations, type AxeViolation } from './axe';
 
-const AXE_PATH = createRequire(import.meta.url).resolve('axe-core/axe.min.js');
-/** WCAG 2.2 AA as axe tags its rules (2.2 adds only AA rules of its own, tagged wcag22aa). */
-const WCAG_TAGS = ['wcag2a', 'wcag2aa', 'wcag21a', 'wcag21aa', 'wcag22aa'];
 const SCHEMES = ['dark', 'light'] as const;
 
 // The app's Content-Security-Policy (rightly) refuses an injected script; the checker is the
 // test's, not the page's, so the browser is told to let it in.
 test.use({ bypassCSP: true });
-
-interface AxeViolation {
-	id: string;
-	impact: string | null;
-	help: string;
-	nodes: { target: string[]; failureSummary?: string }[];
-}
-
-async function axeViolations(page: Page): Promise<AxeViolation[]> {
-	await page.addScriptTag({ path: AXE_PATH });
-	return page.evaluate(async (tags) => {
-		const axe = (
-			window as unknown as {
-				axe: { run: (ctx: unknown, opts: unknown) => Promise<{ violations: AxeViolation[] }> };
-			}
-		).axe;
-		const r = await axe.run(document, {
-			runOnly: { type: 'tag', values: tags },
-			resultTypes: ['violations']
-		});
-		return r.violations.map((v) => ({
-			id: v.id,
-			impact: v.impact,
-			help: v.help,
-			nodes: v.nodes.slice(0, 5).map((n) => ({ target: n.target, failureSummary: n.failureSummary }))
-		}));
-	}, WCAG_TAGS);
-}
 
 function describe(path: string, scheme: string, violations: AxeViolation[]): string[] {
 	return violations.map(

@@ -12,7 +12,8 @@ export interface SmtpCatcher {
 	close(): Promise<void>;
 }
 
-export async function startSmtpCatcher(): Promise<SmtpCatcher> {
+/** Listens on `port` (0, the default: a free one the system picks; e2e specs pass the app's SMTP_PORT). */
+export async function startSmtpCatcher(port = 0): Promise<SmtpCatcher> {
 	const messages: ParsedMail[] = [];
 	const server = new SMTPServer({
 		disabledCommands: ['STARTTLS', 'AUTH'],
@@ -27,12 +28,11 @@ export async function startSmtpCatcher(): Promise<SmtpCatcher> {
 				.catch((e: Error) => callback(e));
 		}
 	});
-	// Port 0: the system picks a free one.
 	await new Promise<void>((ok, fail) => {
 		server.once('error', fail);
-		server.listen(0, '127.0.0.1', () => ok());
+		server.listen(port, '127.0.0.1', () => ok());
 	});
-	const port = (server.server.address() as AddressInfo).port;
+	const bound = (server.server.address() as AddressInfo).port;
 
 	async function waitFor(match: (m: ParsedMail) => boolean, timeoutMs = 5000): Promise<ParsedMail> {
 		// performance.now(), not Date: tests that fake the clock still time out.
@@ -46,7 +46,7 @@ export async function startSmtpCatcher(): Promise<SmtpCatcher> {
 	}
 
 	return {
-		port,
+		port: bound,
 		messages,
 		waitFor,
 		close: () => new Promise<void>((ok) => server.close(() => ok()))
