@@ -75,4 +75,10 @@ test('a response sweep and a power ramp run on the bench and are kept with the j
 		expect(c.outputVrms).toBeGreaterThan(20);
 		expect(c.outputVrms).toBeLessThan(30);
 	}
+
+	// Both runs are kept with the job, with the server's verdicts.
+	await page.goto(`/jobs/${jobId}`);
+	await ready(page);
+	await expect(page.getByTestId('job-procedure')).toHaveCount(2);
+	await expect(page.getByTestId('job-procedures')).toContainText(' W');
 });

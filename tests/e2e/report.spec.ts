@@ -56,6 +56,8 @@ test('a supervisor sends the report; the customer reads it signed out until the 
 		await expect(report).toContainText('Service report for Agathe Lindqvist-Oyelaran');
 		await expect(report.getByTestId('report-figures').locator('[data-row="ch1:thdnPercent"]')).toBeVisible();
 		await expect(page.getByTestId('report-signoff')).toHaveText('Not yet signed off.');
+		// The demo unit's worksheets are on record (intake, power-up, bias, safety check).
+		await expect(page.getByTestId('report-worksheets')).toContainText('Safety check before return');
 		// Internal notes stay internal: only entries marked for the customer are on the report.
 		await expect(report).not.toContainText('Reset bias to 22 mA per side');
 

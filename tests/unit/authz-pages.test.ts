@@ -104,6 +104,7 @@ const LOADS: LoadRow[] = [
 		request: (fx) => ({ params: { ...job(fx).params, kind: 'power-up' } })
 	},
 	{ route: '/jobs/[id]/report', expect: ['login', OK, OK, OK], request: job },
+	{ route: '/dev/mail', expect: ['login', 403, 403, OK] },
 	// The customer's private link: public, the token is the key.
 	{
 		route: '/r/[token]',

@@ -11,6 +11,8 @@ const schema = z.object({
 	SMTP_HOST: z.string().default('127.0.0.1'),
 	SMTP_PORT: z.coerce.number().int().default(2525),
 	MAIL_FROM: z.string().default('Benchlight <bench@example.com>'),
+	/** The local mail catcher's message list (development): /dev/mail reads it. */
+	MAIL_UI_PORT: z.coerce.number().int().min(1).max(65535).default(8025),
 	SESSION_IDLE_MINUTES: z.coerce
 		.number()
 		.int()

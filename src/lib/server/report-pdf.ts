@@ -302,6 +302,15 @@ export async function renderReportPdf(m: ReportModel): Promise<Buffer> {
 			{ xLabel: 'Minutes', yLabel: 'Temperature (°C)', xTicks: [0, m.soak.minutes], height: 140 }
 		);
 	}
+	if (m.worksheets.length) {
+		heading(doc, 'Bench worksheets');
+		table(
+			doc,
+			['Worksheet', 'On record'],
+			m.worksheets.map((w) => [w.label, w.detail]),
+			[0.3, 0.7]
+		);
+	}
 	if (m.safetyCheck) {
 		heading(doc, 'Electrical safety check');
 		paragraph(doc, `${m.safetyCheck}. This record does not replace any testing that local rules require.`);

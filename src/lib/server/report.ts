@@ -86,6 +86,8 @@ export interface ReportModel {
 	} | null;
 	procedures: { label: string; kind: string; verdict: string; summary: string }[];
 	safetyCheck: string | null;
+	/** The bench worksheets on record: intake, first power-up, bias and offset, safety check. */
+	worksheets: { label: string; detail: string }[];
 	signOff: { name: string; at: string; meaning: string } | null;
 }
 
@@ -244,7 +246,9 @@ export function buildReport(db: Db, jobId: number, nowMs = Date.now()): ReportMo
 		failed: 'Failed',
 		passed: 'Passed'
 	};
-	const safetyCheck = SAFETY[worksheetSummary(db, jobId).safety.state] ?? null;
+	const ws = worksheetSummary(db, jobId);
+	const safetyCheck = SAFETY[ws.safety.state] ?? null;
+	const worksheets = ws.lines.filter((l) => l.present).map((l) => ({ label: l.label, detail: l.detail }));
 
 	const standing = standingSignOff(db, jobId);
 	const signOff =
@@ -290,6 +294,7 @@ export function buildReport(db: Db, jobId: number, nowMs = Date.now()): ReportMo
 		soak,
 		procedures,
 		safetyCheck,
+		worksheets,
 		signOff
 	};
 }

@@ -599,4 +599,3 @@ export const customerLinkViews = sqliteTable(
 	},
 	(t) => [index('customer_link_views_link_idx').on(t.linkId)]
 );
-

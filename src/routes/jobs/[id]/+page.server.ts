@@ -36,6 +36,7 @@ import {
 import { fieldErrors, number, optionalText, text } from '$lib/forms';
 import { parseMoneyToCents } from '$lib/format';
 import { pageLoad, formActions } from '$lib/server/handlers';
+import { listProcedureRuns } from '$lib/server/procedures';
 import type { Actions, PageServerLoad } from './$types';
 
 /** The job's own audit trail is shown a page at a time (`?trail=2`). */
@@ -63,6 +64,7 @@ export const load: PageServerLoad = pageLoad((event) => {
 		canSignOff: job.status === 'awaiting-review' && (user.role === 'supervisor' || user.role === 'admin'),
 		trail: listAudit(db, { job: id, page: trailPage(event.url), pageSize: TRAIL_PAGE_SIZE }),
 		worksheets: worksheetSummary(db, id),
+		procedures: listProcedureRuns(db, id, { limit: 20 }),
 		files: listJobFiles(db, id),
 		fileMaxMiB: getSettings(db).jobFiles.maxFileMiB
 	};
