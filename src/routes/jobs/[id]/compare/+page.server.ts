@@ -10,6 +10,7 @@ import { jobHeading, listComparable } from '$lib/server/compare';
 import { MAX_COMPARE, parseSelection } from '$lib/compare';
 import { worksheetSummary } from '$lib/server/worksheets';
 import { getSetting } from '$lib/server/settings';
+import { listProcedureRuns } from '$lib/server/procedures';
 import type { PageServerLoad } from './$types';
 
 export const load: PageServerLoad = pageLoad((event) => {
@@ -45,6 +46,8 @@ export const load: PageServerLoad = pageLoad((event) => {
 		picked,
 		// The bench worksheets beside the measurements (intake, power-up, bias, safety).
 		worksheets: worksheetSummary(db, jobId),
-		worksheetSettings: getSetting(db, 'worksheets')
+		worksheetSettings: getSetting(db, 'worksheets'),
+		// The bench procedures on record (sweeps, phono equalisation, maximum power), newest first.
+		procedures: listProcedureRuns(db, jobId, { limit: 20 })
 	};
 });
