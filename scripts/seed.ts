@@ -10,6 +10,7 @@ import { defaultSettings, updateSettings } from '../src/lib/server/settings';
 import { createLimitProfile, seedLimitProfiles } from '../src/lib/server/limit-profiles';
 import { createSnapshot } from '../src/lib/server/snapshots';
 import { demoCapture } from './seed-capture';
+import { LiveSeriesBuilder } from '../src/lib/soak/series';
 import { env } from '../src/lib/server/env';
 import { UNIT_CATEGORIES } from '../src/lib/schemas/enums';
 import { seedWorksheetsDemo } from './seed-worksheets';
@@ -885,6 +886,11 @@ function seedSignOffDemo(db: Db, userIds: Record<string, string>, nowMs: number)
 			tx.insert(table.soakReadings)
 				.values({ runId, bootId: 'demo', ...r })
 				.run();
+		// The run's chart buckets, as the server keeps them while readings arrive.
+		const series = new LiveSeriesBuilder({ startedAtMs: runStartMs, durationS, timeScale: 1 });
+		for (const r of readings) series.add(r);
+		const rows = series.rows().map((b) => ({ runId, ...b }));
+		if (rows.length) tx.insert(table.soakSeries).values(rows).run();
 	});
 }
 

@@ -241,14 +241,7 @@ export async function renderReportPdf(m: ReportModel): Promise<Buffer> {
 	if (m.before || m.after) {
 		paragraph(
 			doc,
-			[
-				m.before
-					? `Before: ${m.before.label} (${date(m.before.date)}; ${m.before.conditions}).`
-					: 'No before measurement.',
-				m.after
-					? `After: ${m.after.label} (${date(m.after.date)}; ${m.after.conditions}).`
-					: 'No after measurement.'
-			].join(' '),
+			[m.before?.caption ?? 'No before measurement.', m.after?.caption ?? 'No after measurement.'].join(' '),
 			{ muted: true }
 		);
 		table(

@@ -35,6 +35,8 @@ export interface ReportFigure {
 
 export interface ReportSnapshotHead {
 	label: string;
+	/** One line for the reader: "Before: as received (2026-12-02; band 20 Hz–20 kHz, unweighted, into 8 Ω)". */
+	caption: string;
 	date: string;
 	conditions: string;
 	verdict: string;
@@ -111,7 +113,7 @@ function defsOf(list: readonly FigureDef[]): FigureDef[] {
 	return list.filter((d) => d.key in PLAIN);
 }
 
-function head(s: SnapshotDetail | null): ReportSnapshotHead | null {
+function head(s: SnapshotDetail | null, stage: 'Before' | 'After'): ReportSnapshotHead | null {
 	if (!s) return null;
 	const c = s.results?.conditions as { bandHz?: number[]; weighting?: string } | undefined;
 	const band = c?.bandHz ? `${c.bandHz[0]} Hz–${c.bandHz[1] / 1000} kHz` : '20 Hz–20 kHz';
@@ -120,7 +122,16 @@ function head(s: SnapshotDetail | null): ReportSnapshotHead | null {
 		c?.weighting === 'a' ? 'A-weighted' : 'unweighted',
 		s.loadOhms ? `into ${s.loadOhms} Ω` : null
 	].filter(Boolean);
-	return { label: s.label, date: s.createdAt, conditions: parts.join(', '), verdict: s.verdict };
+	const conditions = parts.join(', ');
+	// A label that already says its stage ("Before: as received") is not prefixed twice.
+	const label = s.label.toLowerCase().startsWith(stage.toLowerCase()) ? s.label : `${stage}: ${s.label}`;
+	return {
+		label: s.label,
+		caption: `${label} (${s.createdAt.slice(0, 10)}; ${conditions}).`,
+		date: s.createdAt,
+		conditions,
+		verdict: s.verdict
+	};
 }
 
 /** At most `n` points of a compact spectrum, keeping each stretch's highest level (peaks survive). */
@@ -287,8 +298,8 @@ export function buildReport(db: Db, jobId: number, nowMs = Date.now()): ReportMo
 		parts: job.parts
 			.filter((p) => p.state === 'fitted')
 			.map((p) => ({ refDes: p.refDes, description: p.description, value: p.value, quantity: p.quantity })),
-		before: head(before),
-		after: head(after),
+		before: head(before, 'Before'),
+		after: head(after, 'After'),
 		figures,
 		spectra,
 		soak,
