@@ -434,3 +434,14 @@ export type SoakEvent = typeof soakEvents.$inferSelect;
 export type AuditEntry = typeof auditLog.$inferSelect;
 export type SignOff = typeof signOffs.$inferSelect;
 export type SignOffSupersession = typeof signOffSupersessions.$inferSelect;
+
+// ---- estimates and payments ----
+
+/**
+ * Gapless invoice numbers: one counter row per year, incremented inside the transaction that
+ * creates the invoice, so a rolled-back invoice gives its number back.
+ */
+export const invoiceCounters = sqliteTable('invoice_counters', {
+	year: integer('year').primaryKey(),
+	lastNumber: integer('last_number').notNull()
+});
