@@ -599,3 +599,14 @@ export const customerLinkViews = sqliteTable(
 	},
 	(t) => [index('customer_link_views_link_idx').on(t.linkId)]
 );
+
+// ---- estimates and payments ----
+
+/**
+ * Gapless invoice numbers: one counter row per year, incremented inside the transaction that
+ * creates the invoice, so a rolled-back invoice gives its number back.
+ */
+export const invoiceCounters = sqliteTable('invoice_counters', {
+	year: integer('year').primaryKey(),
+	lastNumber: integer('last_number').notNull()
+});
