@@ -30,6 +30,6 @@ export const DEFAULT_REPORT_SETTINGS: ReportSettings = {
 	safetyNote:
 		'Give the unit room to breathe: keep its vents clear and do not stack other equipment on it. Connect speakers only while it is switched off, and have any damage to the mains cord repaired by a qualified person.',
 	footer: '',
-	linkLifetimeDays: 30,
+	linkLifetimeDays: 90,
 	allowDraftSend: false
 };

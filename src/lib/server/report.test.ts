@@ -21,6 +21,10 @@ import {
 	revokeCustomerLink
 } from './customer-links';
 import { encodeWav } from '$lib/dsp/wav';
+import { eq } from 'drizzle-orm';
+import { hashPassword } from './auth';
+import { updateSettings, getSettings } from './settings';
+import { signOffJob } from './sign-off';
 
 let db: Db;
 let jobId: number;
@@ -137,6 +141,49 @@ describe('the report model', () => {
 		expect(info).toMatch(/Title:\s+Service report — Corvane CR-7400 \(job \d+\)/);
 		expect(info).toMatch(/Author:\s+\S/);
 		expect(info).toMatch(/Page size:\s+595(\.\d+)? x 841(\.\d+)? pts \(A4\)/); // A4 in points (ISO 216: 210 × 297 mm = 595.28 × 841.89 pt)
+	});
+});
+
+describe('a signed-off report', () => {
+	it('names the signer and the meaning, on the page model and in the PDF', async () => {
+		// This test is about the report, not the shop's requirements: only the signature is needed.
+		const settings = getSettings(db);
+		updateSettings(db, {
+			signOff: {
+				...settings.signOff,
+				requireAfterSnapshotPass: false,
+				requirePassedSoak: false,
+				requirePassedSafetyCheck: false
+			}
+		});
+		db.insert(table.users)
+			.values({
+				id: 'sup',
+				email: 'sup@example.com',
+				name: 'Rowan Thistlewood',
+				role: 'supervisor',
+				passwordHash: await hashPassword('a long enough password 1')
+			})
+			.run();
+		db.update(table.jobs).set({ status: 'awaiting-review' }).where(eq(table.jobs.id, jobId)).run();
+		await signOffJob(
+			db,
+			jobId,
+			{ decision: 'approve', comment: 'Within limits', password: 'a long enough password 1' },
+			{ id: 'sup', role: 'supervisor' },
+			'10.0.0.9'
+		);
+		const m = buildReport(db, jobId);
+		expect(m.signOff).toMatchObject({
+			name: 'Rowan Thistlewood',
+			meaning: 'approved for return to the customer'
+		});
+		const dir = mkdtempSync(join(tmpdir(), 'report-'));
+		writeFileSync(join(dir, 's.pdf'), await renderReportPdf(m));
+		const text = execFileSync('pdftotext', [join(dir, 's.pdf'), '-'], { encoding: 'utf8' });
+		expect(text).toContain('Rowan Thistlewood');
+		expect(text).toContain('approved for return to the customer');
+		expect(text).toContain(m.figures.find((f) => f.id === 'ch0:thdnPercent')!.after!);
 	});
 });
 
