@@ -6,7 +6,7 @@ import type { Db } from './db/open';
 import { DomainError } from './errors';
 import { getJob } from './jobs';
 import { getSettings } from './settings';
-import { getSnapshot, type SnapshotDetail } from './snapshots';
+import { getSnapshot, thumbnailOf, type SnapshotDetail } from './snapshots';
 import { listRuns, getRunDetail } from './soak';
 import { standingSignOff, evaluateJob } from './sign-off';
 import { procedureSummary } from './procedures';
@@ -22,6 +22,7 @@ import {
 import { categoryLabel } from '../format';
 import { probeLabel } from '../soak/probes';
 import { PROCEDURE_LABELS } from '../schemas/procedures';
+import { procedureHeadline } from '../procedures/headline';
 
 /** A figure as the customer reads it: what it is in plain words, before and after. */
 export interface ReportFigure {
@@ -134,22 +135,6 @@ function head(s: SnapshotDetail | null, stage: 'Before' | 'After'): ReportSnapsh
 	};
 }
 
-/** At most `n` points of a compact spectrum, keeping each stretch's highest level (peaks survive). */
-function thin(freq: number[], level: number[], n = 320): { frequencyHz: number[]; levelDbv: number[] } {
-	if (freq.length <= n) return { frequencyHz: freq, levelDbv: level };
-	const f: number[] = [];
-	const l: number[] = [];
-	for (let p = 0; p < n; p++) {
-		const a = Math.floor((p * freq.length) / n);
-		const b = Math.floor(((p + 1) * freq.length) / n);
-		let best = a;
-		for (let i = a + 1; i < b; i++) if (level[i] > level[best]) best = i;
-		f.push(freq[best]);
-		l.push(level[best]);
-	}
-	return { frequencyHz: f, levelDbv: l };
-}
-
 const SOAK_STATUS: Record<string, string> = {
 	passed: 'Passed',
 	failed: 'Failed',
@@ -205,7 +190,7 @@ export function buildReport(db: Db, jobId: number, nowMs = Date.now()): ReportMo
 		[after, 'After']
 	] as const) {
 		const c = s?.spectrum?.channels?.[0];
-		if (c) spectra.push({ label: `${name} (left)`, ...thin(c.frequencyHz, c.levelDbv) });
+		if (c) spectra.push({ label: `${name} (left)`, ...thumbnailOf(c, 320) });
 	}
 
 	// The soak the customer hears about: the latest passed run, else the latest ended one.
@@ -229,27 +214,12 @@ export function buildReport(db: Db, jobId: number, nowMs = Date.now()): ReportMo
 		};
 	}
 
-	const procedures = procedureSummary(db, jobId).map((p) => {
-		let summary = '';
-		if (p.result.kind === 'response')
-			summary = p.result.flatness
-				.map((f, ch) => (f ? `${ch ? 'right' : 'left'} within ±${f.plusMinusDb.toFixed(2)} dB` : null))
-				.filter(Boolean)
-				.join(', ');
-		else if (p.result.kind === 'phono')
-			summary = p.result.maxDeviationDb
-				.map((d, ch) =>
-					d !== null ? `${ch ? 'right' : 'left'} within ${d.toFixed(2)} dB of the RIAA curve` : null
-				)
-				.filter(Boolean)
-				.join(', ');
-		else
-			summary = p.result.crossings
-				.map((c, ch) => (c ? `${ch ? 'right' : 'left'} ${c.powerW.toFixed(1)} W` : null))
-				.filter(Boolean)
-				.join(', ');
-		return { label: p.label, kind: PROCEDURE_LABELS[p.kind], verdict: p.verdict, summary };
-	});
+	const procedures = procedureSummary(db, jobId).map((p) => ({
+		label: p.label,
+		kind: PROCEDURE_LABELS[p.kind],
+		verdict: p.verdict,
+		summary: procedureHeadline(p.result)
+	}));
 
 	const SAFETY: Record<string, string | null> = {
 		none: null,

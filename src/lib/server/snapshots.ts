@@ -439,7 +439,8 @@ export interface SnapshotDetail extends Omit<SnapshotListItem, 'thumbnail'> {
 	audioSha256: string | null;
 }
 
-function thumbnailOf(s: CompactSpectrum, points = 240): CompactSpectrum {
+/** At most `points` points of a compact spectrum, keeping each stretch's highest level (peaks survive). */
+export function thumbnailOf(s: CompactSpectrum, points = 240): CompactSpectrum {
 	const n = s.frequencyHz.length;
 	if (n <= points) return s;
 	const frequencyHz: number[] = [];
