@@ -53,7 +53,11 @@ export const PUBLIC_ROUTES: ReadonlySet<string> = new Set([
 	'/safety',
 	// The customer's private report link: its token is the key (see $lib/server/customer-links).
 	'/r/[token]',
-	'/r/[token]/report.pdf'
+	'/r/[token]/report.pdf',
+	// The customer's estimate link (approve, decline, pay), keyed by its token the same way.
+	'/e/[token]',
+	// The payment service's events: the signature is the key (see $lib/server/payments).
+	'/api/payments/webhook'
 ]);
 
 /** The signed-out refusal for a private route: 401 JSON for the API, the sign-in page otherwise. */

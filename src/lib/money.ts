@@ -150,3 +150,17 @@ export function formatMoney(amountMinor: number, currency: CurrencyCode, locale 
 		maximumFractionDigits: exponent
 	}).format(amountMinor / 10 ** exponent);
 }
+
+/**
+ * A typed amount ("12", "12.5", "12,50") in minor units of `currency`, or null when it is not a
+ * plain non-negative amount with at most the currency's number of decimals. No float is involved.
+ */
+export function parseMoney(text: string, currency: CurrencyCode): number | null {
+	const exponent = CURRENCY_EXPONENTS[currency];
+	const m = /^(\d{1,12})(?:[.,](\d+))?$/.exec(text.trim());
+	if (!m) return null;
+	const frac = m[2] ?? '';
+	if (frac.length > exponent) return null;
+	const n = Number(m[1]) * 10 ** exponent + Number(frac.padEnd(exponent, '0') || '0');
+	return Number.isSafeInteger(n) ? n : null;
+}

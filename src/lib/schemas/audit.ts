@@ -36,7 +36,18 @@ export const AUDIT_ACTIONS = [
 	'file.removed',
 	'customer-link.created',
 	'customer-link.revoked',
-	'report.sent'
+	'report.sent',
+	'estimate.drafted',
+	'estimate.sent',
+	'estimate.approved',
+	'estimate.declined',
+	'payment.checkout-started',
+	'payment.received',
+	'payment.checkout-expired',
+	'payment.recorded',
+	'payment.refunded',
+	'payment.event-refused',
+	'invoice.issued'
 ] as const;
 export type AuditAction = (typeof AUDIT_ACTIONS)[number];
 
@@ -73,7 +84,18 @@ export const AUDIT_ACTION_LABELS: Record<AuditAction, string> = {
 	'file.removed': 'File removed',
 	'customer-link.created': 'Customer link made',
 	'customer-link.revoked': 'Customer link revoked',
-	'report.sent': 'Report sent to the customer'
+	'report.sent': 'Report sent to the customer',
+	'estimate.drafted': 'Estimate drafted',
+	'estimate.sent': 'Estimate sent to the customer',
+	'estimate.approved': 'Estimate approved by the customer',
+	'estimate.declined': 'Estimate declined by the customer',
+	'payment.checkout-started': 'Online payment started',
+	'payment.received': 'Online payment received',
+	'payment.checkout-expired': 'Online payment not completed',
+	'payment.recorded': 'Payment recorded at the counter',
+	'payment.refunded': 'Refund recorded',
+	'payment.event-refused': 'Payment event refused',
+	'invoice.issued': 'Invoice issued'
 };
 
 export function auditActionLabel(action: string): string {

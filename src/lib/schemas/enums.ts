@@ -52,6 +52,7 @@ export const RATING_BASIS_LABELS: Record<RatingBasis, string> = {
 export const JOB_STATUSES = [
 	'received',
 	'diagnosing',
+	'awaiting-approval',
 	'awaiting-parts',
 	'repairing',
 	'testing',
@@ -66,6 +67,8 @@ export type JobStatus = (typeof JOB_STATUSES)[number];
 export const JOB_STATUS_LABELS: Record<JobStatus, string> = {
 	received: 'Received',
 	diagnosing: 'Diagnosing',
+	// The customer's approval of an estimate; never "approved" or "signed off" (see below).
+	'awaiting-approval': 'Awaiting customer approval',
 	'awaiting-parts': 'Awaiting parts',
 	repairing: 'Repairing',
 	testing: 'Testing',

@@ -15,6 +15,9 @@ export * from './enums';
 const FORWARD: Record<JobStatus, readonly JobStatus[]> = {
 	received: ['diagnosing'],
 	diagnosing: ['awaiting-parts', 'repairing'],
+	// Entered only by sending an estimate and left by the customer's answer from their link
+	// (to repairing or declined); staff may withdraw it back to diagnosis.
+	'awaiting-approval': ['diagnosing'],
 	'awaiting-parts': ['repairing'],
 	repairing: ['awaiting-parts', 'testing'],
 	testing: ['repairing', 'awaiting-review'],

@@ -5,6 +5,22 @@ import { DEFAULT_SIGN_OFF_SETTINGS, signOffSettingsSchema } from './sign-off';
 import { DEFAULT_WORKSHEET_SETTINGS, worksheetSettingsSchema } from './worksheets';
 import { DEFAULT_JOB_FILE_LIMITS, jobFileLimitsSchema } from './job-files';
 import { DEFAULT_REPORT_SETTINGS, reportSettingsSchema } from './report';
+import { moneySettingsSchema, type MoneySettings } from '../money';
+
+/**
+ * What an estimate starts from: an invented shop's figures, changed by an admin in Settings
+ * (currency, tax, markup, labour rate, deposit). Tax rules are local: the shop sets its own.
+ */
+export const DEFAULT_MONEY_SETTINGS: MoneySettings = {
+	currency: 'EUR',
+	taxRateBasisPoints: 2000,
+	pricesIncludeTax: false,
+	partsMarkupBasisPoints: 3000,
+	labourRatePerHourMinor: 6000,
+	deposit: { kind: 'percent', basisPoints: 2500 }
+};
+export { moneySettingsSchema };
+export type { MoneySettings };
 
 export { DEFAULT_REPORT_SETTINGS, reportSettingsSchema };
 export type { ReportSettings } from './report';
@@ -81,7 +97,9 @@ export const shopSettingsSchema = z.object({
 	/** Per-file limit for files attached to a job (photos, PDFs, WAVs). */
 	jobFiles: jobFileLimitsSchema,
 	/** Contact lines, notes and link lifetime of the customer's report. */
-	customerReport: reportSettingsSchema
+	customerReport: reportSettingsSchema,
+	/** Currency, tax, parts markup, labour rate and deposit for estimates and invoices. */
+	money: moneySettingsSchema
 });
 export type ShopSettings = z.infer<typeof shopSettingsSchema>;
 
@@ -115,6 +133,7 @@ export const SETTINGS_KEYS = [
 	'signOff',
 	'worksheets',
 	'jobFiles',
-	'customerReport'
+	'customerReport',
+	'money'
 ] as const;
 export type SettingsKey = (typeof SETTINGS_KEYS)[number];

@@ -13,6 +13,14 @@ const schema = z.object({
 	MAIL_FROM: z.string().default('Benchlight <bench@example.com>'),
 	/** The local mail catcher's message list (development): /dev/mail reads it. */
 	MAIL_UI_PORT: z.coerce.number().int().min(1).max(65535).default(8025),
+	/**
+	 * The hosted-checkout payment service the stripe SDK talks to: the local fake
+	 * (scripts/payments-fake.ts) in development and tests, the provider's API in a shop.
+	 */
+	PAYMENTS_URL: z.string().url().default('http://127.0.0.1:8790'),
+	PAYMENTS_API_KEY: z.string().min(1).default('sk_test_benchlight_local_fake'),
+	/** Shared with the payment service: webhook events are verified with it. */
+	PAYMENTS_WEBHOOK_SECRET: z.string().min(16).default('whsec_benchlight_local_fake_secret'),
 	SESSION_IDLE_MINUTES: z.coerce
 		.number()
 		.int()

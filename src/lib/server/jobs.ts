@@ -145,7 +145,7 @@ function escapeLike(s: string): string {
 	return s.replace(/[\\%_]/g, (c) => `\\${c}`);
 }
 
-function requireJob(db: Conn, id: number): table.Job {
+export function requireJob(db: Conn, id: number): table.Job {
 	const job = db.select().from(table.jobs).where(eq(table.jobs.id, id)).get();
 	if (!job) throw new DomainError('not-found', 'No such job');
 	return job;

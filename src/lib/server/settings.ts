@@ -11,6 +11,7 @@ import {
 	DEFAULT_SIGN_OFF_SETTINGS,
 	DEFAULT_JOB_FILE_LIMITS,
 	DEFAULT_REPORT_SETTINGS,
+	DEFAULT_MONEY_SETTINGS,
 	DEFAULT_SOAK_LIMITS,
 	DEFAULT_WORKSHEET_SETTINGS,
 	SETTINGS_KEYS,
@@ -31,7 +32,8 @@ export function defaultSettings(): ShopSettings {
 		signOff: { ...DEFAULT_SIGN_OFF_SETTINGS },
 		worksheets: { ...DEFAULT_WORKSHEET_SETTINGS },
 		jobFiles: { ...DEFAULT_JOB_FILE_LIMITS },
-		customerReport: { ...DEFAULT_REPORT_SETTINGS }
+		customerReport: { ...DEFAULT_REPORT_SETTINGS },
+		money: { ...DEFAULT_MONEY_SETTINGS, deposit: { ...DEFAULT_MONEY_SETTINGS.deposit } }
 	};
 }
 

@@ -1,7 +1,7 @@
 // Benchlight's SQLite schema. camelCase keys map to snake_case columns; timestamps are
 // integer milliseconds (Drizzle `timestamp_ms` → Date); money is integer cents.
 import { sql } from 'drizzle-orm';
-import { sqliteTable, text, integer, real, blob, index, primaryKey } from 'drizzle-orm/sqlite-core';
+import { sqliteTable, text, integer, real, blob, index, primaryKey, uniqueIndex } from 'drizzle-orm/sqlite-core';
 
 // Roles, unit categories, job statuses and part states live in $lib/schemas/enums so the
 // browser can use them too (a relative import: drizzle-kit and scripts do not know `$lib`).
@@ -610,3 +610,135 @@ export const invoiceCounters = sqliteTable('invoice_counters', {
 	year: integer('year').primaryKey(),
 	lastNumber: integer('last_number').notNull()
 });
+
+export const ESTIMATE_STATUSES = ['draft', 'sent', 'approved', 'declined', 'superseded'] as const;
+
+/**
+ * One version of a job's estimate. A draft is edited in place; sending freezes the lines, the
+ * pricing (the shop's settings that day) and the exact document the customer will see (its
+ * canonical JSON and SHA-256). After that only the status moves (triggers enforce it).
+ */
+export const estimates = sqliteTable(
+	'estimates',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		jobId: integer('job_id')
+			.notNull()
+			.references(() => jobs.id, { onDelete: 'cascade' }),
+		version: integer('version').notNull(),
+		status: text('status', { enum: ESTIMATE_STATUSES }).notNull().default('draft'),
+		/** EstimateLineInput[] as drafted. */
+		lines: text('lines', { mode: 'json' }).notNull(),
+		/** A note to the customer printed under the lines. */
+		note: text('note'),
+		/** EstimatePricing frozen when sent (null while a draft: the current settings apply). */
+		pricing: text('pricing', { mode: 'json' }),
+		/** The canonical JSON of exactly what the customer is shown, and its SHA-256. */
+		seenJson: text('seen_json'),
+		seenSha256: text('seen_sha256'),
+		createdBy: text('created_by')
+			.notNull()
+			.references(() => users.id),
+		createdAt: createdAt(),
+		updatedAt: updatedAt(),
+		sentBy: text('sent_by').references(() => users.id),
+		sentAt: integer('sent_at', { mode: 'timestamp_ms' })
+	},
+	(t) => [uniqueIndex('estimates_job_version_idx').on(t.jobId, t.version)]
+);
+
+/** The customer's answer to one sent estimate, from their private link. Never changed. */
+export const estimateDecisions = sqliteTable('estimate_decisions', {
+	id: integer('id').primaryKey({ autoIncrement: true }),
+	estimateId: integer('estimate_id')
+		.notNull()
+		.unique()
+		.references(() => estimates.id, { onDelete: 'cascade' }),
+	linkId: integer('link_id').references(() => customerLinks.id),
+	decision: text('decision', { enum: ['approve', 'decline'] }).notNull(),
+	/** The name the customer typed. */
+	typedName: text('typed_name').notNull(),
+	reason: text('reason'),
+	/** SHA-256 of the estimate document the customer's page showed. */
+	seenSha256: text('seen_sha256').notNull(),
+	decidedAt: integer('decided_at', { mode: 'timestamp_ms' }).notNull()
+});
+
+/** A hosted checkout the app asked the payment service for (deposit or balance). */
+export const checkoutSessions = sqliteTable(
+	'checkout_sessions',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		jobId: integer('job_id')
+			.notNull()
+			.references(() => jobs.id, { onDelete: 'cascade' }),
+		purpose: text('purpose', { enum: ['deposit', 'balance'] }).notNull(),
+		estimateId: integer('estimate_id').references(() => estimates.id),
+		providerSessionId: text('provider_session_id').notNull().unique(),
+		url: text('url').notNull(),
+		amountMinor: integer('amount_minor').notNull(),
+		currency: text('currency').notNull(),
+		status: text('status', { enum: ['open', 'paid', 'expired'] })
+			.notNull()
+			.default('open'),
+		createdAt: createdAt(),
+		closedAt: integer('closed_at', { mode: 'timestamp_ms' })
+	},
+	(t) => [index('checkout_sessions_job_idx').on(t.jobId)]
+);
+
+export const PAYMENT_METHODS = ['online', 'cash', 'card-terminal', 'bank-transfer'] as const;
+
+/**
+ * Money received (or refunded: a negative amount). Online payments are written only by a
+ * verified webhook event; counter payments and refunds by staff. Never changed or deleted.
+ */
+export const payments = sqliteTable(
+	'payments',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		jobId: integer('job_id')
+			.notNull()
+			.references(() => jobs.id, { onDelete: 'cascade' }),
+		kind: text('kind', { enum: ['deposit', 'payment', 'refund'] }).notNull(),
+		method: text('method', { enum: PAYMENT_METHODS }).notNull(),
+		amountMinor: integer('amount_minor').notNull(),
+		currency: text('currency').notNull(),
+		reference: text('reference'),
+		checkoutSessionId: integer('checkout_session_id').references(() => checkoutSessions.id),
+		providerEventId: text('provider_event_id').unique(),
+		recordedBy: text('recorded_by').references(() => users.id),
+		receivedAt: integer('received_at', { mode: 'timestamp_ms' }).notNull()
+	},
+	(t) => [index('payments_job_idx').on(t.jobId)]
+);
+
+/** Every payment-service event id seen once: a replayed event changes nothing. */
+export const paymentEvents = sqliteTable('payment_events', {
+	eventId: text('event_id').primaryKey(),
+	type: text('type').notNull(),
+	outcome: text('outcome').notNull(),
+	receivedAt: integer('received_at', { mode: 'timestamp_ms' }).notNull()
+});
+
+/** The invoice of a job: a gapless number and the document as issued. Never changed. */
+export const invoices = sqliteTable('invoices', {
+	id: integer('id').primaryKey({ autoIncrement: true }),
+	jobId: integer('job_id')
+		.notNull()
+		.unique()
+		.references(() => jobs.id, { onDelete: 'cascade' }),
+	number: text('number').notNull().unique(),
+	estimateId: integer('estimate_id')
+		.notNull()
+		.references(() => estimates.id),
+	/** The invoiced document (the approved estimate's lines and totals) as canonical JSON. */
+	documentJson: text('document_json').notNull(),
+	issuedBy: text('issued_by')
+		.notNull()
+		.references(() => users.id),
+	issuedAt: integer('issued_at', { mode: 'timestamp_ms' }).notNull()
+});
+
+export type Estimate = typeof estimates.$inferSelect;
+export type Payment = typeof payments.$inferSelect;
