@@ -18,8 +18,9 @@ for(let i=0;i<${count};i++){const v=net.createServer();s.push(v);v.listen(0,'127
 		throw new Error(`could not pick free ports for the e2e servers: ${r.stderr}`);
 	return ports;
 }
-if (!process.env.E2E_PORTS) process.env.E2E_PORTS = freePorts(4).join(',');
-const [APP_PORT, BRIDGE_PORT, SMTP_PORT, SOAK_BRIDGE_PORT] = process.env.E2E_PORTS.split(',').map(Number);
+if (!process.env.E2E_PORTS) process.env.E2E_PORTS = freePorts(5).join(',');
+const [APP_PORT, BRIDGE_PORT, SMTP_PORT, SOAK_BRIDGE_PORT, PAYMENTS_PORT] =
+	process.env.E2E_PORTS.split(',').map(Number);
 const appOrigin = `http://127.0.0.1:${APP_PORT}`;
 
 // Shared by the servers below and by specs that mint tokens or start their own bridge.
@@ -34,7 +35,11 @@ const e2eEnv = {
 	SMTP_PORT: String(SMTP_PORT),
 	/** A second bridge the soak spec starts and restarts itself. */
 	E2E_SOAK_BRIDGE_PORT: String(SOAK_BRIDGE_PORT),
-	BODY_SIZE_LIMIT: '210M'
+	BODY_SIZE_LIMIT: '210M',
+	/** The local test payment service the app's SDK client talks to, and its webhook secret. */
+	PAYMENTS_URL: `http://127.0.0.1:${PAYMENTS_PORT}`,
+	PAYMENTS_WEBHOOK_URL: `${appOrigin}/api/payments/webhook`,
+	PAYMENTS_WEBHOOK_SECRET: 'whsec_e2e_only_payments_secret_0123456789'
 };
 Object.assign(process.env, e2eEnv);
 
@@ -59,6 +64,14 @@ export default defineConfig({
 		{
 			command: `node --import tsx bridge/main.ts --host 127.0.0.1 --port ${BRIDGE_PORT} --time-scale 60 --seed 7`,
 			port: BRIDGE_PORT,
+			env: e2eEnv,
+			reuseExistingServer: false,
+			timeout: 60_000,
+			stdout: 'pipe'
+		},
+		{
+			command: 'node --import tsx scripts/payments-fake.ts',
+			port: PAYMENTS_PORT,
 			env: e2eEnv,
 			reuseExistingServer: false,
 			timeout: 60_000,

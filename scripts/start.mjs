@@ -27,6 +27,11 @@ if (!/^BRIDGE_SECRET=/m.test(readFileSync(envFile, 'utf8'))) {
 	appendFileSync(envFile, `BRIDGE_SECRET=${randomBytes(32).toString('hex')}\n`);
 	console.log('Wrote a new BRIDGE_SECRET to .env');
 }
+// The same for the secret the local payment service signs its webhook events with.
+if (!/^PAYMENTS_WEBHOOK_SECRET=/m.test(readFileSync(envFile, 'utf8'))) {
+	appendFileSync(envFile, `PAYMENTS_WEBHOOK_SECRET=whsec_${randomBytes(24).toString('hex')}\n`);
+	console.log('Wrote a new PAYMENTS_WEBHOOK_SECRET to .env');
+}
 process.loadEnvFile(envFile);
 
 const PORT = process.env.PORT ?? '3000';
@@ -39,11 +44,16 @@ const env = {
 	BRIDGE_PORT: process.env.BRIDGE_PORT ?? '8787',
 	SMTP_PORT: process.env.SMTP_PORT ?? '2525',
 	MAIL_UI_PORT: process.env.MAIL_UI_PORT ?? '8025',
+	PAYMENTS_PORT: process.env.PAYMENTS_PORT ?? '8790',
 	// Snapshot uploads carry up to 32 MiB of WAV, job files up to the shop's per-file limit (at most
 	// 200 MiB) plus the multipart envelope (adapter-node's default is 512 KB). Routes cap their own bodies.
 	BODY_SIZE_LIMIT: process.env.BODY_SIZE_LIMIT ?? '210M'
 };
 env.BRIDGE_URL = process.env.BRIDGE_URL ?? `ws://127.0.0.1:${env.BRIDGE_PORT}`;
+// The local test payment service (scripts/payments-fake.ts) stands in for the hosted checkout.
+env.PAYMENTS_URL = process.env.PAYMENTS_URL ?? `http://127.0.0.1:${env.PAYMENTS_PORT}`;
+env.PAYMENTS_WEBHOOK_URL =
+	process.env.PAYMENTS_WEBHOOK_URL ?? `http://127.0.0.1:${PORT}/api/payments/webhook`;
 
 let appUrl;
 try {
@@ -128,7 +138,7 @@ async function shutdown(code = 0) {
 		process.exit(code || 130);
 	}
 	shuttingDown = true;
-	console.log('\nStopping the app, bridge and mail catcher…');
+	console.log('\nStopping the app, bridge, mail catcher and test payment service…');
 	await Promise.all(services.map((s) => s.handle.stop({ killAfterMs: 6000 })));
 	if (buildDir) releaseUse(buildDir);
 	process.exit(code);
@@ -158,7 +168,8 @@ async function main() {
 		{ label: 'app', variable: 'PORT', value: env.PORT, host: env.HOST },
 		{ label: 'bridge simulator', variable: 'BRIDGE_PORT', value: env.BRIDGE_PORT, host: '127.0.0.1' },
 		{ label: 'mail catcher SMTP', variable: 'SMTP_PORT', value: env.SMTP_PORT, host: '127.0.0.1' },
-		{ label: 'mail catcher list', variable: 'MAIL_UI_PORT', value: env.MAIL_UI_PORT, host: '127.0.0.1' }
+		{ label: 'mail catcher list', variable: 'MAIL_UI_PORT', value: env.MAIL_UI_PORT, host: '127.0.0.1' },
+		{ label: 'test payment service', variable: 'PAYMENTS_PORT', value: env.PAYMENTS_PORT, host: '127.0.0.1' }
 	]);
 	if (problems.length > 0) {
 		for (const p of problems) console.error(`✗ ${p.line}`);
@@ -181,6 +192,7 @@ async function main() {
 	if (shuttingDown) return;
 
 	run('mail', ['--import', 'tsx', 'scripts/mail-catcher.ts']);
+	run('payments', ['--import', 'tsx', 'scripts/payments-fake.ts']);
 	run('bridge', ['--import', 'tsx', 'bridge/main.ts', '--host', '127.0.0.1', '--port', env.BRIDGE_PORT]);
 	run('app', ['scripts/serve.mjs', build.dir]);
 
@@ -197,6 +209,7 @@ async function main() {
   Benchlight is running at ${env.ORIGIN}
   bridge simulator  ${env.BRIDGE_URL}
   mail catcher      http://127.0.0.1:${env.MAIL_UI_PORT} (SMTP on 127.0.0.1:${env.SMTP_PORT})
+  test payments     ${env.PAYMENTS_URL} (a local stand-in: no money moves)
   database          ${env.DATABASE_URL}
 ${
 	signIns.length

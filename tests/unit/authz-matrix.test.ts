@@ -534,6 +534,68 @@ const MATRIX: Row[] = [
 		request: (fx) => ({ params: { id: String(fx.signOffJobId) } })
 	},
 
+	// estimates and money: everyone signed in drafts and records counter payments; supervisors
+	// send estimates and issue invoices; the payment service's webhook is signed out (its
+	// signature is the key, so an unsigned call is a 400 for everyone)
+	{
+		route: '/api/jobs/[id]/estimates',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: String(fx.jobId) } })
+	},
+	{
+		route: '/api/jobs/[id]/estimates',
+		method: 'POST',
+		expect: [401, 201, 201, 201],
+		request: (fx) => ({
+			params: { id: String(fx.jobId) },
+			body: { lines: [{ kind: 'labour', description: 'Bench labour', durationMinutes: 60 }] }
+		})
+	},
+	{
+		// No such estimate: the role guard answers first (403), then the service (404).
+		route: '/api/estimates/[id]/send',
+		method: 'POST',
+		expect: [401, 403, 404, 404],
+		request: () => ({ params: { id: '999999' }, body: {} })
+	},
+	{
+		route: '/api/jobs/[id]/payments',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({ params: { id: String(fx.jobId) } })
+	},
+	{
+		route: '/api/jobs/[id]/payments',
+		method: 'POST',
+		expect: [401, 201, 201, 201],
+		request: (fx) => ({
+			params: { id: String(fx.jobId) },
+			body: { kind: 'payment', method: 'cash', amountMinor: 500, reference: 'matrix' }
+		})
+	},
+	{
+		// The signed-off fixture job has no approved estimate: supervisors get the 409 that says so.
+		route: '/api/jobs/[id]/invoice',
+		method: 'POST',
+		expect: [401, 403, 409, 409],
+		request: (fx) => ({ params: { id: String(fx.approvedJobId) }, body: {} })
+	},
+	{
+		route: '/api/jobs/[id]/invoice.pdf',
+		method: 'GET',
+		expect: [401, 404, 404, 404],
+		request: (fx) => ({ params: { id: String(fx.approvedJobId) } })
+	},
+	{
+		route: '/api/payments/webhook',
+		method: 'POST',
+		expect: [400, 400, 400, 400],
+		// Server to server: no Origin to check; the signature is the only key (unsigned → 400).
+		crossOrigin: 400,
+		request: () => ({ body: { id: 'evt_unsigned', type: 'checkout.session.completed' } })
+	},
+
 	// own account
 	{
 		route: '/api/auth/password',

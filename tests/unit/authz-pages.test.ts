@@ -83,6 +83,16 @@ function reportLinkIn(fx: Fixtures): { token: string; id: number } {
 	return { token, id };
 }
 
+/** A customer estimate link made inside the case's savepoint (nothing sent on it yet). */
+function estimateLinkIn(fx: Fixtures): { token: string; id: number } {
+	return createCustomerLink(fx.db, {
+		jobId: fx.jobId,
+		purpose: 'estimate',
+		createdBy: fx.users.supervisor,
+		lifetimeDays: 30
+	});
+}
+
 /* ─────────────────────────────────────────────────────────────────────────────
  * THE PAGE MATRIX. Every `+page.server.ts` load and every form action needs exactly one
  * row. Add or update the row in the same change as the page.
@@ -104,6 +114,13 @@ const LOADS: LoadRow[] = [
 		request: (fx) => ({ params: { ...job(fx).params, kind: 'power-up' } })
 	},
 	{ route: '/jobs/[id]/report', expect: ['login', OK, OK, OK], request: job },
+	{ route: '/jobs/[id]/estimate', expect: ['login', OK, OK, OK], request: job },
+	// The customer's estimate link: public, the token is the key.
+	{
+		route: '/e/[token]',
+		expect: [OK, OK, OK, OK],
+		request: (fx) => ({ params: { token: estimateLinkIn(fx).token } })
+	},
 	{ route: '/dev/mail', expect: ['login', 403, 403, OK] },
 	// The customer's private link: public, the token is the key.
 	{
@@ -210,6 +227,65 @@ const ACTIONS: ActionRow[] = [
 		action: 'revoke',
 		expect: ['login', 403, OK, OK],
 		request: (fx) => ({ ...job(fx), form: { linkId: String(reportLinkIn(fx).id) } })
+	},
+	// Estimates and money: everyone signed in drafts and records counter payments; supervisors
+	// send, issue the invoice and revoke links. The customer's link answers signed out.
+	{
+		route: '/jobs/[id]/estimate',
+		action: 'save',
+		expect: ['login', OK, OK, OK],
+		request: (fx) => ({
+			...job(fx),
+			form: {
+				lines: JSON.stringify([{ kind: 'fee', description: 'Diagnosis fee', amountMinor: 2500 }]),
+				note: ''
+			}
+		})
+	},
+	{
+		// No such draft: the role guard answers first, then the service.
+		route: '/jobs/[id]/estimate',
+		action: 'send',
+		expect: ['login', 403, 404, 404],
+		request: (fx) => ({ ...job(fx), form: { estimateId: '999999' } })
+	},
+	{
+		route: '/jobs/[id]/estimate',
+		action: 'counter',
+		expect: ['login', OK, OK, OK],
+		request: (fx) => ({
+			...job(fx),
+			form: { kind: 'payment', method: 'cash', amount: '5.00', reference: '' }
+		})
+	},
+	{
+		// The fixture job is not signed off: supervisors get the 409 that says so.
+		route: '/jobs/[id]/estimate',
+		action: 'invoice',
+		expect: ['login', 403, 409, 409],
+		request: job
+	},
+	{
+		route: '/jobs/[id]/estimate',
+		action: 'revoke',
+		expect: ['login', 403, OK, OK],
+		request: (fx) => ({ ...job(fx), form: { linkId: String(estimateLinkIn(fx).id) } })
+	},
+	{
+		// Nothing has been sent on the link: a 409 for anyone, signed in or not.
+		route: '/e/[token]',
+		action: 'decide',
+		expect: [409, 409, 409, 409],
+		request: (fx) => ({
+			params: { token: estimateLinkIn(fx).token },
+			form: { decision: 'decline', reason: 'Not now', seenSha256: 'a'.repeat(64) }
+		})
+	},
+	{
+		route: '/e/[token]',
+		action: 'pay',
+		expect: [409, 409, 409, 409],
+		request: (fx) => ({ params: { token: estimateLinkIn(fx).token }, form: { purpose: 'deposit' } })
 	},
 	{
 		route: '/jobs/[id]',

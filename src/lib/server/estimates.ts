@@ -7,7 +7,7 @@ import type { Db } from './db/open';
 import * as table from './db/schema';
 import { DomainError } from './errors';
 import { audit } from './audit';
-import { validate } from './validate';
+import { validateListing as validate } from './validate';
 import { assertJobOpen, getJob, recordStatusChange } from './jobs';
 import { getSettings } from './settings';
 import { createCustomerLink, resolveCustomerLink, revokeCustomerLink } from './customer-links';

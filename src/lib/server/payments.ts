@@ -9,7 +9,7 @@ import * as table from './db/schema';
 import { DomainError } from './errors';
 import { audit } from './audit';
 import { env } from './env';
-import { validate } from './validate';
+import { validateListing as validate } from './validate';
 import { getJob, requireJob } from './jobs';
 import { getSettings } from './settings';
 import { latestApprovedEstimate } from './estimates';

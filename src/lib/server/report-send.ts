@@ -12,6 +12,7 @@ import { buildReport } from './report';
 import { renderReportPdf } from './report-pdf';
 import { createCustomerLink, revokeCustomerLink } from './customer-links';
 import { escapeHtml, sendMail, type OutgoingMail } from './mail';
+import { renderInvoicePdf } from './invoices';
 
 export interface SendResult {
 	to: string;
@@ -46,6 +47,8 @@ export async function sendReportToCustomer(
 		);
 	const model = buildReport(db, jobId, nowMs);
 	const pdf = await renderReportPdf(model);
+	// Once issued, the invoice travels with the report.
+	const invoice = await renderInvoicePdf(db, jobId);
 	const link = createCustomerLink(
 		db,
 		{ jobId, purpose: 'report', createdBy: actorId, lifetimeDays: settings.customerReport.linkLifetimeDays },
@@ -61,6 +64,7 @@ export async function sendReportToCustomer(
 		url,
 		'',
 		signed ? 'The work has been checked and signed off.' : 'This is a draft: the work is not signed off yet.',
+		invoice ? `Invoice ${invoice.number} is attached too.` : '',
 		'',
 		model.shop.name,
 		[model.shop.phone, model.shop.email].filter(Boolean).join(' · ')
@@ -73,7 +77,18 @@ export async function sendReportToCustomer(
 			subject: `Your ${unit}: measured service report (job ${jobId})`,
 			text,
 			html,
-			attachments: [{ filename: `report-job-${jobId}.pdf`, content: pdf, contentType: 'application/pdf' }]
+			attachments: [
+				{ filename: `report-job-${jobId}.pdf`, content: pdf, contentType: 'application/pdf' },
+				...(invoice
+					? [
+							{
+								filename: `invoice-${invoice.number}.pdf`,
+								content: invoice.pdf,
+								contentType: 'application/pdf'
+							}
+						]
+					: [])
+			]
 		}));
 	} catch (e) {
 		revokeCustomerLink(db, jobId, link.id, actorId, nowMs);

@@ -22,3 +22,13 @@ export function validate<S extends z.ZodType>(
 	if (!parsed.success) badRequest(message, formatIssues(parsed.error));
 	return parsed.data;
 }
+
+/** Like validate, with every problem spelled out in the message itself (for pages that show one line). */
+export function validateListing<S extends z.ZodType>(schema: S, input: unknown): z.infer<S> {
+	const parsed = schema.safeParse(input);
+	if (!parsed.success) {
+		const issues = formatIssues(parsed.error);
+		badRequest(issues.map((i) => i.message).join('; '), issues);
+	}
+	return parsed.data;
+}

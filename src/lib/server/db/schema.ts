@@ -1,7 +1,16 @@
 // Benchlight's SQLite schema. camelCase keys map to snake_case columns; timestamps are
 // integer milliseconds (Drizzle `timestamp_ms` → Date); money is integer cents.
 import { sql } from 'drizzle-orm';
-import { sqliteTable, text, integer, real, blob, index, primaryKey, uniqueIndex } from 'drizzle-orm/sqlite-core';
+import {
+	sqliteTable,
+	text,
+	integer,
+	real,
+	blob,
+	index,
+	primaryKey,
+	uniqueIndex
+} from 'drizzle-orm/sqlite-core';
 
 // Roles, unit categories, job statuses and part states live in $lib/schemas/enums so the
 // browser can use them too (a relative import: drizzle-kit and scripts do not know `$lib`).

@@ -6,6 +6,7 @@ import { requireAdmin } from '$lib/server/guards';
 import { getSettings, updateSettings } from '$lib/server/settings';
 import { shopSettingsSchema } from '$lib/schemas/settings';
 import { number, text } from '$lib/forms';
+import { CURRENCY_CODES, parseMoney, type CurrencyCode } from '$lib/money';
 import { pageLoad, formActions } from '$lib/server/handlers';
 import type { Actions, PageServerLoad } from './$types';
 
@@ -24,6 +25,47 @@ const SIGN_OFF_BOXES = [
 
 const REPORT_TEXTS = ['address', 'phone', 'email', 'warrantyNote', 'safetyNote', 'footer'] as const;
 const WORKSHEET_NUMBERS = ['homeMainsVoltsRms', 'biasTolerancePercent', 'offsetLimitMillivolts'] as const;
+const MONEY_TEXTS = [
+	'currency',
+	'taxRatePercent',
+	'partsMarkupPercent',
+	'labourRate',
+	'depositKind',
+	'depositPercent',
+	'depositAmount'
+] as const;
+
+/** A typed percentage ("20", "7.5") as basis points; NaN when it is not one (the schema says so). */
+function basisPoints(text: string): number {
+	const t = text.trim().replace(',', '.');
+	return /^\d{1,6}(\.\d{1,2})?$/.test(t) ? Math.round(Number(t) * 100) : NaN;
+}
+
+/** The money settings from the form, or the stored ones when the form leaves them out. */
+function moneyFrom(
+	form: FormData,
+	stored: ReturnType<typeof getSettings>['money'],
+	ticked: (n: string) => boolean
+) {
+	if (!form.has('currency')) return stored;
+	const currency = text(form, 'currency') as CurrencyCode;
+	const known = (CURRENCY_CODES as readonly string[]).includes(currency);
+	const amount = (n: string) => (known ? (parseMoney(text(form, n), currency) ?? NaN) : NaN);
+	const kind = text(form, 'depositKind');
+	return {
+		currency,
+		taxRateBasisPoints: basisPoints(text(form, 'taxRatePercent')),
+		pricesIncludeTax: ticked('pricesIncludeTax'),
+		partsMarkupBasisPoints: basisPoints(text(form, 'partsMarkupPercent')),
+		labourRatePerHourMinor: amount('labourRate'),
+		deposit:
+			kind === 'percent'
+				? { kind, basisPoints: basisPoints(text(form, 'depositPercent')) }
+				: kind === 'fixed'
+					? { kind, amountMinor: amount('depositAmount') }
+					: { kind: 'none' }
+	};
+}
 
 export const actions: Actions = formActions({
 	default: async (event) => {
@@ -42,13 +84,15 @@ export const actions: Actions = formActions({
 			...WORKSHEET_NUMBERS,
 			'maxFileMiB',
 			...REPORT_TEXTS,
-			'linkLifetimeDays'
+			'linkLifetimeDays',
+			...MONEY_TEXTS
 		];
 		const values = Object.fromEntries(names.map((n) => [n, text(form, n)]));
 		// Checkboxes: present when ticked.
 		const ticked = (name: string) => form.get(name) !== null;
 		for (const n of SIGN_OFF_BOXES) values[n] = ticked(n) ? 'on' : '';
 		values.allowDraftSend = ticked('allowDraftSend') ? 'on' : '';
+		values.pricesIncludeTax = ticked('pricesIncludeTax') ? 'on' : '';
 		const thdn = number(form, 'thdnCeilingDb');
 		// Storage caps left out of a post keep what is stored (the form always sends them).
 		const stored = getSettings(db);
@@ -92,7 +136,9 @@ export const actions: Actions = formActions({
 			// Worksheet figures left out of a post keep what is stored (the form always sends them).
 			worksheets: Object.fromEntries(
 				WORKSHEET_NUMBERS.map((n) => [n, form.has(n) ? number(form, n) : stored.worksheets[n]])
-			)
+			),
+			// Money left out of a post keeps what is stored (the form always sends it).
+			money: moneyFrom(form, stored.money, ticked)
 		});
 		if (!parsed.success) {
 			// Nested limits report under their own field name.

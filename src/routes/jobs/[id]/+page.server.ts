@@ -2,6 +2,7 @@
 // Every action guards itself and calls the jobs service; the service enforces the rules again,
 // and its refusals (403 approval, 409 move not allowed or job signed off, 404 gone) come back as
 // page messages. A signed-off job is locked; a supervisor or admin reopens it with a reason.
+import { moneySummary } from '$lib/server/payments';
 import { fail } from '@sveltejs/kit';
 import { db } from '$lib/server/db';
 import { DomainError } from '$lib/server/errors';
@@ -66,7 +67,8 @@ export const load: PageServerLoad = pageLoad((event) => {
 		worksheets: worksheetSummary(db, id),
 		procedures: listProcedureRuns(db, id, { limit: 20 }),
 		files: listJobFiles(db, id),
-		fileMaxMiB: getSettings(db).jobFiles.maxFileMiB
+		fileMaxMiB: getSettings(db).jobFiles.maxFileMiB,
+		money: moneySummary(db, id)
 	};
 });
 
