@@ -15,6 +15,7 @@ import { env } from '../src/lib/server/env';
 import { UNIT_CATEGORIES } from '../src/lib/schemas/enums';
 import { seedWorksheetsDemo } from './seed-worksheets';
 import { seedFiles } from './seed-files';
+import { seedMoneyDemo } from './seed-money';
 
 export const DEMO_PASSWORD = 'bench-demo-2026';
 export const DEMO_SHOP_NAME = 'Quiet Valve Audio Works';
@@ -666,6 +667,7 @@ export async function seedDemo(db: Db, options: { now?: Date } = {}): Promise<bo
 	seedSignOffDemo(db, userIds, nowMs);
 	seedWorksheetsDemo(db, userIds, nowMs, SIGN_OFF_DEMO);
 	await seedFiles(db, userIds.tech1);
+	await seedMoneyDemo(db, userIds, nowMs, SIGN_OFF_DEMO);
 	return true;
 }
 
@@ -710,13 +712,22 @@ function seedSignOffDemo(db: Db, userIds: Record<string, string>, nowMs: number)
 			})
 			.returning({ id: table.jobs.id })
 			.get().id;
-		const path: JobStatus[] = ['received', 'diagnosing', 'repairing', 'testing', 'awaiting-review'];
+		// The owner approved the estimate from their link (scripts/seed-money.ts) before the repair.
+		const path: JobStatus[] = [
+			'received',
+			'diagnosing',
+			'awaiting-approval',
+			'repairing',
+			'testing',
+			'awaiting-review'
+		];
 		path.forEach((status, i) =>
 			tx
 				.insert(table.jobStatusHistory)
 				.values({
 					jobId: id,
-					userId: i === 0 ? userIds.admin : tech,
+					// The customer's approval from their link moved it to repairing: no staff member.
+					userId: i === 0 ? userIds.admin : path[i - 1] === 'awaiting-approval' ? null : tech,
 					fromStatus: i === 0 ? null : path[i - 1],
 					toStatus: status,
 					note: i === 0 ? 'Taken in' : null,

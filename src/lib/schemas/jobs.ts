@@ -13,24 +13,44 @@ export * from './enums';
  * test fails or a reviewer sends the job back.
  */
 const FORWARD: Record<JobStatus, readonly JobStatus[]> = {
-	received: ['diagnosing'],
-	diagnosing: ['awaiting-parts', 'repairing'],
-	// Entered only by sending an estimate and left by the customer's answer from their link
-	// (to repairing or declined); staff may withdraw it back to diagnosis.
-	'awaiting-approval': ['diagnosing'],
-	'awaiting-parts': ['repairing'],
-	repairing: ['awaiting-parts', 'testing'],
-	testing: ['repairing', 'awaiting-review'],
+	received: ['diagnosing', 'awaiting-approval'],
+	diagnosing: ['awaiting-approval', 'awaiting-parts', 'repairing'],
+	// Entered by sending an estimate (or a revision); left to repairing by the customer's
+	// approval from their link, or withdrawn to diagnosis by staff. See SYSTEM_MOVES.
+	'awaiting-approval': ['diagnosing', 'repairing'],
+	'awaiting-parts': ['awaiting-approval', 'repairing'],
+	repairing: ['awaiting-approval', 'awaiting-parts', 'testing'],
+	testing: ['awaiting-approval', 'repairing', 'awaiting-review'],
 	'awaiting-review': ['approved', 'testing', 'repairing'],
 	approved: ['returned'],
 	returned: [],
 	// Taken off hold, a job resumes at any working status: usually the one it came from,
 	// but a hold (a customer query, a part that never came) often changes what comes next.
 	// Approval is never restored implicitly: a held job goes back through review.
-	'on-hold': ['received', 'diagnosing', 'awaiting-parts', 'repairing', 'testing', 'awaiting-review'],
+	'on-hold': [
+		'received',
+		'diagnosing',
+		'awaiting-approval',
+		'awaiting-parts',
+		'repairing',
+		'testing',
+		'awaiting-review'
+	],
 	// A declined unit goes back to its owner unrepaired, or the customer reconsiders (hold).
 	declined: ['returned']
 };
+
+/**
+ * Moves only the system makes, never the status form: a job waits for the customer when an
+ * estimate is sent, and the customer's approval from their link sets it repairing. (Sign-off
+ * has its own rule: `approved` is entered only by a signature.)
+ */
+export function isSystemMove(from: JobStatus, to: JobStatus): boolean {
+	return to === 'awaiting-approval' || (from === 'awaiting-approval' && to === 'repairing');
+}
+
+export const SYSTEM_MOVE_MESSAGE =
+	'A job waits for the customer when an estimate is sent (Estimate and payments), and the customer’s approval from their link sets it repairing; withdraw it to diagnosing to revise the estimate'
 
 /** Statuses reachable from `from` by anyone, ignoring role. `returned` is final. */
 export function nextStatuses(from: JobStatus): JobStatus[] {
@@ -50,7 +70,7 @@ export function roleMayEnter(status: JobStatus, role: Role): boolean {
 
 /** The statuses a user with `role` may move a job to from `from` (what the UI offers). */
 export function allowedNextStatuses(from: JobStatus, role: Role): JobStatus[] {
-	return nextStatuses(from).filter((s) => roleMayEnter(s, role));
+	return nextStatuses(from).filter((s) => roleMayEnter(s, role) && !isSystemMove(from, s));
 }
 
 /** Statuses that count as finished for the "open" and "closed" list filters. */

@@ -94,11 +94,30 @@ beforeEach(() => {
 
 describe('status transition rules', () => {
 	it('follows the working path with skips and step-backs, and reaches hold/declined from anywhere open', () => {
-		expect(nextStatuses('received')).toEqual(['diagnosing', 'on-hold', 'declined']);
-		expect(nextStatuses('diagnosing')).toEqual(['awaiting-parts', 'repairing', 'on-hold', 'declined']);
-		expect(nextStatuses('awaiting-parts')).toEqual(['repairing', 'on-hold', 'declined']);
-		expect(nextStatuses('repairing')).toEqual(['awaiting-parts', 'testing', 'on-hold', 'declined']);
-		expect(nextStatuses('testing')).toEqual(['repairing', 'awaiting-review', 'on-hold', 'declined']);
+		expect(nextStatuses('received')).toEqual(['diagnosing', 'awaiting-approval', 'on-hold', 'declined']);
+		expect(nextStatuses('diagnosing')).toEqual([
+			'awaiting-approval',
+			'awaiting-parts',
+			'repairing',
+			'on-hold',
+			'declined'
+		]);
+		expect(nextStatuses('awaiting-approval')).toEqual(['diagnosing', 'repairing', 'on-hold', 'declined']);
+		expect(nextStatuses('awaiting-parts')).toEqual(['awaiting-approval', 'repairing', 'on-hold', 'declined']);
+		expect(nextStatuses('repairing')).toEqual([
+			'awaiting-approval',
+			'awaiting-parts',
+			'testing',
+			'on-hold',
+			'declined'
+		]);
+		expect(nextStatuses('testing')).toEqual([
+			'awaiting-approval',
+			'repairing',
+			'awaiting-review',
+			'on-hold',
+			'declined'
+		]);
 		expect(nextStatuses('awaiting-review')).toEqual([
 			'repairing',
 			'testing',
@@ -111,6 +130,7 @@ describe('status transition rules', () => {
 		expect(nextStatuses('on-hold')).toEqual([
 			'received',
 			'diagnosing',
+			'awaiting-approval',
 			'awaiting-parts',
 			'repairing',
 			'testing',
@@ -122,6 +142,13 @@ describe('status transition rules', () => {
 
 	it('never offers a move to the same status', () => {
 		for (const s of JOB_STATUSES) expect(nextStatuses(s)).not.toContain(s);
+	});
+
+	it('leaves waiting for the customer to the estimate and the customer: the status form never offers it', () => {
+		for (const role of ['technician', 'supervisor', 'admin'] as const) {
+			expect(allowedNextStatuses('diagnosing', role)).not.toContain('awaiting-approval');
+			expect(allowedNextStatuses('awaiting-approval', role)).toEqual(['diagnosing', 'on-hold', 'declined']);
+		}
 	});
 
 	it('offers approval to supervisors and admins only', () => {

@@ -21,6 +21,8 @@ import {
 	jobPatchSchema,
 	logEntrySchema,
 	nextStatuses,
+	isSystemMove,
+	SYSTEM_MOVE_MESSAGE,
 	partPatchSchema,
 	partSchema,
 	roleMayEnter,
@@ -726,6 +728,7 @@ export function changeStatus(db: Db, id: number, input: StatusChange, actor: Act
 		if (!roleMayEnter(data.status, actor.role))
 			throw new DomainError('forbidden', 'Only a supervisor or admin may sign a job off');
 		if (data.status === 'approved') throw new DomainError('conflict', SIGN_OFF_IS_THE_WAY);
+		if (isSystemMove(job.status, data.status)) throw new DomainError('conflict', SYSTEM_MOVE_MESSAGE);
 		if (!nextStatuses(job.status).includes(data.status)) {
 			throw new DomainError('conflict', `A job cannot move from ${job.status} to ${data.status}`);
 		}
