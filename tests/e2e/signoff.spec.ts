@@ -155,6 +155,17 @@ test('a supervisor is refused while a requirement is missing, then signs off wit
 	await expect(page).toHaveURL(/action=sign-off\./);
 	await expect(entries).toHaveCount(1);
 
+	// ── the invoice: from the estimate the customer approved, once signed off ─
+	await page.goto(`/jobs/${id}/estimate`);
+	await ready(page);
+	await expect(page.getByTestId('money-received')).not.toHaveText('€0.00'); // the seeded deposit
+	await page.getByTestId('invoice-issue').click();
+	await expect(page.getByTestId('invoice-number')).toHaveText(/^\d{4}-0001$/);
+	const invoicePdf = await page.request.get(`/api/jobs/${id}/invoice.pdf`);
+	expect(invoicePdf.status()).toBe(200);
+	expect(invoicePdf.headers()['content-type']).toBe('application/pdf');
+	expect((await invoicePdf.body()).subarray(0, 5).toString()).toBe('%PDF-');
+
 	// ── reopening keeps the signature, marked superseded ────────────────────
 	await page.goto(`/jobs/${id}`);
 	await ready(page);
