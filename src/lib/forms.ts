@@ -1,4 +1,4 @@
-// Small helpers for plain (non-superforms) form actions: read FormData fields as the
+// Small helpers for form actions (every form in the app is a plain SvelteKit action): read FormData fields as the
 // types the zod schemas expect, and turn zod issues into per-field messages for <Field>.
 import type { z } from 'zod';
 
