@@ -43,7 +43,16 @@ describe('settings', () => {
 			worksheets: { homeMainsVoltsRms: 230, biasTolerancePercent: 10, offsetLimitMillivolts: 50 },
 			// Room for a phone photo or a long stereo capture (issue 13 asks for 50 MiB).
 			jobFiles: { maxFileMiB: 50 },
-			customerReport: DEFAULT_REPORT_SETTINGS
+			customerReport: DEFAULT_REPORT_SETTINGS,
+			// An invented shop's pricing: EUR, 20 % tax on top, 30 % parts markup, 60.00 an hour, a quarter down.
+			money: {
+				currency: 'EUR',
+				taxRateBasisPoints: 2000,
+				pricesIncludeTax: false,
+				partsMarkupBasisPoints: 3000,
+				labourRatePerHourMinor: 6000,
+				deposit: { kind: 'percent', basisPoints: 2500 }
+			}
 		});
 	});
 
