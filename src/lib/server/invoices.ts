@@ -14,16 +14,9 @@ import { moneySummary, type InvoiceDocument } from './payments';
 import { nextInvoiceNumber } from './invoice-number';
 import { canonicalJson } from './sign-off-hash';
 import type { SeenEstimate } from './estimate-hash';
-import { heading, openDocument, paragraph, pdfText, table as pdfTable } from './report-pdf';
-import { formatMoney } from '$lib/money';
+import { renderPdf } from './pdf-renderer';
+import type { InvoicePdfModel } from './invoice-pdf';
 import type { Role } from '$lib/schemas/enums';
-
-const LINE_KIND_LABELS: Record<string, string> = {
-	labour: 'Labour',
-	part: 'Part',
-	fixed: 'Fixed price',
-	fee: 'Fee'
-};
 
 /** Issue the job's invoice (once). 403 for technicians, 409 before sign-off or without an approved estimate. */
 export function issueInvoice(db: Db, jobId: number, actor: { id: string; role: Role }, nowMs = Date.now()) {
@@ -85,66 +78,33 @@ export function issueInvoice(db: Db, jobId: number, actor: { id: string; role: R
 	});
 }
 
-/** The job's invoice as a PDF, or null when none is issued. */
+/** What the invoice PDF shows, as plain data (drawn on the PDF worker, see pdf-renderer.ts). */
+export function invoicePdfModel(db: Db, jobId: number): InvoicePdfModel | null {
+	const row = db.select().from(table.invoices).where(eq(table.invoices.jobId, jobId)).get();
+	if (!row) return null;
+	const settings = getSettings(db);
+	const money = moneySummary(db, jobId);
+	const r = settings.customerReport;
+	return {
+		jobId,
+		document: JSON.parse(row.documentJson) as InvoiceDocument,
+		shop: { name: settings.shopName, address: r.address, phone: r.phone, email: r.email, footer: r.footer },
+		receivedMinor: money.receivedMinor,
+		payments: money.payments.map((p) => ({
+			receivedAt: p.receivedAt,
+			methodLabel: p.methodLabel,
+			kind: p.kind,
+			amountMinor: p.amountMinor
+		}))
+	};
+}
+
+/** The job's invoice as a PDF (drawn off the request thread), or null when none is issued. */
 export async function renderInvoicePdf(
 	db: Db,
 	jobId: number
 ): Promise<{ number: string; pdf: Buffer } | null> {
-	const row = db.select().from(table.invoices).where(eq(table.invoices.jobId, jobId)).get();
-	if (!row) return null;
-	const d = JSON.parse(row.documentJson) as InvoiceDocument;
-	const settings = getSettings(db);
-	const money = moneySummary(db, jobId);
-	const fmt = (n: number) => formatMoney(n, d.currency);
-	const { doc, done } = openDocument({
-		title: `Invoice ${d.invoiceNumber} — job ${jobId}`,
-		author: settings.shopName,
-		subject: 'Invoice',
-		createdAt: new Date(d.issuedAt)
-	});
-	doc.font('bold').fontSize(18).text(pdfText(settings.shopName));
-	const r = settings.customerReport;
-	const contact = [r.address, r.phone, r.email].filter(Boolean).join(' · ');
-	if (contact) paragraph(doc, contact, { muted: true });
-	doc
-		.moveDown(0.5)
-		.font('bold')
-		.fontSize(13)
-		.text(pdfText(`Invoice ${d.invoiceNumber}`))
-		.font('body')
-		.fontSize(10);
-	paragraph(doc, `Issued ${d.issuedAt.slice(0, 10)} to ${d.customerName} · ${d.unit} · job ${jobId}`);
-	paragraph(doc, `From estimate version ${d.version}, approved by the customer.`, { muted: true });
-	heading(doc, 'Work and parts');
-	pdfTable(
-		doc,
-		['Item', 'Kind', 'Amount'],
-		d.lines.map((l) => [l.description, LINE_KIND_LABELS[l.kind] ?? l.kind, fmt(l.amountMinor)]),
-		[0.6, 0.18, 0.22]
-	);
-	const tax = `Tax ${(d.taxRateBasisPoints / 100).toFixed(2).replace(/\.00$/, '')} %${d.pricesIncludeTax ? ' (included in the prices)' : ''}`;
-	pdfTable(
-		doc,
-		['', 'Amount'],
-		[
-			['Net', fmt(d.totals.netMinor)],
-			[tax, fmt(d.totals.taxMinor)],
-			['Total', fmt(d.totals.grossMinor)],
-			['Received', fmt(money.receivedMinor)],
-			['Balance due', fmt(Math.max(0, d.totals.grossMinor - money.receivedMinor))]
-		],
-		[0.78, 0.22]
-	);
-	if (money.payments.length) {
-		heading(doc, 'Payments');
-		pdfTable(
-			doc,
-			['Date', 'Method', 'Kind', 'Amount'],
-			money.payments.map((p) => [p.receivedAt.slice(0, 10), p.methodLabel, p.kind, fmt(p.amountMinor)]),
-			[0.2, 0.3, 0.2, 0.3]
-		);
-	}
-	if (r.footer) paragraph(doc, r.footer, { muted: true });
-	doc.end();
-	return { number: d.invoiceNumber, pdf: await done };
+	const model = invoicePdfModel(db, jobId);
+	if (!model) return null;
+	return { number: model.document.invoiceNumber, pdf: await renderPdf({ kind: 'invoice', model }) };
 }

@@ -6,10 +6,28 @@ import { readFileSync } from 'node:fs';
 import { createRequire } from 'node:module';
 import type { ReportModel } from './report';
 
-const require = createRequire(import.meta.url);
-const fontFile = (weight: 400 | 700) =>
-	readFileSync(require.resolve(`@fontsource/barlow/files/barlow-latin-${weight}-normal.woff`));
-let fonts: { regular: Buffer; bold: Buffer } | null = null;
+/** Barlow regular and bold, as the font files' bytes. */
+export interface PdfFonts {
+	regular: Uint8Array;
+	bold: Uint8Array;
+}
+let fonts: PdfFonts | null = null;
+
+/** The Barlow files from @fontsource/barlow, read once (a PDF worker is handed them instead). */
+export function pdfFonts(): PdfFonts {
+	if (!fonts) {
+		const require = createRequire(import.meta.url);
+		const file = (weight: 400 | 700) =>
+			readFileSync(require.resolve(`@fontsource/barlow/files/barlow-latin-${weight}-normal.woff`));
+		fonts = { regular: file(400), bold: file(700) };
+	}
+	return fonts;
+}
+
+/** Use these font bytes (a worker thread, which cannot resolve package files itself). */
+export function usePdfFonts(given: PdfFonts): void {
+	fonts = given;
+}
 
 /** Characters the embedded Latin subset lacks, written out so the PDF never shows a blank. */
 export function pdfText(s: string): string {
@@ -30,15 +48,18 @@ export interface PdfMeta {
 
 /** An A4 document with Barlow registered as `body` and `bold`, collected into one Buffer. */
 export function openDocument(meta: PdfMeta): { doc: PDFKit.PDFDocument; done: Promise<Buffer> } {
-	fonts ??= { regular: fontFile(400), bold: fontFile(700) };
+	const { regular, bold } = pdfFonts();
 	const doc = new PDFDocument({
+		// No built-in standard font: it would be read from pdfkit's own folder, which a bundled
+		// worker does not have. Barlow is registered and chosen straight away.
+		font: null as unknown as string,
 		size: 'A4',
 		margins: { top: 56, bottom: 56, left: 56, right: 56 },
 		info: { Title: meta.title, Author: meta.author, Subject: meta.subject, CreationDate: meta.createdAt },
 		bufferPages: true
 	});
-	doc.registerFont('body', fonts.regular);
-	doc.registerFont('bold', fonts.bold);
+	doc.registerFont('body', Buffer.from(regular));
+	doc.registerFont('bold', Buffer.from(bold));
 	doc.font('body').fontSize(10).fillColor('#000');
 	const chunks: Buffer[] = [];
 	const done = new Promise<Buffer>((resolve, reject) => {

@@ -9,7 +9,7 @@ import { getJob } from './jobs';
 import { getSettings } from './settings';
 import { standingSignOff } from './sign-off';
 import { buildReport } from './report';
-import { renderReportPdf } from './report-pdf';
+import { renderPdf } from './pdf-renderer';
 import { createCustomerLink, revokeCustomerLink } from './customer-links';
 import { escapeHtml, sendMail, type OutgoingMail } from './mail';
 import { renderInvoicePdf } from './invoices';
@@ -46,7 +46,7 @@ export async function sendReportToCustomer(
 			'The job is not signed off yet: send the report after sign-off, or allow sending drafts in Settings.'
 		);
 	const model = buildReport(db, jobId, nowMs);
-	const pdf = await renderReportPdf(model);
+	const pdf = await renderPdf({ kind: 'report', model });
 	// Once issued, the invoice travels with the report.
 	const invoice = await renderInvoicePdf(db, jobId);
 	const link = createCustomerLink(

@@ -13,6 +13,7 @@ import { addLogEntry, addPart } from './jobs';
 import { createSnapshot } from './snapshots';
 import { buildReport } from './report';
 import { renderReportPdf } from './report-pdf';
+import { MAX_QUEUED_PDFS, renderPdf } from './pdf-renderer';
 import {
 	createCustomerLink,
 	listCustomerLinks,
@@ -124,9 +125,13 @@ describe('the report model', () => {
 		expect(m.signOff).toBeNull();
 	});
 
-	it('renders a PDF whose figures are real text, with its metadata', async () => {
+	it('renders a PDF whose figures are real text, with its metadata (drawn on the PDF worker)', async () => {
 		const m = buildReport(db, jobId, T0);
-		const pdf = await renderReportPdf(m);
+		// The way the app draws it: on the PDF worker thread, the fonts handed over in workerData.
+		const pdf = await renderPdf({ kind: 'report', model: m });
+		// Byte for byte what the same code draws on this thread (bundling changed nothing).
+		expect(pdf.equals(await renderReportPdf(m))).toBe(true);
+		expect(pdf.subarray(0, 5).toString()).toBe('%PDF-');
 		const dir = mkdtempSync(join(tmpdir(), 'report-'));
 		const file = join(dir, 'r.pdf');
 		writeFileSync(file, pdf);
@@ -217,5 +222,20 @@ describe('customer links', () => {
 			.map((a) => a.action);
 		expect(actions).toEqual(expect.arrayContaining(['customer-link.created', 'customer-link.revoked']));
 		expect(() => revokeCustomerLink(db, jobId + 1, id, 'u1')).toThrow(/No such link/);
+	});
+});
+
+describe('the PDF worker', () => {
+	it('answers 503 with Retry-After once the queue is full, and still draws what it accepted', async () => {
+		const m = buildReport(db, jobId, T0);
+		const accepted = Array.from({ length: MAX_QUEUED_PDFS + 1 }, () =>
+			renderPdf({ kind: 'report', model: m })
+		);
+		const refused = await renderPdf({ kind: 'report', model: m }).then(
+			() => null,
+			(e: unknown) => e
+		);
+		expect(refused).toMatchObject({ code: 'busy', headers: { 'retry-after': '5' } });
+		for (const pdf of await Promise.all(accepted)) expect(pdf.subarray(0, 5).toString()).toBe('%PDF-');
 	});
 });

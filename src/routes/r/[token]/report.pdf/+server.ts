@@ -4,13 +4,13 @@ import { endpoint } from '$lib/server/api';
 import { db } from '$lib/server/db';
 import { resolveCustomerLink } from '$lib/server/customer-links';
 import { buildReport } from '$lib/server/report';
-import { renderReportPdf } from '$lib/server/report-pdf';
+import { renderPdf } from '$lib/server/pdf-renderer';
 import type { RequestHandler } from './$types';
 
 export const GET: RequestHandler = endpoint(async (event) => {
 	const link = resolveCustomerLink(db, event.params.token, 'report');
 	if (!link) throw new DomainError('not-found', 'Not found');
-	const pdf = await renderReportPdf(buildReport(db, link.jobId));
+	const pdf = await renderPdf({ kind: 'report', model: buildReport(db, link.jobId) });
 	return new Response(new Uint8Array(pdf), {
 		headers: {
 			'content-type': 'application/pdf',

@@ -3,13 +3,13 @@ import { db } from '$lib/server/db';
 import { requireUser } from '$lib/server/guards';
 import { endpoint, idParam } from '$lib/server/api';
 import { buildReport } from '$lib/server/report';
-import { renderReportPdf } from '$lib/server/report-pdf';
+import { renderPdf } from '$lib/server/pdf-renderer';
 import type { RequestHandler } from './$types';
 
 export const GET: RequestHandler = endpoint(async (event) => {
 	requireUser(event);
 	const id = idParam(event.params.id, 'job');
-	const pdf = await renderReportPdf(buildReport(db, id));
+	const pdf = await renderPdf({ kind: 'report', model: buildReport(db, id) });
 	return new Response(new Uint8Array(pdf), {
 		headers: {
 			'content-type': 'application/pdf',
