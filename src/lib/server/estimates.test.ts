@@ -13,7 +13,8 @@ import { eq } from 'drizzle-orm';
 import { openDb, type Db } from './db/open';
 import * as table from './db/schema';
 import { addPart } from './jobs';
-import { updateSettings } from './settings';
+import { getSettings, updateSettings } from './settings';
+import { sendReportToCustomer } from './report-send';
 import { createCustomerLink, revokeCustomerLink } from './customer-links';
 import {
 	customerEstimatePage,
@@ -352,6 +353,28 @@ describe('payments through the local fake with the real SDK', () => {
 		);
 		expect(again.outcome).toBe('duplicate');
 		expect(db.select().from(table.payments).all()).toHaveLength(1);
+	});
+
+	it('the report e-mail carries the invoice and a link that pays the balance online', async () => {
+		const token = await approved();
+		const { url } = await startCheckout(db, token, 'deposit', { origin: 'http://shop.test', stripe });
+		await fetch(`${url}/pay`, { method: 'POST', redirect: 'manual' });
+		db.update(table.jobs).set({ status: 'approved' }).where(eq(table.jobs.id, jobId)).run();
+		issueInvoice(db, jobId, sup);
+		const settings = getSettings(db);
+		updateSettings(db, { customerReport: { ...settings.customerReport, allowDraftSend: true } });
+		await sendReportToCustomer(db, jobId, sup.id, { origin: 'http://shop.test', send });
+		const report = mails.at(-1)!;
+		expect(report.attachments!.map((a) => a.filename)).toEqual([
+			`report-job-${jobId}.pdf`,
+			'invoice-2026-0001.pdf'.replace('2026', String(new Date().getUTCFullYear()))
+		]);
+		expect(report.text).toContain('Balance due: €128.25'); // 171.00 − 42.75 deposit
+		const payToken = /\/e\/([A-Za-z0-9_-]{43})/.exec(report.text)![1];
+		const balance = await startCheckout(db, payToken, 'balance', { origin: 'http://shop.test', stripe });
+		expect(fake.sessions.get(balance.url.split('/').at(-1)!)!.amount_total).toBe(12825);
+		await fetch(`${balance.url}/pay`, { method: 'POST', redirect: 'manual' });
+		expect(moneySummary(db, jobId).balanceDueMinor).toBe(0);
 	});
 
 	it('a declined checkout leaves the deposit unpaid', async () => {

@@ -13,6 +13,8 @@ import { renderPdf } from './pdf-renderer';
 import { createCustomerLink, revokeCustomerLink } from './customer-links';
 import { escapeHtml, sendMail, type OutgoingMail } from './mail';
 import { renderInvoicePdf } from './invoices';
+import { moneySummary } from './payments';
+import { formatMoney } from '$lib/money';
 
 export interface SendResult {
 	to: string;
@@ -56,6 +58,26 @@ export async function sendReportToCustomer(
 	);
 	const url = `${opts.origin.replace(/\/$/, '')}/r/${link.token}`;
 	const until = link.expiresAt.toISOString().slice(0, 10);
+	// With an invoice that is not paid in full, a payment link (the estimate page, where the
+	// balance has its pay button) rides along.
+	const money = invoice ? moneySummary(db, jobId) : null;
+	const due = money?.balanceDueMinor ?? 0;
+	const payLink =
+		money && due > 0
+			? createCustomerLink(
+					db,
+					{
+						jobId,
+						purpose: 'estimate',
+						createdBy: actorId,
+						lifetimeDays: settings.customerReport.linkLifetimeDays
+					},
+					nowMs
+				)
+			: null;
+	const payUrl = payLink ? `${opts.origin.replace(/\/$/, '')}/e/${payLink.token}` : null;
+	const payLine =
+		money && payUrl ? `Balance due: ${formatMoney(due, money.currency)}. Pay it online here: ${payUrl}` : '';
 	const unit = `${job.make} ${job.model}`;
 	const text = [
 		`Hello ${job.customer.name},`,
@@ -65,11 +87,12 @@ export async function sendReportToCustomer(
 		'',
 		signed ? 'The work has been checked and signed off.' : 'This is a draft: the work is not signed off yet.',
 		invoice ? `Invoice ${invoice.number} is attached too.` : '',
+		payLine,
 		'',
 		model.shop.name,
 		[model.shop.phone, model.shop.email].filter(Boolean).join(' · ')
 	].join('\n');
-	const html = `<p>Hello ${escapeHtml(job.customer.name)},</p><p>your ${escapeHtml(unit)} has been through our bench. The measured report is attached as a PDF, and you can read it online until ${until}:</p><p><a href="${escapeHtml(url)}">${escapeHtml(url)}</a></p><p>${signed ? 'The work has been checked and signed off.' : 'This is a draft: the work is not signed off yet.'}</p><p>${escapeHtml(model.shop.name)}</p>`;
+	const html = `<p>Hello ${escapeHtml(job.customer.name)},</p><p>your ${escapeHtml(unit)} has been through our bench. The measured report is attached as a PDF, and you can read it online until ${until}:</p><p><a href="${escapeHtml(url)}">${escapeHtml(url)}</a></p><p>${signed ? 'The work has been checked and signed off.' : 'This is a draft: the work is not signed off yet.'}</p>${payUrl && money ? `<p>Balance due: ${escapeHtml(formatMoney(due, money.currency))}. <a href="${escapeHtml(payUrl)}">Pay it online</a></p>` : ''}<p>${escapeHtml(model.shop.name)}</p>`;
 	let messageId: string;
 	try {
 		({ messageId } = await (opts.send ?? sendMail)({
@@ -92,6 +115,7 @@ export async function sendReportToCustomer(
 		}));
 	} catch (e) {
 		revokeCustomerLink(db, jobId, link.id, actorId, nowMs);
+		if (payLink) revokeCustomerLink(db, jobId, payLink.id, actorId, nowMs);
 		throw new DomainError(
 			'busy',
 			`The mail server did not take the message (${e instanceof Error ? e.message : String(e)}). Nothing was sent; try again.`
@@ -102,7 +126,7 @@ export async function sendReportToCustomer(
 		action: 'report.sent',
 		jobId,
 		subject: `job #${jobId}`,
-		detail: { to, messageId, linkId: link.id, draft: !signed },
+		detail: { to, messageId, linkId: link.id, draft: !signed, payLinkId: payLink?.id ?? null },
 		at: new Date(nowMs)
 	});
 	return { to, messageId, linkId: link.id, url };
