@@ -50,7 +50,7 @@ export function isSystemMove(from: JobStatus, to: JobStatus): boolean {
 }
 
 export const SYSTEM_MOVE_MESSAGE =
-	'A job waits for the customer when an estimate is sent (Estimate and payments), and the customer’s approval from their link sets it repairing; withdraw it to diagnosing to revise the estimate'
+	'A job waits for the customer when an estimate is sent (Estimate and payments), and the customer’s approval from their link sets it repairing; withdraw it to diagnosing to revise the estimate';
 
 /** Statuses reachable from `from` by anyone, ignoring role. `returned` is final. */
 export function nextStatuses(from: JobStatus): JobStatus[] {

@@ -153,3 +153,19 @@ export function listCustomerLinks(db: Db, jobId: number, nowMs = Date.now()): Cu
 		};
 	});
 }
+
+/** Where a customer's mail goes: their e-mail address, or a 400 saying to add one first. */
+export function customerEmailOrRefuse(customer: { name: string; email: string | null }): string {
+	if (!customer.email)
+		throw new DomainError(
+			'invalid',
+			`${customer.name} has no e-mail address: add one to the customer first.`,
+			[{ path: 'email', message: 'the customer needs an e-mail address' }]
+		);
+	return customer.email;
+}
+
+/** A link's address on the shop's origin: /r/ for a report, /e/ for an estimate. */
+export function customerLinkUrl(origin: string, purpose: LinkPurpose, token: string): string {
+	return `${origin.replace(/\/$/, '')}/${purpose === 'report' ? 'r' : 'e'}/${token}`;
+}

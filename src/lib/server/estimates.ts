@@ -10,7 +10,13 @@ import { audit } from './audit';
 import { validateListing as validate } from './validate';
 import { assertJobOpen, getJob, recordStatusChange } from './jobs';
 import { getSettings } from './settings';
-import { createCustomerLink, resolveCustomerLink, revokeCustomerLink } from './customer-links';
+import {
+	createCustomerLink,
+	customerEmailOrRefuse,
+	customerLinkUrl,
+	resolveCustomerLink,
+	revokeCustomerLink
+} from './customer-links';
 import { escapeHtml, sendMail, type OutgoingMail } from './mail';
 import {
 	buildSeenEstimate,
@@ -28,21 +34,16 @@ import {
 	type EstimateDecisionInput,
 	type EstimateDraftInput
 } from '$lib/schemas/estimates';
-import type { JobStatus, Role } from '$lib/schemas/enums';
+import { JOB_STATUSES, type JobStatus, type Role } from '$lib/schemas/enums';
+import { nextStatuses } from '$lib/schemas/jobs';
 
 type Actor = { id: string; role: Role };
 type Send = (m: OutgoingMail) => Promise<{ messageId: string }>;
 
 /** Statuses a job may be in when an estimate (or a revision) goes to the customer. */
-export const ESTIMATE_SENDABLE_FROM: readonly JobStatus[] = [
-	'received',
-	'diagnosing',
-	'awaiting-approval',
-	'awaiting-parts',
-	'repairing',
-	'testing',
-	'on-hold'
-];
+export const ESTIMATE_SENDABLE_FROM: readonly JobStatus[] = JOB_STATUSES.filter(
+	(s) => s === 'awaiting-approval' || nextStatuses(s).includes('awaiting-approval')
+);
 
 export interface EstimateView {
 	id: number;
@@ -263,13 +264,7 @@ export async function sendEstimate(
 			'conflict',
 			`An estimate is sent while the unit is in the shop before review; this job is ${job.status} (allowed: ${ESTIMATE_SENDABLE_FROM.join(', ')})`
 		);
-	const to = job.customer.email;
-	if (!to)
-		throw new DomainError(
-			'invalid',
-			`${job.customer.name} has no e-mail address: add one to the customer first.`,
-			[{ path: 'email', message: 'the customer needs an e-mail address' }]
-		);
+	const to = customerEmailOrRefuse(job.customer);
 	const settings = getSettings(db);
 	const pricing = currentPricing(db);
 	const seen = buildSeenEstimate(
@@ -289,7 +284,7 @@ export async function sendEstimate(
 		},
 		nowMs
 	);
-	const url = `${opts.origin.replace(/\/$/, '')}/e/${link.token}`;
+	const url = customerLinkUrl(opts.origin, 'estimate', link.token);
 	const unit = `${job.make} ${job.model}`;
 	const total = formatMoney(seen.totals.grossMinor, seen.currency);
 	const deposit = seen.depositMinor > 0 ? formatMoney(seen.depositMinor, seen.currency) : null;

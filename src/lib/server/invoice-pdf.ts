@@ -1,6 +1,6 @@
 // The invoice as a PDF, drawn from plain data with the report's PDF helpers (so it can run on
 // the PDF worker thread): the shop, the invoiced lines and totals, what was received, the balance.
-import { heading, openDocument, paragraph, pdfText, table as pdfTable } from './report-pdf';
+import { documentHeader, heading, openDocument, paragraph, table as pdfTable } from './report-pdf';
 import { formatMoney } from '$lib/money';
 import type { InvoiceDocument } from './payments';
 
@@ -28,16 +28,7 @@ export async function drawInvoicePdf(m: InvoicePdfModel): Promise<Buffer> {
 		subject: 'Invoice',
 		createdAt: new Date(d.issuedAt)
 	});
-	doc.font('bold').fontSize(18).text(pdfText(m.shop.name));
-	const contact = [m.shop.address, m.shop.phone, m.shop.email].filter(Boolean).join(' · ');
-	if (contact) paragraph(doc, contact, { muted: true });
-	doc
-		.moveDown(0.5)
-		.font('bold')
-		.fontSize(13)
-		.text(pdfText(`Invoice ${d.invoiceNumber}`))
-		.font('body')
-		.fontSize(10);
+	documentHeader(doc, m.shop, `Invoice ${d.invoiceNumber}`);
 	paragraph(doc, `Issued ${d.issuedAt.slice(0, 10)} to ${d.customerName} · ${d.unit} · job ${m.jobId}`);
 	paragraph(doc, `From estimate version ${d.version}, approved by the customer.`, { muted: true });
 	heading(doc, 'Work and parts');

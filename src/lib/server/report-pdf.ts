@@ -70,6 +70,18 @@ export function openDocument(meta: PdfMeta): { doc: PDFKit.PDFDocument; done: Pr
 	return { doc, done };
 }
 
+/** A shop document's top: the shop's name, its contact line, and the document's title. */
+export function documentHeader(
+	doc: PDFKit.PDFDocument,
+	shop: { name: string; address: string; phone: string; email: string },
+	title: string
+): void {
+	doc.font('bold').fontSize(18).text(pdfText(shop.name));
+	const contact = [shop.address, shop.phone, shop.email].filter(Boolean).join(' · ');
+	if (contact) paragraph(doc, contact, { muted: true });
+	doc.moveDown(0.5).font('bold').fontSize(13).text(pdfText(title)).font('body').fontSize(10);
+}
+
 export function heading(doc: PDFKit.PDFDocument, text: string, size = 14): void {
 	if (doc.y > doc.page.height - doc.page.margins.bottom - 80) doc.addPage();
 	doc.moveDown(0.8).font('bold').fontSize(size).text(pdfText(text)).font('body').fontSize(10).moveDown(0.3);
@@ -229,16 +241,7 @@ export async function renderReportPdf(m: ReportModel): Promise<Buffer> {
 		subject: 'Measured service report',
 		createdAt: new Date(m.generatedAt)
 	});
-	doc.font('bold').fontSize(18).text(pdfText(m.shop.name));
-	const contact = [m.shop.address, m.shop.phone, m.shop.email].filter(Boolean).join(' · ');
-	if (contact) paragraph(doc, contact, { muted: true });
-	doc
-		.moveDown(0.5)
-		.font('bold')
-		.fontSize(13)
-		.text(pdfText(`Service report for ${m.customerName}`))
-		.font('body')
-		.fontSize(10);
+	documentHeader(doc, m.shop, `Service report for ${m.customerName}`);
 	paragraph(
 		doc,
 		`${m.job.category}: ${m.job.make} ${m.job.model}${m.job.serial ? `, serial ${m.job.serial}` : ''}${m.job.year ? `, ${m.job.year}` : ''} · job ${m.job.id} · ${date(m.generatedAt)}`

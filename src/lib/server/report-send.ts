@@ -10,7 +10,12 @@ import { getSettings } from './settings';
 import { standingSignOff } from './sign-off';
 import { buildReport } from './report';
 import { renderPdf } from './pdf-renderer';
-import { createCustomerLink, revokeCustomerLink } from './customer-links';
+import {
+	createCustomerLink,
+	customerEmailOrRefuse,
+	customerLinkUrl,
+	revokeCustomerLink
+} from './customer-links';
 import { escapeHtml, sendMail, type OutgoingMail } from './mail';
 import { renderInvoicePdf } from './invoices';
 import { moneySummary } from './payments';
@@ -32,13 +37,7 @@ export async function sendReportToCustomer(
 	const nowMs = opts.nowMs ?? Date.now();
 	const job = getJob(db, jobId);
 	if (!job) throw new DomainError('not-found', 'No such job');
-	const to = job.customer.email;
-	if (!to)
-		throw new DomainError(
-			'invalid',
-			`${job.customer.name} has no e-mail address: add one to the customer first.`,
-			[{ path: 'email', message: 'the customer needs an e-mail address' }]
-		);
+	const to = customerEmailOrRefuse(job.customer);
 	const settings = getSettings(db);
 	const standing = standingSignOff(db, jobId);
 	const signed = !!standing && standing.signOff.decision === 'approve' && standing.check.intact;
@@ -56,7 +55,7 @@ export async function sendReportToCustomer(
 		{ jobId, purpose: 'report', createdBy: actorId, lifetimeDays: settings.customerReport.linkLifetimeDays },
 		nowMs
 	);
-	const url = `${opts.origin.replace(/\/$/, '')}/r/${link.token}`;
+	const url = customerLinkUrl(opts.origin, 'report', link.token);
 	const until = link.expiresAt.toISOString().slice(0, 10);
 	// With an invoice that is not paid in full, a payment link (the estimate page, where the
 	// balance has its pay button) rides along.
@@ -75,7 +74,7 @@ export async function sendReportToCustomer(
 					nowMs
 				)
 			: null;
-	const payUrl = payLink ? `${opts.origin.replace(/\/$/, '')}/e/${payLink.token}` : null;
+	const payUrl = payLink ? customerLinkUrl(opts.origin, 'estimate', payLink.token) : null;
 	const payLine =
 		money && payUrl ? `Balance due: ${formatMoney(due, money.currency)}. Pay it online here: ${payUrl}` : '';
 	const unit = `${job.make} ${job.model}`;

@@ -8,10 +8,11 @@ import { env } from '$lib/server/env';
 import { getJob } from '$lib/server/jobs';
 import { DomainError } from '$lib/server/errors';
 import { pageLoad, formActions } from '$lib/server/handlers';
+import { revokeLinkAction } from '$lib/server/link-actions';
 import { currentPricing, listEstimates, saveEstimateDraft, sendEstimate } from '$lib/server/estimates';
 import { moneySummary, recordCounterPayment } from '$lib/server/payments';
 import { issueInvoice } from '$lib/server/invoices';
-import { listCustomerLinks, revokeCustomerLink } from '$lib/server/customer-links';
+import { listCustomerLinks } from '$lib/server/customer-links';
 import { parseMoney } from '$lib/money';
 import { text } from '$lib/forms';
 import type { Actions, PageServerLoad } from './$types';
@@ -98,14 +99,5 @@ export const actions: Actions = formActions({
 		const issued = issueInvoice(db, id, user);
 		return { action: 'invoice', ok: true, message: `Invoice ${issued.number} issued` };
 	},
-	revoke: async (event) => {
-		const user = requireSupervisor(event);
-		const id = idParam(event.params.id, 'job');
-		const form = await event.request.formData();
-		const linkId = Number(text(form, 'linkId'));
-		if (!Number.isSafeInteger(linkId) || linkId < 1)
-			return fail(400, { action: 'revoke', message: 'Pick a link to revoke' });
-		revokeCustomerLink(db, id, linkId, user.id);
-		return { action: 'revoke', ok: true, message: 'Link revoked: it now answers “not found”.' };
-	}
+	revoke: revokeLinkAction
 });
