@@ -12,6 +12,7 @@ function fakeUnit() {
 	const log: ({ frequencyHz: number; levelVrms: number } | null)[] = [];
 	const io: ProcedureIO = {
 		setGenerator(g) {
+			if (g && !('frequencyHz' in g)) throw new Error('the fake unit takes sines only');
 			gen = g;
 			log.push(g);
 		},

@@ -4,14 +4,18 @@ import { z } from 'zod';
 import { PHONO_FEEDS } from '$lib/procedures/phono';
 import { SWEEP_DENSITIES } from '$lib/procedures/sweep';
 import { THD_THRESHOLDS_PERCENT, MAX_POWER_FREQUENCIES_HZ } from '$lib/procedures/max-power';
+import { CROSSTALK_DIRECTIONS } from '$lib/procedures/crosstalk';
+import { IMD_METHODS, imdProductPlan } from '$lib/procedures/imd';
 
-export const PROCEDURE_KINDS = ['response', 'phono', 'max-power'] as const;
+export const PROCEDURE_KINDS = ['response', 'phono', 'max-power', 'crosstalk', 'imd'] as const;
 export type ProcedureKind = (typeof PROCEDURE_KINDS)[number];
 
 export const PROCEDURE_LABELS: Record<ProcedureKind, string> = {
 	response: 'Frequency response',
 	phono: 'Phono equalisation',
-	'max-power': 'Maximum power'
+	'max-power': 'Maximum power',
+	crosstalk: 'Crosstalk',
+	imd: 'Intermodulation (IMD)'
 };
 
 const finite = z.number().refine(Number.isFinite, 'must be a finite number');
@@ -92,9 +96,64 @@ export const maxPowerRunSchema = z.strictObject({
 	note
 });
 
+const crosstalkStep = z.strictObject({
+	frequencyHz: hz,
+	direction: z.enum(CROSSTALK_DIRECTIONS, `direction is one of ${CROSSTALK_DIRECTIONS.join(', ')}`),
+	drivenVrms: volts.refine((v) => v > 0, 'the driven channel must carry a signal'),
+	leakVrms: volts
+});
+
+export const crosstalkRunSchema = z.strictObject({
+	kind: z.literal('crosstalk'),
+	label,
+	settleMs: z.number().int().min(0).max(10_000),
+	generatorVrms: finite.positive().max(20),
+	/** Pass when every step is at or below this many dB (for example −60; null: no limit). */
+	limitDb: finite.min(-200).max(0).nullable(),
+	steps: z.array(crosstalkStep).min(1).max(24),
+	note
+});
+
+const imdChannel = z.strictObject({
+	tone1Vrms: volts.refine((v) => v > 0, 'the first tone must be present'),
+	tone2Vrms: volts.refine((v) => v > 0, 'the second tone must be present'),
+	productVrms: z.array(volts).min(3).max(4)
+});
+
+const imdMeasurement = z
+	.strictObject({
+		method: z.enum(IMD_METHODS, `method is one of ${IMD_METHODS.join(', ')}`),
+		channels: z.array(imdChannel.nullable()).min(1).max(2)
+	})
+	.superRefine((m, ctx) => {
+		const n = imdProductPlan(m.method).length;
+		m.channels.forEach((c, i) => {
+			if (c && c.productVrms.length !== n)
+				ctx.addIssue({
+					code: 'custom',
+					path: ['channels', i, 'productVrms'],
+					message: `${m.method} IMD lists ${n} products (${imdProductPlan(m.method)
+						.map((p) => p.label)
+						.join(', ')})`
+				});
+		});
+	});
+
+export const imdRunSchema = z.strictObject({
+	kind: z.literal('imd'),
+	label,
+	settleMs: z.number().int().min(0).max(10_000),
+	/** Generator level, V rms (for two tones the peak-equivalent sine level, as the bridge defines it). */
+	generatorVrms: finite.positive().max(20),
+	/** Pass when every channel's IMD is at or below this many percent (null: no limit). */
+	limitPercent: finite.positive().max(100).nullable(),
+	measurements: z.array(imdMeasurement).min(1).max(2),
+	note
+});
+
 export const procedureRunSchema = z.discriminatedUnion(
 	'kind',
-	[responseRunSchema, phonoRunSchema, maxPowerRunSchema],
+	[responseRunSchema, phonoRunSchema, maxPowerRunSchema, crosstalkRunSchema, imdRunSchema],
 	{
 		error: `kind is one of ${PROCEDURE_KINDS.join(', ')}`
 	}

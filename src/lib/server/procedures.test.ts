@@ -120,6 +120,68 @@ describe('recording a procedure', () => {
 		expect(run.verdict).toBe('pass');
 	});
 
+	it('recomputes crosstalk from each step’s two levels and judges it against the limit', () => {
+		const base = { kind: 'crosstalk', label: 'Line in', settleMs: 300, generatorVrms: 0.5 };
+		const steps = [
+			// 10 V driven, 1 mV leaked: 20·lg(1e-4) = −80 dB; 10 mV: −60 dB.
+			{ frequencyHz: 1000, direction: 'left-to-right', drivenVrms: 10, leakVrms: 0.001 },
+			{ frequencyHz: 10_000, direction: 'right-to-left', drivenVrms: 10, leakVrms: 0.01 }
+		];
+		const run = recordProcedureRun(db, jobId, 'u1', { ...base, limitDb: -50, steps });
+		if (run.result.kind !== 'crosstalk') throw new Error('crosstalk expected');
+		expect(run.result.stepsDb[0]).toBeCloseTo(-80, 9);
+		expect(run.result.worstDb['right-to-left']).toBeCloseTo(-60, 9);
+		expect(run.verdict).toBe('pass');
+		expect(recordProcedureRun(db, jobId, 'u1', { ...base, limitDb: -70, steps }).verdict).toBe('fail');
+		expect(() =>
+			recordProcedureRun(db, jobId, 'u1', {
+				...base,
+				limitDb: null,
+				steps: [{ ...steps[0], direction: 'up' }]
+			})
+		).toThrow(/Invalid procedure result/);
+	});
+
+	it('recomputes IMD from the tone and product levels with the standard sums, and refuses a short product list', () => {
+		const run = recordProcedureRun(db, jobId, 'u1', {
+			kind: 'imd',
+			label: 'Line in, 1 V',
+			settleMs: 300,
+			generatorVrms: 1,
+			limitPercent: 1,
+			measurements: [
+				// SMPTE: 2nd-order sidebands 0.0025 + 0.0025 re 0.25 → 2 %; 3rd 0.001 + 0.001 → 0.8 % (RP120).
+				{
+					method: 'smpte',
+					channels: [{ tone1Vrms: 1, tone2Vrms: 0.25, productVrms: [0.0025, 0.0025, 0.001, 0.001] }]
+				},
+				// Twin-tone 0.3 + 0.3: 1 kHz 0.003 → 0.5 % of 0.6 (IEC 60268-3 difference frequency).
+				{ method: 'twin-tone', channels: [{ tone1Vrms: 0.3, tone2Vrms: 0.3, productVrms: [0.003, 0, 0] }] }
+			]
+		});
+		if (run.result.kind !== 'imd') throw new Error('imd expected');
+		expect(run.result.measurements[0].channels[0]!.imdPercent).toBeCloseTo(Math.hypot(2, 0.8), 9);
+		expect(run.result.measurements[1].channels[0]!.imdPercent).toBeCloseTo(0.5, 9);
+		expect(run.result.worstPercent).toBeCloseTo(2.154, 3);
+		expect(run.verdict).toBe('fail'); // 2.15 % > 1 %
+		let issues: { path: string; message: string }[] = [];
+		try {
+			recordProcedureRun(db, jobId, 'u1', {
+				kind: 'imd',
+				label: 'short',
+				settleMs: 300,
+				generatorVrms: 1,
+				limitPercent: null,
+				measurements: [
+					{ method: 'smpte', channels: [{ tone1Vrms: 1, tone2Vrms: 0.25, productVrms: [0, 0, 0] }] }
+				]
+			});
+		} catch (e) {
+			issues = (e as DomainError).issues ?? [];
+		}
+		expect(issues[0]?.message).toMatch(/smpte IMD lists 4 products/);
+	});
+
 	it('names what is wrong with an upload, keeps the record immutable and audits it', () => {
 		let issues: { path: string; message: string }[] = [];
 		try {

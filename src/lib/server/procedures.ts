@@ -12,6 +12,8 @@ import { procedureRunSchema, type ProcedureKind, type ProcedureRunData } from '.
 import { flatness, relativeLevelsDb, type Flatness } from '../procedures/sweep';
 import { phonoDeviation, type PhonoResult } from '../procedures/phono';
 import { replayRamp, type ChannelCrossing, type StopReason } from '../procedures/max-power';
+import { evaluateCrosstalk, type CrosstalkResult } from '../procedures/crosstalk';
+import { evaluateImd, type ImdChannelFigures, type ImdMethod } from '../procedures/imd';
 
 export type ProcedureVerdict = 'pass' | 'fail' | 'none';
 
@@ -23,6 +25,13 @@ export type ProcedureResult =
 			flatness: (Flatness | null)[];
 	  }
 	| ({ kind: 'phono'; frequenciesHz: number[] } & PhonoResult)
+	| ({ kind: 'crosstalk'; steps: { frequencyHz: number; direction: string }[] } & CrosstalkResult)
+	| {
+			kind: 'imd';
+			measurements: { method: ImdMethod; channels: (ImdChannelFigures | null)[] }[];
+			/** Highest IMD over every method and channel, %. */
+			worstPercent: number | null;
+	  }
 	| {
 			kind: 'max-power';
 			reason: StopReason;
@@ -79,6 +88,36 @@ export function computeProcedure(
 					? 'pass'
 					: 'fail';
 		return { result: { kind: 'phono', frequenciesHz: data.steps.map((s) => s.frequencyHz), ...r }, verdict };
+	}
+	if (data.kind === 'crosstalk') {
+		const r = evaluateCrosstalk(data.steps);
+		const verdict: ProcedureVerdict =
+			data.limitDb === null ? 'none' : r.stepsDb.every((d) => d <= data.limitDb!) ? 'pass' : 'fail';
+		return {
+			result: {
+				kind: 'crosstalk',
+				steps: data.steps.map((s) => ({ frequencyHz: s.frequencyHz, direction: s.direction })),
+				...r
+			},
+			verdict
+		};
+	}
+	if (data.kind === 'imd') {
+		const measurements = data.measurements.map((m) => ({
+			method: m.method,
+			channels: m.channels.map((c) => (c ? evaluateImd(m.method, c) : null))
+		}));
+		const all = measurements.flatMap((m) => m.channels.map((c) => c?.imdPercent ?? null));
+		const read = all.filter((v): v is number => v !== null);
+		const worstPercent = read.length ? Math.max(...read) : null;
+		// A channel that could not be read cannot pass.
+		const verdict: ProcedureVerdict =
+			data.limitPercent === null
+				? 'none'
+				: all.every((v) => v !== null && v <= data.limitPercent!)
+					? 'pass'
+					: 'fail';
+		return { result: { kind: 'imd', measurements, worstPercent }, verdict };
 	}
 	if (data.throughLamp)
 		throw new DomainError(
