@@ -9,6 +9,13 @@ export type ProcedureResultLike =
 	| {
 			kind: 'imd';
 			measurements: { method: 'smpte' | 'twin-tone'; channels: ({ imdPercent: number } | null)[] }[];
+	  }
+	| { kind: 'meter'; maxErrorDb: number | null; maxErrorPercent: number | null; points: unknown[] }
+	| {
+			kind: 'stability';
+			observed: 'none' | 'ringing' | 'oscillation';
+			loadOhms: number;
+			capacitanceMicrofarads: number;
 	  };
 
 const side = (ch: number) => (ch ? 'right' : 'left');
@@ -40,6 +47,14 @@ export function procedureHeadline(r: ProcedureResultLike): string {
 				return `${name} ${Number.isFinite(worst) ? `${worst < 0.1 ? worst.toFixed(4) : worst.toFixed(3)} %` : 'not read'}`;
 			})
 			.join(' · ');
+	if (r.kind === 'meter')
+		return r.maxErrorDb === null
+			? 'meter not read'
+			: `meter within ±${r.maxErrorDb.toFixed(2)} dB (±${r.maxErrorPercent!.toFixed(1)} %) over ${r.points.length} powers`;
+	if (r.kind === 'stability') {
+		const seen = { none: 'no ringing', ringing: 'damped ringing', oscillation: 'oscillation' }[r.observed];
+		return `${seen} into ${r.loadOhms} Ω ∥ ${r.capacitanceMicrofarads} µF`;
+	}
 	return r.crossings
 		.map((c, ch) => `${side(ch)} ${c ? `${c.powerW.toFixed(1)} W` : 'not reached'}`)
 		.join(' · ');

@@ -5,3 +5,5 @@ export * from './phono';
 export * from './max-power';
 export * from './crosstalk';
 export * from './imd';
+export * from './meter';
+export * from './stability';

@@ -6,6 +6,8 @@ import type { ImdResult } from '$lib/dsp/imd';
 import type { GeneratorState } from '$lib/bridge/protocol';
 import { crosstalkChannels, type CrosstalkDirection, type CrosstalkStep } from './crosstalk';
 import { IMD_TONES, type ImdChannelReading, type ImdMethod } from './imd';
+import { levelForPower, type MeterStep } from './meter';
+import { wattsInto } from './max-power';
 import {
 	cancelRamp,
 	startRamp,
@@ -246,6 +248,68 @@ export async function runImd(
 			const run = { method, channels: got };
 			out.push(run);
 			onStep(out.length, run);
+		}
+		return out;
+	} finally {
+		io.setGenerator(null);
+	}
+}
+
+export interface MeterPlan {
+	powersW: readonly number[];
+	loadOhms: number;
+	frequencyHz: number;
+	/** A small first level to learn the unit's gain, V rms. */
+	probeLevelVrms: number;
+	/** Never drive the generator above this, V rms. */
+	maxLevelVrms: number;
+	/** Stream channel whose power the meter shows (0 = left, 1 = right). */
+	channel: 0 | 1;
+	settleMs: number;
+	/** An output above twice this stops the run (null: no rating known). */
+	ratedPowerW: number | null;
+}
+
+/**
+ * The meter check: learn the gain at a probe level, then set each power in turn and wait for the
+ * technician's reading (`ask` resolves with what the meter shows, W, or null). Ends off.
+ */
+export async function runMeter(
+	io: ProcedureIO,
+	plan: MeterPlan,
+	signal: AbortSignal,
+	ask: (step: { targetW: number; measuredW: number }, signal: AbortSignal) => Promise<number | null>,
+	onStep: (done: number, step: MeterStep) => void
+): Promise<MeterStep[]> {
+	const out: MeterStep[] = [];
+	const read = async (level: number) => {
+		io.setGenerator({ frequencyHz: plan.frequencyHz, levelVrms: level });
+		const at = io.now() + plan.settleMs;
+		await io.sleep(plan.settleMs, signal);
+		const r = await readAt(io, at, plan.frequencyHz, signal);
+		const v = r?.levelVrms[plan.channel];
+		if (v == null || !(v > 0))
+			throw new Error(`No output on the metered channel at ${level.toFixed(3)} V in.`);
+		return v;
+	};
+	try {
+		let gain = (await read(plan.probeLevelVrms)) / plan.probeLevelVrms;
+		for (const targetW of plan.powersW) {
+			check(signal);
+			const level = levelForPower(targetW, plan.loadOhms, gain);
+			if (level > plan.maxLevelVrms * (1 + 1e-9))
+				throw new Error(
+					`${targetW} W would need ${level.toFixed(2)} V from the generator (at most ${plan.maxLevelVrms} V): stopped.`
+				);
+			const v = await read(level);
+			gain = v / level;
+			const measuredW = wattsInto(v, plan.loadOhms);
+			if (plan.ratedPowerW !== null && measuredW > 2 * plan.ratedPowerW)
+				throw new Error(`The output reached ${measuredW.toFixed(1)} W, over twice the rating: stopped.`);
+			const indicatedW = await ask({ targetW, measuredW }, signal);
+			const step: MeterStep = { targetW, generatorVrms: level, outputVrms: v, indicatedW };
+			out.push(step);
+			onStep(out.length, step);
 		}
 		return out;
 	} finally {

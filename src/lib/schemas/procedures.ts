@@ -6,8 +6,17 @@ import { SWEEP_DENSITIES } from '$lib/procedures/sweep';
 import { THD_THRESHOLDS_PERCENT, MAX_POWER_FREQUENCIES_HZ } from '$lib/procedures/max-power';
 import { CROSSTALK_DIRECTIONS } from '$lib/procedures/crosstalk';
 import { IMD_METHODS, imdProductPlan } from '$lib/procedures/imd';
+import { STABILITY_OBSERVATIONS } from '$lib/procedures/stability';
 
-export const PROCEDURE_KINDS = ['response', 'phono', 'max-power', 'crosstalk', 'imd'] as const;
+export const PROCEDURE_KINDS = [
+	'response',
+	'phono',
+	'max-power',
+	'crosstalk',
+	'imd',
+	'meter',
+	'stability'
+] as const;
 export type ProcedureKind = (typeof PROCEDURE_KINDS)[number];
 
 export const PROCEDURE_LABELS: Record<ProcedureKind, string> = {
@@ -15,7 +24,9 @@ export const PROCEDURE_LABELS: Record<ProcedureKind, string> = {
 	phono: 'Phono equalisation',
 	'max-power': 'Maximum power',
 	crosstalk: 'Crosstalk',
-	imd: 'Intermodulation (IMD)'
+	imd: 'Intermodulation (IMD)',
+	meter: 'Front-panel meter check',
+	stability: 'Stability check'
 };
 
 const finite = z.number().refine(Number.isFinite, 'must be a finite number');
@@ -151,9 +162,52 @@ export const imdRunSchema = z.strictObject({
 	note
 });
 
+const meterStep = z.strictObject({
+	targetW: finite.positive().max(10_000),
+	generatorVrms: volts,
+	outputVrms: volts.refine((v) => v > 0, 'the output must carry a signal'),
+	indicatedW: finite.min(0).max(100_000).nullable()
+});
+
+export const meterRunSchema = z.strictObject({
+	kind: z.literal('meter'),
+	label,
+	frequencyHz: hz,
+	loadOhms: finite.min(1).max(100),
+	/** The channel whose power the meter shows. */
+	channel: z.enum(['left', 'right'], 'channel is left or right'),
+	settleMs: z.number().int().min(0).max(10_000),
+	/** Pass when every reading is within ± this many dB of the measured power (null: no limit). */
+	limitDb: finite.positive().max(20).nullable(),
+	steps: z.array(meterStep).min(1, 'read the meter at one power at least').max(30),
+	note
+});
+
+export const stabilityRunSchema = z.strictObject({
+	kind: z.literal('stability'),
+	label,
+	squareWaveHz: finite.min(10).max(100_000),
+	loadOhms: finite.min(1).max(100),
+	capacitanceMicrofarads: finite.min(0).max(100),
+	/** What the scope showed on each channel checked. */
+	observed: z.enum(STABILITY_OBSERVATIONS, `observed is one of ${STABILITY_OBSERVATIONS.join(', ')}`),
+	channels: z.enum(['left', 'right', 'both'], 'channels is left, right or both'),
+	/** A photo of the scope trace already uploaded to this job's files (null: none). */
+	photoFileId: z.number().int().positive().nullable(),
+	note
+});
+
 export const procedureRunSchema = z.discriminatedUnion(
 	'kind',
-	[responseRunSchema, phonoRunSchema, maxPowerRunSchema, crosstalkRunSchema, imdRunSchema],
+	[
+		responseRunSchema,
+		phonoRunSchema,
+		maxPowerRunSchema,
+		crosstalkRunSchema,
+		imdRunSchema,
+		meterRunSchema,
+		stabilityRunSchema
+	],
 	{
 		error: `kind is one of ${PROCEDURE_KINDS.join(', ')}`
 	}

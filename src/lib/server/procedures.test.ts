@@ -182,6 +182,72 @@ describe('recording a procedure', () => {
 		expect(issues[0]?.message).toMatch(/smpte IMD lists 4 products/);
 	});
 
+	it('meter check: power from V²/R, error in dB, judged against ± dB; an unread step cannot pass', () => {
+		const base = {
+			kind: 'meter',
+			label: 'Power meter, left',
+			frequencyHz: 1000,
+			loadOhms: 8,
+			channel: 'left',
+			settleMs: 300,
+			limitDb: 1
+		};
+		// √80 V into 8 Ω = 10 W; the meter shows 11 W: 10·lg 1.1 = +0.414 dB, +10 %.
+		const step = { targetW: 10, generatorVrms: 0.45, outputVrms: Math.sqrt(80), indicatedW: 11 };
+		const run = recordProcedureRun(db, jobId, 'u1', { ...base, steps: [step] });
+		if (run.result.kind !== 'meter') throw new Error('meter expected');
+		expect(run.result.points[0].measuredW).toBeCloseTo(10, 9);
+		expect(run.result.maxErrorDb).toBeCloseTo(0.4139, 4);
+		expect(run.result.maxErrorPercent).toBeCloseTo(10, 9);
+		expect(run.verdict).toBe('pass');
+		expect(
+			recordProcedureRun(db, jobId, 'u1', { ...base, steps: [step, { ...step, indicatedW: null }] }).verdict
+		).toBe('fail');
+	});
+
+	it('stability: a record with the observation; the photo must be a photo on this job', () => {
+		const base = {
+			kind: 'stability',
+			label: 'Square wave, 8 Ω ∥ 2 µF',
+			squareWaveHz: 10_000,
+			loadOhms: 8,
+			capacitanceMicrofarads: 2,
+			channels: 'both',
+			note: 'two cycles of ringing at 1 MHz'
+		};
+		const run = recordProcedureRun(db, jobId, 'u1', { ...base, observed: 'ringing', photoFileId: null });
+		expect(run.verdict).toBe('pass');
+		expect(
+			recordProcedureRun(db, jobId, 'u1', { ...base, observed: 'oscillation', photoFileId: null }).verdict
+		).toBe('fail');
+		const file = (type: 'png' | 'pdf') =>
+			db
+				.insert(table.jobFiles)
+				.values({
+					jobId,
+					sha256: 'a'.repeat(64),
+					receivedSha256: 'b'.repeat(64),
+					name: `trace.${type}`,
+					type,
+					bytes: 10,
+					uploadedBy: 'u1',
+					uploadedAt: new Date()
+				})
+				.returning()
+				.get().id;
+		const photo = file('png');
+		const pdf = file('pdf');
+		const withPhoto = recordProcedureRun(db, jobId, 'u1', { ...base, observed: 'none', photoFileId: photo });
+		if (withPhoto.result.kind !== 'stability') throw new Error('stability expected');
+		expect(withPhoto.result.photoFileId).toBe(photo);
+		expect(() =>
+			recordProcedureRun(db, jobId, 'u1', { ...base, observed: 'none', photoFileId: pdf })
+		).toThrow(/photo among this job/);
+		expect(() =>
+			recordProcedureRun(db, jobId, 'u1', { ...base, observed: 'none', photoFileId: 999 })
+		).toThrow(/photo among this job/);
+	});
+
 	it('names what is wrong with an upload, keeps the record immutable and audits it', () => {
 		let issues: { path: string; message: string }[] = [];
 		try {

@@ -14,6 +14,10 @@ import { phonoDeviation, type PhonoResult } from '../procedures/phono';
 import { replayRamp, type ChannelCrossing, type StopReason } from '../procedures/max-power';
 import { evaluateCrosstalk, type CrosstalkResult } from '../procedures/crosstalk';
 import { evaluateImd, type ImdChannelFigures, type ImdMethod } from '../procedures/imd';
+import { evaluateMeter, type MeterResult } from '../procedures/meter';
+import { stabilityVerdict, type StabilityObservation } from '../procedures/stability';
+import { getJobFile } from './job-files';
+import { PHOTO_TYPES } from '../schemas/job-files';
 
 export type ProcedureVerdict = 'pass' | 'fail' | 'none';
 
@@ -31,6 +35,15 @@ export type ProcedureResult =
 			measurements: { method: ImdMethod; channels: (ImdChannelFigures | null)[] }[];
 			/** Highest IMD over every method and channel, %. */
 			worstPercent: number | null;
+	  }
+	| ({ kind: 'meter'; loadOhms: number; channel: 'left' | 'right' } & MeterResult)
+	| {
+			kind: 'stability';
+			observed: StabilityObservation;
+			squareWaveHz: number;
+			loadOhms: number;
+			capacitanceMicrofarads: number;
+			photoFileId: number | null;
 	  }
 	| {
 			kind: 'max-power';
@@ -119,6 +132,32 @@ export function computeProcedure(
 					: 'fail';
 		return { result: { kind: 'imd', measurements, worstPercent }, verdict };
 	}
+	if (data.kind === 'meter') {
+		const r = evaluateMeter(data.steps, data.loadOhms);
+		const read = r.points.filter((p) => p.errorDb !== null);
+		const verdict: ProcedureVerdict =
+			data.limitDb === null
+				? 'none'
+				: read.length === r.points.length && read.every((p) => Math.abs(p.errorDb!) <= data.limitDb!)
+					? 'pass'
+					: 'fail';
+		return {
+			result: { kind: 'meter', loadOhms: data.loadOhms, channel: data.channel, ...r },
+			verdict
+		};
+	}
+	if (data.kind === 'stability')
+		return {
+			result: {
+				kind: 'stability',
+				observed: data.observed,
+				squareWaveHz: data.squareWaveHz,
+				loadOhms: data.loadOhms,
+				capacitanceMicrofarads: data.capacitanceMicrofarads,
+				photoFileId: data.photoFileId
+			},
+			verdict: stabilityVerdict(data.observed)
+		};
 	if (data.throughLamp)
 		throw new DomainError(
 			'invalid',
@@ -158,6 +197,14 @@ export function computeProcedure(
 
 export function recordProcedureRun(db: Db, jobId: number, userId: string, input: unknown): ProcedureRunView {
 	const data = validate(procedureRunSchema, input, 'Invalid procedure result');
+	if (data.kind === 'stability' && data.photoFileId !== null) {
+		// Files are never deleted (removal is a mark), so this check outside the write cannot go stale.
+		const f = getJobFile(db, data.photoFileId);
+		if (!f || f.jobId !== jobId || f.removedAt !== null || !PHOTO_TYPES.includes(f.type))
+			throw new DomainError('invalid', 'The stability photo must be a photo among this job’s files.', [
+				{ path: 'photoFileId', message: 'must name a photo uploaded to this job (not removed)' }
+			]);
+	}
 	const id = db.transaction((tx) => {
 		const job = assertJobOpen(tx, jobId);
 		const { result, verdict } = computeProcedure(data, job.ratedPowerW);
