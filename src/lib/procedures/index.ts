@@ -7,3 +7,4 @@ export * from './crosstalk';
 export * from './imd';
 export * from './meter';
 export * from './stability';
+export * from './limits';

@@ -35,6 +35,8 @@ const hz = finite.min(1).max(200_000);
 const perChannel = z.array(volts.nullable()).min(1).max(2);
 const label = z.string().trim().min(1, 'Give the run a label').max(200);
 const note = z.string().trim().max(2000).optional();
+/** A limit profile whose procedure limit judges the run instead of the run's own limit. */
+const profileId = z.number().int().positive().nullable().optional();
 const literalUnion = <T extends readonly number[]>(values: T, what: string) =>
 	z
 		.number()
@@ -54,6 +56,7 @@ const band = z
 export const responseRunSchema = z.strictObject({
 	kind: z.literal('response'),
 	label,
+	profileId,
 	perOctave: literalUnion(SWEEP_DENSITIES, 'points per octave'),
 	settleMs: z.number().int().min(0).max(10_000),
 	generatorVrms: finite.positive().max(20),
@@ -67,6 +70,7 @@ export const responseRunSchema = z.strictObject({
 export const phonoRunSchema = z.strictObject({
 	kind: z.literal('phono'),
 	label,
+	profileId,
 	perOctave: literalUnion(SWEEP_DENSITIES, 'points per octave'),
 	settleMs: z.number().int().min(0).max(10_000),
 	generatorVrms: finite.positive().max(20),
@@ -90,6 +94,7 @@ const rampReading = z.strictObject({
 export const maxPowerRunSchema = z.strictObject({
 	kind: z.literal('max-power'),
 	label,
+	profileId,
 	frequencyHz: literalUnion(MAX_POWER_FREQUENCIES_HZ, 'frequency'),
 	loadOhms: finite.min(1).max(100),
 	thresholdPercent: literalUnion(THD_THRESHOLDS_PERCENT, 'THD+N threshold'),
@@ -103,6 +108,8 @@ export const maxPowerRunSchema = z.strictObject({
 	/** True when the unit was powered through a current-limiting lamp: such a figure is refused. */
 	throughLamp: z.boolean(),
 	cancelled: z.boolean().default(false),
+	/** Pass only when each channel makes at least this power at the threshold (null: no limit). */
+	minPowerW: finite.positive().max(10_000).nullable().optional(),
 	readings: z.array(rampReading).min(1).max(200),
 	note
 });
@@ -117,6 +124,7 @@ const crosstalkStep = z.strictObject({
 export const crosstalkRunSchema = z.strictObject({
 	kind: z.literal('crosstalk'),
 	label,
+	profileId,
 	settleMs: z.number().int().min(0).max(10_000),
 	generatorVrms: finite.positive().max(20),
 	/** Pass when every step is at or below this many dB (for example −60; null: no limit). */
@@ -153,6 +161,7 @@ const imdMeasurement = z
 export const imdRunSchema = z.strictObject({
 	kind: z.literal('imd'),
 	label,
+	profileId,
 	settleMs: z.number().int().min(0).max(10_000),
 	/** Generator level, V rms (for two tones the peak-equivalent sine level, as the bridge defines it). */
 	generatorVrms: finite.positive().max(20),
@@ -172,6 +181,7 @@ const meterStep = z.strictObject({
 export const meterRunSchema = z.strictObject({
 	kind: z.literal('meter'),
 	label,
+	profileId,
 	frequencyHz: hz,
 	loadOhms: finite.min(1).max(100),
 	/** The channel whose power the meter shows. */

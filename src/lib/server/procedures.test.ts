@@ -7,6 +7,8 @@ import * as table from './db/schema';
 import { listProcedureRuns, procedureSummary, recordProcedureRun } from './procedures';
 import { riaaPlaybackDb } from '$lib/dsp/riaa';
 import type { DomainError } from './errors';
+import { createLimitProfile } from './limit-profiles';
+import { evaluateLimits } from '$lib/limit-profiles';
 
 let db: Db;
 let jobId: number;
@@ -246,6 +248,116 @@ describe('recording a procedure', () => {
 		expect(() =>
 			recordProcedureRun(db, jobId, 'u1', { ...base, observed: 'none', photoFileId: 999 })
 		).toThrow(/photo among this job/);
+	});
+
+	it('a limit profile’s procedure limits judge the run instead of the run’s own limit', () => {
+		const profile = createLimitProfile(
+			db,
+			{
+				name: 'Restored receiver, procedures',
+				conditions: {},
+				limits: [
+					{ metric: 'flatnessDb', op: 'le', value: 0.5, unit: 'dB' },
+					{ metric: 'crosstalkDb', op: 'le', value: -70, unit: 'dB' },
+					{ metric: 'powerAtThresholdW', op: 'ge', value: 45, unit: 'W' }
+				]
+			},
+			'u1'
+		);
+		// −1.0 dB at 20 Hz passes the run's ±1 dB but not the profile's ±0.5 dB.
+		const run = recordProcedureRun(db, jobId, 'u1', {
+			kind: 'response',
+			label: 'Judged by the profile',
+			bandHz: [20, 20_000],
+			limitPlusMinusDb: 1,
+			profileId: profile.id,
+			...sweep([0.8913, 1, 1.0593])
+		});
+		expect(run.verdict).toBe('fail');
+		expect(run.result.appliedLimit).toMatchObject({
+			source: 'profile',
+			value: 0.5,
+			profile: { name: profile.name }
+		});
+		// −60 dB at 10 kHz is above the profile's −70 dB.
+		const xt = recordProcedureRun(db, jobId, 'u1', {
+			kind: 'crosstalk',
+			label: 'By profile',
+			settleMs: 300,
+			generatorVrms: 0.5,
+			limitDb: null,
+			profileId: profile.id,
+			steps: [{ frequencyHz: 10_000, direction: 'left-to-right', drivenVrms: 10, leakVrms: 0.01 }]
+		});
+		expect(xt.verdict).toBe('fail');
+		// A profile without a limit for the kind leaves the run's own limit in charge.
+		const meter = recordProcedureRun(db, jobId, 'u1', {
+			kind: 'meter',
+			label: 'Meter',
+			frequencyHz: 1000,
+			loadOhms: 8,
+			channel: 'left',
+			settleMs: 300,
+			limitDb: 1,
+			profileId: profile.id,
+			steps: [{ targetW: 10, generatorVrms: 0.45, outputVrms: Math.sqrt(80), indicatedW: 10 }]
+		});
+		expect(meter.verdict).toBe('pass');
+		expect(meter.result.appliedLimit?.source).toBe('run');
+		// Power at the threshold: 18.29 V into 8 Ω = 41.8 W (P = V²/R) is below the profile's 45 W.
+		const ramp = recordProcedureRun(db, jobId, 'u1', {
+			kind: 'max-power',
+			label: '1 kHz',
+			frequencyHz: 1000,
+			loadOhms: 8,
+			thresholdPercent: 0.1,
+			startLevelVrms: 0.5,
+			stepDb: 0.5,
+			maxLevelVrms: 2,
+			maxSteps: 60,
+			channels: 2,
+			mainsVoltsRms: 230,
+			throughLamp: false,
+			profileId: profile.id,
+			readings: [
+				{ levelVrms: 0.5, outputVrms: [18, 18], thdnPercent: [0.02, 0.02] },
+				{ levelVrms: 0.53, outputVrms: [19, 19], thdnPercent: [0.3, 0.3] }
+			]
+		});
+		expect(ramp.verdict).toBe('fail');
+		expect(() =>
+			recordProcedureRun(db, jobId, 'u1', {
+				kind: 'crosstalk',
+				label: 'x',
+				settleMs: 300,
+				generatorVrms: 0.5,
+				limitDb: null,
+				profileId: 9999,
+				steps: [{ frequencyHz: 1000, direction: 'left-to-right', drivenVrms: 1, leakVrms: 0.001 }]
+			})
+		).toThrow(/limit profile/);
+	});
+
+	it('procedure limits are bound one way and never judge a snapshot', () => {
+		expect(() =>
+			createLimitProfile(
+				db,
+				{
+					name: 'Wrong way',
+					conditions: {},
+					limits: [{ metric: 'flatnessDb', op: 'ge', value: 1, unit: 'dB' }]
+				},
+				'u1'
+			)
+		).toThrow(/bound one way/);
+		const checks = evaluateLimits(
+			[
+				{ metric: 'meterErrorDb', channel: 'each', op: 'le', value: 1, unit: 'dB' },
+				{ metric: 'thdPercent', channel: 'each', op: 'le', value: 1, unit: '%' }
+			],
+			{ channels: [{ thdPercent: 0.1 }], stereo: {} }
+		);
+		expect(checks.map((c) => c.metric)).toEqual(['thdPercent']);
 	});
 
 	it('names what is wrong with an upload, keeps the record immutable and audits it', () => {

@@ -18,10 +18,17 @@ import { evaluateMeter, type MeterResult } from '../procedures/meter';
 import { stabilityVerdict, type StabilityObservation } from '../procedures/stability';
 import { getJobFile } from './job-files';
 import { PHOTO_TYPES } from '../schemas/job-files';
+import { getLimitProfile } from './limit-profiles';
+import { profileLimitFor, type AppliedLimit } from '../procedures/limits';
 
 export type ProcedureVerdict = 'pass' | 'fail' | 'none';
 
-export type ProcedureResult =
+export type ProcedureResult = ProcedureFigures & {
+	/** The limit the verdict was judged against (absent on runs saved before limits were recorded). */
+	appliedLimit?: AppliedLimit | null;
+};
+
+type ProcedureFigures =
 	| {
 			kind: 'response';
 			frequenciesHz: number[];
@@ -65,11 +72,50 @@ export interface ProcedureRunView {
 	createdAt: string;
 }
 
-/** The figures and verdict the server stands behind, from the raw readings alone. */
+/** The limit typed for the run itself, when no profile limit judges it. */
+function runLimit(data: ProcedureRunData): AppliedLimit | null {
+	const le = (value: number | null | undefined, text: string): AppliedLimit | null =>
+		value == null ? null : { value, op: 'le', text, source: 'run' };
+	switch (data.kind) {
+		case 'response':
+			return le(data.limitPlusMinusDb, `flat within ±${data.limitPlusMinusDb} dB`);
+		case 'phono':
+			return le(data.limitDb, `within ±${data.limitDb} dB of the RIAA curve`);
+		case 'crosstalk':
+			return le(data.limitDb, `crosstalk ≤ ${data.limitDb} dB`);
+		case 'imd':
+			return le(data.limitPercent, `IMD ≤ ${data.limitPercent} %`);
+		case 'meter':
+			return le(data.limitDb, `meter within ±${data.limitDb} dB`);
+		case 'max-power':
+			return data.minPowerW == null
+				? null
+				: { value: data.minPowerW, op: 'ge', text: `power ≥ ${data.minPowerW} W`, source: 'run' };
+		default:
+			return null;
+	}
+}
+
+const judge = (ok: boolean): ProcedureVerdict => (ok ? 'pass' : 'fail');
+
+/**
+ * The figures and verdict the server stands behind, from the raw readings alone, judged against
+ * `limit` (a limit profile's) or else the limit typed for the run.
+ */
 export function computeProcedure(
 	data: ProcedureRunData,
-	ratedPowerW: number | null
-): { result: ProcedureResult; verdict: ProcedureVerdict } {
+	ratedPowerW: number | null,
+	limit: AppliedLimit | null = null
+): { result: ProcedureResult; verdict: ProcedureVerdict; appliedLimit: AppliedLimit | null } {
+	const appliedLimit = limit ?? runLimit(data);
+	return { ...computeFigures(data, ratedPowerW, appliedLimit?.value ?? null), appliedLimit };
+}
+
+function computeFigures(
+	data: ProcedureRunData,
+	ratedPowerW: number | null,
+	lim: number | null
+): { result: ProcedureFigures; verdict: ProcedureVerdict } {
 	if (data.kind === 'response') {
 		const frequenciesHz = data.steps.map((s) => s.frequencyHz);
 		const relativeDb = relativeLevelsDb(data.steps);
@@ -83,29 +129,18 @@ export function computeProcedure(
 			)
 		);
 		const verdict: ProcedureVerdict =
-			data.limitPlusMinusDb === null
-				? 'none'
-				: fl.every(
-							(f) => f !== null && f.maxDb <= data.limitPlusMinusDb! && f.minDb >= -data.limitPlusMinusDb!
-					  )
-					? 'pass'
-					: 'fail';
+			lim === null ? 'none' : judge(fl.every((f) => f !== null && f.maxDb <= lim && f.minDb >= -lim));
 		return { result: { kind: 'response', frequenciesHz, relativeDb, flatness: fl }, verdict };
 	}
 	if (data.kind === 'phono') {
 		const r = phonoDeviation(data.steps, data);
 		const verdict: ProcedureVerdict =
-			data.limitDb === null
-				? 'none'
-				: r.maxDeviationDb.every((d) => d !== null && d <= data.limitDb!)
-					? 'pass'
-					: 'fail';
+			lim === null ? 'none' : judge(r.maxDeviationDb.every((d) => d !== null && d <= lim));
 		return { result: { kind: 'phono', frequenciesHz: data.steps.map((s) => s.frequencyHz), ...r }, verdict };
 	}
 	if (data.kind === 'crosstalk') {
 		const r = evaluateCrosstalk(data.steps);
-		const verdict: ProcedureVerdict =
-			data.limitDb === null ? 'none' : r.stepsDb.every((d) => d <= data.limitDb!) ? 'pass' : 'fail';
+		const verdict: ProcedureVerdict = lim === null ? 'none' : judge(r.stepsDb.every((d) => d <= lim));
 		return {
 			result: {
 				kind: 'crosstalk',
@@ -124,23 +159,16 @@ export function computeProcedure(
 		const read = all.filter((v): v is number => v !== null);
 		const worstPercent = read.length ? Math.max(...read) : null;
 		// A channel that could not be read cannot pass.
-		const verdict: ProcedureVerdict =
-			data.limitPercent === null
-				? 'none'
-				: all.every((v) => v !== null && v <= data.limitPercent!)
-					? 'pass'
-					: 'fail';
+		const verdict: ProcedureVerdict = lim === null ? 'none' : judge(all.every((v) => v !== null && v <= lim));
 		return { result: { kind: 'imd', measurements, worstPercent }, verdict };
 	}
 	if (data.kind === 'meter') {
 		const r = evaluateMeter(data.steps, data.loadOhms);
 		const read = r.points.filter((p) => p.errorDb !== null);
 		const verdict: ProcedureVerdict =
-			data.limitDb === null
+			lim === null
 				? 'none'
-				: read.length === r.points.length && read.every((p) => Math.abs(p.errorDb!) <= data.limitDb!)
-					? 'pass'
-					: 'fail';
+				: judge(read.length === r.points.length && read.every((p) => Math.abs(p.errorDb!) <= lim));
 		return {
 			result: { kind: 'meter', loadOhms: data.loadOhms, channel: data.channel, ...r },
 			verdict
@@ -181,8 +209,16 @@ export function computeProcedure(
 	);
 	const reason = state.reason ?? 'cancelled';
 	// A ramp that reached the threshold on every channel is a measurement; anything else is a record.
+	// With a minimum power, each channel's power at the threshold must reach it.
+	const reached = state.crossings.every((c) => c !== null);
 	const verdict: ProcedureVerdict =
-		reason === 'threshold' ? 'pass' : reason === 'over-rated' ? 'fail' : 'none';
+		reason === 'over-rated'
+			? 'fail'
+			: lim !== null && state.crossings.some((c) => c !== null && c.powerW < lim)
+				? 'fail'
+				: reason === 'threshold' && reached
+					? 'pass'
+					: 'none';
 	return {
 		result: {
 			kind: 'max-power',
@@ -205,9 +241,22 @@ export function recordProcedureRun(db: Db, jobId: number, userId: string, input:
 				{ path: 'photoFileId', message: 'must name a photo uploaded to this job (not removed)' }
 			]);
 	}
+	let profileLimit: AppliedLimit | null = null;
+	if (data.kind !== 'stability' && data.profileId != null) {
+		const profile = getLimitProfile(db, data.profileId);
+		if (!profile || profile.archived)
+			throw new DomainError(
+				'invalid',
+				'The limit profile to judge this run by does not exist or is archived.',
+				[{ path: 'profileId', message: 'must name a current limit profile, or be left out' }]
+			);
+		profileLimit = profileLimitFor(data.kind, profile);
+	}
 	const id = db.transaction((tx) => {
 		const job = assertJobOpen(tx, jobId);
-		const { result, verdict } = computeProcedure(data, job.ratedPowerW);
+		const computed = computeProcedure(data, job.ratedPowerW, profileLimit);
+		const { verdict, appliedLimit } = computed;
+		const result: ProcedureResult = { ...computed.result, appliedLimit };
 		const now = new Date();
 		const row = tx
 			.insert(table.procedureRuns)
@@ -228,7 +277,7 @@ export function recordProcedureRun(db: Db, jobId: number, userId: string, input:
 			action: 'procedure.recorded',
 			jobId,
 			subject: `procedure #${row.id}`,
-			detail: { kind: data.kind, label: data.label, verdict },
+			detail: { kind: data.kind, label: data.label, verdict, limit: appliedLimit?.text ?? null },
 			at: now
 		});
 		return row.id;
