@@ -91,9 +91,20 @@ test('a response sweep and a power ramp run on the bench and are kept with the j
 	expect(xt.result.stepsDb).toHaveLength(6);
 	for (const d of xt.result.stepsDb) expect(d).toBeLessThan(-55);
 
+	// ── the stability record: no analysis, the technician's observation, refused until one is chosen ──
+	await panel.getByTestId('proc-kind').selectOption('stability');
+	await panel.getByTestId('proc-label').fill('10 kHz square into 8 Ω ∥ 2 µF');
+	await expect(panel).toContainText('cannot show ultrasonic oscillation');
+	await panel.getByTestId('proc-start').click();
+	await expect(panel.getByTestId('proc-message')).toContainText('what the scope showed');
+	await panel.getByTestId('proc-stability-observed').getByText('Damped ringing').click();
+	await panel.getByTestId('proc-start').click();
+	await expect(panel.getByTestId('proc-saved')).toHaveAttribute('data-verdict', 'pass');
+
 	// Every run is kept with the job, with the server's verdicts.
 	await page.goto(`/jobs/${jobId}`);
 	await ready(page);
-	await expect(page.getByTestId('job-procedure')).toHaveCount(3);
+	await expect(page.getByTestId('job-procedure')).toHaveCount(4);
+	await expect(page.getByTestId('job-procedures')).toContainText('damped ringing into 8 Ω ∥ 2 µF');
 	await expect(page.getByTestId('job-procedures')).toContainText(' W');
 });

@@ -129,7 +129,12 @@ export async function runRamp(
 			io.setGenerator({ frequencyHz: plan.frequencyHz, levelVrms: level });
 			const at = io.now() + settleMs;
 			await io.sleep(settleMs, signal);
-			const r = await readAt(io, at, plan.frequencyHz, signal);
+			let r = await readAt(io, at, plan.frequencyHz, signal);
+			// A window that still holds audio from before the level change reads as distortion (late
+			// frames on a busy bench): a new crossing is confirmed on a later analysis before it counts.
+			const crossesNow = (x: LiveReading | null) =>
+				state.crossings.some((c, ch) => c === null && (x?.thdnPercent[ch] ?? -1) >= plan.thresholdPercent);
+			if (crossesNow(r)) r = (await readAt(io, io.now() + 1, plan.frequencyHz, signal)) ?? r;
 			const reading: RampReading = {
 				levelVrms: level,
 				outputVrms: Array.from({ length: plan.channels }, (_, ch) => r?.levelVrms[ch] ?? null),
