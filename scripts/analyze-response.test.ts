@@ -33,7 +33,10 @@ describe('analyze --response', () => {
 			left.push(0.5 * s);
 			right.push((0.05 * s * riaa(f)) / riaa(1000));
 		}
-		for (let i = 0; i < 0.02 * fs; i++) (left.push(0), right.push(0));
+		for (let i = 0; i < 0.02 * fs; i++) {
+			left.push(0);
+			right.push(0);
+		}
 	});
 	const file = join(dir, 'sweep.wav');
 	writeFileSync(file, encodeWav([Float32Array.from(left), Float32Array.from(right)], fs));
