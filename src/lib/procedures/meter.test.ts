@@ -107,3 +107,27 @@ describe('meter check run against the simulator', () => {
 		expect(log.at(-1)).toBe('off');
 	});
 });
+
+describe('headlines of the new procedures (job page, compare, customer report)', () => {
+	it('say the figure that matters in one line', async () => {
+		const { procedureHeadline } = await import('./headline');
+		expect(
+			procedureHeadline({ kind: 'crosstalk', worstDb: { 'left-to-right': -61.04, 'right-to-left': -79.5 } })
+		).toBe('L→R ≤ -61.0 dB · R→L ≤ -79.5 dB');
+		expect(
+			procedureHeadline({
+				kind: 'imd',
+				measurements: [
+					{ method: 'smpte', channels: [{ imdPercent: 0.2 }, { imdPercent: 0.25 }] },
+					{ method: 'twin-tone', channels: [{ imdPercent: 0.04 }, null] }
+				]
+			})
+		).toBe('SMPTE 0.250 % · twin-tone 0.0400 %');
+		expect(
+			procedureHeadline({ kind: 'meter', maxErrorDb: 0.414, maxErrorPercent: 10, points: [1, 2, 3] })
+		).toBe('meter within ±0.41 dB (±10.0 %) over 3 powers');
+		expect(
+			procedureHeadline({ kind: 'stability', observed: 'ringing', loadOhms: 8, capacitanceMicrofarads: 2 })
+		).toBe('damped ringing into 8 Ω ∥ 2 µF');
+	});
+});
