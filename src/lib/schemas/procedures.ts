@@ -224,3 +224,12 @@ export const procedureRunSchema = z.discriminatedUnion(
 );
 export type ProcedureRunInput = z.input<typeof procedureRunSchema>;
 export type ProcedureRunData = z.infer<typeof procedureRunSchema>;
+
+/** Turning a recorded sweep among a job's files into a response (POST /api/files/{id}/response). */
+export const fileResponseSchema = z.strictObject({
+	/** Also each step's deviation from the RIAA playback curve (a phono stage's sweep). */
+	riaa: z.boolean().default(false),
+	/** With riaa: the expected curve includes the IEC 7950 µs term. */
+	iecRolloff: z.boolean().default(false)
+});
+export type FileResponseInput = z.infer<typeof fileResponseSchema>;

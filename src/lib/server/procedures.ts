@@ -16,7 +16,12 @@ import { evaluateCrosstalk, type CrosstalkResult } from '../procedures/crosstalk
 import { evaluateImd, type ImdChannelFigures, type ImdMethod } from '../procedures/imd';
 import { evaluateMeter, type MeterResult } from '../procedures/meter';
 import { stabilityVerdict, type StabilityObservation } from '../procedures/stability';
-import { getJobFile } from './job-files';
+import { getJobFile, readJobFile } from './job-files';
+import { asDomainError } from './snapshots';
+import type { BlobStore } from './storage';
+import type { SweepTask } from './sweep-analysis';
+import type { SweepFileResult } from '../procedures/sweep-file';
+import type { FileResponseInput } from '../schemas/procedures';
 import { PHOTO_TYPES } from '../schemas/job-files';
 import { getLimitProfile } from './limit-profiles';
 import { profileLimitFor, type AppliedLimit } from '../procedures/limits';
@@ -361,4 +366,33 @@ export function procedureSummary(db: Db, jobId: number): ProcedureRunView[] {
 	for (const r of listProcedureRuns(db, jobId, { limit: 200 }))
 		if (!latest.has(r.kind)) latest.set(r.kind, r);
 	return [...latest.values()];
+}
+
+/**
+ * A WAV among a job's files read as a recorded stepped sweep: the response per step and channel,
+ * as `npm run analyze -- FILE.wav --response` prints it. `run` does the analysis off the request
+ * thread (the analysis pool's sweep task).
+ */
+export async function responseFromFile(
+	db: Db,
+	store: BlobStore,
+	fileId: number,
+	input: FileResponseInput,
+	run: (task: SweepTask) => Promise<SweepFileResult>
+): Promise<{ fileId: number; name: string } & SweepFileResult> {
+	const { file, bytes } = await readJobFile(db, store, fileId);
+	if (file.type !== 'wav')
+		throw new DomainError('invalid', 'Only a WAV file can be read as a recorded sweep.', [
+			{ path: 'id', message: `file #${fileId} is a ${file.type}; choose a WAV` }
+		]);
+	try {
+		const result = await run({
+			wav: new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength),
+			riaa: input.riaa,
+			iecRolloff: input.iecRolloff
+		});
+		return { fileId, name: file.name, ...result };
+	} catch (e) {
+		throw asDomainError(e);
+	}
 }
