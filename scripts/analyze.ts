@@ -1,5 +1,6 @@
 // Command-line analysis of a WAV file with the same measurement core the browser and server use.
 // Usage: npm run analyze -- FILE.wav [--json] [--channel N] [--fft SIZE] [--window NAME] [--band LO-HI]
+//        npm run analyze -- FILE.wav --response [--riaa [--iec-rolloff]] [--json] [--channel N]
 //        [--weighting a|none] [--full-scale-volts V] [--load OHMS] [--stimulus tone|none|smpte|twin-tone]
 //        [--mains 50|60] [--expect-hz HZ] [--sn-ref V]
 
@@ -24,9 +25,16 @@ import {
 	type ChannelResult,
 	type WindowName
 } from '../src/lib/dsp/index';
+import { analyzeSweepRecording, type SweepFileResult } from '../src/lib/procedures/sweep-file';
 
 const USAGE = `usage: npm run analyze -- FILE.wav [options]
   --json                  print one JSON document instead of the table
+  --response              the file is a stepped-sine sweep (steady tones of ≥ 150 ms, separated by
+                          ≤ 50 ms of transition or silence): the level of every step per channel, re
+                          the step nearest 1 kHz, and the flatness (± half the spread, dB)
+  --riaa                  with --response: also each step's deviation from the RIAA playback curve
+                          (re the same step); the flatness is then that of the deviation
+  --iec-rolloff           with --riaa: the expected curve includes the IEC 7950 µs term
   --channel N             analyse only channel N (0 = first/left); default all channels
   --fft SIZE              FFT size, a power of two (default: largest that fits, at most 262144)
   --window NAME           spectrum window: ${WINDOW_NAMES.join(', ')}
@@ -72,6 +80,9 @@ function positiveNumber(name: string, text: string | undefined): number | undefi
 interface Cli {
 	file: string;
 	json: boolean;
+	response: boolean;
+	riaa: boolean;
+	iecRolloff: boolean;
 	channel?: number;
 	fullScaleVolts: number;
 	options: AnalysisOptions;
@@ -86,6 +97,9 @@ function parseCli(argv: string[]): Cli {
 			strict: true,
 			options: {
 				json: { type: 'boolean' },
+				response: { type: 'boolean' },
+				riaa: { type: 'boolean' },
+				'iec-rolloff': { type: 'boolean' },
 				help: { type: 'boolean', short: 'h' },
 				channel: { type: 'string' },
 				fft: { type: 'string' },
@@ -169,7 +183,18 @@ function parseCli(argv: string[]): Cli {
 	}
 	const snRef = positiveNumber('sn-ref', values['sn-ref']);
 	if (snRef !== undefined) options.snReference = { vrms: snRef, label: `re ${snRef} V` };
-	return { file: positionals[0], json: values.json ?? false, channel, fullScaleVolts, options };
+	if (values.riaa && !values.response) usageError('--riaa goes with --response (a phono sweep)');
+	if (values['iec-rolloff'] && !values.riaa) usageError('--iec-rolloff goes with --riaa');
+	return {
+		file: positionals[0],
+		json: values.json ?? false,
+		response: values.response ?? false,
+		riaa: values.riaa ?? false,
+		iecRolloff: values['iec-rolloff'] ?? false,
+		channel,
+		fullScaleVolts,
+		options
+	};
 }
 
 function readWav(file: string) {
@@ -282,6 +307,29 @@ function table(file: string, wav: ReturnType<typeof decodeWav>, result: Analysis
 	return lines.join('\n');
 }
 
+function responseTable(file: string, r: SweepFileResult, riaa: boolean): string {
+	const lines = [`${file}: ${r.steps.length} steps, levels re the step nearest 1 kHz`];
+	const head = ['Frequency Hz'.padStart(14)];
+	r.channels.forEach((_, ch) => {
+		head.push(`ch ${ch} dBV`.padStart(12), `ch ${ch} re 1k`.padStart(12));
+		if (riaa) head.push(`ch ${ch} re RIAA`.padStart(14));
+	});
+	lines.push(head.join(''));
+	for (const s of r.steps) {
+		const row = [s.frequencyHz.toFixed(2).padStart(14)];
+		for (const c of s.channels) {
+			row.push(c.levelDbv.toFixed(2).padStart(12), c.relativeDb.toFixed(3).padStart(12));
+			if (riaa) row.push(c.riaaDeviationDb!.toFixed(3).padStart(14));
+		}
+		lines.push(row.join(''));
+	}
+	lines.push('');
+	r.channels.forEach((c, ch) =>
+		lines.push(`ch ${ch}: ${riaa ? 'RIAA deviation' : 'flat'} within ±${c.flatnessDb.toFixed(3)} dB`)
+	);
+	return lines.join('\n');
+}
+
 function main(argv: string[]): void {
 	const cli = parseCli(argv);
 	const wav = readWav(cli.file);
@@ -292,6 +340,23 @@ function main(argv: string[]): void {
 				`--channel ${cli.channel} does not exist: the file has ${wav.channels.length} channel(s), 0…${wav.channels.length - 1}`
 			);
 		chans = [wav.channels[cli.channel]];
+	}
+	if (cli.response) {
+		let r: SweepFileResult;
+		try {
+			r = analyzeSweepRecording(chans, wav.sampleRateHz, {
+				riaa: cli.riaa,
+				iecRolloff: cli.iecRolloff,
+				fullScaleVolts: cli.fullScaleVolts
+			});
+		} catch (err) {
+			if (err instanceof RangeError) throw new CliError(`${cli.file}: ${err.message}`, 1);
+			throw err;
+		}
+		process.stdout.write(
+			(cli.json ? JSON.stringify(r, null, 2) : responseTable(basename(cli.file), r, cli.riaa)) + '\n'
+		);
+		return;
 	}
 	const length = chans[0].length;
 	const fftSize = cli.options.fftSize ?? defaultFftSize(length);

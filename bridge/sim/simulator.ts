@@ -62,8 +62,9 @@ const CROSSOVER_DEPTH_ZERO_BIAS_V = 0.008;
 export const UNDER_BIAS_FRACTION = 0.15;
 // Gentle output-stage curvature relative to the swing: about 0.005 % THD at 4 W into 8 Ω,
 // rising towards clipping (from memory: typical of a good class-AB design).
-const CURVE_A2 = 0.0004;
-const CURVE_A3 = 0.004;
+// Exported so known-answer tests can work the IMD products out analytically.
+export const CURVE_A2 = 0.0004;
+export const CURVE_A3 = 0.004;
 /** Soft-clip knee as a fraction of the clip voltage. */
 const CLIP_KNEE = 0.95;
 // Hum at the output (V peak) per mains harmonic 1..8: field pickup at odd orders, rectifier
@@ -128,8 +129,11 @@ function drivesSide(drive: Tone['drive'], side: number): boolean {
 	return drive === 'both' || drive === SIDE_NAMES[side];
 }
 
-/** Crosstalk from the other channel's input: capacitive, −80 dB at 1 kHz rising 6 dB/octave, −100 dB floor. */
-function crosstalk(frequencyHz: number): [number, number] {
+/**
+ * Crosstalk from the other channel's input (complex, re that input): capacitive, −80 dB at 1 kHz
+ * rising 6 dB/octave, −100 dB floor. Exported so crosstalk tests read what is injected.
+ */
+export function crosstalk(frequencyHz: number): [number, number] {
 	return [1e-5, 1e-4 * (frequencyHz / 1000)];
 }
 

@@ -26,8 +26,13 @@ export const UNIT_KEYS = Object.keys(UNITS) as [Unit, ...Unit[]];
 
 export interface MetricInfo {
 	label: string;
-	/** 'channel': one value per channel; 'stereo': one value comparing the two channels. */
-	scope: 'channel' | 'stereo';
+	/**
+	 * 'channel': one value per channel; 'stereo': one value comparing the two channels;
+	 * 'procedure': a bench procedure's figure, judged when that procedure is saved (never on a snapshot).
+	 */
+	scope: 'channel' | 'stereo' | 'procedure';
+	/** The only rule that makes sense for the figure (a procedure limit is a bound one way). */
+	op?: LimitOp;
 	/** The unit values are stored in and compared in. */
 	baseUnit: Unit;
 	/** Units a limit may be entered in (the first is the default). */
@@ -156,7 +161,39 @@ export const METRICS = {
 		scope: 'stereo',
 		baseUnit: 'dB',
 		units: ['dB'],
-		help: 'Undriven channel at the driven frequency, re the driven channel (negative)'
+		help: 'Undriven channel at the driven frequency, re the driven channel (negative); also judges the crosstalk procedure'
+	},
+	flatnessDb: {
+		label: 'Procedure: response flatness',
+		scope: 'procedure',
+		op: 'le',
+		baseUnit: 'dB',
+		units: ['dB'],
+		help: 'Every step of a frequency-response sweep within ± this many dB of its 1 kHz level, over the sweep’s band'
+	},
+	riaaDeviationDb: {
+		label: 'Procedure: RIAA deviation',
+		scope: 'procedure',
+		op: 'le',
+		baseUnit: 'dB',
+		units: ['dB'],
+		help: 'Largest deviation of a phono sweep from the RIAA playback curve, ± dB'
+	},
+	powerAtThresholdW: {
+		label: 'Procedure: power at the THD+N threshold',
+		scope: 'procedure',
+		op: 'ge',
+		baseUnit: 'W',
+		units: ['W'],
+		help: 'Each channel’s power at the chosen THD+N threshold, from the maximum-power ramp, into the load it states'
+	},
+	meterErrorDb: {
+		label: 'Procedure: front-panel meter error',
+		scope: 'procedure',
+		op: 'le',
+		baseUnit: 'dB',
+		units: ['dB'],
+		help: 'Largest |error| of the unit’s own power meter against the measured power, dB'
 	}
 } as const satisfies Record<string, MetricInfo>;
 
@@ -165,7 +202,10 @@ export const METRIC_KEYS = Object.keys(METRICS) as [Metric, ...Metric[]];
 export type ChannelMetric = {
 	[K in Metric]: (typeof METRICS)[K]['scope'] extends 'channel' ? K : never;
 }[Metric];
-export type StereoMetric = Exclude<Metric, ChannelMetric>;
+export type StereoMetric = {
+	[K in Metric]: (typeof METRICS)[K]['scope'] extends 'stereo' ? K : never;
+}[Metric];
+export type ProcedureMetric = Exclude<Metric, ChannelMetric | StereoMetric>;
 export const CHANNEL_METRICS = METRIC_KEYS.filter((m) => METRICS[m].scope === 'channel') as ChannelMetric[];
 export const STEREO_METRICS = METRIC_KEYS.filter((m) => METRICS[m].scope === 'stereo') as StereoMetric[];
 
@@ -219,7 +259,18 @@ export const limitSchema = z
 	.refine((l) => (METRICS[l.metric].units as readonly Unit[]).includes(l.unit), {
 		message: 'This unit does not fit the metric',
 		path: ['unit']
-	});
+	})
+	.refine(
+		(l) => {
+			const fixed = (METRICS[l.metric] as MetricInfo).op;
+			return fixed === undefined || fixed === l.op;
+		},
+		{
+			message:
+				'This procedure limit is a bound one way: flatness, RIAA deviation and meter error take ≤, power takes ≥',
+			path: ['op']
+		}
+	);
 export type Limit = z.infer<typeof limitSchema>;
 
 export const profileInputSchema = z.object({
@@ -324,7 +375,9 @@ function checkOne(
 export function evaluateLimits(limits: readonly Limit[], m: Measurements): Check[] {
 	const checks: Check[] = [];
 	limits.forEach((limit, index) => {
-		const info = METRICS[limit.metric];
+		const info: MetricInfo = METRICS[limit.metric];
+		// Procedure limits judge a saved procedure ($lib/procedures/limits), never a snapshot or the live view.
+		if (info.scope === 'procedure') return;
 		if (info.scope === 'stereo') {
 			const v = m.stereo[limit.metric as StereoMetric];
 			const both = m.channels[0] !== undefined && m.channels[1] !== undefined;
@@ -401,9 +454,9 @@ export function stereoMeasurements(
 
 /** A limit as one line of text: "THD+N each ≤ 0.1 %". */
 export function describeLimit(limit: Limit): string {
-	const info = METRICS[limit.metric];
+	const info: MetricInfo = METRICS[limit.metric];
 	const where =
-		info.scope === 'stereo' ? '' : limit.channel === 'each' ? ' (each channel)' : ` (${limit.channel})`;
+		info.scope !== 'channel' ? '' : limit.channel === 'each' ? ' (each channel)' : ` (${limit.channel})`;
 	return `${info.label}${where} ${OP_SYMBOLS[limit.op]} ${formatLimitValue(limit.value)} ${UNITS[limit.unit].label}`;
 }
 

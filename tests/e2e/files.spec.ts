@@ -110,6 +110,10 @@ test('two photos and a WAV at once: progress, thumbnails, figures, and the WAV b
 	await form.getByRole('button', { name: 'Make snapshot' }).click();
 	await expect(page.getByTestId('file-snapshot-link')).toBeVisible();
 	await expect(page.getByText('Left channel from file').first()).toBeVisible();
+
+	// One steady tone is no stepped sweep: the analysis pool's answer says what a sweep needs.
+	await page.getByTestId('read-sweep').click();
+	await expect(page.getByRole('alert').filter({ hasText: 'two or more tones' })).toBeVisible();
 });
 
 test('a renamed text file is refused with 415, a cancelled upload attaches nothing, an oversized file is refused with 413', async ({

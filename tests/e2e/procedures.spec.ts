@@ -76,9 +76,35 @@ test('a response sweep and a power ramp run on the bench and are kept with the j
 		expect(c.outputVrms).toBeLessThan(30);
 	}
 
-	// Both runs are kept with the job, with the server's verdicts.
+	// ── crosstalk: one side driven at a time, six steps, judged by the server against −40 dB ──
+	await panel.getByTestId('proc-kind').selectOption('crosstalk');
+	await panel.getByTestId('proc-label').fill('Line in, both directions');
+	await panel.getByTestId('proc-level').fill('0.5');
+	await panel.getByTestId('proc-xt-limit').fill('-40');
+	await panel.getByTestId('proc-start').click();
+	await expect(panel.getByTestId('proc-saved')).toHaveAttribute('data-verdict', 'pass', { timeout: 60_000 });
+	await expect(panel.getByTestId('proc-xt-chart').locator('canvas')).toHaveCount(1);
+	await expect(page.getByTestId('gen-state')).toHaveText('output off', { timeout: 10_000 });
+	const xts = await page.request.get(`/api/jobs/${jobId}/procedures?kind=crosstalk`);
+	const xt = ((await xts.json()) as { procedures: { result: { stepsDb: number[] } }[] }).procedures[0];
+	// The simulator leaks −80 dB at 1 kHz rising 6 dB/octave (bridge/sim): every step well below −40 dB.
+	expect(xt.result.stepsDb).toHaveLength(6);
+	for (const d of xt.result.stepsDb) expect(d).toBeLessThan(-55);
+
+	// ── the stability record: no analysis, the technician's observation, refused until one is chosen ──
+	await panel.getByTestId('proc-kind').selectOption('stability');
+	await panel.getByTestId('proc-label').fill('10 kHz square into 8 Ω ∥ 2 µF');
+	await expect(panel).toContainText('cannot show ultrasonic oscillation');
+	await panel.getByTestId('proc-start').click();
+	await expect(panel.getByTestId('proc-message')).toContainText('what the scope showed');
+	await panel.getByTestId('proc-stability-observed').getByText('Damped ringing').click();
+	await panel.getByTestId('proc-start').click();
+	await expect(panel.getByTestId('proc-saved')).toHaveAttribute('data-verdict', 'pass');
+
+	// Every run is kept with the job, with the server's verdicts.
 	await page.goto(`/jobs/${jobId}`);
 	await ready(page);
-	await expect(page.getByTestId('job-procedure')).toHaveCount(2);
+	await expect(page.getByTestId('job-procedure')).toHaveCount(4);
+	await expect(page.getByTestId('job-procedures')).toContainText('damped ringing into 8 Ω ∥ 2 µF');
 	await expect(page.getByTestId('job-procedures')).toContainText(' W');
 });

@@ -108,9 +108,23 @@ function procedureIn(fx: Fixtures): string {
 }
 
 /** A job file (uploaded by tech2) stored inside the case's savepoint, as a route param. */
-async function fileIn(fx: Fixtures, type: 'pdf' | 'wav' = 'pdf'): Promise<string> {
+/** Three 200 ms tones (100 Hz, 1 kHz, 10 kHz): the shortest recorded stepped sweep. */
+function matrixSweepWav(): Uint8Array {
+	const step = 9600;
+	const x = new Float32Array(3 * step);
+	[100, 1000, 10_000].forEach((f, k) => {
+		for (let i = 0; i < step; i++) x[k * step + i] = 0.5 * Math.sin((2 * Math.PI * f * i) / 48000);
+	});
+	return encodeWav([x], 48000);
+}
+
+async function fileIn(fx: Fixtures, type: 'pdf' | 'wav' | 'sweep' = 'pdf'): Promise<string> {
 	const bytes =
-		type === 'wav' ? matrixWav() : Buffer.from('%PDF-1.4\n1 0 obj\n<< >>\nendobj\ntrailer\n<< >>\n%%EOF\n');
+		type === 'wav'
+			? matrixWav()
+			: type === 'sweep'
+				? matrixSweepWav()
+				: Buffer.from('%PDF-1.4\n1 0 obj\n<< >>\nendobj\ntrailer\n<< >>\n%%EOF\n');
 	const { sha256, bytes: size } = await blobStoreFor(fx.db.$client.name).put(bytes);
 	const row = fx.db
 		.insert(table.jobFiles)
@@ -119,7 +133,7 @@ async function fileIn(fx: Fixtures, type: 'pdf' | 'wav' = 'pdf'): Promise<string
 			sha256,
 			receivedSha256: sha256,
 			name: `matrix.${type}`,
-			type,
+			type: type === 'sweep' ? 'wav' : type,
 			bytes: size,
 			uploadedBy: fx.users.tech2,
 			uploadedAt: new Date()
@@ -510,6 +524,13 @@ const MATRIX: Row[] = [
 		method: 'DELETE',
 		expect: [401, 403, 204, 204],
 		request: async (fx) => ({ params: { id: await fileIn(fx) } })
+	},
+	{
+		// A WAV read as a recorded sweep (in the analysis pool): everyone signed in.
+		route: '/api/files/[id]/response',
+		method: 'POST',
+		expect: [401, 200, 200, 200],
+		request: async (fx) => ({ params: { id: await fileIn(fx, 'sweep') }, body: {} })
 	},
 	{
 		route: '/api/files/[id]/snapshot',

@@ -97,20 +97,68 @@ function productAmp(p: Prepared, fHz: number): number {
 	return p.fit.amplitude;
 }
 
+/** The products each method reads, in a fixed order (the order a saved procedure lists them in). */
+export function imdProducts(
+	method: 'smpte' | 'twin-tone',
+	f1Hz: number,
+	f2Hz: number
+): { label: string; order: 2 | 3; frequencyHz: number }[] {
+	if (method === 'smpte')
+		return [
+			{ label: 'f2 − f1', order: 2, frequencyHz: f2Hz - f1Hz },
+			{ label: 'f2 + f1', order: 2, frequencyHz: f2Hz + f1Hz },
+			{ label: 'f2 − 2f1', order: 3, frequencyHz: f2Hz - 2 * f1Hz },
+			{ label: 'f2 + 2f1', order: 3, frequencyHz: f2Hz + 2 * f1Hz }
+		];
+	return [
+		{ label: 'f2 − f1', order: 2, frequencyHz: f2Hz - f1Hz },
+		{ label: '2f1 − f2', order: 3, frequencyHz: 2 * f1Hz - f2Hz },
+		{ label: '2f2 − f1', order: 3, frequencyHz: 2 * f2Hz - f1Hz }
+	];
+}
+
+/**
+ * The figures from tone and product amplitudes (any one unit), with the conventions above:
+ * sidebands add within an order, orders combine as rss; SMPTE re the HF tone (u2), twin-tone re u1 + u2.
+ * `productAmps` follows imdProducts' order.
+ */
+export function imdFigures(
+	method: 'smpte' | 'twin-tone',
+	u1: number,
+	u2: number,
+	productAmps: readonly number[]
+): { reference: number; d2: number; d3: number; imd: number } {
+	const orders = imdProducts(method, 0, 0).map((q) => q.order);
+	if (productAmps.length !== orders.length)
+		throw new RangeError(`${method} IMD reads ${orders.length} products, got ${productAmps.length}`);
+	const reference = method === 'smpte' ? u2 : u1 + u2;
+	const d2 = productAmps.reduce((s, u, i) => s + (orders[i] === 2 ? u : 0), 0) / reference;
+	const d3 = productAmps.reduce((s, u, i) => s + (orders[i] === 3 ? u : 0), 0) / reference;
+	return { reference, d2, d3, imd: Math.hypot(d2, d3) };
+}
+
 function finish(
 	method: ImdResult['method'],
 	f1: number,
 	f2: number,
 	u1: number,
 	u2: number,
-	ref: number,
-	prods: { label: string; order: 2 | 3; f: number; u: number }[],
+	p: Prepared,
 	fs: number,
 	fftSize: number
 ): ImdResult {
-	const d2 = prods.filter((q) => q.order === 2).reduce((s, q) => s + q.u, 0) / ref;
-	const d3 = prods.filter((q) => q.order === 3).reduce((s, q) => s + q.u, 0) / ref;
-	const imd = Math.hypot(d2, d3);
+	const prods = imdProducts(method, f1, f2).map((q) => ({ ...q, u: productAmp(p, q.frequencyHz) }));
+	const {
+		reference: ref,
+		d2,
+		d3,
+		imd
+	} = imdFigures(
+		method,
+		u1,
+		u2,
+		prods.map((q) => q.u)
+	);
 	return {
 		method,
 		reference: method === 'smpte' ? 'hf-tone' : 'sum-of-tones',
@@ -125,7 +173,7 @@ function finish(
 		products: prods.map((q) => ({
 			label: q.label,
 			order: q.order,
-			frequencyHz: q.f,
+			frequencyHz: q.frequencyHz,
 			levelVrms: (q.u * fs) / Math.SQRT2,
 			levelDbr: db20(q.u / ref)
 		})),
@@ -165,24 +213,13 @@ export function imdOnSpectrum(
 function smpteOn(p: Prepared, f1n: number, f2n: number, fs: number, fftSize: number): ImdResult {
 	const [f1, u1] = takeTone(p, f1n);
 	const [f2, u2] = takeTone(p, f2n);
-	const prods = [
-		{ label: 'f2 − f1', order: 2 as const, f: f2 - f1 },
-		{ label: 'f2 + f1', order: 2 as const, f: f2 + f1 },
-		{ label: 'f2 − 2f1', order: 3 as const, f: f2 - 2 * f1 },
-		{ label: 'f2 + 2f1', order: 3 as const, f: f2 + 2 * f1 }
-	].map((q) => ({ ...q, u: productAmp(p, q.f) }));
-	return finish('smpte', f1, f2, u1, u2, u2, prods, fs, fftSize);
+	return finish('smpte', f1, f2, u1, u2, p, fs, fftSize);
 }
 
 function twinOn(p: Prepared, f1n: number, f2n: number, fs: number, fftSize: number): ImdResult {
 	const [f1, u1] = takeTone(p, f1n);
 	const [f2, u2] = takeTone(p, f2n);
-	const prods = [
-		{ label: 'f2 − f1', order: 2 as const, f: f2 - f1 },
-		{ label: '2f1 − f2', order: 3 as const, f: 2 * f1 - f2 },
-		{ label: '2f2 − f1', order: 3 as const, f: 2 * f2 - f1 }
-	].map((q) => ({ ...q, u: productAmp(p, q.f) }));
-	return finish('twin-tone', f1, f2, u1, u2, u1 + u2, prods, fs, fftSize);
+	return finish('twin-tone', f1, f2, u1, u2, p, fs, fftSize);
 }
 
 /** SMPTE IMD: LF tone f1 (60 Hz) and HF tone f2 (7 kHz) at 4:1. */

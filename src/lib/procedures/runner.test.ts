@@ -12,6 +12,7 @@ function fakeUnit() {
 	const log: ({ frequencyHz: number; levelVrms: number } | null)[] = [];
 	const io: ProcedureIO = {
 		setGenerator(g) {
+			if (g && !('frequencyHz' in g)) throw new Error('the fake unit takes sines only');
 			gen = g;
 			log.push(g);
 		},
@@ -90,6 +91,22 @@ describe('runner', () => {
 		expect(r.state.crossings[0]!.outputVrms).toBeLessThan(26.2);
 		expect(r.state.crossings[0]!.powerW).toBeCloseTo(r.state.crossings[0]!.outputVrms ** 2 / 8, 9);
 		expect(log.at(-1)).toBeNull();
+
+		// A reading straddling the level change (a spurious 5 % at 20 V) is confirmed on a later analysis.
+		const glitchy = fakeUnit();
+		let glitched = false;
+		const read = glitchy.io.readAfter;
+		glitchy.io.readAfter = async (atMs, signal) => {
+			const real = await read(atMs, signal);
+			if (!glitched && (real.levelVrms[0] ?? 0) > 19) {
+				glitched = true;
+				return { ...real, thdnPercent: [5, 5] };
+			}
+			return real;
+		};
+		const g = await runRamp(glitchy.io, plan, 100, new AbortController().signal, () => {});
+		expect(glitched).toBe(true);
+		expect(g.state.crossings[0]!.outputVrms).toBeGreaterThan(25); // not at the glitch
 
 		const ctl = new AbortController();
 		const c = await runRamp(io, plan, 100, ctl.signal, (s) => {

@@ -1,6 +1,7 @@
 // Messages between the analysis pool and its worker threads.
 import type { SnapshotAnalysisRequest } from './snapshot-analysis';
 import type { StorePlan } from './snapshot-store';
+import type { SweepTask } from './sweep-analysis';
 
 /** Where and how a worker writes a snapshot: its own connection to the database file. */
 export interface StoreTask {
@@ -13,7 +14,8 @@ export interface StoreTask {
 
 export type PoolTask =
 	| { id: number; kind: 'analyse'; request: SnapshotAnalysisRequest }
-	| { id: number; kind: 'store'; store: StoreTask };
+	| { id: number; kind: 'store'; store: StoreTask }
+	| { id: number; kind: 'sweep'; sweep: SweepTask };
 
 export type PoolReply =
 	| { id: number; ok: true; output: unknown }

@@ -12,6 +12,8 @@ import {
 	type SnapshotAnalysisRequest
 } from './snapshot-analysis';
 import { StoreRefusal } from './snapshot-store';
+import type { SweepTask } from './sweep-analysis';
+import type { SweepFileResult } from '../procedures/sweep-file';
 // The worker entry bundled into one self-contained script (see the node-worker plugin in vite.config.ts).
 import workerSource from './snapshot-analysis.worker.ts?node-worker';
 
@@ -32,7 +34,10 @@ export interface AnalysisPoolOptions {
 	source?: string;
 }
 
-type TaskBody = { kind: 'analyse'; request: SnapshotAnalysisRequest } | { kind: 'store'; store: StoreTask };
+type TaskBody =
+	| { kind: 'analyse'; request: SnapshotAnalysisRequest }
+	| { kind: 'store'; store: StoreTask }
+	| { kind: 'sweep'; sweep: SweepTask };
 
 interface Pending {
 	id: number;
@@ -54,6 +59,8 @@ export interface Reservation {
 	run(request: SnapshotAnalysisRequest): Promise<SnapshotAnalysisOutput>;
 	/** Write an analysed snapshot on a worker's own connection; resolves to the new snapshot's id. */
 	store(task: StoreTask): Promise<number>;
+	/** Analyse a recorded stepped sweep (a job's WAV) as a frequency response. */
+	sweep(task: SweepTask): Promise<SweepFileResult>;
 	release(): void;
 }
 
@@ -114,6 +121,7 @@ export class AnalysisPool {
 		return {
 			run: (request) => submit<SnapshotAnalysisOutput>({ kind: 'analyse', request }),
 			store: async (store) => (await submit<{ id: number }>({ kind: 'store', store })).id,
+			sweep: (sweep) => submit<SweepFileResult>({ kind: 'sweep', sweep }),
 			release: () => {
 				if (!held) return;
 				held = false;
@@ -143,7 +151,8 @@ export class AnalysisPool {
 			slot.job = job;
 			slot.worker.ref();
 			const task: PoolTask = { id: job.id, ...job.body };
-			const wav = job.body.kind === 'store' ? job.body.store.wav : job.body.request.wav;
+			const b = job.body;
+			const wav = b.kind === 'store' ? b.store.wav : b.kind === 'sweep' ? b.sweep.wav : b.request.wav;
 			// The upload moves to the thread without a copy and comes back with the result; a buffer
 			// that may not move (Node's shared Buffer pool) is copied instead.
 			try {

@@ -12,10 +12,28 @@ import { procedureRunSchema, type ProcedureKind, type ProcedureRunData } from '.
 import { flatness, relativeLevelsDb, type Flatness } from '../procedures/sweep';
 import { phonoDeviation, type PhonoResult } from '../procedures/phono';
 import { replayRamp, type ChannelCrossing, type StopReason } from '../procedures/max-power';
+import { evaluateCrosstalk, type CrosstalkResult } from '../procedures/crosstalk';
+import { evaluateImd, type ImdChannelFigures, type ImdMethod } from '../procedures/imd';
+import { evaluateMeter, type MeterResult } from '../procedures/meter';
+import { stabilityVerdict, type StabilityObservation } from '../procedures/stability';
+import { getJobFile, readJobFile } from './job-files';
+import { asDomainError } from './snapshots';
+import type { BlobStore } from './storage';
+import type { SweepTask } from './sweep-analysis';
+import type { SweepFileResult } from '../procedures/sweep-file';
+import type { FileResponseInput } from '../schemas/procedures';
+import { PHOTO_TYPES } from '../schemas/job-files';
+import { getLimitProfile } from './limit-profiles';
+import { profileLimitFor, type AppliedLimit } from '../procedures/limits';
 
 export type ProcedureVerdict = 'pass' | 'fail' | 'none';
 
-export type ProcedureResult =
+export type ProcedureResult = ProcedureFigures & {
+	/** The limit the verdict was judged against (absent on runs saved before limits were recorded). */
+	appliedLimit?: AppliedLimit | null;
+};
+
+type ProcedureFigures =
 	| {
 			kind: 'response';
 			frequenciesHz: number[];
@@ -23,6 +41,22 @@ export type ProcedureResult =
 			flatness: (Flatness | null)[];
 	  }
 	| ({ kind: 'phono'; frequenciesHz: number[] } & PhonoResult)
+	| ({ kind: 'crosstalk'; steps: { frequencyHz: number; direction: string }[] } & CrosstalkResult)
+	| {
+			kind: 'imd';
+			measurements: { method: ImdMethod; channels: (ImdChannelFigures | null)[] }[];
+			/** Highest IMD over every method and channel, %. */
+			worstPercent: number | null;
+	  }
+	| ({ kind: 'meter'; loadOhms: number; channel: 'left' | 'right' } & MeterResult)
+	| {
+			kind: 'stability';
+			observed: StabilityObservation;
+			squareWaveHz: number;
+			loadOhms: number;
+			capacitanceMicrofarads: number;
+			photoFileId: number | null;
+	  }
 	| {
 			kind: 'max-power';
 			reason: StopReason;
@@ -43,11 +77,50 @@ export interface ProcedureRunView {
 	createdAt: string;
 }
 
-/** The figures and verdict the server stands behind, from the raw readings alone. */
+/** The limit typed for the run itself, when no profile limit judges it. */
+function runLimit(data: ProcedureRunData): AppliedLimit | null {
+	const le = (value: number | null | undefined, text: string): AppliedLimit | null =>
+		value == null ? null : { value, op: 'le', text, source: 'run' };
+	switch (data.kind) {
+		case 'response':
+			return le(data.limitPlusMinusDb, `flat within ±${data.limitPlusMinusDb} dB`);
+		case 'phono':
+			return le(data.limitDb, `within ±${data.limitDb} dB of the RIAA curve`);
+		case 'crosstalk':
+			return le(data.limitDb, `crosstalk ≤ ${data.limitDb} dB`);
+		case 'imd':
+			return le(data.limitPercent, `IMD ≤ ${data.limitPercent} %`);
+		case 'meter':
+			return le(data.limitDb, `meter within ±${data.limitDb} dB`);
+		case 'max-power':
+			return data.minPowerW == null
+				? null
+				: { value: data.minPowerW, op: 'ge', text: `power ≥ ${data.minPowerW} W`, source: 'run' };
+		default:
+			return null;
+	}
+}
+
+const judge = (ok: boolean): ProcedureVerdict => (ok ? 'pass' : 'fail');
+
+/**
+ * The figures and verdict the server stands behind, from the raw readings alone, judged against
+ * `limit` (a limit profile's) or else the limit typed for the run.
+ */
 export function computeProcedure(
 	data: ProcedureRunData,
-	ratedPowerW: number | null
-): { result: ProcedureResult; verdict: ProcedureVerdict } {
+	ratedPowerW: number | null,
+	limit: AppliedLimit | null = null
+): { result: ProcedureResult; verdict: ProcedureVerdict; appliedLimit: AppliedLimit | null } {
+	const appliedLimit = limit ?? runLimit(data);
+	return { ...computeFigures(data, ratedPowerW, appliedLimit?.value ?? null), appliedLimit };
+}
+
+function computeFigures(
+	data: ProcedureRunData,
+	ratedPowerW: number | null,
+	lim: number | null
+): { result: ProcedureFigures; verdict: ProcedureVerdict } {
 	if (data.kind === 'response') {
 		const frequenciesHz = data.steps.map((s) => s.frequencyHz);
 		const relativeDb = relativeLevelsDb(data.steps);
@@ -61,25 +134,63 @@ export function computeProcedure(
 			)
 		);
 		const verdict: ProcedureVerdict =
-			data.limitPlusMinusDb === null
-				? 'none'
-				: fl.every(
-							(f) => f !== null && f.maxDb <= data.limitPlusMinusDb! && f.minDb >= -data.limitPlusMinusDb!
-					  )
-					? 'pass'
-					: 'fail';
+			lim === null ? 'none' : judge(fl.every((f) => f !== null && f.maxDb <= lim && f.minDb >= -lim));
 		return { result: { kind: 'response', frequenciesHz, relativeDb, flatness: fl }, verdict };
 	}
 	if (data.kind === 'phono') {
 		const r = phonoDeviation(data.steps, data);
 		const verdict: ProcedureVerdict =
-			data.limitDb === null
-				? 'none'
-				: r.maxDeviationDb.every((d) => d !== null && d <= data.limitDb!)
-					? 'pass'
-					: 'fail';
+			lim === null ? 'none' : judge(r.maxDeviationDb.every((d) => d !== null && d <= lim));
 		return { result: { kind: 'phono', frequenciesHz: data.steps.map((s) => s.frequencyHz), ...r }, verdict };
 	}
+	if (data.kind === 'crosstalk') {
+		const r = evaluateCrosstalk(data.steps);
+		const verdict: ProcedureVerdict = lim === null ? 'none' : judge(r.stepsDb.every((d) => d <= lim));
+		return {
+			result: {
+				kind: 'crosstalk',
+				steps: data.steps.map((s) => ({ frequencyHz: s.frequencyHz, direction: s.direction })),
+				...r
+			},
+			verdict
+		};
+	}
+	if (data.kind === 'imd') {
+		const measurements = data.measurements.map((m) => ({
+			method: m.method,
+			channels: m.channels.map((c) => (c ? evaluateImd(m.method, c) : null))
+		}));
+		const all = measurements.flatMap((m) => m.channels.map((c) => c?.imdPercent ?? null));
+		const read = all.filter((v): v is number => v !== null);
+		const worstPercent = read.length ? Math.max(...read) : null;
+		// A channel that could not be read cannot pass.
+		const verdict: ProcedureVerdict = lim === null ? 'none' : judge(all.every((v) => v !== null && v <= lim));
+		return { result: { kind: 'imd', measurements, worstPercent }, verdict };
+	}
+	if (data.kind === 'meter') {
+		const r = evaluateMeter(data.steps, data.loadOhms);
+		const read = r.points.filter((p) => p.errorDb !== null);
+		const verdict: ProcedureVerdict =
+			lim === null
+				? 'none'
+				: judge(read.length === r.points.length && read.every((p) => Math.abs(p.errorDb!) <= lim));
+		return {
+			result: { kind: 'meter', loadOhms: data.loadOhms, channel: data.channel, ...r },
+			verdict
+		};
+	}
+	if (data.kind === 'stability')
+		return {
+			result: {
+				kind: 'stability',
+				observed: data.observed,
+				squareWaveHz: data.squareWaveHz,
+				loadOhms: data.loadOhms,
+				capacitanceMicrofarads: data.capacitanceMicrofarads,
+				photoFileId: data.photoFileId
+			},
+			verdict: stabilityVerdict(data.observed)
+		};
 	if (data.throughLamp)
 		throw new DomainError(
 			'invalid',
@@ -103,8 +214,16 @@ export function computeProcedure(
 	);
 	const reason = state.reason ?? 'cancelled';
 	// A ramp that reached the threshold on every channel is a measurement; anything else is a record.
+	// With a minimum power, each channel's power at the threshold must reach it.
+	const reached = state.crossings.every((c) => c !== null);
 	const verdict: ProcedureVerdict =
-		reason === 'threshold' ? 'pass' : reason === 'over-rated' ? 'fail' : 'none';
+		reason === 'over-rated'
+			? 'fail'
+			: lim !== null && state.crossings.some((c) => c !== null && c.powerW < lim)
+				? 'fail'
+				: reason === 'threshold' && reached
+					? 'pass'
+					: 'none';
 	return {
 		result: {
 			kind: 'max-power',
@@ -119,9 +238,30 @@ export function computeProcedure(
 
 export function recordProcedureRun(db: Db, jobId: number, userId: string, input: unknown): ProcedureRunView {
 	const data = validate(procedureRunSchema, input, 'Invalid procedure result');
+	if (data.kind === 'stability' && data.photoFileId !== null) {
+		// Files are never deleted (removal is a mark), so this check outside the write cannot go stale.
+		const f = getJobFile(db, data.photoFileId);
+		if (!f || f.jobId !== jobId || f.removedAt !== null || !PHOTO_TYPES.includes(f.type))
+			throw new DomainError('invalid', 'The stability photo must be a photo among this job’s files.', [
+				{ path: 'photoFileId', message: 'must name a photo uploaded to this job (not removed)' }
+			]);
+	}
+	let profileLimit: AppliedLimit | null = null;
+	if (data.kind !== 'stability' && data.profileId != null) {
+		const profile = getLimitProfile(db, data.profileId);
+		if (!profile || profile.archived)
+			throw new DomainError(
+				'invalid',
+				'The limit profile to judge this run by does not exist or is archived.',
+				[{ path: 'profileId', message: 'must name a current limit profile, or be left out' }]
+			);
+		profileLimit = profileLimitFor(data.kind, profile);
+	}
 	const id = db.transaction((tx) => {
 		const job = assertJobOpen(tx, jobId);
-		const { result, verdict } = computeProcedure(data, job.ratedPowerW);
+		const computed = computeProcedure(data, job.ratedPowerW, profileLimit);
+		const { verdict, appliedLimit } = computed;
+		const result: ProcedureResult = { ...computed.result, appliedLimit };
 		const now = new Date();
 		const row = tx
 			.insert(table.procedureRuns)
@@ -142,7 +282,7 @@ export function recordProcedureRun(db: Db, jobId: number, userId: string, input:
 			action: 'procedure.recorded',
 			jobId,
 			subject: `procedure #${row.id}`,
-			detail: { kind: data.kind, label: data.label, verdict },
+			detail: { kind: data.kind, label: data.label, verdict, limit: appliedLimit?.text ?? null },
 			at: now
 		});
 		return row.id;
@@ -226,4 +366,33 @@ export function procedureSummary(db: Db, jobId: number): ProcedureRunView[] {
 	for (const r of listProcedureRuns(db, jobId, { limit: 200 }))
 		if (!latest.has(r.kind)) latest.set(r.kind, r);
 	return [...latest.values()];
+}
+
+/**
+ * A WAV among a job's files read as a recorded stepped sweep: the response per step and channel,
+ * as `npm run analyze -- FILE.wav --response` prints it. `run` does the analysis off the request
+ * thread (the analysis pool's sweep task).
+ */
+export async function responseFromFile(
+	db: Db,
+	store: BlobStore,
+	fileId: number,
+	input: FileResponseInput,
+	run: (task: SweepTask) => Promise<SweepFileResult>
+): Promise<{ fileId: number; name: string } & SweepFileResult> {
+	const { file, bytes } = await readJobFile(db, store, fileId);
+	if (file.type !== 'wav')
+		throw new DomainError('invalid', 'Only a WAV file can be read as a recorded sweep.', [
+			{ path: 'id', message: `file #${fileId} is a ${file.type}; choose a WAV` }
+		]);
+	try {
+		const result = await run({
+			wav: new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.byteLength),
+			riaa: input.riaa,
+			iecRolloff: input.iecRolloff
+		});
+		return { fileId, name: file.name, ...result };
+	} catch (e) {
+		throw asDomainError(e);
+	}
 }

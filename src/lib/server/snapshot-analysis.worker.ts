@@ -7,6 +7,7 @@ import { parentPort } from 'node:worker_threads';
 import type { Database } from 'better-sqlite3';
 import { AnalysisRefusal, analyseSnapshotAudio } from './snapshot-analysis';
 import { StoreRefusal, writeSnapshot } from './snapshot-store';
+import { analyseSweepWav } from './sweep-analysis';
 import type { PoolReply, PoolTask, StoreTask } from './analysis-pool-messages';
 
 const port = parentPort;
@@ -36,6 +37,8 @@ port.on('message', (task: PoolTask) => {
 		if (task.kind === 'store') {
 			const id = writeSnapshot(connection(task.store), task.store.plan, task.store.wav);
 			reply = { id: task.id, ok: true, output: { id } };
+		} else if (task.kind === 'sweep') {
+			reply = { id: task.id, ok: true, output: analyseSweepWav(task.sweep) };
 		} else {
 			const output = analyseSnapshotAudio(task.request);
 			reply = { id: task.id, ok: true, output };

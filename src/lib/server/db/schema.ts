@@ -503,7 +503,9 @@ export const procedureRuns = sqliteTable(
 		jobId: integer('job_id')
 			.notNull()
 			.references(() => jobs.id, { onDelete: 'cascade' }),
-		kind: text('kind', { enum: ['response', 'phono', 'max-power'] }).notNull(),
+		kind: text('kind', {
+			enum: ['response', 'phono', 'max-power', 'crosstalk', 'imd', 'meter', 'stability']
+		}).notNull(),
 		label: text('label').notNull(),
 		/** The upload, validated: conditions and raw readings. */
 		input: text('input', { mode: 'json' }).notNull(),
