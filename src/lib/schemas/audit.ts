@@ -36,7 +36,8 @@ export const AUDIT_ACTIONS = [
 	'file.removed',
 	'customer-link.created',
 	'customer-link.revoked',
-	'report.sent'
+	'report.sent',
+	'model-notes.saved'
 ] as const;
 export type AuditAction = (typeof AUDIT_ACTIONS)[number];
 
@@ -73,7 +74,8 @@ export const AUDIT_ACTION_LABELS: Record<AuditAction, string> = {
 	'file.removed': 'File removed',
 	'customer-link.created': 'Customer link made',
 	'customer-link.revoked': 'Customer link revoked',
-	'report.sent': 'Report sent to the customer'
+	'report.sent': 'Report sent to the customer',
+	'model-notes.saved': 'Model adjustment notes saved'
 };
 
 export function auditActionLabel(action: string): string {
