@@ -43,7 +43,7 @@ export const NOTEBOOK_JOBS_MAX = 200;
 /** Most fitted parts read for the designator table. */
 export const NOTEBOOK_PARTS_MAX = 5000;
 /** Most passing after-repair snapshots read for the typical figures (newest first). */
-export const TYPICAL_SNAPSHOTS_MAX = 500;
+export const TYPICAL_SNAPSHOTS_MAX = 300;
 /** Note versions shown (newest first). */
 export const NOTE_HISTORY_MAX = 50;
 /** Figures placed on the compare and snapshot pages. */
@@ -543,6 +543,19 @@ export function placeSnapshot(db: Db, snapshotId: number): SnapshotPlacement | n
 		units: new Set(samples.map((x) => x.unitId)).size,
 		lines
 	};
+}
+
+/** Where a job's newest after-repair snapshot sits among its model's other units (null without one). */
+export function placeJob(db: Db, jobId: number): (SnapshotPlacement & { snapshotId: number }) | null {
+	const latest = db
+		.select({ id: table.snapshots.id })
+		.from(table.snapshots)
+		.where(and(eq(table.snapshots.jobId, jobId), eq(table.snapshots.stage, 'after')))
+		.orderBy(desc(table.snapshots.createdAt), desc(table.snapshots.id))
+		.limit(1)
+		.get();
+	const placed = latest ? placeSnapshot(db, latest.id) : null;
+	return placed && latest ? { ...placed, snapshotId: latest.id } : null;
 }
 
 // ── export ──────────────────────────────────────────────────────────────────
