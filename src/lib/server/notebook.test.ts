@@ -45,7 +45,12 @@ function part(jobId: number, refDes: string, description: string, state: table.P
 function snapshot(
 	jobId: number,
 	figures: { thdnPercent: number; snrDb: number }[],
-	opts: { stage?: table.SnapshotStage; verdict?: 'pass' | 'fail' | 'none'; loadOhms?: number } = {}
+	opts: {
+		stage?: table.SnapshotStage;
+		verdict?: 'pass' | 'fail' | 'none';
+		loadOhms?: number;
+		frequencyHz?: number;
+	} = {}
 ): number {
 	clock += 60_000;
 	const loadOhms = opts.loadOhms ?? 8;
@@ -69,7 +74,7 @@ function snapshot(
 					referenceVrms: 0.447,
 					loadOhms
 				},
-				channels: figures.map((f, channel) => ({ channel, frequencyHz: 1000, ...f }))
+				channels: figures.map((f, channel) => ({ channel, frequencyHz: opts.frequencyHz ?? 1000, ...f }))
 			},
 			verdict: opts.verdict ?? 'pass',
 			checks: [],
@@ -222,6 +227,12 @@ describe('typical figures', () => {
 		expect(csv[0]).toContain('SNR Q1 (25th percentile) (dB)');
 		expect(csv[1]).toContain(',3,');
 		expect(csv[1]).toContain('0.0115');
+	});
+
+	it('counts a fitted 999.99999 Hz and 1000.00003 Hz as one tone, and 1 kHz and 2 kHz apart', () => {
+		for (const f of [999.9999999434614, 1000.0000000321708, 1000.0000000210573, 2000])
+			snapshot(job('Pellowmere', 'SA-150'), [{ thdnPercent: 0.01, snrDb: 95 }], { frequencyHz: f });
+		expect(getNotebook(db, 'pellowmere', 'sa150').typical.map((g) => g.units)).toEqual([3, 1]);
 	});
 
 	it('places a unit among the others, itself left out', () => {

@@ -24,7 +24,14 @@ import {
 	type TypicalMetricKey,
 	type TypicalSample
 } from '../notebook/typical';
-import { channelFigure, channelName, channelsOf, conditionsOf, type ComparableSnapshot } from '../compare';
+import {
+	channelFigure,
+	channelName,
+	channelsOf,
+	conditionsOf,
+	stimulusOf,
+	type ComparableSnapshot
+} from '../compare';
 import {
 	modelNotesSaveSchema,
 	modelSearchSchema,
@@ -221,10 +228,33 @@ export function designatorRows(
 		.sort((a, b) => b.units - a.units || natural(a.designators[0], b.designators[0]));
 }
 
-/** The measuring conditions that decide whether two readings compare, as a key and in words. */
+/** A number rounded to `digits` significant digits (null stays null): 999.99999 Hz and 1000.00003 Hz are one tone. */
+function sig(v: unknown, digits: number): number | null {
+	return typeof v === 'number' && Number.isFinite(v) ? Number(v.toPrecision(digits)) : null;
+}
+
+/**
+ * The measuring conditions that decide whether two readings compare: a key from the stored numbers
+ * (stimulus, fundamental to 3 significant digits, load, generator level, band, weighting) and the
+ * same conditions in words for the page.
+ */
 export function conditionsKeyOf(s: ComparableSnapshot): { key: string; label: string } {
 	const c = conditionsOf(s);
-	const parts = [c.stimulus, c.frequency, c.load, c.level, c.band, c.weighting];
+	const r = (s.results ?? {}) as { conditions?: Record<string, unknown>; channels?: unknown };
+	const rc = r.conditions ?? {};
+	const fund = channelsOf(s)
+		.map((ch) => sig(ch.raw.frequencyHz, 3))
+		.find((v) => v !== null);
+	const band = Array.isArray(rc.bandHz) ? rc.bandHz.map((v) => sig(v, 4)) : null;
+	const key = JSON.stringify([
+		typeof rc.stimulus === 'string' ? rc.stimulus : null,
+		stimulusOf(s),
+		sig(rc.expectedFrequencyHz, 3) ?? fund ?? null,
+		sig(rc.loadOhms, 4) ?? sig(s.loadOhms, 4),
+		sig(rc.referenceVrms, 4),
+		band,
+		typeof rc.weighting === 'string' ? rc.weighting : null
+	]);
 	const label = [
 		c.stimulus,
 		c.frequency && `fundamental ${c.frequency}`,
@@ -235,7 +265,7 @@ export function conditionsKeyOf(s: ComparableSnapshot): { key: string; label: st
 	]
 		.filter(Boolean)
 		.join(' · ');
-	return { key: JSON.stringify(parts), label };
+	return { key, label };
 }
 
 type SnapRow = {
