@@ -87,6 +87,9 @@ test('the job page links its notebook; a snapshot says where the unit sits; inta
 	await ready(page);
 	await page.getByTestId('job-notebook-link').click();
 	await expect(page).toHaveURL(/\/models\/pellowmere\/sa150$/);
+	// Any spelling in the address is sent on to the notebook's own.
+	await page.goto('/models/PELLOWMERE/SA-150');
+	await expect(page).toHaveURL(/\/models\/pellowmere\/sa150$/);
 
 	// The demo job's after snapshot against the four earlier units.
 	const snaps = await page.request.get(`/api/jobs/${job.id}/snapshots`);

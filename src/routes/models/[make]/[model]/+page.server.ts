@@ -13,7 +13,8 @@ import type { Actions, PageServerLoad } from './$types';
 export const load: PageServerLoad = pageLoad((event) => {
 	const user = requireUser(event);
 	const notebook = getNotebook(db, event.params.make, event.params.model);
-	if (event.url.pathname !== notebook.path) redirect(308, notebook.path);
+	const [make, model] = notebook.key.split('/');
+	if (event.params.make !== make || event.params.model !== model) redirect(308, notebook.path);
 	return { notebook, me: user, maxMiB: getSettings(db).jobFiles.maxFileMiB };
 });
 
