@@ -5,13 +5,14 @@
 // Jobs are found through `job_model_keys` (one key per job, $lib/notebook/model-key), filled in
 // here for jobs that have none yet (new, or whose make or model was edited).
 import { stringify } from 'csv-stringify/sync';
-import { and, asc, count, desc, eq, inArray, isNull } from 'drizzle-orm';
+import { and, asc, count, desc, eq, inArray } from 'drizzle-orm';
 import type { Db } from './db/open';
 import * as table from './db/schema';
 import { audit } from './audit';
 import { DomainError } from './errors';
 import { validate } from './validate';
 import { listModelFiles } from './job-files';
+import { syncModelKeys as syncJobModelKeys } from './model-keys';
 import { keyPart, modelKeyString } from '../notebook/model-key';
 import {
 	TYPICAL_METRICS,
@@ -58,28 +59,9 @@ export const PLACED_METRICS: readonly TypicalMetricKey[] = ['thdnPercent', 'snrD
 
 // ── keys ────────────────────────────────────────────────────────────────────
 
-/**
- * Key every job that has no row in `job_model_keys` (a job without a usable make or model gets
- * the empty key, so it is not looked at again). Cheap when nothing is missing: two counts.
- */
+/** Key the jobs added since the database was opened (see ./model-keys). */
 export function syncModelKeys(db: Db): void {
-	const { missing } = db.$client
-		.prepare('SELECT (SELECT count(*) FROM jobs) - (SELECT count(*) FROM job_model_keys) AS missing')
-		.get() as { missing: number };
-	if (missing <= 0) return;
-	const rows = db
-		.select({ id: table.jobs.id, make: table.jobs.make, model: table.jobs.model })
-		.from(table.jobs)
-		.leftJoin(table.jobModelKeys, eq(table.jobModelKeys.jobId, table.jobs.id))
-		.where(isNull(table.jobModelKeys.jobId))
-		.all();
-	db.transaction((tx) => {
-		for (const r of rows)
-			tx.insert(table.jobModelKeys)
-				.values({ jobId: r.id, modelKey: modelKeyString(r.make, r.model) ?? '' })
-				.onConflictDoNothing()
-				.run();
-	});
+	syncJobModelKeys(db.$client);
 }
 
 /** The key of route parameters `make` and `model` (any spelling), or 404 when either is blank. */
