@@ -16,6 +16,7 @@ import { UNIT_CATEGORIES } from '../src/lib/schemas/enums';
 import { seedWorksheetsDemo } from './seed-worksheets';
 import { seedFiles } from './seed-files';
 import { seedMoneyDemo } from './seed-money';
+import { seedNotebookDemo } from './seed-notebook';
 
 export const DEMO_PASSWORD = 'bench-demo-2026';
 export const DEMO_SHOP_NAME = 'Quiet Valve Audio Works';
@@ -666,6 +667,7 @@ export async function seedDemo(db: Db, options: { now?: Date } = {}): Promise<bo
 	seedLimitProfiles(db, userIds.supervisor);
 	seedSignOffDemo(db, userIds, nowMs);
 	seedWorksheetsDemo(db, userIds, nowMs, SIGN_OFF_DEMO);
+	seedNotebookDemo(db, userIds, nowMs, SIGN_OFF_DEMO);
 	await seedFiles(db, userIds.tech1);
 	await seedMoneyDemo(db, userIds, nowMs, SIGN_OFF_DEMO);
 	return true;

@@ -47,6 +47,10 @@ describe('measure-format', () => {
 	it('labels frequencies one way everywhere', () => {
 		expect(hzLabel(20)).toBe('20 Hz');
 		expect(hzLabel(1000)).toBe('1 kHz');
+		// A fitted fundamental either side of 1 kHz is one label (it was "1000 Hz" below, "1 kHz" above).
+		expect(hzLabel(999.9999999434614, { digits: 3 })).toBe('1 kHz');
+		expect(hzLabel(1000.0000000321708, { digits: 3 })).toBe('1 kHz');
+		expect(hzLabel(999.4, { digits: 3 })).toBe('999 Hz');
 		expect(hzLabel(19_950)).toBe('19.95 kHz');
 		expect(hzLabel(22_050)).toBe('22.05 kHz');
 		expect(hzLabel(2000, { digits: 3, compact: true })).toBe('2k');

@@ -95,8 +95,10 @@ export function hz(v: number | null | undefined): { value: string; unit: string 
 export function hzLabel(v: number, options: { digits?: number; compact?: boolean } = {}): string {
 	if (!ok(v)) return DASH;
 	const digits = options.digits ?? 4;
-	const kilo = Math.abs(v) >= 1000;
-	const n = +(kilo ? v / 1000 : v).toPrecision(digits);
+	// Rounded before the unit is chosen: a fitted 999.99999 Hz reads "1 kHz" like 1000.00001 Hz.
+	const r = +v.toPrecision(digits);
+	const kilo = Math.abs(r) >= 1000;
+	const n = +(kilo ? r / 1000 : r).toPrecision(digits);
 	if (options.compact) return kilo ? `${n}k` : `${n}`;
 	return kilo ? `${n} kHz` : `${n} Hz`;
 }

@@ -31,7 +31,10 @@ export const ROUTE_PARAMS: Record<string, (ctx: ParamContext) => Promise<string 
 	id: async ({ request, routeId }) =>
 		String(routeId.startsWith('/snapshots/') ? await anySnapshotId(request) : await richJobId(request)),
 	/** Every worksheet: each kind is its own form (steps table and chart, bias grid, safety items). */
-	kind: async () => ['intake', 'power-up', 'bias', 'safety']
+	kind: async () => ['intake', 'power-up', 'bias', 'safety'],
+	/** The seeded sign-off demo's model (its notebook has earlier units, parts, notes and typical figures). */
+	make: async () => 'pellowmere',
+	model: async () => 'sa150'
 };
 
 export interface ParamContext {

@@ -151,6 +151,17 @@ function filesForm(): FormData {
 	return form;
 }
 
+/** The seeded sign-off demo's model, as notebook route params (keys, any spelling works). */
+const NOTEBOOK_MODEL = { make: 'pellowmere', model: 'sa150' };
+
+/** The stored version of the demo model's notes (0 when none), so a save is not stale. */
+function storedNotesVersion(fx: Fixtures): number {
+	const row = fx.db.$client
+		.prepare('SELECT version FROM model_notes WHERE model_key = ?')
+		.get('pellowmere/sa150') as { version: number } | undefined;
+	return row?.version ?? 0;
+}
+
 type Method = 'GET' | 'POST' | 'PUT' | 'PATCH' | 'DELETE';
 const METHODS: Method[] = ['GET', 'POST', 'PUT', 'PATCH', 'DELETE'];
 
@@ -540,6 +551,46 @@ const MATRIX: Row[] = [
 			params: { id: await fileIn(fx, 'wav') },
 			body: { label: 'From a file', stage: 'before' }
 		})
+	},
+	// the model notebook: everyone signed in reads it, writes notes and attaches documents
+	{
+		route: '/api/models',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: () => ({ query: '?q=pellowmere' })
+	},
+	{
+		route: '/api/models/lookup',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: () => ({ query: '?make=Pellowmere&model=SA-150' })
+	},
+	{
+		route: '/api/models/[make]/[model]',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: () => ({ params: NOTEBOOK_MODEL })
+	},
+	{
+		route: '/api/models/[make]/[model]/typical.csv',
+		method: 'GET',
+		expect: [401, 200, 200, 200],
+		request: () => ({ params: NOTEBOOK_MODEL })
+	},
+	{
+		route: '/api/models/[make]/[model]/notes',
+		method: 'PUT',
+		expect: [401, 200, 200, 200],
+		request: (fx) => ({
+			params: NOTEBOOK_MODEL,
+			body: { version: storedNotesVersion(fx), text: 'Idle current 22 mA per side (matrix)' }
+		})
+	},
+	{
+		route: '/api/models/[make]/[model]/files',
+		method: 'POST',
+		expect: [401, 201, 201, 201],
+		request: () => ({ params: NOTEBOOK_MODEL, rawBody: filesForm() })
 	},
 	// exports: everyone signed in
 	{

@@ -56,6 +56,8 @@ interface ActionRow {
 }
 
 const OK = 200;
+/** The seeded sign-off demo's model, as notebook route params. */
+const NOTEBOOK_MODEL = { make: 'pellowmere', model: 'sa150' };
 const job = (fx: Fixtures) => ({ params: { id: String(fx.jobId) } });
 
 /** A snapshot stored inside the case's savepoint (rolled back after), as a route param. */
@@ -147,10 +149,36 @@ const LOADS: LoadRow[] = [
 	{ route: '/audit', expect: ['login', 403, OK, OK], request: () => ({ query: '?action=job.' }) },
 	{ route: '/limit-profiles', expect: ['login', OK, OK, OK] },
 	{ route: '/admin/users', expect: ['login', 403, 403, OK] },
-	{ route: '/admin/settings', expect: ['login', 403, 403, OK] }
+	{ route: '/admin/settings', expect: ['login', 403, 403, OK] },
+	// The model notebooks: everyone signed in.
+	{ route: '/models', expect: ['login', OK, OK, OK], request: () => ({ query: '?q=pellowmere' }) },
+	{
+		route: '/models/[make]/[model]',
+		expect: ['login', OK, OK, OK],
+		request: () => ({ params: NOTEBOOK_MODEL })
+	}
 ];
 
 const ACTIONS: ActionRow[] = [
+	// A model's adjustment notes: everyone signed in writes them (version 0: the demo has none yet).
+	{
+		route: '/models/[make]/[model]',
+		action: 'notes',
+		expect: ['login', OK, OK, OK],
+		request: (fx) => ({
+			params: NOTEBOOK_MODEL,
+			form: {
+				version: String(
+					(
+						fx.db.$client
+							.prepare('SELECT version FROM model_notes WHERE model_key = ?')
+							.get('pellowmere/sa150') as { version: number } | undefined
+					)?.version ?? 0
+				),
+				text: 'Idle current 22 mA per side (page matrix)'
+			}
+		})
+	},
 	// Signing in while signed in is allowed: the browser's old session ends.
 	{
 		route: '/login',

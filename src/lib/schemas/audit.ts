@@ -47,7 +47,8 @@ export const AUDIT_ACTIONS = [
 	'payment.recorded',
 	'payment.refunded',
 	'payment.event-refused',
-	'invoice.issued'
+	'invoice.issued',
+	'model-notes.saved'
 ] as const;
 export type AuditAction = (typeof AUDIT_ACTIONS)[number];
 
@@ -95,7 +96,8 @@ export const AUDIT_ACTION_LABELS: Record<AuditAction, string> = {
 	'payment.recorded': 'Payment recorded at the counter',
 	'payment.refunded': 'Refund recorded',
 	'payment.event-refused': 'Payment event refused',
-	'invoice.issued': 'Invoice issued'
+	'invoice.issued': 'Invoice issued',
+	'model-notes.saved': 'Model adjustment notes saved'
 };
 
 export function auditActionLabel(action: string): string {

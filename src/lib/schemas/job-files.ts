@@ -54,6 +54,8 @@ export interface WavFigures {
 export interface JobFileView {
 	id: number;
 	jobId: number | null;
+	/** Set instead of `jobId` for a model's document (the notebook): the `make/model` key. */
+	modelKey?: string | null;
 	name: string;
 	type: JobFileType;
 	mediaType: string;

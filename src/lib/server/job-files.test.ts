@@ -18,10 +18,12 @@ import { updateSettings } from './settings';
 import {
 	getJobFile,
 	listJobFiles,
+	listModelFiles,
 	readJobFile,
 	removeJobFile,
 	snapshotFromFile,
-	uploadJobFiles
+	uploadJobFiles,
+	uploadModelFiles
 } from './job-files';
 import { pdf, photo, wav16 } from './file-fixtures';
 
@@ -226,5 +228,32 @@ describe('removing and snapshots', () => {
 			)
 		);
 		expect(notWav.status).toBe(400);
+	});
+});
+
+describe("a model's documents (the notebook)", () => {
+	it('attaches to a model key, not a job: listed with the model, no job lock, removable with an audit entry', async () => {
+		// The job is signed off: a model's document does not care.
+		db.update(table.jobs).set({ status: 'returned' }).where(eq(table.jobs.id, jobId)).run();
+		const [doc] = await uploadModelFiles(db, {
+			modelKey: 'corvane/ia1',
+			userId: 'u1',
+			body: multipart([{ name: 'IA-1 service manual.pdf', data: pdf() }]),
+			boundary: BOUNDARY,
+			store,
+			analyse
+		});
+		expect(doc).toMatchObject({ jobId: null, modelKey: 'corvane/ia1', type: 'pdf' });
+		expect(listModelFiles(db, 'corvane/ia1').map((f) => f.id)).toEqual([doc.id]);
+		expect(listJobFiles(db, jobId)).toEqual([]);
+		expect((await readJobFile(db, store, doc.id)).bytes.equals(pdf())).toBe(true);
+		expect(() => removeJobFile(db, doc.id, { id: 'u2', role: 'technician' })).toThrow(/uploaded this file/);
+		removeJobFile(db, doc.id, { id: 's1', role: 'supervisor' });
+		expect(listModelFiles(db, 'corvane/ia1')).toEqual([]);
+		const trail = db.select().from(table.auditLog).all();
+		expect(trail.map((a) => [a.action, a.jobId, a.subject])).toEqual([
+			['file.uploaded', null, `file #${doc.id} “IA-1 service manual.pdf” on model corvane/ia1`],
+			['file.removed', null, `file #${doc.id} “IA-1 service manual.pdf” on model corvane/ia1`]
+		]);
 	});
 });

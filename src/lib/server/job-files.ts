@@ -203,6 +203,27 @@ function refusedMessage(issues: Issue[], unsupported: boolean, oversize: boolean
  */
 export async function uploadJobFiles(db: Db, input: UploadInput): Promise<JobFileView[]> {
 	assertJobOpen(db, input.jobId);
+	return receiveFiles(db, input, { jobId: input.jobId, modelKey: null });
+}
+
+/**
+ * The same upload for a model's notebook (service manual, schematic, alignment notes): the files
+ * belong to the model key (`make/model`), not to a job, so no job lock applies.
+ */
+export async function uploadModelFiles(
+	db: Db,
+	input: Omit<UploadInput, 'jobId'> & { modelKey: string }
+): Promise<JobFileView[]> {
+	return receiveFiles(db, input, { jobId: null, modelKey: input.modelKey });
+}
+
+type FileOwner = { jobId: number; modelKey: null } | { jobId: null; modelKey: string };
+
+async function receiveFiles(
+	db: Db,
+	input: Omit<UploadInput, 'jobId'>,
+	owner: FileOwner
+): Promise<JobFileView[]> {
 	const settings = getSettings(db);
 	const maxMiB = settings.jobFiles.maxFileMiB;
 	const spoolDir = await mkdtemp(join(tmpdir(), 'benchlight-upload-'));
@@ -311,7 +332,8 @@ export async function uploadJobFiles(db: Db, input: UploadInput): Promise<JobFil
 				}
 			}
 			rows.push({
-				jobId: input.jobId,
+				jobId: owner.jobId,
+				modelKey: owner.modelKey,
 				sha256: stored.sha256,
 				receivedSha256: f.receivedSha256,
 				name: f.name,
@@ -324,14 +346,14 @@ export async function uploadJobFiles(db: Db, input: UploadInput): Promise<JobFil
 			});
 		}
 		const ids = db.transaction((tx) => {
-			assertJobOpen(tx as unknown as Db, input.jobId);
+			if (owner.jobId !== null) assertJobOpen(tx as unknown as Db, owner.jobId);
 			return rows.map((row) => {
 				const { id } = tx.insert(table.jobFiles).values(row).returning({ id: table.jobFiles.id }).get();
 				audit(tx, {
 					actorId: input.userId,
 					action: 'file.uploaded',
-					jobId: input.jobId,
-					subject: `file #${id} “${row.name}”`,
+					jobId: owner.jobId,
+					subject: `file #${id} “${row.name}”${owner.modelKey ? ` on model ${owner.modelKey}` : ''}`,
 					detail: { type: row.type, bytes: row.bytes, sha256: row.sha256, receivedSha256: row.receivedSha256 }
 				});
 				return id;
@@ -350,6 +372,7 @@ function viewOf(row: table.JobFile, uploadedByName: string): JobFileView {
 	return {
 		id: row.id,
 		jobId: row.jobId,
+		modelKey: row.modelKey,
 		name: row.name,
 		type: row.type,
 		mediaType: JOB_FILE_TYPES[row.type],
@@ -408,16 +431,31 @@ export async function readJobFile(
 	return { file, bytes: await store.get(file.sha256), mediaType: file.mediaType };
 }
 
+/** A model's documents (notebook), oldest first, removed ones left out (bounded). */
+export function listModelFiles(db: Db, modelKey: string): JobFileView[] {
+	return db
+		.select({ f: table.jobFiles, name: table.users.name })
+		.from(table.jobFiles)
+		.innerJoin(table.users, eq(table.users.id, table.jobFiles.uploadedBy))
+		.where(and(eq(table.jobFiles.modelKey, modelKey), isNull(table.jobFiles.removedAt)))
+		.orderBy(asc(table.jobFiles.uploadedAt), asc(table.jobFiles.id))
+		.limit(JOB_FILES_LIST_LIMIT)
+		.all()
+		.map((r) => viewOf(r.f, r.name));
+}
+
 /** Mark a file removed (the uploader or a supervisor/admin); the bytes stay in the store. */
 export function removeJobFile(db: Db, id: number, actor: { id: string; role: Role }): void {
 	const file = getJobFile(db, id);
-	if (!file || file.removedAt || file.jobId === null) throw new DomainError('not-found', 'No such file');
+	if (!file || file.removedAt || (file.jobId === null && !file.modelKey))
+		throw new DomainError('not-found', 'No such file');
 	if (file.uploadedBy !== actor.id && actor.role !== 'supervisor' && actor.role !== 'admin')
 		throw new DomainError(
 			'forbidden',
 			'Only the person who uploaded this file or a supervisor can remove it'
 		);
-	assertJobOpen(db, file.jobId);
+	// A model's document belongs to no job, so no job lock applies to it.
+	if (file.jobId !== null) assertJobOpen(db, file.jobId);
 	db.transaction((tx) => {
 		tx.update(table.jobFiles)
 			.set({ removedAt: new Date(), removedBy: actor.id })
@@ -427,7 +465,7 @@ export function removeJobFile(db: Db, id: number, actor: { id: string; role: Rol
 			actorId: actor.id,
 			action: 'file.removed',
 			jobId: file.jobId,
-			subject: `file #${id} “${file.name}”`,
+			subject: `file #${id} “${file.name}”${file.modelKey ? ` on model ${file.modelKey}` : ''}`,
 			detail: { sha256: file.sha256 }
 		});
 	});

@@ -9,6 +9,7 @@ import { fileURLToPath } from 'node:url';
 import * as schema from './schema';
 import { migrateSnapshotAudio } from '../snapshot-store';
 import { storeRootFor } from '../storage';
+import { syncModelKeys } from '../model-keys';
 
 export type Db = BetterSQLite3Database<typeof schema> & { $client: Database.Database };
 
@@ -45,6 +46,8 @@ export function openDb(url: string, options: { migrate?: boolean } = {}): Db {
 	const db = drizzle(sqlite, { schema }) as Db;
 	if (options.migrate !== false) {
 		migrate(db, { migrationsFolder: migrationsFolder() });
+		// The model notebook's key of every job not keyed yet (all of them once, after the upgrade).
+		syncModelKeys(sqlite);
 		// Snapshot audio from before the blob store moves there (verified, idempotent, crash-safe).
 		if (url !== ':memory:' && url !== '') {
 			const moved = migrateSnapshotAudio(sqlite, storeRootFor(url));

@@ -552,9 +552,14 @@ export const jobFiles = sqliteTable(
 		/** WAV figures measured at upload (WavFigures in $lib/schemas/job-files). */
 		analysis: text('analysis', { mode: 'json' }),
 		/** The snapshot made from this WAV, once made. */
-		snapshotId: integer('snapshot_id').references(() => snapshots.id)
+		snapshotId: integer('snapshot_id').references(() => snapshots.id),
+		/** A model's document (notebook) instead of a job's file: the model key `make/model` ($lib/notebook/model-key). */
+		modelKey: text('model_key')
 	},
-	(t) => [index('job_files_job_idx').on(t.jobId, t.uploadedAt)]
+	(t) => [
+		index('job_files_job_idx').on(t.jobId, t.uploadedAt),
+		index('job_files_model_idx').on(t.modelKey, t.uploadedAt)
+	]
 );
 
 /**
@@ -753,3 +758,53 @@ export const invoices = sqliteTable('invoices', {
 
 export type Estimate = typeof estimates.$inferSelect;
 export type Payment = typeof payments.$inferSelect;
+
+// ---- notebook ----
+
+/**
+ * Each job's model key (`make/model` as $lib/notebook/model-key makes it), so the notebook finds
+ * every job on a model with an index. Filled in by the notebook service for jobs that have none;
+ * a trigger in the migration drops a job's row when its make or model is edited.
+ */
+export const jobModelKeys = sqliteTable(
+	'job_model_keys',
+	{
+		jobId: integer('job_id')
+			.primaryKey()
+			.references(() => jobs.id, { onDelete: 'cascade' }),
+		modelKey: text('model_key').notNull()
+	},
+	(t) => [index('job_model_keys_key_idx').on(t.modelKey, t.jobId)]
+);
+
+/**
+ * A model's adjustment notes (idle current, offset, what worked): the current text and its
+ * version, raised by one on every save so a stale edit is refused.
+ */
+export const modelNotes = sqliteTable('model_notes', {
+	modelKey: text('model_key').primaryKey(),
+	/** The make and model as typed when the notes were first written (for display). */
+	make: text('make').notNull(),
+	model: text('model').notNull(),
+	text: text('text').notNull(),
+	version: integer('version').notNull(),
+	updatedBy: text('updated_by').references(() => users.id),
+	updatedAt: updatedAt()
+});
+
+/** Every saved version of a model's notes. Immutable (triggers). */
+export const modelNoteVersions = sqliteTable(
+	'model_note_versions',
+	{
+		id: integer('id').primaryKey({ autoIncrement: true }),
+		modelKey: text('model_key').notNull(),
+		version: integer('version').notNull(),
+		text: text('text').notNull(),
+		savedBy: text('saved_by').references(() => users.id),
+		savedAt: integer('saved_at', { mode: 'timestamp_ms' }).notNull()
+	},
+	(t) => [index('model_note_versions_key_idx').on(t.modelKey, t.version)]
+);
+
+export type ModelNote = typeof modelNotes.$inferSelect;
+export type ModelNoteVersion = typeof modelNoteVersions.$inferSelect;

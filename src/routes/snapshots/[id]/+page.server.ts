@@ -7,11 +7,13 @@ import { idParam } from '$lib/server/api';
 import { pageLoad } from '$lib/server/handlers';
 import { getSnapshot } from '$lib/server/snapshots';
 import { jobHeading } from '$lib/server/compare';
+import { placeSnapshot } from '$lib/server/notebook';
 import type { PageServerLoad } from './$types';
 
 export const load: PageServerLoad = pageLoad((event) => {
 	requireUser(event);
 	const snapshot = getSnapshot(db, idParam(event.params.id, 'snapshot'));
 	if (!snapshot) throw new DomainError('not-found', 'No such snapshot');
-	return { snapshot, job: jobHeading(db, snapshot.jobId) };
+	// Where this unit sits among repaired units of its model (the model notebook's typical figures).
+	return { snapshot, job: jobHeading(db, snapshot.jobId), placement: placeSnapshot(db, snapshot.id) };
 });

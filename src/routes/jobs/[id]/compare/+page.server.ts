@@ -11,6 +11,7 @@ import { MAX_COMPARE, parseSelection } from '$lib/compare';
 import { worksheetSummary } from '$lib/server/worksheets';
 import { getSetting } from '$lib/server/settings';
 import { listProcedureRuns } from '$lib/server/procedures';
+import { placeJob } from '$lib/server/notebook';
 import type { PageServerLoad } from './$types';
 
 export const load: PageServerLoad = pageLoad((event) => {
@@ -48,6 +49,8 @@ export const load: PageServerLoad = pageLoad((event) => {
 		worksheets: worksheetSummary(db, jobId),
 		worksheetSettings: getSetting(db, 'worksheets'),
 		// The bench procedures on record (sweeps, phono equalisation, maximum power), newest first.
-		procedures: listProcedureRuns(db, jobId, { limit: 20 })
+		procedures: listProcedureRuns(db, jobId, { limit: 20 }),
+		// Where the newest after-repair snapshot sits among repaired units of this model.
+		placement: placeJob(db, jobId)
 	};
 });
