@@ -83,9 +83,9 @@ test('two photos and a WAV at once: progress, thumbnails, figures, and the WAV b
 		.poll(() =>
 			page
 				.getByTestId('thumb')
-				.first()
-				.evaluate((img: HTMLImageElement) => img.naturalWidth)
+				.evaluateAll((imgs) => Math.max(...imgs.map((img) => (img as HTMLImageElement).naturalWidth)))
 		)
+		// The wider photo's thumbnail is 320 px across (a portrait one is narrower); upload order varies.
 		.toBe(320);
 	const figures = page.getByTestId('wav-figures');
 	await expect(figures).toContainText('1000.0 Hz');
